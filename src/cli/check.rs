@@ -1,0 +1,11 @@
+//! `curlew check` (lead).
+
+use curlew::Result;
+
+#[derive(clap::Args, Debug)]
+pub struct Args {}
+
+pub fn run(args: Args) -> Result<()> {
+    let _ = args;
+    Err(curlew::Error::usage("'curlew check' is not built yet"))
+}

@@ -1,0 +1,233 @@
+//! The grid, the vector field of one snapshot, and the status of each vector.
+//!
+//! Owns: `Grid` (a regular rectangular grid in SI metres), `Field` (u, v, the
+//! per-vector standard uncertainties and a status per node) and `Status`.
+//! Does not own: how a grid is inferred from scattered rows (that is `io`),
+//! nor what changes the status (`validate`, `fill`).
+//!
+//! Layout invariant, used everywhere: arrays are shaped `(ny, nx)`; element
+//! `[j, i]` is the node at `x = x0 + i*dx`, `y = y0 + j*dy`. Tables list nodes
+//! row by row: `j` outer, `i` inner, so node number `k = j*nx + i`.
+//! `dx` and `dy` are positive.
+
+use ndarray::Array2;
+
+/// A regular rectangular grid, in metres.
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize, serde::Deserialize)]
+pub struct Grid {
+    pub nx: usize,
+    pub ny: usize,
+    pub x0: f64,
+    pub y0: f64,
+    pub dx: f64,
+    pub dy: f64,
+}
+
+impl Grid {
+    pub fn x(&self, i: usize) -> f64 {
+        self.x0 + i as f64 * self.dx
+    }
+    pub fn y(&self, j: usize) -> f64 {
+        self.y0 + j as f64 * self.dy
+    }
+    /// Number of nodes.
+    pub fn len(&self) -> usize {
+        self.nx * self.ny
+    }
+    pub fn is_empty(&self) -> bool {
+        self.len() == 0
+    }
+    pub fn shape(&self) -> (usize, usize) {
+        (self.ny, self.nx)
+    }
+    /// Describes how `other` differs from `self`, or `None` when both are the
+    /// same grid within `rel_tol` of the pitch (printed rounding).
+    pub fn difference(&self, other: &Grid, rel_tol: f64) -> Option<String> {
+        if self.nx != other.nx || self.ny != other.ny {
+            return Some(format!(
+                "grid is {} x {} nodes, expected {} x {}",
+                other.nx, other.ny, self.nx, self.ny
+            ));
+        }
+        let tx = rel_tol * self.dx;
+        let ty = rel_tol * self.dy;
+        if (self.dx - other.dx).abs() > tx || (self.dy - other.dy).abs() > ty {
+            return Some(format!(
+                "grid pitch is {:.6} x {:.6} mm, expected {:.6} x {:.6} mm",
+                other.dx * 1e3,
+                other.dy * 1e3,
+                self.dx * 1e3,
+                self.dy * 1e3
+            ));
+        }
+        if (self.x0 - other.x0).abs() > tx || (self.y0 - other.y0).abs() > ty {
+            return Some(format!(
+                "grid origin is ({:.6}, {:.6}) mm, expected ({:.6}, {:.6}) mm",
+                other.x0 * 1e3,
+                other.y0 * 1e3,
+                self.x0 * 1e3,
+                self.y0 * 1e3
+            ));
+        }
+        None
+    }
+}
+
+/// The status of one vector, as written in the per-frame `status` column.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+#[repr(u8)]
+pub enum Status {
+    /// A valid measurement.
+    Valid = 0,
+    /// Rejected by a validation test; after filling, replaced.
+    Replaced = 1,
+    /// Missing or invalid in the input; after filling, filled.
+    Filled = 2,
+    /// Masked: no value (outside the measured domain, or not fillable).
+    Masked = 3,
+}
+
+impl Status {
+    pub const fn code(self) -> u8 {
+        self as u8
+    }
+}
+
+pub const VALID: u8 = Status::Valid as u8;
+pub const REPLACED: u8 = Status::Replaced as u8;
+pub const FILLED: u8 = Status::Filled as u8;
+pub const MASKED: u8 = Status::Masked as u8;
+
+/// One snapshot on its grid, in SI.
+///
+/// `u`, `v` hold NaN where there is no value (status 1 or 2 before filling,
+/// 3 always). `sigma_u`, `sigma_v` are per-vector standard uncertainties in
+/// m/s: from input columns when given, otherwise NaN until the uncertainty
+/// stage sets them.
+#[derive(Debug, Clone)]
+pub struct Field {
+    pub grid: Grid,
+    pub u: Array2<f64>,
+    pub v: Array2<f64>,
+    pub sigma_u: Array2<f64>,
+    pub sigma_v: Array2<f64>,
+    pub status: Array2<u8>,
+}
+
+impl Field {
+    /// An all-masked field on `grid`.
+    pub fn empty(grid: Grid) -> Self {
+        let sh = grid.shape();
+        Field {
+            grid,
+            u: Array2::from_elem(sh, f64::NAN),
+            v: Array2::from_elem(sh, f64::NAN),
+            sigma_u: Array2::from_elem(sh, f64::NAN),
+            sigma_v: Array2::from_elem(sh, f64::NAN),
+            status: Array2::from_elem(sh, MASKED),
+        }
+    }
+
+    /// Builds a field from `u(x, y)`, `v(x, y)` evaluated at every node; every
+    /// vector valid. For tests and synthetic data.
+    pub fn from_fn(grid: Grid, f: impl Fn(f64, f64) -> (f64, f64)) -> Self {
+        let mut fld = Field::empty(grid);
+        for j in 0..grid.ny {
+            for i in 0..grid.nx {
+                let (u, v) = f(grid.x(i), grid.y(j));
+                fld.u[[j, i]] = u;
+                fld.v[[j, i]] = v;
+                fld.status[[j, i]] = VALID;
+            }
+        }
+        fld
+    }
+
+    /// Number of nodes whose status is `code`.
+    pub fn count(&self, code: u8) -> usize {
+        self.status.iter().filter(|&&s| s == code).count()
+    }
+
+    /// True where the node carries a value usable by a stencil (valid,
+    /// replaced or filled).
+    pub fn has_value(&self, j: usize, i: usize) -> bool {
+        self.status[[j, i]] != MASKED && self.u[[j, i]].is_finite() && self.v[[j, i]].is_finite()
+    }
+}
+
+/// Node-by-node columns on a grid (the ensemble or one phase bin), in the
+/// node order of the layout invariant above.
+#[derive(Debug, Clone)]
+pub struct NodeTable {
+    pub grid: Grid,
+    pub columns: Vec<(String, Vec<f64>)>,
+}
+
+impl NodeTable {
+    pub fn new(grid: Grid) -> Self {
+        NodeTable {
+            grid,
+            columns: Vec::new(),
+        }
+    }
+    /// Appends a column; panics if its length is not the number of nodes
+    /// (a programming error, not a data error).
+    pub fn push(&mut self, name: impl Into<String>, data: Vec<f64>) {
+        let name = name.into();
+        assert_eq!(
+            data.len(),
+            self.grid.len(),
+            "column '{name}' has {} values for {} nodes",
+            data.len(),
+            self.grid.len()
+        );
+        self.columns.push((name, data));
+    }
+    pub fn get(&self, name: &str) -> Option<&[f64]> {
+        self.columns
+            .iter()
+            .find(|(n, _)| n == name)
+            .map(|(_, d)| d.as_slice())
+    }
+    /// A column as an `(ny, nx)` array.
+    pub fn array(&self, name: &str) -> Option<Array2<f64>> {
+        self.get(name)
+            .map(|d| Array2::from_shape_vec(self.grid.shape(), d.to_vec()).expect("column length"))
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn grid_difference_names_what_differs() {
+        let g = Grid {
+            nx: 4,
+            ny: 3,
+            x0: 0.0,
+            y0: 0.0,
+            dx: 1e-3,
+            dy: 1e-3,
+        };
+        assert!(g.difference(&g, 1e-3).is_none());
+        let mut h = g;
+        h.nx = 5;
+        assert!(g.difference(&h, 1e-3).unwrap().contains("5 x 3"));
+        let mut h = g;
+        h.dx = 1.1e-3;
+        assert!(g.difference(&h, 1e-3).unwrap().contains("pitch"));
+    }
+}
+
+/// Where a snapshot sits in its run: its index in natural order (0-based,
+/// over the whole run, the same in every shard), its name (the frame file's
+/// name without extension, or the parquet frame id), and time and phase from
+/// the frame table when it gives them.
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
+pub struct FrameMeta {
+    pub index: usize,
+    pub name: String,
+    pub time_s: Option<f64>,
+    pub phase_deg: Option<f64>,
+}

@@ -1,0 +1,226 @@
+//! `[input]` (and `[run.input]`): the CONTRACT keys for formats, column
+//! names and units, resolved into an `io::InputSpec` with SI factors.
+
+use serde::{Deserialize, Serialize};
+
+use crate::error::{Error, Result};
+use crate::io::{ColumnMap, Format, InputSpec};
+
+/// `[input]` as written; every key optional so that a run's `[run.input]`
+/// can override just what differs.
+#[derive(Debug, Clone, Default, Deserialize, Serialize, PartialEq)]
+#[serde(deny_unknown_fields)]
+pub struct RawInput {
+    /// csv | tsv | text | parquet (default csv).
+    pub format: Option<String>,
+    pub columns: Option<RawColumns>,
+    /// m | mm | px (default m).
+    pub length_unit: Option<String>,
+    /// m/s | mm/s | px (default m/s).
+    pub velocity_unit: Option<String>,
+    /// Metres per pixel.
+    pub pixel_size: Option<f64>,
+    /// Seconds between the two exposures.
+    pub pulse_separation: Option<f64>,
+    /// Lines to skip before the header line (text preambles).
+    pub skip_lines: Option<usize>,
+    /// Tolerance on node positions, as a fraction of the grid pitch
+    /// (default 0.05), for coordinates printed with rounding.
+    pub grid_tolerance: Option<f64>,
+}
+
+#[derive(Debug, Clone, Default, Deserialize, Serialize, PartialEq)]
+#[serde(deny_unknown_fields)]
+pub struct RawColumns {
+    pub x: Option<String>,
+    pub y: Option<String>,
+    pub u: Option<String>,
+    pub v: Option<String>,
+    pub sigma_u: Option<String>,
+    pub sigma_v: Option<String>,
+    pub flag: Option<String>,
+    pub frame: Option<String>,
+}
+
+fn pick<T: Clone>(over: &Option<T>, base: &Option<T>) -> Option<T> {
+    over.clone().or_else(|| base.clone())
+}
+
+impl RawInput {
+    /// `over` (a run's `[run.input]`) on top of `self` (the campaign's).
+    pub fn overridden_by(&self, over: &RawInput) -> RawInput {
+        let cols = match (&self.columns, &over.columns) {
+            (Some(b), Some(o)) => Some(RawColumns {
+                x: pick(&o.x, &b.x),
+                y: pick(&o.y, &b.y),
+                u: pick(&o.u, &b.u),
+                v: pick(&o.v, &b.v),
+                sigma_u: pick(&o.sigma_u, &b.sigma_u),
+                sigma_v: pick(&o.sigma_v, &b.sigma_v),
+                flag: pick(&o.flag, &b.flag),
+                frame: pick(&o.frame, &b.frame),
+            }),
+            (b, o) => pick(o, b),
+        };
+        RawInput {
+            format: pick(&over.format, &self.format),
+            columns: cols,
+            length_unit: pick(&over.length_unit, &self.length_unit),
+            velocity_unit: pick(&over.velocity_unit, &self.velocity_unit),
+            pixel_size: pick(&over.pixel_size, &self.pixel_size),
+            pulse_separation: pick(&over.pulse_separation, &self.pulse_separation),
+            skip_lines: pick(&over.skip_lines, &self.skip_lines),
+            grid_tolerance: pick(&over.grid_tolerance, &self.grid_tolerance),
+        }
+    }
+
+    /// Resolves units to SI factors. `what` names the section for errors
+    /// (e.g. "[input]" or "run 're2000' [run.input]").
+    pub fn resolve(&self, what: &str) -> Result<InputSpec> {
+        let format = match self.format.as_deref().unwrap_or("csv") {
+            "csv" => Format::Csv,
+            "tsv" => Format::Tsv,
+            "text" => Format::Text,
+            "parquet" => Format::Parquet,
+            other => {
+                return Err(Error::usage(format!(
+                    "{what}: format = '{other}' is not known; expected csv, tsv, text or parquet"
+                )))
+            }
+        };
+        let c = self.columns.clone().unwrap_or_default();
+        let columns = ColumnMap {
+            x: c.x.unwrap_or_else(|| "x".into()),
+            y: c.y.unwrap_or_else(|| "y".into()),
+            u: c.u.unwrap_or_else(|| "u".into()),
+            v: c.v.unwrap_or_else(|| "v".into()),
+            sigma_u: c.sigma_u,
+            sigma_v: c.sigma_v,
+            flag: c.flag,
+            frame: c.frame.unwrap_or_else(|| "frame".into()),
+        };
+        let positive = |name: &str, v: Option<f64>| -> Result<Option<f64>> {
+            match v {
+                Some(x) if !(x.is_finite() && x > 0.0) => Err(Error::usage(format!(
+                    "{what}: {name} = {x} must be a positive number"
+                ))),
+                other => Ok(other),
+            }
+        };
+        let pixel = positive("pixel_size", self.pixel_size)?;
+        let dt = positive("pulse_separation", self.pulse_separation)?;
+        let length_scale = match self.length_unit.as_deref().unwrap_or("m") {
+            "m" => 1.0,
+            "mm" => 1e-3,
+            "px" => pixel.ok_or_else(|| {
+                Error::usage(format!(
+                    "{what}: length_unit = 'px' needs pixel_size (metres per pixel)"
+                ))
+            })?,
+            other => {
+                return Err(Error::usage(format!(
+                    "{what}: length_unit = '{other}' is not known; expected m, mm or px"
+                )))
+            }
+        };
+        let velocity_scale = match self.velocity_unit.as_deref().unwrap_or("m/s") {
+            "m/s" => 1.0,
+            "mm/s" => 1e-3,
+            "px" => {
+                let p = pixel.ok_or_else(|| {
+                    Error::usage(format!(
+                        "{what}: velocity_unit = 'px' needs pixel_size (metres per pixel)"
+                    ))
+                })?;
+                let t = dt.ok_or_else(|| {
+                    Error::usage(format!(
+                        "{what}: velocity_unit = 'px' needs pulse_separation (seconds between exposures)"
+                    ))
+                })?;
+                p / t
+            }
+            other => {
+                return Err(Error::usage(format!(
+                    "{what}: velocity_unit = '{other}' is not known; expected m/s, mm/s or px"
+                )))
+            }
+        };
+        let grid_tolerance = self.grid_tolerance.unwrap_or(0.05);
+        if !(grid_tolerance > 0.0 && grid_tolerance < 0.5) {
+            return Err(Error::usage(format!(
+                "{what}: grid_tolerance = {grid_tolerance} must lie between 0 and 0.5 grid pitches"
+            )));
+        }
+        Ok(InputSpec {
+            format,
+            columns,
+            length_scale,
+            velocity_scale,
+            skip_lines: self.skip_lines.unwrap_or(0),
+            grid_tolerance,
+        })
+    }
+
+    /// Metres per second per pixel of displacement, when the calibration
+    /// (pixel size and pulse separation) is known.
+    pub fn px_velocity(&self) -> Option<f64> {
+        match (self.pixel_size, self.pulse_separation) {
+            (Some(p), Some(t)) if p > 0.0 && t > 0.0 => Some(p / t),
+            _ => None,
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn px_displacement_resolves_to_pixel_size_over_pulse_separation() {
+        let raw = RawInput {
+            velocity_unit: Some("px".into()),
+            length_unit: Some("px".into()),
+            pixel_size: Some(1e-5),
+            pulse_separation: Some(2e-4),
+            ..Default::default()
+        };
+        let s = raw.resolve("[input]").unwrap();
+        assert_eq!(s.length_scale, 1e-5);
+        assert!((s.velocity_scale - 0.05).abs() < 1e-15);
+    }
+
+    #[test]
+    fn px_without_pulse_separation_is_a_usage_error() {
+        let raw = RawInput {
+            velocity_unit: Some("px".into()),
+            pixel_size: Some(1e-5),
+            ..Default::default()
+        };
+        let e = raw.resolve("[input]").unwrap_err();
+        assert_eq!(e.exit_code(), 2);
+        assert!(e.message.contains("pulse_separation"), "{e}");
+    }
+
+    #[test]
+    fn run_override_keeps_campaign_columns_it_does_not_name() {
+        let base = RawInput {
+            columns: Some(RawColumns {
+                x: Some("X".into()),
+                u: Some("U".into()),
+                ..Default::default()
+            }),
+            ..Default::default()
+        };
+        let over = RawInput {
+            columns: Some(RawColumns {
+                u: Some("Vx".into()),
+                ..Default::default()
+            }),
+            ..Default::default()
+        };
+        let m = base.overridden_by(&over).resolve("x").unwrap();
+        assert_eq!(m.columns.x, "X");
+        assert_eq!(m.columns.u, "Vx");
+        assert_eq!(m.columns.v, "v");
+    }
+}

@@ -1,0 +1,1 @@
+//! Drives one run through the stages (lead's module).

@@ -1,0 +1,50 @@
+//! What a reduced run and campaign hold, as handed to the writers, the
+//! figures and the report.
+
+use crate::field::{FrameMeta, Grid};
+use crate::{fill, stats, validate};
+
+/// One frame's row of `frames.csv`.
+#[derive(Debug, Clone)]
+pub struct FrameRecord {
+    pub meta: FrameMeta,
+    /// Nodes of the grid.
+    pub n_vectors: usize,
+    pub validation: validate::Counts,
+    pub fill: fill::Counts,
+    /// True when the whole frame was rejected (left out of the statistics).
+    pub rejected: bool,
+    /// Noise level estimated from this frame (m/s).
+    pub noise: Option<f64>,
+}
+
+/// A figure written for a run or a comparison; paths relative to the
+/// campaign output folder.
+#[derive(Debug, Clone)]
+pub struct FigureRef {
+    pub title: String,
+    pub caption: String,
+    pub png: std::path::PathBuf,
+    pub svg: std::path::PathBuf,
+}
+
+/// A reduced run.
+#[derive(Debug, Clone)]
+pub struct RunResult {
+    pub id: String,
+    pub grid: Grid,
+    pub frames: Vec<FrameRecord>,
+    pub stats: stats::RunStats,
+    pub warnings: Vec<String>,
+    pub figures: Vec<FigureRef>,
+}
+
+/// A reduced campaign.
+#[derive(Debug, Clone)]
+pub struct CampaignResult {
+    pub name: String,
+    pub runs: Vec<RunResult>,
+    /// The manifest as written (tool version, pipeline, inputs, timings).
+    pub manifest: serde_json::Value,
+    pub warnings: Vec<String>,
+}
