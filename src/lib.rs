@@ -20,6 +20,8 @@ pub mod result;
 pub mod stats;
 pub mod stencil;
 pub mod synth;
+#[cfg(test)]
+pub mod testutil;
 pub mod validate;
 
 pub use error::{Error, ErrorKind, Result};

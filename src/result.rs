@@ -37,6 +37,8 @@ pub struct RunResult {
     pub stats: stats::RunStats,
     pub warnings: Vec<String>,
     pub figures: Vec<FigureRef>,
+    pub conditions: crate::plan::report::Conditions,
+    pub description: Option<String>,
 }
 
 /// A reduced campaign.

@@ -49,6 +49,8 @@ pub struct RawPipeline {
     #[serde(default)]
     pub figures: report::RawFigures,
     #[serde(default)]
+    pub compare: Vec<report::RawCompare>,
+    #[serde(default)]
     pub run: Vec<RawRun>,
 }
 
@@ -108,7 +110,7 @@ pub struct RunPlan {
     pub derive: derive::Params,
     pub stats: stats::Params,
     pub plot: plot::Params,
-    pub conditions: report::RawConditions,
+    pub conditions: report::Conditions,
     pub description: Option<String>,
 }
 
@@ -122,6 +124,7 @@ pub struct Plan {
     pub runs: Vec<RunPlan>,
     pub frame_fields: bool,
     pub figures: bool,
+    pub compare: Vec<report::ComparePlan>,
     /// The pipeline as read, for the manifest.
     pub raw: RawPipeline,
     pub text: String,
@@ -204,7 +207,10 @@ impl Plan {
                 )?,
                 stats: statistics::resolve_stats(&raw.statistics, &raw.phase, &ctx)?,
                 plot: report::resolve_figures(&raw.figures, &ctx)?,
-                conditions: r.conditions.clone().unwrap_or_default(),
+                conditions: report::resolve_conditions(
+                    &r.conditions.clone().unwrap_or_default(),
+                    &ctx,
+                )?,
                 description: r.description.clone(),
                 input: spec,
             });
@@ -216,6 +222,10 @@ impl Plan {
             description: raw.campaign.description.clone(),
             frame_fields: raw.output.frame_fields.unwrap_or(false),
             figures: raw.output.figures.unwrap_or(true),
+            compare: report::resolve_compare(
+                &raw.compare,
+                &runs.iter().map(|r| r.id.clone()).collect::<Vec<_>>(),
+            )?,
             runs,
             raw,
             text,
