@@ -1,11 +1,105 @@
-//! `curlew check` (lead).
+//! `curlew check PIPELINE.toml`: read the pipeline and every input's header
+//! and grid, print the plan, compute nothing. Exit 0 only if `run` would start.
 
-use curlew::Result;
+use std::path::PathBuf;
+
+use rayon::prelude::*;
+
+use curlew::io::{self, FrameSource};
+use curlew::plan::{Plan, RunPlan};
+use curlew::reduce;
+use curlew::{Error, Result};
 
 #[derive(clap::Args, Debug)]
-pub struct Args {}
+pub struct Args {
+    /// The pipeline file (TOML).
+    pub pipeline: PathBuf,
+}
+
+fn path_of(src: &FrameSource) -> &std::path::Path {
+    match src {
+        FrameSource::File(p) => p,
+        FrameSource::Parquet { path, .. } => path,
+    }
+}
+
+fn check_run(r: &RunPlan) -> Result<()> {
+    let frames = reduce::list_run_frames(r)?;
+    let first = io::read_grid(&r.input, &frames[0].1)?;
+    // Every frame's header and grid, in parallel; the first that differs is named.
+    let files: Vec<&FrameSource> = {
+        let mut seen: Vec<&std::path::Path> = Vec::new();
+        frames
+            .iter()
+            .map(|(_, s)| s)
+            .filter(|s| match s {
+                FrameSource::File(_) => true,
+                FrameSource::Parquet { path, .. } => {
+                    let new = !seen.contains(&path.as_path());
+                    seen.push(path);
+                    new
+                }
+            })
+            .collect()
+    };
+    let bad = files
+        .par_iter()
+        .find_map_first(|s| match io::read_grid(&r.input, s) {
+            Err(e) => Some(e),
+            Ok(g) => first.difference(&g, r.input.grid_tolerance).map(|d| {
+                Error::data(format!("{d} (the run's first frame sets the grid)"))
+                    .with_path(path_of(s))
+            }),
+        });
+    if let Some(e) = bad {
+        return Err(e);
+    }
+    let with_time = frames.iter().filter(|(m, _)| m.time_s.is_some()).count();
+    let with_phase = frames.iter().filter(|(m, _)| m.phase_deg.is_some()).count();
+    println!("run '{}'", r.id);
+    println!("  frames        {} ({})", frames.len(), r.frames);
+    if let Some(t) = &r.frame_table {
+        println!(
+            "  frame table   {} ({with_time} with time, {with_phase} with phase)",
+            t.display()
+        );
+    }
+    println!(
+        "  grid          {} x {} nodes, pitch {:.4} x {:.4} mm, x {:.3}..{:.3} mm, y {:.3}..{:.3} mm",
+        first.nx,
+        first.ny,
+        first.dx * 1e3,
+        first.dy * 1e3,
+        first.x0 * 1e3,
+        first.x(first.nx - 1) * 1e3,
+        first.y0 * 1e3,
+        first.y(first.ny - 1) * 1e3
+    );
+    println!(
+        "  units         {:?}; x, y x {} m; u, v x {} m/s",
+        r.input.format, r.input.length_scale, r.input.velocity_scale
+    );
+    match r.px_velocity {
+        Some(p) => println!("  calibration   1 px of displacement = {:.6} m/s", p),
+        None => println!("  calibration   none (pixel size and pulse separation not given)"),
+    }
+    println!("  validation    {:?}", r.validation);
+    println!("  fill          {:?}", r.fill);
+    println!("  derivatives   {:?}", r.derive);
+    println!("  statistics    {:?}", r.stats);
+    Ok(())
+}
 
 pub fn run(args: Args) -> Result<()> {
-    let _ = args;
-    Err(curlew::Error::usage("'curlew check' is not built yet"))
+    let plan = Plan::load(&args.pipeline)?;
+    println!("campaign '{}' ({})", plan.campaign, plan.path.display());
+    for r in &plan.runs {
+        check_run(r)?;
+    }
+    println!(
+        "ok: {} run(s) ready; outputs go to out/{} unless --out is given",
+        plan.runs.len(),
+        plan.campaign
+    );
+    Ok(())
 }

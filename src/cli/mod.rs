@@ -4,4 +4,5 @@ pub mod check;
 pub mod inspect;
 pub mod merge;
 pub mod run;
+pub mod summary;
 pub mod synth;

@@ -1,11 +1,140 @@
-//! `curlew run` (lead).
+//! `curlew run PIPELINE.toml`: reduce every run of the campaign (or one
+//! shard of it) into an output folder that appears only when all succeeded.
 
-use curlew::Result;
+use std::io::IsTerminal;
+use std::path::PathBuf;
+use std::time::Instant;
+
+use curlew::io::OutputDir;
+use curlew::plan::Plan;
+use curlew::reduce::{self, campaign, partial, Options, Shard};
+use curlew::{Error, Result};
 
 #[derive(clap::Args, Debug)]
-pub struct Args {}
+pub struct Args {
+    /// The pipeline file (TOML).
+    pub pipeline: PathBuf,
+    /// Output folder [default: out/<campaign name>, or out/<campaign name>.shard-I-of-N
+    /// with --shard]. An existing folder is replaced only when the run succeeds.
+    #[arg(long)]
+    pub out: Option<PathBuf>,
+    /// Reduce only these runs (comma-separated ids).
+    #[arg(long, value_delimiter = ',')]
+    pub runs: Vec<String>,
+    /// Reduce only shard I of N (1-based; contiguous frame ranges) and write its partial
+    /// state for `curlew merge`; `slurm` takes I and N from a Slurm array job's environment.
+    /// A shard still reads every frame once more when the chain has an ensemble test.
+    #[arg(long)]
+    pub shard: Option<String>,
+    /// Worker threads [default: all cores]. Results do not depend on it.
+    #[arg(long, default_value_t = 0)]
+    pub jobs: usize,
+    /// Print nothing but errors.
+    #[arg(long)]
+    pub quiet: bool,
+}
 
 pub fn run(args: Args) -> Result<()> {
-    let _ = args;
-    Err(curlew::Error::usage("'curlew run' is not built yet"))
+    let started = Instant::now();
+    let plan = Plan::load(&args.pipeline)?;
+    let runs = plan.select_runs(&args.runs)?;
+    let shard = match args.shard.as_deref() {
+        None => None,
+        Some("slurm") => Some(Shard::from_slurm(|k| std::env::var(k).ok())?),
+        Some(s) => Some(Shard::parse(s)?),
+    };
+    let jobs = if args.jobs == 0 {
+        std::thread::available_parallelism().map_or(1, |n| n.get())
+    } else {
+        args.jobs
+    };
+    let out = args.out.clone().unwrap_or_else(|| {
+        let base = PathBuf::from("out").join(&plan.campaign);
+        match shard {
+            Some(s) => PathBuf::from(format!(
+                "{}.shard-{}-of-{}",
+                base.display(),
+                s.index,
+                s.count
+            )),
+            None => base,
+        }
+    });
+
+    // List every run's frames first: a glob that matches nothing fails before any work.
+    let mut total = 0u64;
+    for r in &runs {
+        let n = reduce::list_run_frames(r)?.len();
+        total += shard.map_or(n, |s| {
+            let (a, b) = s.range(n);
+            b - a
+        }) as u64;
+    }
+    let show = !args.quiet && std::io::stderr().is_terminal();
+    let bar = if show {
+        let b = indicatif::ProgressBar::new(total);
+        b.set_style(
+            indicatif::ProgressStyle::with_template(
+                "{prefix:>10} [{bar:36}] {pos}/{len} frames  {per_sec}  eta {eta}",
+            )
+            .unwrap()
+            .progress_chars("=> "),
+        );
+        b
+    } else {
+        indicatif::ProgressBar::hidden()
+    };
+    let tick = |k: u64| bar.inc(k);
+
+    let dir = OutputDir::begin(&out)?;
+    let mut reduced = Vec::with_capacity(runs.len());
+    for r in &runs {
+        bar.set_prefix(r.id.clone());
+        let fields = if plan.frame_fields && shard.is_none() {
+            let d = dir.path().join(&r.id).join("fields");
+            std::fs::create_dir_all(&d).map_err(|e| Error::io(&d, e))?;
+            Some(d)
+        } else {
+            None
+        };
+        let opts = Options {
+            jobs,
+            shard,
+            progress: Some(&tick),
+            frame_fields_dir: fields,
+        };
+        reduced.push(reduce::reduce_run(r, &opts)?);
+    }
+    bar.finish_and_clear();
+
+    if let Some(s) = shard {
+        partial::write(dir.path(), &plan.path, &plan.text, s, &reduced)?;
+        dir.commit()?;
+        if !args.quiet {
+            println!(
+                "curlew: shard {}/{} of '{}' ({} frames) written to {}",
+                s.index,
+                s.count,
+                plan.campaign,
+                total,
+                out.display()
+            );
+            println!("        combine all shards with: curlew merge <shard folders...> --out DIR");
+        }
+        return Ok(());
+    }
+    let prov = campaign::Provenance {
+        command: std::env::args().collect(),
+        jobs,
+        started_unix: std::time::SystemTime::now()
+            .duration_since(std::time::UNIX_EPOCH)
+            .map_or(0.0, |d| d.as_secs_f64()),
+        merged_shards: None,
+    };
+    let result = campaign::finish_campaign(&plan, reduced, dir.path(), &prov)?;
+    dir.commit()?;
+    if !args.quiet {
+        super::summary::print(&result, &out, started.elapsed().as_secs_f64());
+    }
+    Ok(())
 }

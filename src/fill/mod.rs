@@ -18,7 +18,7 @@ impl Default for Params {
     }
 }
 
-#[derive(Debug, Clone, Copy, Default, PartialEq, serde::Serialize)]
+#[derive(Debug, Clone, Copy, Default, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct Counts {
     /// Rejected vectors that were replaced.
     pub replaced: usize,

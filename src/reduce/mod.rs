@@ -1,1 +1,428 @@
-//! Drives one run through the stages (lead's module).
+//! Drives one run through the stages: read → grid check → validate → fill →
+//! derive → accumulate, in parallel, with bounded memory and results that do
+//! not depend on the number of threads.
+//!
+//! Owns: the order of the stages, the passes over the frames, chunking and
+//! merging, shards, and what a frame error does to the run. Does not own any
+//! numerics (the stages do) or the writing of outputs (`outputs`).
+//!
+//! Determinism: frames are cut into fixed chunks of `CHUNK` frames in
+//! natural order; each chunk is reduced sequentially into its own
+//! accumulator and the chunk accumulators are merged in chunk order. The
+//! chunking does not depend on `--jobs`, so neither do the bytes written.
+//!
+//! Memory: at most `2 × jobs` chunks are in flight, each holding one frame at
+//! a time plus its accumulator; nothing grows with the number of frames
+//! except the per-frame records (a few numbers each).
+//!
+//! Errors: a frame that cannot be read (bad cell, other grid) stops the run
+//! with an error naming the file: a campaign reduced from a silently
+//! shortened set of frames would mislead. A frame that reads but is mostly
+//! spurious is *rejected* (counted, listed in frames.csv, left out of the
+//! statistics) when the validation chain sets a limit for that.
+
+pub mod campaign;
+pub mod outputs;
+pub mod partial;
+
+use std::path::PathBuf;
+use std::time::Instant;
+
+use rayon::prelude::*;
+
+use crate::error::{Error, Result, WithPath};
+use crate::field::{FrameMeta, Grid, NodeTable};
+use crate::io::{self, FrameSource};
+use crate::plan::RunPlan;
+use crate::result::FrameRecord;
+use crate::stats::RunAccumulator;
+use crate::validate::{self, EnsembleBuilder, EnsembleRef};
+use crate::{derive, fill};
+
+/// Frames per chunk. Fixed (not derived from the thread count) so that the
+/// merge order, and so every output byte, is the same for any `--jobs`.
+pub const CHUNK: usize = 16;
+
+/// One shard of `N`: the contiguous frames `[start, end)` of a run.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
+pub struct Shard {
+    /// 1-based shard number.
+    pub index: usize,
+    pub count: usize,
+}
+
+impl Shard {
+    /// Parses `I/N` (1 ≤ I ≤ N).
+    pub fn parse(s: &str) -> Result<Shard> {
+        let bad = || {
+            Error::usage(format!(
+                "--shard '{s}' must be I/N with 1 <= I <= N, e.g. 2/8"
+            ))
+        };
+        let (a, b) = s.split_once('/').ok_or_else(bad)?;
+        let index: usize = a.trim().parse().map_err(|_| bad())?;
+        let count: usize = b.trim().parse().map_err(|_| bad())?;
+        if index == 0 || count == 0 || index > count {
+            return Err(bad());
+        }
+        Ok(Shard { index, count })
+    }
+
+    /// The shard of a Slurm array task: `SLURM_ARRAY_TASK_ID` counted from
+    /// `SLURM_ARRAY_TASK_MIN`, out of `SLURM_ARRAY_TASK_COUNT`.
+    pub fn from_slurm(get: impl Fn(&str) -> Option<String>) -> Result<Shard> {
+        let num = |k: &str| -> Result<usize> {
+            let v = get(k).ok_or_else(|| {
+                Error::usage(format!(
+                    "--shard slurm: {k} is not set (not inside a Slurm array job?)"
+                ))
+            })?;
+            v.trim().parse().map_err(|_| {
+                Error::usage(format!("--shard slurm: {k} = '{v}' is not a whole number"))
+            })
+        };
+        let id = num("SLURM_ARRAY_TASK_ID")?;
+        let min = get("SLURM_ARRAY_TASK_MIN")
+            .map(|_| num("SLURM_ARRAY_TASK_MIN"))
+            .transpose()?
+            .unwrap_or(0);
+        let count = num("SLURM_ARRAY_TASK_COUNT")?;
+        let index = id
+            .checked_sub(min)
+            .map(|k| k + 1)
+            .filter(|&k| k <= count)
+            .ok_or_else(|| {
+                Error::usage(format!(
+                    "--shard slurm: task {id} does not lie in the array {min}..{} ",
+                    min + count.saturating_sub(1)
+                ))
+            })?;
+        Shard::parse(&format!("{index}/{count}"))
+    }
+
+    /// The frames `[start, end)` of `n` that this shard reduces: contiguous
+    /// ranges, as equal as possible, earlier shards first.
+    pub fn range(&self, n: usize) -> (usize, usize) {
+        let k = self.index - 1;
+        (k * n / self.count, (k + 1) * n / self.count)
+    }
+}
+
+/// How to run: threads, shard, progress.
+pub struct Options<'a> {
+    /// Worker threads (0: all cores).
+    pub jobs: usize,
+    pub shard: Option<Shard>,
+    /// Called with the number of frames just finished (for a progress bar).
+    pub progress: Option<&'a (dyn Fn(u64) + Sync)>,
+    /// Where to write per-frame fields (`<run>/fields/`), when asked.
+    pub frame_fields_dir: Option<PathBuf>,
+}
+
+/// An input file of the run, for the manifest.
+#[derive(Debug, Clone, serde::Serialize, serde::Deserialize)]
+pub struct InputFile {
+    pub path: String,
+    pub bytes: u64,
+    pub sha256: String,
+}
+
+/// What reducing a run (or one shard of it) gives, before finishing.
+pub struct Reduced {
+    pub id: String,
+    pub grid: Grid,
+    /// Frames of the whole run (all shards).
+    pub n_frames_run: usize,
+    /// The frame range of this shard.
+    pub range: (usize, usize),
+    pub frames: Vec<FrameRecord>,
+    pub acc: RunAccumulator,
+    pub inputs: Vec<InputFile>,
+    pub warnings: Vec<String>,
+    pub timings: Vec<(String, f64)>,
+}
+
+/// The frames of a run with their metadata, in natural order.
+pub fn list_run_frames(run: &RunPlan) -> Result<Vec<(FrameMeta, FrameSource)>> {
+    let listed = io::list_frames(&run.input, &run.frames)?;
+    let table = match &run.frame_table {
+        Some(p) => Some(io::read_frame_table(p)?),
+        None => None,
+    };
+    let mut out = Vec::with_capacity(listed.len());
+    for (index, (name, src)) in listed.into_iter().enumerate() {
+        let (time_s, phase_deg) = match &table {
+            Some(t) => t.lookup(&name).ok_or_else(|| {
+                Error::data(format!(
+                    "frame '{name}' of run '{}' has no row in the frame table",
+                    run.id
+                ))
+                .with_path(run.frame_table.as_deref().unwrap())
+            })?,
+            None => (None, None),
+        };
+        out.push((
+            FrameMeta {
+                index,
+                name,
+                time_s,
+                phase_deg,
+            },
+            src,
+        ));
+    }
+    Ok(out)
+}
+
+fn source_path(src: &FrameSource) -> &std::path::Path {
+    match src {
+        FrameSource::File(p) => p,
+        FrameSource::Parquet { path, .. } => path,
+    }
+}
+
+/// Reads a frame and checks it lies on the run's grid.
+fn read_on_grid(run: &RunPlan, src: &FrameSource, grid: &Grid) -> Result<crate::field::Field> {
+    let f = io::read_frame(&run.input, src)?;
+    if let Some(d) = grid.difference(&f.grid, run.input.grid_tolerance) {
+        return Err(
+            Error::data(format!("{d} (the run's first frame sets the grid)"))
+                .with_path(source_path(src)),
+        );
+    }
+    Ok(f)
+}
+
+fn pool(jobs: usize) -> Result<rayon::ThreadPool> {
+    rayon::ThreadPoolBuilder::new()
+        .num_threads(jobs)
+        .build()
+        .map_err(|e| Error::usage(format!("cannot start {jobs} worker threads: {e}")))
+}
+
+/// Runs `per_chunk` over fixed chunks of `items` on the pool, `2 × threads`
+/// chunks at a time, and folds the results in chunk order with `merge`.
+fn fold_chunks<T: Sync, A: Send>(
+    pool: &rayon::ThreadPool,
+    items: &[T],
+    per_chunk: impl Fn(&[T]) -> Result<A> + Sync,
+    mut merge: impl FnMut(A),
+) -> Result<()> {
+    let chunks: Vec<&[T]> = items.chunks(CHUNK).collect();
+    let in_flight = (2 * pool.current_num_threads()).max(1);
+    for batch in chunks.chunks(in_flight) {
+        let results: Vec<Result<A>> =
+            pool.install(|| batch.par_iter().map(|c| per_chunk(c)).collect());
+        for r in results {
+            merge(r?);
+        }
+    }
+    Ok(())
+}
+
+/// Reduces one run (or one shard of it) up to merged accumulators.
+pub fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
+    let t0 = Instant::now();
+    let mut timings = Vec::new();
+    let mut warnings = Vec::new();
+    let frames = list_run_frames(run)?;
+    let n = frames.len();
+    let range = opts.shard.map_or((0, n), |s| s.range(n));
+    let grid = io::read_frame(&run.input, &frames[0].1)?.grid;
+    let pool = pool(opts.jobs)?;
+    timings.push(("list".to_string(), t0.elapsed().as_secs_f64()));
+
+    // Pass 1 (only when the chain has an ensemble test): robust per-node
+    // statistics over every frame of the run, whatever the shard, so that a
+    // sharded campaign validates exactly as a single run does.
+    let ens: Option<EnsembleRef> = if run.validation.needs_ensemble_pass() {
+        let t = Instant::now();
+        let mut total: Option<EnsembleBuilder> = None;
+        fold_chunks(
+            &pool,
+            &frames,
+            |chunk| {
+                let mut b = EnsembleBuilder::new(&run.validation, grid);
+                for (_, src) in chunk {
+                    b.push(&read_on_grid(run, src, &grid)?);
+                }
+                Ok(b)
+            },
+            |b| match total.as_mut() {
+                Some(t) => t.merge(b),
+                None => total = Some(b),
+            },
+        )?;
+        timings.push(("ensemble_pass".to_string(), t.elapsed().as_secs_f64()));
+        total.map(|b| b.finish())
+    } else {
+        None
+    };
+
+    // Pass 2: every stage, frame by frame.
+    let t = Instant::now();
+    let names = derive::quantity_names(&run.derive);
+    let mine = &frames[range.0..range.1];
+    struct ChunkOut {
+        acc: RunAccumulator,
+        records: Vec<FrameRecord>,
+        inputs: Vec<InputFile>,
+    }
+    let mut acc = RunAccumulator::new(&run.stats, grid, &names);
+    let mut records = Vec::with_capacity(mine.len());
+    let mut inputs = Vec::with_capacity(mine.len());
+    let mut seen_parquet: Vec<PathBuf> = Vec::new();
+    fold_chunks(
+        &pool,
+        mine,
+        |chunk| {
+            let mut out = ChunkOut {
+                acc: RunAccumulator::new(&run.stats, grid, &names),
+                records: Vec::with_capacity(chunk.len()),
+                inputs: Vec::new(),
+            };
+            for (meta, src) in chunk {
+                let mut field = read_on_grid(run, src, &grid)?;
+                if let FrameSource::File(p) = src {
+                    let (bytes, sha256) = io::hash_file(p)?;
+                    out.inputs.push(InputFile {
+                        path: p.display().to_string(),
+                        bytes,
+                        sha256,
+                    });
+                }
+                let vcounts = validate::validate_frame(&run.validation, &mut field, ens.as_ref());
+                let rejected = validate::frame_rejected(&run.validation, &vcounts, grid.len());
+                let fcounts = fill::fill(&run.fill, &mut field);
+                let derived = derive::derive(&run.derive, &field);
+                if !rejected {
+                    out.acc.push(meta, &field, &derived);
+                }
+                if let Some(dir) = &opts.frame_fields_dir {
+                    outputs::write_frame_field(
+                        &dir.join(format!("{}.csv", meta.name)),
+                        &field,
+                        &derived,
+                    )?;
+                }
+                out.records.push(FrameRecord {
+                    meta: meta.clone(),
+                    n_vectors: grid.len(),
+                    validation: vcounts,
+                    fill: fcounts,
+                    rejected,
+                    noise: derived.noise_estimate,
+                });
+                if let Some(p) = opts.progress {
+                    p(1);
+                }
+            }
+            Ok(out)
+        },
+        |c| {
+            acc.merge(c.acc);
+            records.extend(c.records);
+            inputs.extend(c.inputs);
+        },
+    )?;
+    for (_, src) in mine {
+        if let FrameSource::Parquet { path, .. } = src {
+            if !seen_parquet.contains(path) {
+                seen_parquet.push(path.clone());
+                let (bytes, sha256) = io::hash_file(path)?;
+                inputs.push(InputFile {
+                    path: path.display().to_string(),
+                    bytes,
+                    sha256,
+                });
+            }
+        }
+    }
+    if let Some(ft) = &run.frame_table {
+        let (bytes, sha256) = io::hash_file(ft).with_path(ft)?;
+        inputs.push(InputFile {
+            path: ft.display().to_string(),
+            bytes,
+            sha256,
+        });
+    }
+    timings.push(("reduce".to_string(), t.elapsed().as_secs_f64()));
+    let n_rej = records.iter().filter(|r| r.rejected).count();
+    if n_rej > 0 {
+        warnings.push(format!(
+            "run '{}': {n_rej} of {} frames rejected as a whole and left out of the statistics (see frames.csv)",
+            run.id,
+            records.len()
+        ));
+    }
+    Ok(Reduced {
+        id: run.id.clone(),
+        grid,
+        n_frames_run: n,
+        range,
+        frames: records,
+        acc,
+        inputs,
+        warnings,
+        timings,
+    })
+}
+
+/// The mean of the per-frame noise estimates, when the frames carry one.
+pub fn mean_noise(frames: &[FrameRecord]) -> Option<f64> {
+    let v: Vec<f64> = frames
+        .iter()
+        .filter_map(|f| f.noise)
+        .filter(|x| x.is_finite())
+        .collect();
+    (!v.is_empty()).then(|| v.iter().sum::<f64>() / v.len() as f64)
+}
+
+/// Keeps a NodeTable's column order stable for writing: CONTRACT columns
+/// first in their order, then the rest as the statistics gave them.
+pub fn node_columns(nt: &NodeTable) -> Vec<&str> {
+    nt.columns.iter().map(|(n, _)| n.as_str()).collect()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn shard_ranges_cover_every_frame_once() {
+        for n in [0usize, 1, 7, 100, 101] {
+            for count in 1..6 {
+                let mut next = 0;
+                for index in 1..=count {
+                    let (a, b) = Shard { index, count }.range(n);
+                    assert_eq!(a, next);
+                    next = b;
+                }
+                assert_eq!(next, n);
+            }
+        }
+    }
+
+    #[test]
+    fn shard_parse_rejects_zero_and_overflow() {
+        assert_eq!(Shard::parse("2/8").unwrap(), Shard { index: 2, count: 8 });
+        assert!(Shard::parse("0/8").is_err());
+        assert!(Shard::parse("9/8").is_err());
+        assert!(Shard::parse("x").is_err());
+    }
+
+    #[test]
+    fn slurm_environment_gives_the_shard() {
+        let env = |k: &str| match k {
+            "SLURM_ARRAY_TASK_ID" => Some("5".to_string()),
+            "SLURM_ARRAY_TASK_MIN" => Some("1".to_string()),
+            "SLURM_ARRAY_TASK_COUNT" => Some("8".to_string()),
+            _ => None,
+        };
+        assert_eq!(
+            Shard::from_slurm(env).unwrap(),
+            Shard { index: 5, count: 8 }
+        );
+        assert!(Shard::from_slurm(|_| None).is_err());
+    }
+}

@@ -1,0 +1,141 @@
+//! Finishing a campaign: accumulators → statistics → tables, figures,
+//! campaign.csv, manifest.json and the report, all into one output folder.
+//! The same path serves `run` and `merge`, so a merged campaign writes
+//! exactly what a single run writes.
+
+use std::path::Path;
+use std::time::Instant;
+
+use sha2::{Digest, Sha256};
+
+use super::{outputs, InputFile, Reduced};
+use crate::error::{Error, Result};
+use crate::plan::Plan;
+use crate::result::{CampaignResult, RunResult};
+use crate::{io, plot, report};
+
+/// How the campaign was reduced, for the manifest.
+#[derive(Debug, Clone, Default)]
+pub struct Provenance {
+    /// The command line, as typed.
+    pub command: Vec<String>,
+    pub jobs: usize,
+    /// Seconds spent reading and reducing, per run (from `Reduced`).
+    pub started_unix: f64,
+    /// Shards merged, when the campaign came from `merge`.
+    pub merged_shards: Option<usize>,
+}
+
+/// Statistics, tables, figures, campaign.csv, manifest and report for the
+/// reduced runs, written into `out` (normally an `io::OutputDir`'s temp path).
+pub fn finish_campaign(
+    plan: &Plan,
+    reduced: Vec<Reduced>,
+    out: &Path,
+    prov: &Provenance,
+) -> Result<CampaignResult> {
+    let t_all = Instant::now();
+    let mut runs: Vec<RunResult> = Vec::with_capacity(reduced.len());
+    let mut manifest_runs = Vec::new();
+    let mut inputs: Vec<InputFile> = Vec::new();
+    let mut warnings: Vec<String> = Vec::new();
+    for r in reduced {
+        let rp = plan
+            .runs
+            .iter()
+            .find(|p| p.id == r.id)
+            .ok_or_else(|| Error::usage(format!("run '{}' is not in the pipeline", r.id)))?;
+        let t = Instant::now();
+        let stats = r.acc.finish(&rp.stats);
+        let mut timings = r.timings.clone();
+        timings.push(("statistics".into(), t.elapsed().as_secs_f64()));
+        let mut run_warnings = r.warnings.clone();
+        run_warnings.extend(stats.warnings.iter().cloned());
+        let mut rr = RunResult {
+            id: r.id.clone(),
+            grid: r.grid,
+            frames: r.frames,
+            stats,
+            warnings: Vec::new(),
+            figures: Vec::new(),
+            conditions: rp.conditions.clone(),
+            description: rp.description.clone(),
+        };
+        let t = Instant::now();
+        outputs::write_run_tables(&out.join(&rr.id), &rr)?;
+        timings.push(("write".into(), t.elapsed().as_secs_f64()));
+        if plan.figures {
+            let t = Instant::now();
+            match plot::run_figures(&rp.plot, &rr, out) {
+                Ok(f) => rr.figures = f,
+                Err(e) => {
+                    run_warnings.push(format!("run '{}': figures could not be drawn: {e}", rr.id))
+                }
+            }
+            timings.push(("figures".into(), t.elapsed().as_secs_f64()));
+        }
+        rr.warnings = run_warnings.clone();
+        warnings.extend(run_warnings);
+        manifest_runs.push(serde_json::json!({
+            "id": rr.id,
+            "frames": rr.frames.len(),
+            "frames_in_run": r.n_frames_run,
+            "grid": rr.grid,
+            "timings_s": timings.iter().map(|(k, v)| (k.clone(), serde_json::json!(v))).collect::<serde_json::Map<_, _>>(),
+            "resolved": {
+                "input": format!("{:?}", rp.input),
+                "validation": format!("{:?}", rp.validation),
+                "fill": format!("{:?}", rp.fill),
+                "derive": format!("{:?}", rp.derive),
+                "stats": format!("{:?}", rp.stats),
+            },
+            "warnings": rr.warnings,
+        }));
+        inputs.extend(r.inputs);
+        runs.push(rr);
+    }
+
+    let extra: Vec<Vec<(String, f64)>> = runs.iter().map(|_| Vec::new()).collect();
+    io::write_csv(
+        &out.join("campaign.csv"),
+        &outputs::campaign_table(&runs, &extra),
+    )?;
+
+    let pipeline_sha = hex(&Sha256::digest(plan.text.as_bytes()));
+    let manifest = serde_json::json!({
+        "tool": "curlew",
+        "version": crate::VERSION,
+        "command": prov.command,
+        "jobs": prov.jobs,
+        "started_unix": prov.started_unix,
+        "merged_shards": prov.merged_shards,
+        "campaign": plan.campaign,
+        "pipeline": {
+            "path": plan.path.display().to_string(),
+            "sha256": pipeline_sha,
+            "text": plan.text,
+            "as_read": serde_json::to_value(&plan.raw).unwrap_or(serde_json::Value::Null),
+        },
+        "inputs": inputs,
+        "runs": manifest_runs,
+        "warnings": warnings,
+        "finish_s": t_all.elapsed().as_secs_f64(),
+    });
+    let result = CampaignResult {
+        name: plan.campaign.clone(),
+        runs,
+        manifest: manifest.clone(),
+        warnings,
+    };
+    let text = serde_json::to_string_pretty(&manifest)
+        .map_err(|e| Error::data(format!("manifest: {e}")))?;
+    let mpath = out.join("manifest.json");
+    std::fs::write(&mpath, text).map_err(|e| Error::io(&mpath, e))?;
+    report::write_report(&result, out)?;
+    Ok(result)
+}
+
+/// Lower-case hex of bytes.
+pub fn hex(b: &[u8]) -> String {
+    b.iter().map(|x| format!("{x:02x}")).collect()
+}

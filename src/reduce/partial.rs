@@ -1,0 +1,258 @@
+//! The partial result of `run --shard I/N`, and reading it back for `merge`.
+//!
+//! Layout of a partial folder (format `curlew-partial`, version 1):
+//!
+//! ```text
+//! PARTIAL/
+//!   partial.json            format, version, tool version, the pipeline text and its
+//!                           SHA-256, the shard (index, count), and per run: id, grid,
+//!                           frames in the run, this shard's frame range, the frame
+//!                           records, input files, warnings, timings
+//!   <run id>/accumulator.bin   the statistics accumulator (stats' own versioned bytes)
+//! ```
+//!
+//! `merge` accepts any set of partial folders of one pipeline (same SHA-256)
+//! that holds every shard `1..=N` exactly once, and merges the accumulators
+//! in shard order, which is frame order: the result equals a single run.
+
+use std::path::{Path, PathBuf};
+
+use serde::{Deserialize, Serialize};
+
+use super::{InputFile, Reduced, Shard};
+use crate::error::{Error, Result, WithPath};
+use crate::field::{FrameMeta, Grid};
+use crate::result::FrameRecord;
+use crate::stats::RunAccumulator;
+use crate::{fill, validate};
+
+pub const FORMAT: &str = "curlew-partial";
+pub const VERSION: u32 = 1;
+
+#[derive(Debug, Clone, Serialize, Deserialize)]
+struct FrameRow {
+    meta: FrameMeta,
+    n_vectors: usize,
+    validation: validate::Counts,
+    fill: fill::Counts,
+    rejected: bool,
+    noise: Option<f64>,
+}
+
+#[derive(Debug, Clone, Serialize, Deserialize)]
+struct RunPart {
+    id: String,
+    grid: Grid,
+    n_frames_run: usize,
+    range: (usize, usize),
+    frames: Vec<FrameRow>,
+    inputs: Vec<InputFile>,
+    warnings: Vec<String>,
+    timings: Vec<(String, f64)>,
+}
+
+#[derive(Debug, Clone, Serialize, Deserialize)]
+struct PartialFile {
+    format: String,
+    version: u32,
+    tool_version: String,
+    pipeline_path: String,
+    pipeline_sha256: String,
+    pipeline_text: String,
+    shard: Shard,
+    runs: Vec<RunPart>,
+}
+
+/// A partial folder read back.
+pub struct Partial {
+    pub dir: PathBuf,
+    pub shard: Shard,
+    pub pipeline_path: PathBuf,
+    pub pipeline_text: String,
+    pub pipeline_sha256: String,
+    pub runs: Vec<Reduced>,
+}
+
+/// Writes the partial result of one shard into `dir` (a fresh folder).
+pub fn write(
+    dir: &Path,
+    pipeline_path: &Path,
+    pipeline_text: &str,
+    shard: Shard,
+    runs: &[Reduced],
+) -> Result<()> {
+    use sha2::{Digest, Sha256};
+    let mut parts = Vec::with_capacity(runs.len());
+    for r in runs {
+        let rd = dir.join(&r.id);
+        std::fs::create_dir_all(&rd).with_path(&rd)?;
+        let p = rd.join("accumulator.bin");
+        std::fs::write(&p, r.acc.to_bytes()).with_path(&p)?;
+        parts.push(RunPart {
+            id: r.id.clone(),
+            grid: r.grid,
+            n_frames_run: r.n_frames_run,
+            range: r.range,
+            frames: r
+                .frames
+                .iter()
+                .map(|f| FrameRow {
+                    meta: f.meta.clone(),
+                    n_vectors: f.n_vectors,
+                    validation: f.validation,
+                    fill: f.fill,
+                    rejected: f.rejected,
+                    noise: f.noise,
+                })
+                .collect(),
+            inputs: r.inputs.clone(),
+            warnings: r.warnings.clone(),
+            timings: r.timings.clone(),
+        });
+    }
+    let pf = PartialFile {
+        format: FORMAT.into(),
+        version: VERSION,
+        tool_version: crate::VERSION.into(),
+        pipeline_path: pipeline_path.display().to_string(),
+        pipeline_sha256: super::campaign::hex(&Sha256::digest(pipeline_text.as_bytes())),
+        pipeline_text: pipeline_text.into(),
+        shard,
+        runs: parts,
+    };
+    let p = dir.join("partial.json");
+    let text = serde_json::to_string(&pf).map_err(|e| Error::data(format!("partial: {e}")))?;
+    std::fs::write(&p, text).with_path(&p)
+}
+
+/// Reads a partial folder.
+pub fn read(dir: &Path) -> Result<Partial> {
+    let p = dir.join("partial.json");
+    let text = std::fs::read_to_string(&p).map_err(|e| {
+        Error::usage(format!(
+            "not a partial result folder of 'curlew run --shard' ({e})"
+        ))
+        .with_path(&p)
+    })?;
+    let pf: PartialFile = serde_json::from_str(&text)
+        .map_err(|e| Error::data(format!("partial.json cannot be read: {e}")).with_path(&p))?;
+    if pf.format != FORMAT || pf.version != VERSION {
+        return Err(Error::data(format!(
+            "partial format '{}' version {} is not '{FORMAT}' version {VERSION}",
+            pf.format, pf.version
+        ))
+        .with_path(&p));
+    }
+    let mut runs = Vec::with_capacity(pf.runs.len());
+    for r in pf.runs {
+        let ap = dir.join(&r.id).join("accumulator.bin");
+        let bytes = std::fs::read(&ap).with_path(&ap)?;
+        let acc = RunAccumulator::from_bytes(&bytes).with_path(&ap)?;
+        runs.push(Reduced {
+            id: r.id,
+            grid: r.grid,
+            n_frames_run: r.n_frames_run,
+            range: r.range,
+            frames: r
+                .frames
+                .into_iter()
+                .map(|f| FrameRecord {
+                    meta: f.meta,
+                    n_vectors: f.n_vectors,
+                    validation: f.validation,
+                    fill: f.fill,
+                    rejected: f.rejected,
+                    noise: f.noise,
+                })
+                .collect(),
+            acc,
+            inputs: r.inputs,
+            warnings: r.warnings,
+            timings: r.timings,
+        });
+    }
+    Ok(Partial {
+        dir: dir.to_path_buf(),
+        shard: pf.shard,
+        pipeline_path: PathBuf::from(pf.pipeline_path),
+        pipeline_text: pf.pipeline_text,
+        pipeline_sha256: pf.pipeline_sha256,
+        runs,
+    })
+}
+
+/// Merges partials of one pipeline, holding every shard once, into one
+/// `Reduced` per run (in the pipeline's run order of the first partial).
+pub fn merge(mut parts: Vec<Partial>) -> Result<(Partial, Vec<Reduced>)> {
+    if parts.is_empty() {
+        return Err(Error::usage("merge needs at least one partial folder"));
+    }
+    parts.sort_by_key(|p| p.shard.index);
+    let count = parts[0].shard.count;
+    for p in &parts {
+        if p.pipeline_sha256 != parts[0].pipeline_sha256 {
+            return Err(Error::data(format!(
+                "this partial comes from another pipeline than {} (pipeline text differs)",
+                parts[0].dir.display()
+            ))
+            .with_path(&p.dir));
+        }
+        if p.shard.count != count {
+            return Err(Error::data(format!(
+                "shard {}/{} does not belong with shards of {count}",
+                p.shard.index, p.shard.count
+            ))
+            .with_path(&p.dir));
+        }
+    }
+    for (k, p) in parts.iter().enumerate() {
+        if p.shard.index != k + 1 {
+            let have: Vec<String> = parts
+                .iter()
+                .map(|p| format!("{}/{}", p.shard.index, p.shard.count))
+                .collect();
+            return Err(Error::data(format!(
+                "merge needs every shard 1..{count} exactly once; got {}",
+                have.join(", ")
+            )));
+        }
+    }
+    let mut iter = parts.into_iter();
+    let mut first = iter.next().unwrap();
+    let mut runs = std::mem::take(&mut first.runs);
+    for p in iter {
+        let dir = p.dir.clone();
+        for r in p.runs {
+            let into = runs.iter_mut().find(|x| x.id == r.id).ok_or_else(|| {
+                Error::data(format!("run '{}' is not in the first partial", r.id)).with_path(&dir)
+            })?;
+            if into.range.1 != r.range.0 || into.grid != r.grid {
+                return Err(Error::data(format!(
+                    "run '{}': frames {}..{} do not follow frames ..{} of the earlier shards",
+                    r.id, r.range.0, r.range.1, into.range.1
+                ))
+                .with_path(&dir));
+            }
+            into.acc.merge(r.acc);
+            into.range.1 = r.range.1;
+            into.frames.extend(r.frames);
+            into.inputs.extend(r.inputs);
+            into.warnings.extend(r.warnings);
+            for (k, v) in r.timings {
+                match into.timings.iter_mut().find(|(n, _)| *n == k) {
+                    Some(t) => t.1 += v,
+                    None => into.timings.push((k, v)),
+                }
+            }
+        }
+    }
+    for r in &runs {
+        if r.range != (0, r.n_frames_run) {
+            return Err(Error::data(format!(
+                "run '{}': the shards cover frames {}..{} of {}",
+                r.id, r.range.0, r.range.1, r.n_frames_run
+            )));
+        }
+    }
+    Ok((first, runs))
+}
