@@ -7,9 +7,10 @@
 //! Rooms: `text` (csv, tsv, whitespace text and the frame table, parsed
 //! from bytes), `parquet` (long tables and parquet outputs), `grid` (grid
 //! inference and placing rows on nodes), `write` (CSV output, atomic files
-//! and folders, hashes), `natural` (natural sort order of frame files).
+//! and folders, hashes), `inspect` (summaries for `curlew inspect`), `natural` (natural sort order of frame files).
 
 pub mod grid;
+pub mod inspect;
 mod natural;
 pub mod parquet;
 pub mod table;

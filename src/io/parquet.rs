@@ -252,6 +252,13 @@ pub(crate) fn read_rows(
     Ok(rows)
 }
 
+/// The column names of a parquet file (its schema; no data is decoded).
+pub(crate) fn column_names(path: &Path) -> Result<Vec<String>> {
+    let mut reader = ParquetReader::new(open(path)?);
+    let schema = reader.schema().map_err(|e| perr(path, e))?;
+    Ok(schema.iter_names().map(|n| n.to_string()).collect())
+}
+
 /// Frame ids of a long table, ascending.
 pub(crate) fn frame_ids(path: &Path, frame_col: &str) -> Result<Vec<i64>> {
     Ok(index(path, frame_col)?.frames.keys().copied().collect())
