@@ -6,6 +6,11 @@
 //! temporary sibling and swapped in on `commit`. Does not own: what goes
 //! into the tables (stages).
 //!
+//! The guarantee is against failures of the process (an error, a crash,
+//! Ctrl-C): files are not fsynced, so after a power loss a just-written file
+//! may be empty; that cost (milliseconds per file, thousands of per-frame
+//! files) is not paid.
+//!
 //! CSV floats use Rust's shortest round-trip formatting (`{}`; `{:e}` for
 //! magnitudes below 1e-5 or from 1e16, to stay short), so parsing the text
 //! gives back the same bits. NaN is written as an empty cell; ±inf as
@@ -48,7 +53,6 @@ pub(crate) fn atomic_file(path: &Path, write: impl FnOnce(&mut File) -> Result<(
     let result = (|| {
         let mut f = File::create(&tmp).with_path(&tmp)?;
         write(&mut f).map_err(|e| e.with_path(path))?;
-        f.sync_all().with_path(&tmp)?;
         drop(f);
         fs::rename(&tmp, path).with_path(path)
     })();
