@@ -206,8 +206,17 @@ pub struct FrameTable {
 }
 
 impl FrameTable {
+    /// Time and phase of frame `name`: the row with that exact name, else
+    /// (for parquet frame ids) the row whose name is the same integer, so
+    /// `007` in a table matches frame id `7`.
     pub fn lookup(&self, name: &str) -> Option<(Option<f64>, Option<f64>)> {
-        self.rows.iter().find(|r| r.0 == name).map(|r| (r.1, r.2))
+        let found = self.rows.iter().find(|r| r.0 == name).or_else(|| {
+            let id: i64 = name.trim().parse().ok()?;
+            self.rows
+                .iter()
+                .find(|r| r.0.trim().parse::<i64>().ok() == Some(id))
+        });
+        found.map(|r| (r.1, r.2))
     }
 }
 

@@ -389,8 +389,10 @@ fn parquet_from_pyarrow_with_a_single_row_group() {
          rows=[(f,x,y,f*100+x+10*y) for f in (2,1) for y in range(3) for x in range(4)]\n\
          rows=rows[12:18]+rows[:12]+rows[18:]\n\
          t=pa.table({{'id':[r[0] for r in rows],'X':[float(r[1]) for r in rows],'Y':[float(r[2]) for r in rows],'U':[float(r[3]) for r in rows],'V':[-float(r[3]) for r in rows]}})\n\
-         pq.write_table(t, r'{}')\n",
-        path.display()
+         pq.write_table(t, r'{}')\n\
+         pq.write_table(t, r'{}', row_group_size=5)\n",
+        path.display(),
+        path.with_extension("rg5.parquet").display()
     );
     crate::testutil::python(&prog, "");
     let mut s = spec(Format::Parquet);
@@ -412,6 +414,13 @@ fn parquet_from_pyarrow_with_a_single_row_group() {
     assert_eq!((f.grid.nx, f.grid.ny), (4, 3));
     assert_eq!(f.u[[2, 3]], 200.0 + 3.0 + 20.0);
     assert_eq!(f.v[[1, 0]], -210.0);
+    // The same table in row groups of 5 rows: frames span row groups.
+    let p5 = path.with_extension("rg5.parquet");
+    let list5 = list_frames(&s, p5.to_str().unwrap()).unwrap();
+    for ((_, a), (_, b)) in list.iter().zip(&list5) {
+        let (fa, fb) = (read_frame(&s, a).unwrap(), read_frame(&s, b).unwrap());
+        assert_eq!((fa.grid, &fa.u, &fa.v), (fb.grid, &fb.u, &fb.v));
+    }
 }
 
 #[test]

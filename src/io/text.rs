@@ -153,8 +153,17 @@ fn header<'a>(
 /// Index of column `name` in `names`, or the error naming what was found.
 fn find(names: &[String], name: &str, path: &Path, line: usize) -> Result<usize> {
     names.iter().position(|n| n == name).ok_or_else(|| {
+        let numeric = names
+            .iter()
+            .all(|n| matches!(number(n.as_bytes()), Ok(Some(_))));
+        let hint = if numeric {
+            " (this line looks like data: is the header missing, commented out with '#', \
+             or is skip_lines too large?)"
+        } else {
+            ""
+        };
         Error::data(format!(
-            "missing column '{name}'; the header has: {}",
+            "missing column '{name}'; the header has: {}{hint}",
             names.join(", ")
         ))
         .with_path(path)
