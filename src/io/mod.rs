@@ -4,16 +4,26 @@
 //! Owns: every byte that enters or leaves curlew. Does not own: what the
 //! values mean (stages) or which files a run has (the plan lists them).
 //!
-//! STUB (skeleton): signatures agreed between the stages; the io owner
-//! replaces the `todo!()` bodies.
+//! Rooms: `text` (csv, tsv, whitespace text and the frame table, parsed
+//! from bytes), `parquet` (long tables and parquet outputs), `grid` (grid
+//! inference and placing rows on nodes), `write` (CSV output, atomic files
+//! and folders, hashes), `inspect` (summaries for `curlew inspect`), `natural` (natural sort order of frame files).
 
+pub mod grid;
+pub mod inspect;
+mod natural;
+pub mod parquet;
 pub mod table;
+mod text;
+mod write;
 
 use std::path::{Path, PathBuf};
 
-use crate::error::Result;
+use crate::error::{Error, Result};
 use crate::field::{Field, Grid, NodeTable};
+pub use parquet::write_frames_parquet;
 pub use table::{Table, Values};
+pub use write::{hash_file, write_csv, OutputDir};
 
 /// The text formats and parquet.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
@@ -69,20 +79,124 @@ pub enum FrameSource {
 /// parquet file) into frame sources with their names. Error (data) if
 /// nothing matches, naming the pattern.
 pub fn list_frames(spec: &InputSpec, pattern: &str) -> Result<Vec<(String, FrameSource)>> {
-    let _ = (spec, pattern);
-    todo!("io: list_frames")
+    let entries = glob::glob(pattern)
+        .map_err(|e| Error::usage(format!("frames = '{pattern}' is not a valid pattern: {e}")))?;
+    let mut paths: Vec<PathBuf> = Vec::new();
+    for entry in entries {
+        let p = entry.map_err(|e| Error::io(e.path(), std::io::Error::other(e.to_string())))?;
+        if p.is_file() {
+            paths.push(p);
+        }
+    }
+    if paths.is_empty() {
+        return Err(Error::data(format!("frames = '{pattern}' matches no file")));
+    }
+    paths.sort_by(|a, b| natural::compare(&a.to_string_lossy(), &b.to_string_lossy()));
+    let mut out = Vec::new();
+    if spec.format == Format::Parquet {
+        for p in paths {
+            for id in parquet::frame_ids(&p, &spec.columns.frame)? {
+                out.push((
+                    id.to_string(),
+                    FrameSource::Parquet {
+                        path: p.clone(),
+                        frame: id,
+                    },
+                ));
+            }
+        }
+    } else {
+        for p in paths {
+            let name = p
+                .file_stem()
+                .map(|s| s.to_string_lossy().into_owned())
+                .unwrap_or_default();
+            out.push((name, FrameSource::File(p)));
+        }
+    }
+    let mut seen: std::collections::HashMap<&str, &FrameSource> = Default::default();
+    for (name, src) in &out {
+        if let Some(first) = seen.insert(name, src) {
+            return Err(Error::data(format!(
+                "frames = '{pattern}': two frames are named '{name}' ({} and {})",
+                source_label(first),
+                source_label(src)
+            )));
+        }
+    }
+    Ok(out)
 }
 
-/// Reads one frame into a field on its inferred grid, in SI.
+fn source_label(s: &FrameSource) -> String {
+    match s {
+        FrameSource::File(p) => p.display().to_string(),
+        FrameSource::Parquet { path, frame } => format!("{} frame {frame}", path.display()),
+    }
+}
+
+impl FrameSource {
+    /// The file the frame is in.
+    pub fn path(&self) -> &Path {
+        match self {
+            FrameSource::File(p) => p,
+            FrameSource::Parquet { path, .. } => path,
+        }
+    }
+}
+
+fn read_rows(spec: &InputSpec, source: &FrameSource, grid_only: bool) -> Result<grid::RawRows> {
+    match source {
+        FrameSource::File(path) => {
+            if spec.format == Format::Parquet {
+                return Err(Error::usage(
+                    "a parquet frame needs a frame id (FrameSource::Parquet)",
+                )
+                .with_path(path));
+            }
+            let bytes = text::read_bytes(path)?;
+            text::parse_frame(
+                &bytes,
+                path,
+                spec.format,
+                spec.skip_lines,
+                &spec.columns,
+                grid_only,
+            )
+        }
+        FrameSource::Parquet { path, frame } => {
+            parquet::read_rows(path, *frame, &spec.columns, grid_only)
+        }
+    }
+}
+
+/// Reads one frame into a field on its inferred grid, in SI: x, y times
+/// `length_scale`; u, v, sigma_u, sigma_v times `velocity_scale`. Invalid
+/// input vectors (empty, NaN, flagged) and missing nodes get status FILLED
+/// with NaN velocities; see `text` for the cell rules and `grid` for the
+/// inference.
 pub fn read_frame(spec: &InputSpec, source: &FrameSource) -> Result<Field> {
-    let _ = (spec, source);
-    todo!("io: read_frame")
+    let rows = read_rows(spec, source, false)?;
+    let what = if matches!(source, FrameSource::Parquet { .. }) {
+        "row"
+    } else {
+        "line"
+    };
+    grid::assemble(
+        &rows,
+        spec.grid_tolerance,
+        spec.length_scale,
+        spec.velocity_scale,
+        what,
+    )
+    .map_err(|e| e.with_path(source.path()))
 }
 
 /// Reads only what `check` needs: the grid of one frame (header and x, y).
 pub fn read_grid(spec: &InputSpec, source: &FrameSource) -> Result<Grid> {
-    let _ = (spec, source);
-    todo!("io: read_grid")
+    let rows = read_rows(spec, source, true)?;
+    let (ax, ay) =
+        grid::infer_grid(&rows, spec.grid_tolerance).map_err(|e| e.with_path(source.path()))?;
+    Ok(grid::grid_si(ax, ay, spec.length_scale))
 }
 
 /// Time and phase of frames, keyed by frame name (file stem or parquet id).
@@ -92,26 +206,75 @@ pub struct FrameTable {
 }
 
 impl FrameTable {
+    /// Time and phase of frame `name`: the row with that exact name, else
+    /// (for parquet frame ids) the row whose name is the same integer, so
+    /// `007` in a table matches frame id `7`.
     pub fn lookup(&self, name: &str) -> Option<(Option<f64>, Option<f64>)> {
-        self.rows.iter().find(|r| r.0 == name).map(|r| (r.1, r.2))
+        let found = self.rows.iter().find(|r| r.0 == name).or_else(|| {
+            let id: i64 = name.trim().parse().ok()?;
+            self.rows
+                .iter()
+                .find(|r| r.0.trim().parse::<i64>().ok() == Some(id))
+        });
+        found.map(|r| (r.1, r.2))
     }
 }
 
+/// Reads a frame table: CSV with `frame` and `time_s` and/or `phase_deg`
+/// (phase kept as given). Errors name the line and value; a duplicate frame
+/// names both lines.
 pub fn read_frame_table(path: &Path) -> Result<FrameTable> {
-    let _ = path;
-    todo!("io: read_frame_table")
+    let bytes = text::read_bytes(path)?;
+    text::parse_frame_table(&bytes, path)
 }
 
-/// Writes `table` as CSV (header line, full-precision floats, NaN as empty).
-pub fn write_csv(path: &Path, table: &Table) -> Result<()> {
-    let _ = (path, table);
-    todo!("io: write_csv")
-}
-
-/// Writes `table` as parquet.
+/// Writes `table` as parquet (F64 → Float64, I64 → Int64, Str → String);
+/// atomic like `write_csv`.
 pub fn write_parquet(path: &Path, table: &Table) -> Result<()> {
-    let _ = (path, table);
-    todo!("io: write_parquet")
+    parquet::write_table(path, table)
+}
+
+/// Reads any table curlew writes or reads (csv, tsv, text, parquet) into
+/// F64 columns where every cell is a number or empty, else Str (for
+/// `inspect` and tests).
+pub fn read_table(path: &Path, format: Format, skip_lines: usize) -> Result<Table> {
+    if format == Format::Parquet {
+        return parquet::read_table(path);
+    }
+    let bytes = text::read_bytes(path)?;
+    let mut cells: Vec<Vec<String>> = Vec::new();
+    let names = text::scan_table(&bytes, path, format, skip_lines, |_, k, c| {
+        if cells.len() <= k {
+            cells.resize_with(k + 1, Vec::new);
+        }
+        cells[k].push(String::from_utf8_lossy(c).into_owned());
+        Ok(())
+    })?;
+    let mut t = Table::new();
+    let n = cells.first().map_or(0, Vec::len);
+    for (k, name) in names.iter().enumerate() {
+        let col = cells.get(k).cloned().unwrap_or_default();
+        if col.len() != n {
+            return Err(Error::data(format!(
+                "column '{name}' has {} cells, the first column {n}",
+                col.len()
+            ))
+            .with_path(path));
+        }
+        let nums: Option<Vec<f64>> = col
+            .iter()
+            .map(|c| {
+                text::number(c.as_bytes())
+                    .ok()
+                    .map(|v| v.unwrap_or(f64::NAN))
+            })
+            .collect();
+        match nums {
+            Some(v) => t.push(name.clone(), Values::F64(v)),
+            None => t.push(name.clone(), Values::Str(col)),
+        }
+    }
+    Ok(t)
 }
 
 /// A node table as a `Table` with `x`, `y` first, then its columns.
@@ -134,29 +297,5 @@ pub fn node_table_to_table(nt: &NodeTable) -> Table {
     t
 }
 
-/// Size in bytes and SHA-256 (hex) of a file.
-pub fn hash_file(path: &Path) -> Result<(u64, String)> {
-    let _ = path;
-    todo!("io: hash_file")
-}
-
-/// An output folder that appears only when the work succeeded: everything
-/// is written into a temporary sibling folder, and `commit` swaps it in place
-/// of the old one.
-pub struct OutputDir {
-    pub final_path: PathBuf,
-    pub temp_path: PathBuf,
-}
-
-impl OutputDir {
-    pub fn begin(final_path: &Path) -> Result<OutputDir> {
-        let _ = final_path;
-        todo!("io: OutputDir::begin")
-    }
-    pub fn path(&self) -> &Path {
-        &self.temp_path
-    }
-    pub fn commit(self) -> Result<()> {
-        todo!("io: OutputDir::commit")
-    }
-}
+#[cfg(test)]
+mod tests;
