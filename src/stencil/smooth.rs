@@ -140,7 +140,7 @@ fn apply_linear(st: &Stencil, a: &Array2<f64>, valid: &Array2<bool>) -> Array2<f
 /// The same kernel as scipy.ndimage.gaussian_filter with its default
 /// `truncate = 4.0`. `sigma_pitches <= 0` gives the identity.
 pub fn gaussian(sigma_pitches: f64) -> Stencil {
-    if !(sigma_pitches > 0.0) {
+    if sigma_pitches.is_nan() || sigma_pitches <= 0.0 {
         return identity();
     }
     let r = (4.0 * sigma_pitches + 0.5) as i32;
@@ -233,12 +233,14 @@ fn solve(mut a: Vec<Vec<f64>>, mut b: Vec<f64>) -> Vec<f64> {
             .unwrap();
         a.swap(col, p);
         b.swap(col, p);
-        for r in col + 1..n {
-            let f = a[r][col] / a[col][col];
-            for k in col..n {
-                a[r][k] -= f * a[col][k];
+        let (top, rest) = a.split_at_mut(col + 1);
+        let pivot = &top[col];
+        for (off, row) in rest.iter_mut().enumerate() {
+            let f = row[col] / pivot[col];
+            for (x, p) in row[col..].iter_mut().zip(&pivot[col..]) {
+                *x -= f * p;
             }
-            b[r] -= f * b[col];
+            b[col + 1 + off] -= f * b[col];
         }
     }
     let mut x = vec![0.0; n];
@@ -257,7 +259,7 @@ fn solve(mut a: Vec<Vec<f64>>, mut b: Vec<f64>) -> Vec<f64> {
 /// dropped and the rest rescaled to sum exactly 1 (the truncation removes
 /// less than 1e-5 of the sum). The kernel has small negative side lobes.
 pub fn pls_kernel(s: f64) -> Stencil {
-    if !(s > 0.0) {
+    if s.is_nan() || s <= 0.0 {
         return identity();
     }
     let r = ((24.0 * s.powf(0.25)).ceil() as usize + 4).min(256);
