@@ -2,11 +2,29 @@
 //! stencils, and the robust DCT penalized least squares of `fill::pls`
 //! seen through its equivalent kernel.
 //!
-//! STUB (skeleton): the smoothing owner replaces the `todo!()` bodies.
+//! Owns: building smoothing stencils, applying a smoother to one component
+//! of a field, and the linear stencil a smoother is equivalent to (so that
+//! derivatives compose with it and uncertainty propagates through the
+//! composite). Does not own: when smoothing runs (the plan and `derive`).
+//!
+//! # Edges and gaps (linear smoothers)
+//!
+//! At a node where every tap lands on a node with a value, the output is
+//! the stencil exactly (`equivalent_stencil` describes these nodes). Where
+//! taps fall outside the grid or on nodes without a value:
+//! - a non-negative kernel (Gaussian) is renormalised over the taps that
+//!   remain, `out = sum_used w f / sum_used w`, so a constant still passes
+//!   unchanged; the node is smoothed less symmetrically, not biased toward 0;
+//! - a kernel with negative weights (Savitzky-Golay of order >= 2) is not
+//!   renormalised, which would not be a least-squares fit: such a node keeps
+//!   its input value (unsmoothed).
+//!
+//! Nodes without a value (`valid` false) come out NaN: smoothing does not fill.
 
 use ndarray::Array2;
 
-use super::Stencil;
+use super::{Stencil, Tap};
+use crate::fill::pls::Pls;
 
 /// The smoother the plan chose, resolved.
 #[derive(Debug, Clone, PartialEq, Default)]
@@ -17,27 +35,267 @@ pub enum Smoother {
     /// A linear, normalised smoothing stencil (Gaussian, Savitzky-Golay).
     Linear(Stencil),
     /// DCT penalized least squares (Garcia 2010): `s` fixed, or chosen by
-    /// GCV per frame when `None`.
+    /// GCV per frame and component when `None`; `robust` adds bisquare
+    /// weights against outliers.
     Pls { s: Option<f64>, robust: bool },
 }
 
 impl Smoother {
     /// The smoothed copy of `a`; `valid` marks nodes that carry a value.
     pub fn apply(&self, a: &Array2<f64>, valid: &Array2<bool>) -> Array2<f64> {
-        let _ = valid;
+        self.apply_with_s(a, valid).0
+    }
+
+    /// As `apply`, also returning the PLS smoothing parameter used (given
+    /// or chosen by GCV); `None` for the other smoothers. With GCV, build
+    /// the stencil of this frame with `pls_kernel(s)`.
+    pub fn apply_with_s(
+        &self,
+        a: &Array2<f64>,
+        valid: &Array2<bool>,
+    ) -> (Array2<f64>, Option<f64>) {
+        let ok = |ix: (usize, usize)| valid[ix] && a[ix].is_finite();
         match self {
-            Smoother::None => a.clone(),
-            _ => todo!("smooth: apply"),
+            Smoother::None => (
+                Array2::from_shape_fn(a.dim(), |ix| if ok(ix) { a[ix] } else { f64::NAN }),
+                None,
+            ),
+            Smoother::Linear(st) => (apply_linear(st, a, valid), None),
+            Smoother::Pls { s, robust } => {
+                let (ny, nx) = a.dim();
+                let known: Vec<bool> = (0..ny * nx).map(|k| ok((k / nx, k % nx))).collect();
+                let y: Vec<f64> = (0..ny * nx)
+                    .map(|k| if known[k] { a[(k / nx, k % nx)] } else { 0.0 })
+                    .collect();
+                let nk = known.iter().filter(|&&k| k).count();
+                let mean = y.iter().sum::<f64>() / nk.max(1) as f64;
+                let z0: Vec<f64> = (0..ny * nx)
+                    .map(|k| if known[k] { y[k] } else { mean })
+                    .collect();
+                let out = Pls::new(ny, nx).smooth(&y, &known, &z0, *s, *robust);
+                let z = Array2::from_shape_fn((ny, nx), |(j, i)| {
+                    if known[j * nx + i] {
+                        out.z[j * nx + i]
+                    } else {
+                        f64::NAN
+                    }
+                });
+                (z, Some(out.s))
+            }
         }
     }
+
     /// The linear stencil that this smoother is (or, for PLS with a given s,
-    /// its equivalent interior kernel), for composing with derivatives and
-    /// propagating uncertainty; `None` for no smoothing.
+    /// its equivalent interior kernel, `pls_kernel(s)`), for composing with
+    /// derivatives and propagating uncertainty; `None` for no smoothing and
+    /// for PLS with s chosen by GCV (s differs per frame: use
+    /// `apply_with_s` and `pls_kernel`, or `pls_noise_factor`).
     pub fn equivalent_stencil(&self) -> Option<Stencil> {
         match self {
             Smoother::None => None,
             Smoother::Linear(s) => Some(s.clone()),
-            Smoother::Pls { .. } => todo!("smooth: PLS kernel"),
+            Smoother::Pls { s: Some(s), .. } => Some(pls_kernel(*s)),
+            Smoother::Pls { s: None, .. } => None,
         }
     }
 }
+
+/// Applies a linear stencil with the edge rules of the module docs.
+fn apply_linear(st: &Stencil, a: &Array2<f64>, valid: &Array2<bool>) -> Array2<f64> {
+    let (ny, nx) = a.dim();
+    let nonneg = st.taps.iter().all(|t| t.w >= 0.0);
+    Array2::from_shape_fn((ny, nx), |(j, i)| {
+        if !(valid[[j, i]] && a[[j, i]].is_finite()) {
+            return f64::NAN;
+        }
+        let (mut s, mut ws, mut complete) = (0.0, 0.0, true);
+        for t in &st.taps {
+            let (jj, ii) = (j as i64 + t.dj as i64, i as i64 + t.di as i64);
+            if jj < 0 || ii < 0 || jj >= ny as i64 || ii >= nx as i64 {
+                complete = false;
+                continue;
+            }
+            let ix = (jj as usize, ii as usize);
+            if !(valid[ix] && a[ix].is_finite()) {
+                complete = false;
+                continue;
+            }
+            s += t.w * a[ix];
+            ws += t.w;
+        }
+        if complete {
+            s
+        } else if nonneg && ws > 0.0 {
+            s / ws
+        } else {
+            a[[j, i]]
+        }
+    })
+}
+
+/// The Gaussian smoothing stencil of standard deviation `sigma_pitches`
+/// (in grid pitches, the same along x and y), truncated at 4 sigma on a
+/// square support of radius `r = floor(4 sigma + 0.5)` and normalised to
+/// sum 1; separable, `w = g(dj) g(di)` with `g(d) = exp(-d^2/(2 sigma^2))/sum`.
+/// The same kernel as scipy.ndimage.gaussian_filter with its default
+/// `truncate = 4.0`. `sigma_pitches <= 0` gives the identity.
+pub fn gaussian(sigma_pitches: f64) -> Stencil {
+    if sigma_pitches.is_nan() || sigma_pitches <= 0.0 {
+        return identity();
+    }
+    let r = (4.0 * sigma_pitches + 0.5) as i32;
+    let g: Vec<f64> = (-r..=r)
+        .map(|d| (-(d * d) as f64 / (2.0 * sigma_pitches * sigma_pitches)).exp())
+        .collect();
+    let sum: f64 = g.iter().sum();
+    let mut taps = Vec::with_capacity(g.len() * g.len());
+    for (a, gj) in (-r..=r).zip(&g) {
+        for (b, gi) in (-r..=r).zip(&g) {
+            taps.push(Tap {
+                dj: a,
+                di: b,
+                w: gj * gi / (sum * sum),
+            });
+        }
+    }
+    Stencil::new(taps)
+}
+
+fn identity() -> Stencil {
+    Stencil::new(vec![Tap {
+        dj: 0,
+        di: 0,
+        w: 1.0,
+    }])
+}
+
+/// The 2-D Savitzky-Golay smoothing stencil: the value at the centre of
+/// the least-squares fit of a polynomial of total degree <= `order` in
+/// (x, y) over the square window of `(2 half_width + 1)^2` nodes (common
+/// practice; the 2-D extension of Savitzky & Golay 1964). Weights are
+/// `w = e0^T (A^T A)^-1 A^T`, A the monomials at the window offsets. It
+/// reproduces every polynomial of degree <= `order` exactly and sums to 1;
+/// an odd order gives the same weights as the even order below it (the
+/// odd monomials vanish at the centre by symmetry).
+///
+/// Panics unless `half_width >= 1` and `order <= 2 half_width` (the plan
+/// checks these before calling).
+pub fn savitzky_golay(half_width: usize, order: usize) -> Stencil {
+    assert!(
+        half_width >= 1 && order <= 2 * half_width,
+        "savitzky_golay: need half_width >= 1 and order <= 2 half_width"
+    );
+    let m = half_width as i32;
+    let terms: Vec<(i32, i32)> = (0..=order as i32)
+        .flat_map(|d| (0..=d).map(move |b| (d - b, b)))
+        .collect();
+    let nt = terms.len();
+    let pts: Vec<(i32, i32)> = (-m..=m)
+        .flat_map(|j| (-m..=m).map(move |i| (j, i)))
+        .collect();
+    let row = |&(j, i): &(i32, i32)| -> Vec<f64> {
+        terms
+            .iter()
+            .map(|&(a, b)| (i as f64).powi(a) * (j as f64).powi(b))
+            .collect()
+    };
+    let rows: Vec<Vec<f64>> = pts.iter().map(row).collect();
+    // normal matrix A^T A and solve (A^T A) c = e0
+    let mut ata = vec![vec![0.0; nt]; nt];
+    for r in &rows {
+        for p in 0..nt {
+            for q in 0..nt {
+                ata[p][q] += r[p] * r[q];
+            }
+        }
+    }
+    let mut e0 = vec![0.0; nt];
+    e0[0] = 1.0;
+    let c = solve(ata, e0);
+    let taps = pts
+        .iter()
+        .zip(&rows)
+        .map(|(&(dj, di), r)| Tap {
+            dj,
+            di,
+            w: r.iter().zip(&c).map(|(a, b)| a * b).sum(),
+        })
+        .collect();
+    Stencil::new(taps)
+}
+
+/// Gaussian elimination with partial pivoting (small dense systems).
+fn solve(mut a: Vec<Vec<f64>>, mut b: Vec<f64>) -> Vec<f64> {
+    let n = b.len();
+    for col in 0..n {
+        let p = (col..n)
+            .max_by(|&x, &y| a[x][col].abs().total_cmp(&a[y][col].abs()))
+            .unwrap();
+        a.swap(col, p);
+        b.swap(col, p);
+        let (top, rest) = a.split_at_mut(col + 1);
+        let pivot = &top[col];
+        for (off, row) in rest.iter_mut().enumerate() {
+            let f = row[col] / pivot[col];
+            for (x, p) in row[col..].iter_mut().zip(&pivot[col..]) {
+                *x -= f * p;
+            }
+            b[col + 1 + off] -= f * b[col];
+        }
+    }
+    let mut x = vec![0.0; n];
+    for r in (0..n).rev() {
+        let s: f64 = (r + 1..n).map(|k| a[r][k] * x[k]).sum();
+        x[r] = (b[r] - s) / a[r][r];
+    }
+    x
+}
+
+/// The interior kernel of DCT-PLS smoothing with parameter `s`: a unit
+/// impulse at the centre of a grid of `(2R+1)^2` nodes, `R = ceil(24
+/// s^(1/4)) + 4` (at most 256; the kernel decays over about s^(1/4)
+/// pitches, so reflections from the grid ends are below 1e-6 of the peak),
+/// smoothed with all weights 1; taps with |w| < 1e-6 of the peak are
+/// dropped and the rest rescaled to sum exactly 1 (the truncation removes
+/// less than 1e-5 of the sum). The kernel has small negative side lobes.
+pub fn pls_kernel(s: f64) -> Stencil {
+    if s.is_nan() || s <= 0.0 {
+        return identity();
+    }
+    let r = ((24.0 * s.powf(0.25)).ceil() as usize + 4).min(256);
+    let n = 2 * r + 1;
+    let mut y = vec![0.0; n * n];
+    y[r * n + r] = 1.0;
+    let z = Pls::new(n, n).smooth_full(&y, s);
+    let peak = z[r * n + r].abs();
+    let mut taps: Vec<Tap> = Vec::new();
+    for j in 0..n {
+        for i in 0..n {
+            let w = z[j * n + i];
+            if w.abs() >= 1e-6 * peak {
+                taps.push(Tap {
+                    dj: j as i32 - r as i32,
+                    di: i as i32 - r as i32,
+                    w,
+                });
+            }
+        }
+    }
+    let sum: f64 = taps.iter().map(|t| t.w).sum();
+    taps.iter_mut().for_each(|t| t.w /= sum);
+    Stencil::new(taps)
+}
+
+/// Factor by which DCT-PLS with parameter `s` scales the standard deviation
+/// of white noise at interior nodes: `sqrt(sum w^2)` of `pls_kernel(s)`.
+pub fn pls_noise_factor(s: f64) -> f64 {
+    pls_kernel(s)
+        .taps
+        .iter()
+        .map(|t| t.w * t.w)
+        .sum::<f64>()
+        .sqrt()
+}
+
+#[cfg(test)]
+mod tests;

@@ -1,0 +1,186 @@
+use super::*;
+use crate::testutil::{assert_close, floats, python, rng};
+use rand::Rng;
+
+fn random(ny: usize, nx: usize, seed: u64) -> Array2<f64> {
+    let mut r = rng(seed);
+    Array2::from_shape_fn((ny, nx), |_| r.random_range(-1.0..1.0))
+}
+
+#[test]
+fn smoothing_a_constant_changes_nothing_with_edges_and_gaps() {
+    let (ny, nx) = (20, 25);
+    let a = Array2::from_elem((ny, nx), 0.75);
+    let mut valid = Array2::from_elem((ny, nx), true);
+    for k in (3..ny * nx).step_by(11) {
+        valid[(k / nx, k % nx)] = false;
+    }
+    let smoothers = [
+        Smoother::Linear(gaussian(1.5)),
+        Smoother::Linear(savitzky_golay(2, 2)),
+        Smoother::Linear(savitzky_golay(3, 4)),
+        Smoother::Pls {
+            s: Some(20.0),
+            robust: false,
+        },
+        Smoother::Pls {
+            s: None,
+            robust: true,
+        },
+    ];
+    for sm in &smoothers {
+        let z = sm.apply(&a, &valid);
+        for ((j, i), v) in z.indexed_iter() {
+            if valid[(j, i)] {
+                assert_close(*v, 0.75, 1e-12, 0.0, &format!("{sm:?} at ({j},{i})"));
+            } else {
+                assert!(v.is_nan());
+            }
+        }
+    }
+}
+
+/// Reference library: scipy.ndimage.gaussian_filter (truncate = 4.0, its
+/// default) at interior nodes, where the boundary mode does not enter.
+#[test]
+fn gaussian_matches_scipy_gaussian_filter_at_interior_nodes() {
+    let (ny, nx) = (30, 34);
+    let a = random(ny, nx, 61);
+    let text: String = a.iter().map(|x| format!("{x:.17e} ")).collect();
+    let prog = format!(
+        "import sys, numpy as np\nfrom scipy.ndimage import gaussian_filter\n\
+         a = np.array(sys.stdin.read().split(), float).reshape({ny}, {nx})\n\
+         for s in (0.8, 1.3, 2.0):\n    print(' '.join('%.17e' % x for x in gaussian_filter(a, s).ravel()))"
+    );
+    let out = python(&prog, &text);
+    for (sigma, line) in [0.8, 1.3, 2.0].into_iter().zip(out.lines()) {
+        let want = floats(line);
+        let st = gaussian(sigma);
+        let r = (4.0 * sigma + 0.5) as usize;
+        assert_eq!(st.reach(), (r, r));
+        let z = Smoother::Linear(st).apply(&a, &Array2::from_elem((ny, nx), true));
+        for j in r..ny - r {
+            for i in r..nx - r {
+                assert_close(
+                    z[(j, i)],
+                    want[j * nx + i],
+                    1e-10,
+                    0.0,
+                    &format!("sigma {sigma} ({j},{i})"),
+                );
+            }
+        }
+    }
+}
+
+/// Reference library: numpy.linalg.pinv of the monomial matrix (first row
+/// of the pseudo-inverse gives the centre value of the fit).
+#[test]
+fn savitzky_golay_weights_match_numpy_least_squares() {
+    for (m, p) in [(1usize, 1usize), (2, 2), (2, 3), (3, 4)] {
+        let prog = format!(
+            "import numpy as np\nm, p = {m}, {p}\n\
+             pts = [(j, i) for j in range(-m, m + 1) for i in range(-m, m + 1)]\n\
+             terms = [(d - b, b) for d in range(p + 1) for b in range(d + 1)]\n\
+             A = np.array([[i**a * j**b for (a, b) in terms] for (j, i) in pts], float)\n\
+             print(' '.join('%.17e' % x for x in np.linalg.pinv(A)[0]))"
+        );
+        let want = floats(&python(&prog, ""));
+        let st = savitzky_golay(m, p);
+        let side = 2 * m + 1;
+        let mut got = vec![0.0; side * side];
+        for t in &st.taps {
+            got[(t.dj + m as i32) as usize * side + (t.di + m as i32) as usize] = t.w;
+        }
+        for (k, (g, w)) in got.iter().zip(&want).enumerate() {
+            assert_close(*g, *w, 1e-12, 0.0, &format!("m {m} p {p} tap {k}"));
+        }
+    }
+}
+
+#[test]
+fn savitzky_golay_reproduces_polynomials_of_its_order() {
+    let st = savitzky_golay(2, 3);
+    let f = |x: f64, y: f64| 1.0 + 0.5 * x - 0.3 * y + 0.2 * x * x - 0.1 * x * y + 0.05 * y * y * y;
+    let (x0, y0) = (3.0, -2.0);
+    let s: f64 = st
+        .taps
+        .iter()
+        .map(|t| t.w * f(x0 + t.di as f64, y0 + t.dj as f64))
+        .sum();
+    assert_close(s, f(x0, y0), 1e-11, 0.0, "cubic reproduced");
+}
+
+#[test]
+fn pls_kernel_reproduces_the_solver_in_the_interior_and_sums_to_one() {
+    let s = 3.0;
+    let st = pls_kernel(s);
+    assert_close(
+        st.taps.iter().map(|t| t.w).sum::<f64>(),
+        1.0,
+        1e-13,
+        0.0,
+        "sum",
+    );
+    let (ny, nx) = (120, 120);
+    let a = random(ny, nx, 62);
+    let z = Pls::new(ny, nx).smooth_full(a.as_slice().unwrap(), s);
+    let (rj, ri) = st.reach();
+    for (j, i) in [(60, 60), (55, 70), (64, 48)] {
+        let mut v = 0.0;
+        for t in &st.taps {
+            v += t.w * a[((j as i32 + t.dj) as usize, (i as i32 + t.di) as usize)];
+        }
+        assert!(rj < 50 && ri < 50);
+        assert_close(v, z[j * nx + i], 1e-5, 0.0, "kernel vs solver");
+    }
+    assert_eq!(
+        Smoother::Pls {
+            s: Some(s),
+            robust: false
+        }
+        .equivalent_stencil(),
+        Some(st)
+    );
+    assert!(Smoother::Pls {
+        s: None,
+        robust: false
+    }
+    .equivalent_stencil()
+    .is_none());
+}
+
+/// White-noise factor against the spectral formula (derived, Parseval):
+/// sum w^2 = mean over wavenumbers of G^2, G = 1/(1 + s L^2),
+/// L = -4 sin^2(kx/2) - 4 sin^2(ky/2).
+#[test]
+fn pls_noise_factor_matches_the_spectral_integral() {
+    for s in [0.5, 10.0] {
+        let n = 400;
+        let mut m = 0.0;
+        for a in 0..n {
+            for b in 0..n {
+                let kx = std::f64::consts::PI * (a as f64 + 0.5) / n as f64;
+                let ky = std::f64::consts::PI * (b as f64 + 0.5) / n as f64;
+                let l = -4.0 * (kx / 2.0).sin().powi(2) - 4.0 * (ky / 2.0).sin().powi(2);
+                m += (1.0 / (1.0 + s * l * l)).powi(2);
+            }
+        }
+        m /= (n * n) as f64;
+        assert_close(pls_noise_factor(s), m.sqrt(), 0.0, 2e-3, &format!("s {s}"));
+    }
+}
+
+#[test]
+fn gaussian_at_edges_is_renormalised_and_sg_keeps_the_input() {
+    // a linear ramp: the renormalised Gaussian at the left edge is pulled
+    // toward the interior (mean of the taps inside), SG keeps the value
+    let a = Array2::from_shape_fn((9, 9), |(_, i)| i as f64);
+    let valid = Array2::from_elem((9, 9), true);
+    let g = Smoother::Linear(gaussian(1.0)).apply(&a, &valid);
+    assert!(g[(4, 0)] > 0.0 && g[(4, 0)] < 1.0, "{}", g[(4, 0)]);
+    assert_close(g[(4, 4)], 4.0, 1e-12, 0.0, "interior of a ramp");
+    let sg = Smoother::Linear(savitzky_golay(2, 2)).apply(&a, &valid);
+    assert_eq!(sg[(4, 0)], 0.0);
+    assert_close(sg[(4, 4)], 4.0, 1e-12, 0.0, "interior of a ramp");
+}
