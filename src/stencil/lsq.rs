@@ -86,7 +86,12 @@ impl PolyFit {
     /// The least-squares fit of total degree `degree` to the nodes at
     /// `offsets`; `None` when the nodes do not determine it.
     pub fn new(offsets: Vec<(i32, i32)>, degree: u32) -> Option<PolyFit> {
-        let terms = monomials(degree);
+        PolyFit::with_terms(offsets, monomials(degree))
+    }
+
+    /// The least-squares fit of the monomials `terms` (`(p, q)` for
+    /// `x^p y^q`); `None` when the nodes do not determine it.
+    pub fn with_terms(offsets: Vec<(i32, i32)>, terms: Vec<(u32, u32)>) -> Option<PolyFit> {
         let nt = terms.len();
         if offsets.len() < nt {
             return None;

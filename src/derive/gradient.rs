@@ -1,0 +1,454 @@
+//! The velocity-gradient tensor of one snapshot for one scheme, with the
+//! propagated variance and the truncation estimate of every component.
+//!
+//! Owns: applying a scheme's derivative stencils at every node (the fast
+//! path for interior nodes, the fallback chain for edge and mask nodes),
+//! propagating per-vector uncertainty through the stencil actually applied
+//! (composed with the smoother), and the truncation estimate.
+//! Does not own: the stencils (`stencil`), the quantities built from the
+//! tensor (`quantities`).
+//!
+//! Components: `a = du/dx, b = du/dy, c = dv/dx, d = dv/dy`, in 1/s.
+//!
+//! Values: the derivative stencil applied to the (smoothed) velocity.
+//! Uncertainty: the derivative stencil composed with the smoother's
+//! equivalent stencil (`Stencil::after`), propagated with GUM eq. 13 and the
+//! error-correlation model; never through the two pieces separately. Near
+//! an edge or mask, where the smoother's stencil is cut, the model is the
+//! smoother restricted to the nodes with values and renormalised to unit
+//! sum at each node the derivative uses.
+//!
+//! Truncation (bias) estimate: a local polynomial of degree 5 is fitted by
+//! least squares around the node (9 nodes along the axis for a 1-D stencil,
+//! 7 x 7 for a 2-D one such as circulation or a smoothed composite; wider
+//! when the stencil reaches farther). For a stencil T approximating d/dx,
+//! `bias = T[p] - dp/dx(0)`: the stencil's error on the fitted polynomial.
+//! It is exact for polynomial fields up to degree 5 and is itself a linear
+//! stencil of the data, so its noise variance `bvar` is known and the
+//! caller can remove it (`quantities::debias`). Where fewer nodes than the
+//! fit needs carry values, the degree drops to 3; below that the estimate
+//! is NaN.
+
+use std::collections::HashMap;
+
+use ndarray::Array2;
+
+use crate::stencil::correlation::Correlation;
+use crate::stencil::derivatives::{chain, Axis, DiffScheme};
+use crate::stencil::lsq::PolyFit;
+use crate::stencil::{Stencil, Tap};
+
+/// One scheme's gradient tensor: `[a, b, c, d]` each.
+#[derive(Debug, Clone)]
+pub struct Grad {
+    pub val: [Array2<f64>; 4],
+    /// Propagated variance of each component.
+    pub var: [Array2<f64>; 4],
+    /// Signed truncation estimate (NaN where none could be made).
+    pub bias: [Array2<f64>; 4],
+    /// Noise variance of the truncation estimate.
+    pub bvar: [Array2<f64>; 4],
+    /// Nodes where the x or the y stencil is a fallback, not the scheme's own.
+    pub fallback: usize,
+}
+
+/// What every scheme's pass reads.
+pub struct Inputs<'a> {
+    /// Nodes with a value.
+    pub ok: &'a Array2<bool>,
+    /// The velocity the derivatives are taken of (smoothed when smoothing).
+    pub us: &'a Array2<f64>,
+    pub vs: &'a Array2<f64>,
+    /// The velocity as measured (the truncation fit uses it).
+    pub u: &'a Array2<f64>,
+    pub v: &'a Array2<f64>,
+    /// Per-vector standard uncertainties.
+    pub sig_u: &'a Array2<f64>,
+    pub sig_v: &'a Array2<f64>,
+    pub corr: Correlation,
+    /// The smoother's equivalent stencil (normalised to unit sum), if any.
+    pub smoother: Option<&'a Stencil>,
+    /// Counts of "not plain" nodes (no value, or an uncertainty other than
+    /// `sig_ref`) as a summed-area table of shape (ny+1, nx+1).
+    pub not_plain: &'a Array2<u32>,
+    /// The uncertainty of plain nodes (u, v).
+    pub sig_ref: (f64, f64),
+    pub dx: f64,
+    pub dy: f64,
+    pub truncation: bool,
+}
+
+/// A stencil flattened to linear offsets for a row-major `(ny, nx)` array.
+struct Flat {
+    off: Vec<isize>,
+    w: Vec<f64>,
+}
+
+impl Flat {
+    fn new(s: &Stencil, nx: usize) -> Flat {
+        Flat {
+            off: s
+                .taps
+                .iter()
+                .map(|t| t.dj as isize * nx as isize + t.di as isize)
+                .collect(),
+            w: s.taps.iter().map(|t| t.w).collect(),
+        }
+    }
+    #[inline]
+    fn apply(&self, a: &[f64], k: usize) -> f64 {
+        let mut s = 0.0;
+        for (o, w) in self.off.iter().zip(&self.w) {
+            s += w * a[(k as isize + o) as usize];
+        }
+        s
+    }
+}
+
+/// One axis of one scheme, with everything precomputed for the interior.
+struct AxisOp {
+    axis: Axis,
+    h: f64,
+    chain: Vec<Stencil>,
+    /// `chain[k]` composed with the smoother (or `chain[k]` itself).
+    comp: Vec<Stencil>,
+    gain: Vec<f64>,
+    /// Interior truncation stencil of `comp[k]` and its correlation gain.
+    bias: Vec<Option<(Stencil, f64)>>,
+    /// Half-widths (along y, along x) of the truncation fit window.
+    fit_half: Vec<(i32, i32)>,
+    flat_d: Flat,
+    flat_b: Option<Flat>,
+    /// Half-widths of the box that must be plain for the fast path.
+    box_r: (usize, usize),
+}
+
+const FIT_DEGREE: u32 = 5;
+const FIT_DEGREE_LOW: u32 = 3;
+
+/// Half-widths of the fit window for a stencil of the given reach.
+fn fit_half(reach: (usize, usize)) -> (i32, i32) {
+    let (ry, rx) = (reach.0 as i32, reach.1 as i32);
+    match (ry, rx) {
+        (0, r) => (0, (r + 2).max(4)),
+        (r, 0) => ((r + 2).max(4), 0),
+        (a, b) => ((a + 1).max(3), (b + 1).max(3)),
+    }
+}
+
+/// Monomials of total degree <= `deg` that a window of half-widths `half`
+/// can determine (no y terms in a one-row window).
+fn terms(deg: u32, half: (i32, i32)) -> Vec<(u32, u32)> {
+    crate::stencil::lsq::monomials(deg)
+        .into_iter()
+        .filter(|&(p, q)| (q == 0 || half.0 > 0) && (p == 0 || half.1 > 0))
+        .collect()
+}
+
+/// `T[p] - dp/daxis(0)` as a stencil of the data, for the fit on `offsets`.
+fn bias_stencil(
+    t: &Stencil,
+    axis: Axis,
+    h: f64,
+    offsets: Vec<(i32, i32)>,
+    half: (i32, i32),
+) -> Option<Stencil> {
+    let n = offsets.len();
+    for deg in [FIT_DEGREE, FIT_DEGREE_LOW] {
+        let tm = terms(deg, half);
+        if n < tm.len() + 2 {
+            continue;
+        }
+        if let Some(fit) = PolyFit::with_terms(offsets.clone(), tm) {
+            let (p, q) = match axis {
+                Axis::X => (1, 0),
+                Axis::Y => (0, 1),
+            };
+            let mut taps: Vec<Tap> = Vec::new();
+            for tap in &t.taps {
+                taps.extend(fit.value_at(tap.dj, tap.di).scaled(tap.w).taps);
+            }
+            let d = fit.coefficient(p, q)?.scaled(-1.0 / h);
+            taps.extend(d.taps);
+            return Some(Stencil::new(taps));
+        }
+    }
+    None
+}
+
+fn window(half: (i32, i32)) -> Vec<(i32, i32)> {
+    (-half.0..=half.0)
+        .flat_map(|j| (-half.1..=half.1).map(move |i| (j, i)))
+        .collect()
+}
+
+impl AxisOp {
+    fn new(scheme: DiffScheme, axis: Axis, inp: &Inputs, nx: usize) -> AxisOp {
+        let h = match axis {
+            Axis::X => inp.dx,
+            Axis::Y => inp.dy,
+        };
+        let chain = chain(scheme, axis, h);
+        let comp: Vec<Stencil> = chain
+            .iter()
+            .map(|d| inp.smoother.map_or_else(|| d.clone(), |s| d.after(s)))
+            .collect();
+        let gain = comp.iter().map(|c| inp.corr.gain(c)).collect();
+        let fit_half: Vec<(i32, i32)> = comp.iter().map(|c| fit_half(c.reach())).collect();
+        let bias: Vec<Option<(Stencil, f64)>> = comp
+            .iter()
+            .zip(&fit_half)
+            .map(|(c, &fh)| {
+                if !inp.truncation {
+                    return None;
+                }
+                bias_stencil(c, axis, h, window(fh), fh).map(|b| {
+                    let g = inp.corr.gain(&b);
+                    (b, g)
+                })
+            })
+            .collect();
+        let flat_d = Flat::new(&chain[0], nx);
+        let flat_b = bias[0].as_ref().map(|(b, _)| Flat::new(b, nx));
+        let mut r = chain[0].reach();
+        for s in [Some(&comp[0]), bias[0].as_ref().map(|b| &b.0)]
+            .into_iter()
+            .flatten()
+        {
+            let q = s.reach();
+            r = (r.0.max(q.0), r.1.max(q.1));
+        }
+        AxisOp {
+            axis,
+            h,
+            chain,
+            comp,
+            gain,
+            bias,
+            fit_half,
+            flat_d,
+            flat_b,
+            box_r: r,
+        }
+    }
+}
+
+/// True when the box of half-widths `r` around `(j, i)` lies inside the grid
+/// and holds no node that is not plain.
+#[inline]
+fn box_plain(sat: &Array2<u32>, j: usize, i: usize, r: (usize, usize)) -> bool {
+    let (ny1, nx1) = sat.dim();
+    if j < r.0 || i < r.1 || j + r.0 + 1 >= ny1 || i + r.1 + 1 >= nx1 {
+        return false;
+    }
+    let (j0, j1, i0, i1) = (j - r.0, j + r.0 + 1, i - r.1, i + r.1 + 1);
+    sat[[j1, i1]] + sat[[j0, i0]] == sat[[j0, i1]] + sat[[j1, i0]]
+}
+
+/// The summed-area table of `bad` (shape (ny+1, nx+1)).
+pub fn summed_area(bad: &Array2<bool>) -> Array2<u32> {
+    let (ny, nx) = bad.dim();
+    let mut s = Array2::<u32>::zeros((ny + 1, nx + 1));
+    for j in 0..ny {
+        let mut row = 0u32;
+        for i in 0..nx {
+            row += bad[[j, i]] as u32;
+            s[[j + 1, i + 1]] = s[[j, i + 1]] + row;
+        }
+    }
+    s
+}
+
+/// A bit mask of which nodes in the box of half-widths `r` around `(j, i)`
+/// carry values (out-of-grid nodes count as without), or `None` when the
+/// box has more than 128 nodes.
+fn pattern(ok: &Array2<bool>, j: usize, i: usize, r: (i32, i32)) -> Option<u128> {
+    let n = ((2 * r.0 + 1) * (2 * r.1 + 1)) as usize;
+    if n > 128 {
+        return None;
+    }
+    let (ny, nx) = ok.dim();
+    let mut m = 0u128;
+    let mut bit = 0;
+    for dj in -r.0..=r.0 {
+        for di in -r.1..=r.1 {
+            let (jj, ii) = (j as i64 + dj as i64, i as i64 + di as i64);
+            if jj >= 0
+                && ii >= 0
+                && (jj as usize) < ny
+                && (ii as usize) < nx
+                && ok[[jj as usize, ii as usize]]
+            {
+                m |= 1 << bit;
+            }
+            bit += 1;
+        }
+    }
+    Some(m)
+}
+
+/// The smoother restricted to the nodes with values around `(j, i)`,
+/// renormalised to unit sum; `None` when no tap has a value.
+pub fn restricted(s: &Stencil, ok: &Array2<bool>, j: usize, i: usize) -> Option<Stencil> {
+    let (ny, nx) = ok.dim();
+    let inside = |t: &Tap| {
+        let (jj, ii) = (j as i64 + t.dj as i64, i as i64 + t.di as i64);
+        jj >= 0
+            && ii >= 0
+            && (jj as usize) < ny
+            && (ii as usize) < nx
+            && ok[[jj as usize, ii as usize]]
+    };
+    let taps: Vec<Tap> = s.taps.iter().filter(|t| inside(t)).copied().collect();
+    let sum: f64 = taps.iter().map(|t| t.w).sum();
+    if taps.is_empty() || sum.abs() < 1e-12 {
+        return None;
+    }
+    Some(Stencil::new(taps).scaled(1.0 / sum))
+}
+
+/// Slow-path caches, keyed by (axis, chain index, validity pattern).
+#[derive(Default)]
+struct Caches {
+    comp: HashMap<(u8, usize, u128), Option<(Stencil, f64)>>,
+    bias: HashMap<(u8, usize, u128), Option<(Stencil, f64)>>,
+}
+
+/// The gradient tensor of `scheme` at every node.
+pub fn gradient(scheme: DiffScheme, inp: &Inputs) -> Grad {
+    let (ny, nx) = inp.ok.dim();
+    let nan = || Array2::from_elem((ny, nx), f64::NAN);
+    let mut g = Grad {
+        val: [nan(), nan(), nan(), nan()],
+        var: [nan(), nan(), nan(), nan()],
+        bias: [nan(), nan(), nan(), nan()],
+        bvar: [nan(), nan(), nan(), nan()],
+        fallback: 0,
+    };
+    let ops = [
+        AxisOp::new(scheme, Axis::X, inp, nx),
+        AxisOp::new(scheme, Axis::Y, inp, nx),
+    ];
+    let us = inp.us.as_slice().expect("standard layout");
+    let vs = inp.vs.as_slice().expect("standard layout");
+    let u = inp.u.as_slice().expect("standard layout");
+    let v = inp.v.as_slice().expect("standard layout");
+    let (ru2, rv2) = (inp.sig_ref.0 * inp.sig_ref.0, inp.sig_ref.1 * inp.sig_ref.1);
+    let mut caches = Caches::default();
+    for j in 0..ny {
+        for i in 0..nx {
+            if !inp.ok[[j, i]] {
+                continue;
+            }
+            let k = j * nx + i;
+            let mut fell_back = false;
+            for (ax, op) in ops.iter().enumerate() {
+                // Component slots: x -> (a, c), y -> (b, d).
+                let (su, sv) = if ax == 0 { (0, 2) } else { (1, 3) };
+                if box_plain(inp.not_plain, j, i, op.box_r) {
+                    g.val[su][[j, i]] = op.flat_d.apply(us, k);
+                    g.val[sv][[j, i]] = op.flat_d.apply(vs, k);
+                    g.var[su][[j, i]] = op.gain[0] * ru2;
+                    g.var[sv][[j, i]] = op.gain[0] * rv2;
+                    if let (Some(fb), Some((_, bg))) = (&op.flat_b, &op.bias[0]) {
+                        g.bias[su][[j, i]] = fb.apply(u, k);
+                        g.bias[sv][[j, i]] = fb.apply(v, k);
+                        g.bvar[su][[j, i]] = bg * ru2;
+                        g.bvar[sv][[j, i]] = bg * rv2;
+                    }
+                    continue;
+                }
+                let Some(c) = op.chain.iter().position(|s| s.fits(j, i, inp.ok)) else {
+                    fell_back = true;
+                    continue;
+                };
+                fell_back |= c > 0;
+                let d = &op.chain[c];
+                g.val[su][[j, i]] = d.apply_at(inp.us, j, i);
+                g.val[sv][[j, i]] = d.apply_at(inp.vs, j, i);
+                // The stencil actually applied, composed with the smoother.
+                let comp = if op.comp[c].fits(j, i, inp.ok) {
+                    Some((op.comp[c].clone(), op.gain[c]))
+                } else {
+                    let key = pattern(inp.ok, j, i, reach_i32(op.comp[c].reach()))
+                        .map(|m| (ax as u8, c, m));
+                    let make = || {
+                        effective_composite(d, inp, j, i).map(|s| {
+                            let g = inp.corr.gain(&s);
+                            (s, g)
+                        })
+                    };
+                    match key {
+                        Some(key) => caches.comp.entry(key).or_insert_with(make).clone(),
+                        None => make(),
+                    }
+                };
+                if let Some((s, gain)) = &comp {
+                    g.var[su][[j, i]] = inp.corr.variance_at(s, *gain, inp.sig_u, j, i);
+                    g.var[sv][[j, i]] = inp.corr.variance_at(s, *gain, inp.sig_v, j, i);
+                }
+                if !inp.truncation {
+                    continue;
+                }
+                let bias = match &op.bias[c] {
+                    Some((b, bg)) if b.fits(j, i, inp.ok) => Some((b.clone(), *bg)),
+                    _ => {
+                        let fh = op.fit_half[c];
+                        let key = pattern(inp.ok, j, i, fh).map(|m| (ax as u8, c, m));
+                        let comp_s = comp.as_ref().map_or(&op.comp[c], |(s, _)| s);
+                        let make = || {
+                            let offs: Vec<(i32, i32)> = window(fh)
+                                .into_iter()
+                                .filter(|&(dj, di)| in_ok(inp.ok, j, i, dj, di))
+                                .collect();
+                            bias_stencil(comp_s, op.axis, op.h, offs, fh).map(|b| {
+                                let g = inp.corr.gain(&b);
+                                (b, g)
+                            })
+                        };
+                        match key {
+                            Some(key) => caches.bias.entry(key).or_insert_with(make).clone(),
+                            None => make(),
+                        }
+                    }
+                };
+                if let Some((b, bg)) = &bias {
+                    g.bias[su][[j, i]] = b.apply_at(inp.u, j, i);
+                    g.bias[sv][[j, i]] = b.apply_at(inp.v, j, i);
+                    g.bvar[su][[j, i]] = inp.corr.variance_at(b, *bg, inp.sig_u, j, i);
+                    g.bvar[sv][[j, i]] = inp.corr.variance_at(b, *bg, inp.sig_v, j, i);
+                }
+            }
+            g.fallback += fell_back as usize;
+        }
+    }
+    g
+}
+
+fn reach_i32(r: (usize, usize)) -> (i32, i32) {
+    (r.0 as i32, r.1 as i32)
+}
+
+#[inline]
+fn in_ok(ok: &Array2<bool>, j: usize, i: usize, dj: i32, di: i32) -> bool {
+    let (ny, nx) = ok.dim();
+    let (jj, ii) = (j as i64 + dj as i64, i as i64 + di as i64);
+    jj >= 0 && ii >= 0 && (jj as usize) < ny && (ii as usize) < nx && ok[[jj as usize, ii as usize]]
+}
+
+/// The derivative `d` applied to the smoothed field near an edge or mask:
+/// `sum_t w_t S_restricted(node + t)`, moved to the node's frame. `None`
+/// without a smoother is never asked for (the plain stencil fits).
+fn effective_composite(d: &Stencil, inp: &Inputs, j: usize, i: usize) -> Option<Stencil> {
+    let s = inp.smoother?;
+    let mut taps = Vec::new();
+    for t in &d.taps {
+        let (jj, ii) = (
+            (j as i64 + t.dj as i64) as usize,
+            (i as i64 + t.di as i64) as usize,
+        );
+        let r = restricted(s, inp.ok, jj, ii)?;
+        taps.extend(r.shifted(t.dj, t.di).scaled(t.w).taps);
+    }
+    Some(Stencil::new(taps))
+}
