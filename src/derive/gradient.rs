@@ -29,7 +29,11 @@
 //! fit needs carry values, the degree drops to 3; below that the estimate
 //! is NaN.
 
+use std::cell::RefCell;
+use std::collections::hash_map::DefaultHasher;
 use std::collections::HashMap;
+use std::hash::{BuildHasherDefault, Hash, Hasher};
+use std::rc::Rc;
 
 use ndarray::Array2;
 
@@ -110,11 +114,16 @@ struct AxisOp {
     axis: Axis,
     h: f64,
     chain: Vec<Stencil>,
-    /// `chain[k]` composed with the smoother (or `chain[k]` itself).
-    comp: Vec<Stencil>,
-    gain: Vec<f64>,
+    /// `chain[k]` composed with the smoother (or `chain[k]` itself), with
+    /// its correlation gain.
+    comp: Vec<Shared>,
+    /// Half-widths of the box the composite depends on.
+    comp_box: Vec<(i32, i32)>,
     /// Interior truncation stencil of `comp[k]` and its correlation gain.
-    bias: Vec<Option<(Stencil, f64)>>,
+    bias: Vec<Option<Shared>>,
+    /// Cache fingerprints of `comp[k]` (slow paths).
+    fp_comp: Vec<u64>,
+    fp_bias: Vec<u64>,
     /// Half-widths (along y, along x) of the truncation fit window.
     fit_half: Vec<(i32, i32)>,
     flat_d: Flat,
@@ -193,9 +202,21 @@ impl AxisOp {
             .iter()
             .map(|d| inp.smoother.map_or_else(|| d.clone(), |s| d.after(s)))
             .collect();
-        let gain = comp.iter().map(|c| inp.corr.gain(c)).collect();
-        let fit_half: Vec<(i32, i32)> = comp.iter().map(|c| fit_half(c.reach())).collect();
-        let bias: Vec<Option<(Stencil, f64)>> = comp
+        let sr = inp.smoother.map_or((0, 0), |s| s.reach());
+        let comp_box: Vec<(i32, i32)> = chain
+            .iter()
+            .map(|d| {
+                let r = d.reach();
+                ((r.0 + sr.0) as i32, (r.1 + sr.1) as i32)
+            })
+            .collect();
+        // The fit window covers the box the composite depends on, so the
+        // fit window's validity pattern determines the whole slow path.
+        let fit_half: Vec<(i32, i32)> = comp_box
+            .iter()
+            .map(|&(a, b)| fit_half((a as usize, b as usize)))
+            .collect();
+        let bias: Vec<Option<Shared>> = comp
             .iter()
             .zip(&fit_half)
             .map(|(c, &fh)| {
@@ -204,12 +225,23 @@ impl AxisOp {
                 }
                 bias_stencil(c, axis, h, window(fh), fh).map(|b| {
                     let g = inp.corr.gain(&b);
-                    (b, g)
+                    Rc::new((b, g))
                 })
             })
             .collect();
+        let ax = axis as u64;
+        let sm_fp = inp.smoother.map_or(0, |s| fingerprint(0, s, &[]));
+        let fp_comp = chain
+            .iter()
+            .map(|d| fingerprint(1, d, &[ax, sm_fp]))
+            .collect();
+        let fp_bias = comp
+            .iter()
+            .zip(&fit_half)
+            .map(|(c, fh)| fingerprint(2, c, &[ax, h.to_bits(), fh.0 as u64, fh.1 as u64]))
+            .collect();
         let flat_d = Flat::new(&chain[0], nx);
-        let flat_b = bias[0].as_ref().map(|(b, _)| Flat::new(b, nx));
+        let flat_b = bias[0].as_ref().map(|b| Flat::new(&b.0, nx));
         let mut r = chain[0].reach();
         for s in [Some(&comp[0]), bias[0].as_ref().map(|b| &b.0)]
             .into_iter()
@@ -218,13 +250,22 @@ impl AxisOp {
             let q = s.reach();
             r = (r.0.max(q.0), r.1.max(q.1));
         }
+        let comp = comp
+            .into_iter()
+            .map(|c| {
+                let g = inp.corr.gain(&c);
+                Rc::new((c, g))
+            })
+            .collect();
         AxisOp {
             axis,
             h,
             chain,
             comp,
-            gain,
+            comp_box,
             bias,
+            fp_comp,
+            fp_bias,
             fit_half,
             flat_d,
             flat_b,
@@ -307,11 +348,101 @@ pub fn restricted(s: &Stencil, ok: &Array2<bool>, j: usize, i: usize) -> Option<
     Some(Stencil::new(taps).scaled(1.0 / sum))
 }
 
-/// Slow-path caches, keyed by (axis, chain index, validity pattern).
+/// A stencil with its correlation gain, shared between nodes.
+type Shared = Rc<(Stencil, f64)>;
+
+thread_local! {
+    /// Slow-path stencils by (fingerprint of what they are made from,
+    /// validity pattern around the node). Edge and mask patterns repeat
+    /// from node to node and from frame to frame, so each fit is made once
+    /// per thread. Cleared when it grows past `CACHE_MAX` entries.
+    static CACHE: RefCell<HashMap<(u64, u128), Option<Shared>, BuildHasherDefault<KeyHasher>>> =
+        RefCell::new(HashMap::default());
+}
+
+/// A cheap hasher for the cache keys, which are already well-mixed
+/// fingerprints and bit patterns (SipHash would dominate the slow path).
 #[derive(Default)]
-struct Caches {
-    comp: HashMap<(u8, usize, u128), Option<(Stencil, f64)>>,
-    bias: HashMap<(u8, usize, u128), Option<(Stencil, f64)>>,
+struct KeyHasher(u64);
+
+impl Hasher for KeyHasher {
+    fn finish(&self) -> u64 {
+        self.0
+    }
+    fn write(&mut self, bytes: &[u8]) {
+        for chunk in bytes.chunks(8) {
+            let mut b = [0u8; 8];
+            b[..chunk.len()].copy_from_slice(chunk);
+            self.0 = (self.0.rotate_left(5) ^ u64::from_le_bytes(b))
+                .wrapping_mul(0x51_7c_c1_b7_27_22_0a_95);
+        }
+    }
+}
+const CACHE_MAX: usize = 200_000;
+
+fn cached(
+    key: Option<(u64, u128)>,
+    make: impl FnOnce() -> Option<Stencil>,
+    corr: &Correlation,
+) -> Option<Shared> {
+    let build = |s: Stencil| {
+        let g = corr.gain(&s);
+        Rc::new((s, g))
+    };
+    let Some(key) = key else {
+        return make().map(build);
+    };
+    CACHE.with(|c| {
+        if let Some(hit) = c.borrow().get(&key) {
+            return hit.clone();
+        }
+        let v = make().map(build);
+        let mut c = c.borrow_mut();
+        if c.len() >= CACHE_MAX {
+            c.clear();
+        }
+        c.insert(key, v.clone());
+        v
+    })
+}
+
+thread_local! {
+    /// The axis operators made so far on this thread: building one fits a
+    /// polynomial per fallback stencil, which frames of one run share.
+    static OPS: RefCell<HashMap<u64, Rc<AxisOp>>> = RefCell::new(HashMap::new());
+}
+
+/// The (cached) operator of `scheme` along `axis` for these inputs.
+fn axis_op(scheme: DiffScheme, axis: Axis, inp: &Inputs, nx: usize) -> Rc<AxisOp> {
+    let mut h = DefaultHasher::new();
+    format!("{scheme:?}{axis:?}{:?}{}", inp.corr, inp.truncation).hash(&mut h);
+    (inp.dx.to_bits(), inp.dy.to_bits(), nx).hash(&mut h);
+    let sm = inp.smoother.map_or(0, |s| fingerprint(0, s, &[]));
+    sm.hash(&mut h);
+    let key = h.finish();
+    OPS.with(|c| {
+        if let Some(op) = c.borrow().get(&key) {
+            return op.clone();
+        }
+        let op = Rc::new(AxisOp::new(scheme, axis, inp, nx));
+        let mut c = c.borrow_mut();
+        if c.len() > 64 {
+            c.clear();
+        }
+        c.insert(key, op.clone());
+        op
+    })
+}
+
+/// A fingerprint of a stencil and the context it is used in.
+fn fingerprint(tag: u8, s: &Stencil, extra: &[u64]) -> u64 {
+    let mut h = DefaultHasher::new();
+    tag.hash(&mut h);
+    for t in &s.taps {
+        (t.dj, t.di, t.w.to_bits()).hash(&mut h);
+    }
+    extra.hash(&mut h);
+    h.finish()
 }
 
 /// The gradient tensor of `scheme` at every node.
@@ -326,15 +457,15 @@ pub fn gradient(scheme: DiffScheme, inp: &Inputs) -> Grad {
         fallback: 0,
     };
     let ops = [
-        AxisOp::new(scheme, Axis::X, inp, nx),
-        AxisOp::new(scheme, Axis::Y, inp, nx),
+        axis_op(scheme, Axis::X, inp, nx),
+        axis_op(scheme, Axis::Y, inp, nx),
     ];
+    let ops = [&*ops[0], &*ops[1]];
     let us = inp.us.as_slice().expect("standard layout");
     let vs = inp.vs.as_slice().expect("standard layout");
     let u = inp.u.as_slice().expect("standard layout");
     let v = inp.v.as_slice().expect("standard layout");
     let (ru2, rv2) = (inp.sig_ref.0 * inp.sig_ref.0, inp.sig_ref.1 * inp.sig_ref.1);
-    let mut caches = Caches::default();
     for j in 0..ny {
         for i in 0..nx {
             if !inp.ok[[j, i]] {
@@ -348,9 +479,11 @@ pub fn gradient(scheme: DiffScheme, inp: &Inputs) -> Grad {
                 if box_plain(inp.not_plain, j, i, op.box_r) {
                     g.val[su][[j, i]] = op.flat_d.apply(us, k);
                     g.val[sv][[j, i]] = op.flat_d.apply(vs, k);
-                    g.var[su][[j, i]] = op.gain[0] * ru2;
-                    g.var[sv][[j, i]] = op.gain[0] * rv2;
-                    if let (Some(fb), Some((_, bg))) = (&op.flat_b, &op.bias[0]) {
+                    let g0 = op.comp[0].1;
+                    g.var[su][[j, i]] = g0 * ru2;
+                    g.var[sv][[j, i]] = g0 * rv2;
+                    if let (Some(fb), Some(b0)) = (&op.flat_b, &op.bias[0]) {
+                        let bg = b0.1;
                         g.bias[su][[j, i]] = fb.apply(u, k);
                         g.bias[sv][[j, i]] = fb.apply(v, k);
                         g.bvar[su][[j, i]] = bg * ru2;
@@ -367,52 +500,38 @@ pub fn gradient(scheme: DiffScheme, inp: &Inputs) -> Grad {
                 g.val[su][[j, i]] = d.apply_at(inp.us, j, i);
                 g.val[sv][[j, i]] = d.apply_at(inp.vs, j, i);
                 // The stencil actually applied, composed with the smoother.
-                let comp = if op.comp[c].fits(j, i, inp.ok) {
-                    Some((op.comp[c].clone(), op.gain[c]))
+                let comp: Option<Shared> = if op.comp[c].0.fits(j, i, inp.ok) {
+                    Some(op.comp[c].clone())
                 } else {
-                    let key = pattern(inp.ok, j, i, reach_i32(op.comp[c].reach()))
-                        .map(|m| (ax as u8, c, m));
-                    let make = || {
-                        effective_composite(d, inp, j, i).map(|s| {
-                            let g = inp.corr.gain(&s);
-                            (s, g)
-                        })
-                    };
-                    match key {
-                        Some(key) => caches.comp.entry(key).or_insert_with(make).clone(),
-                        None => make(),
-                    }
+                    let key = pattern(inp.ok, j, i, op.comp_box[c]).map(|m| (op.fp_comp[c], m));
+                    cached(key, || effective_composite(d, inp, j, i), &inp.corr)
                 };
-                if let Some((s, gain)) = &comp {
-                    g.var[su][[j, i]] = inp.corr.variance_at(s, *gain, inp.sig_u, j, i);
-                    g.var[sv][[j, i]] = inp.corr.variance_at(s, *gain, inp.sig_v, j, i);
+                if let Some(cs) = &comp {
+                    let (s, gain) = (&cs.0, cs.1);
+                    g.var[su][[j, i]] = inp.corr.variance_at(s, gain, inp.sig_u, j, i);
+                    g.var[sv][[j, i]] = inp.corr.variance_at(s, gain, inp.sig_v, j, i);
                 }
                 if !inp.truncation {
                     continue;
                 }
-                let bias = match &op.bias[c] {
-                    Some((b, bg)) if b.fits(j, i, inp.ok) => Some((b.clone(), *bg)),
+                let bias: Option<Shared> = match &op.bias[c] {
+                    Some(b) if b.0.fits(j, i, inp.ok) => Some(b.clone()),
                     _ => {
                         let fh = op.fit_half[c];
-                        let key = pattern(inp.ok, j, i, fh).map(|m| (ax as u8, c, m));
-                        let comp_s = comp.as_ref().map_or(&op.comp[c], |(s, _)| s);
+                        let key = pattern(inp.ok, j, i, fh).map(|m| (op.fp_bias[c], m));
+                        let comp_s = comp.as_ref().map_or(&op.comp[c].0, |cs| &cs.0);
                         let make = || {
                             let offs: Vec<(i32, i32)> = window(fh)
                                 .into_iter()
                                 .filter(|&(dj, di)| in_ok(inp.ok, j, i, dj, di))
                                 .collect();
-                            bias_stencil(comp_s, op.axis, op.h, offs, fh).map(|b| {
-                                let g = inp.corr.gain(&b);
-                                (b, g)
-                            })
+                            bias_stencil(comp_s, op.axis, op.h, offs, fh)
                         };
-                        match key {
-                            Some(key) => caches.bias.entry(key).or_insert_with(make).clone(),
-                            None => make(),
-                        }
+                        cached(key, make, &inp.corr)
                     }
                 };
-                if let Some((b, bg)) = &bias {
+                if let Some(bs) = &bias {
+                    let (b, bg) = (&bs.0, &bs.1);
                     g.bias[su][[j, i]] = b.apply_at(inp.u, j, i);
                     g.bias[sv][[j, i]] = b.apply_at(inp.v, j, i);
                     g.bvar[su][[j, i]] = inp.corr.variance_at(b, *bg, inp.sig_u, j, i);
@@ -423,10 +542,6 @@ pub fn gradient(scheme: DiffScheme, inp: &Inputs) -> Grad {
         }
     }
     g
-}
-
-fn reach_i32(r: (usize, usize)) -> (i32, i32) {
-    (r.0 as i32, r.1 as i32)
 }
 
 #[inline]

@@ -25,8 +25,8 @@
 //! `scheme = auto` (the principle of Foucaut & Stanislas 2002, Meas. Sci.
 //! Technol. 13:1058): every candidate scheme is applied; at each node the
 //! one with the least estimated total vorticity error, propagated variance
-//! plus squared debiased truncation estimate, is kept (ties: the first
-//! candidate). The choice is in `Derived.scheme_map` and its counts in
+//! plus squared debiased truncation estimate, averaged over the node's
+//! 3 x 3 neighbourhood, is kept (ties: the first candidate). The choice is in `Derived.scheme_map` and its counts in
 //! `Derived.scheme_counts`.
 
 pub mod gradient;
@@ -359,12 +359,13 @@ pub fn derive(p: &Params, field: &Field) -> Derived {
                 });
             }
             _ => {
+                let kind = quantities::Kind::of(name).expect("a tensor quantity");
                 let mut val = Array2::from_elem(sh, f64::NAN);
                 let mut unc = Array2::from_elem(sh, f64::NAN);
                 let mut bias = Array2::from_elem(sh, f64::NAN);
                 for ((j, i), &o) in ok.indexed_iter() {
                     if o {
-                        let (a, b, c) = quantities::at(name, &g, j, i);
+                        let (a, b, c) = quantities::at(kind, &g, j, i);
                         val[[j, i]] = a;
                         unc[[j, i]] = b;
                         bias[[j, i]] = c;
@@ -405,8 +406,8 @@ fn omega_error2(g: &Grad, j: usize, i: usize) -> f64 {
     var + if t.is_finite() { t * t } else { 0.0 }
 }
 
-/// Keeps, per node, the scheme with the least estimated error (a single
-/// scheme is kept whole).
+/// Keeps, per node, the scheme with the least estimated error averaged over
+/// the node's 3 x 3 neighbourhood (a single scheme is kept whole).
 fn choose(mut grads: Vec<Grad>, ok: &Array2<bool>) -> (Grad, Array2<u8>) {
     let sh = ok.dim();
     let has =
@@ -421,19 +422,45 @@ fn choose(mut grads: Vec<Grad>, ok: &Array2<bool>) -> (Grad, Array2<u8>) {
         }
         return (g, map);
     }
+    // Each scheme's estimated error, then its mean over the 3 x 3
+    // neighbourhood: choosing by a node's own noisy estimate alone would
+    // favour, node by node, whichever scheme's truncation happens to be
+    // underestimated there (a selection bias that erodes coverage).
+    let err: Vec<Array2<f64>> = grads
+        .iter()
+        .map(|g| {
+            Array2::from_shape_fn(sh, |(j, i)| {
+                if ok[[j, i]] && has(g, j, i) {
+                    omega_error2(g, j, i)
+                } else {
+                    f64::NAN
+                }
+            })
+        })
+        .collect();
+    let (ny, nx) = sh;
     for ((j, i), m) in map.indexed_iter_mut() {
         if !ok[[j, i]] {
             continue;
         }
         let mut best = (f64::INFINITY, u8::MAX);
-        for (k, g) in grads.iter().enumerate() {
-            if !has(g, j, i) {
+        for (k, e) in err.iter().enumerate() {
+            if !e[[j, i]].is_finite() {
                 continue;
             }
-            let e = omega_error2(g, j, i);
-            let e = if e.is_nan() { f64::MAX } else { e };
-            if e < best.0 || best.1 == u8::MAX {
-                best = (e, k as u8);
+            let (mut s, mut n) = (0.0, 0);
+            for jj in j.saturating_sub(1)..(j + 2).min(ny) {
+                for ii in i.saturating_sub(1)..(i + 2).min(nx) {
+                    let x = e[[jj, ii]];
+                    if x.is_finite() {
+                        s += x;
+                        n += 1;
+                    }
+                }
+            }
+            let mean = s / n as f64;
+            if mean < best.0 || best.1 == u8::MAX {
+                best = (mean, k as u8);
             }
         }
         *m = best.1;

@@ -22,8 +22,6 @@
 //! smooth by construction and would bias the estimate low). With fewer than
 //! `MIN_SAMPLES` values the estimate is `None`.
 
-use ndarray::Array2;
-
 use crate::field::{Field, VALID};
 use crate::stencil::correlation::Correlation;
 use crate::stencil::{Stencil, Tap};
@@ -38,23 +36,30 @@ const D4: [f64; 5] = [1.0, -4.0, 6.0, -4.0, 1.0];
 /// exist.
 pub fn estimate(field: &Field, corr: &Correlation) -> Option<f64> {
     let (ny, nx) = field.status.dim();
-    let valid = |j: usize, i: usize| field.status[[j, i]] == VALID && field.has_value(j, i);
-    let mut r: Vec<f64> = Vec::new();
-    let mut push = |a: &Array2<f64>, pts: [(usize, usize); 5]| {
-        let s: f64 = pts.iter().zip(D4).map(|(&(j, i), w)| w * a[[j, i]]).sum();
-        r.push(s.abs());
+    let u = field.u.as_standard_layout();
+    let v = field.v.as_standard_layout();
+    let (u, v) = (u.as_slice().unwrap(), v.as_slice().unwrap());
+    let valid: Vec<bool> = field
+        .status
+        .iter()
+        .zip(u.iter().zip(v))
+        .map(|(&s, (a, b))| s == VALID && a.is_finite() && b.is_finite())
+        .collect();
+    let mut r: Vec<f64> = Vec::with_capacity(4 * ny * nx);
+    let d4 = |a: &[f64], k: usize, step: usize| {
+        (a[k] - 4.0 * a[k + step] + 6.0 * a[k + 2 * step] - 4.0 * a[k + 3 * step] + a[k + 4 * step])
+            .abs()
     };
     for j in 0..ny {
         for i in 0..nx {
-            if i + 4 < nx && (0..5).all(|k| valid(j, i + k)) {
-                let pts = [(j, i), (j, i + 1), (j, i + 2), (j, i + 3), (j, i + 4)];
-                push(&field.u, pts);
-                push(&field.v, pts);
+            let k = j * nx + i;
+            if i + 4 < nx && valid[k..k + 5].iter().all(|&b| b) {
+                r.push(d4(u, k, 1));
+                r.push(d4(v, k, 1));
             }
-            if j + 4 < ny && (0..5).all(|k| valid(j + k, i)) {
-                let pts = [(j, i), (j + 1, i), (j + 2, i), (j + 3, i), (j + 4, i)];
-                push(&field.u, pts);
-                push(&field.v, pts);
+            if j + 4 < ny && (0..5).all(|m| valid[k + m * nx]) {
+                r.push(d4(u, k, nx));
+                r.push(d4(v, k, nx));
             }
         }
     }
@@ -83,6 +88,7 @@ mod tests {
     use crate::derive::flows::lamb_oseen;
     use crate::field::Grid;
     use crate::testutil::{assert_close, rng};
+    use ndarray::Array2;
     use rand_distr::{Distribution, Normal};
 
     #[test]

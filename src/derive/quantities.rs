@@ -82,45 +82,75 @@ pub fn linear(g: &Grad, j: usize, i: usize, c: [f64; 4]) -> (f64, f64, f64, f64)
     (val, var, b, vb)
 }
 
-/// Value, standard uncertainty and debiased truncation of quantity `name`
-/// at one node (`name` from `ALL`, not a Gamma).
-pub fn at(name: &str, g: &Grad, j: usize, i: usize) -> (f64, f64, f64) {
+/// A quantity of the tensor, resolved from its name once per frame.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Kind {
+    Omega,
+    Div,
+    Exx,
+    Eyy,
+    Exy,
+    LambdaCi,
+    Q,
+    Stretching,
+}
+
+impl Kind {
+    /// The kind of a tensor quantity from `ALL` (None for the Gammas).
+    pub fn of(name: &str) -> Option<Kind> {
+        Some(match name {
+            "omega" => Kind::Omega,
+            "div" => Kind::Div,
+            "exx" => Kind::Exx,
+            "eyy" => Kind::Eyy,
+            "exy" => Kind::Exy,
+            "lambda_ci" => Kind::LambdaCi,
+            "q" => Kind::Q,
+            "stretching" => Kind::Stretching,
+            _ => return None,
+        })
+    }
+}
+
+/// Value, standard uncertainty and debiased truncation of a quantity at
+/// one node.
+pub fn at(kind: Kind, g: &Grad, j: usize, i: usize) -> (f64, f64, f64) {
     let [a, b, c, d] = [0, 1, 2, 3].map(|k| g.val[k][[j, i]]);
     let lin = |co: [f64; 4]| {
         let (_, var, bb, vb) = linear(g, j, i, co);
         (var.sqrt(), debias(bb, vb))
     };
-    match name {
-        "omega" => {
+    match kind {
+        Kind::Omega => {
             let (u, bi) = lin([0.0, -1.0, 1.0, 0.0]);
             (c - b, u, bi)
         }
-        "div" => {
+        Kind::Div => {
             let (u, bi) = lin([1.0, 0.0, 0.0, 1.0]);
             (a + d, u, bi)
         }
-        "exx" => {
+        Kind::Exx => {
             let (u, bi) = lin([1.0, 0.0, 0.0, 0.0]);
             (a, u, bi)
         }
-        "eyy" => {
+        Kind::Eyy => {
             let (u, bi) = lin([0.0, 0.0, 0.0, 1.0]);
             (d, u, bi)
         }
-        "exy" => {
+        Kind::Exy => {
             let (u, bi) = lin([0.0, 0.5, 0.5, 0.0]);
             (0.5 * (b + c), u, bi)
         }
-        "q" => {
+        Kind::Q => {
             let (u, bi) = lin([-a, -c, -b, -d]);
             (-b * c - 0.5 * (a * a + d * d), u, bi)
         }
-        "stretching" => {
+        Kind::Stretching => {
             let (om, dv) = (c - b, a + d);
             let (u, bi) = lin([-om, dv, -dv, -om]);
             (-om * dv, u, bi)
         }
-        "lambda_ci" => {
+        Kind::LambdaCi => {
             let dd = a * d - b * c - 0.25 * (a + d) * (a + d);
             let (ud, bd) = lin([0.5 * (d - a), -c, -b, 0.5 * (a - d)]);
             let den = 2.0 * (dd.max(0.0) + 0.25 * ud).sqrt();
@@ -131,7 +161,6 @@ pub fn at(name: &str, g: &Grad, j: usize, i: usize) -> (f64, f64, f64) {
                 (lam, 0.0, 0.0)
             }
         }
-        _ => (f64::NAN, f64::NAN, f64::NAN),
     }
 }
 
