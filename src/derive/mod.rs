@@ -1,23 +1,130 @@
 //! Velocity-gradient quantities of one snapshot and their uncertainty.
 //!
-//! Owns: smoothing the field for the statistics, the out-of-plane vorticity
-//! and the other gradient quantities, and the propagation of per-vector
-//! uncertainty through the (composite) stencils. Does not own: the stencil
-//! type (`stencil`), statistics over frames (`stats`).
+//! Owns: the per-vector uncertainty model, smoothing the field for the
+//! statistics, the out-of-plane vorticity and the other gradient quantities,
+//! the propagation of per-vector uncertainty through the (composite)
+//! stencils, the truncation estimate and the noise-aware choice of scheme.
+//! Does not own: the stencil type (`stencil`), statistics over frames
+//! (`stats`).
 //!
-//! STUB (skeleton): signatures agreed between the stages; the gradients
-//! owner replaces the `todo!()` bodies.
+//! Per-vector uncertainty (standard, m/s), per component:
+//! - valid vectors (status 0): with `velocity_noise = "columns"`, the
+//!   input's sigma column; where a valid vector has no finite sigma, the
+//!   frame's noise level below (counted in `Derived.sigma_fallback_nodes`).
+//!   Otherwise the noise level: the number given, or the frame's estimate
+//!   (`noise::estimate`).
+//! - replaced and filled vectors (1, 2): `sqrt(noise^2 + fill^2)`, with
+//!   `fill` the filling's own uncertainty (the field's sigma at that node,
+//!   set by the fill stage; 0 when it set none). For `"columns"` the noise
+//!   level is the median of the valid vectors' sigma columns.
+//! - masked (3): no value, NaN.
+//!
+//! When no level can be had (estimate asked, too few valid runs of five
+//! vectors), every uncertainty is NaN: unknown, never zero.
+//!
+//! `scheme = auto` (the principle of Foucaut & Stanislas 2002, Meas. Sci.
+//! Technol. 13:1058): every candidate scheme is applied; at each node the
+//! one with the least estimated total vorticity error, propagated variance
+//! plus squared debiased truncation estimate, averaged over the node's
+//! 3 x 3 neighbourhood, is kept (ties: the first candidate). The choice is in `Derived.scheme_map` and its counts in
+//! `Derived.scheme_counts`.
+
+pub mod gradient;
+pub mod noise;
+pub mod quantities;
+
+#[cfg(test)]
+pub mod flows;
+#[cfg(test)]
+mod tests;
+#[cfg(test)]
+mod tests_coverage;
 
 use ndarray::Array2;
 
-use crate::field::Field;
+use crate::field::{Field, MASKED, VALID};
+use crate::stencil::correlation::Correlation;
+use crate::stencil::derivatives::DiffScheme;
+use crate::stencil::smooth::Smoother;
+use crate::stencil::Stencil;
 
+use gradient::{gradient, restricted, summed_area, Grad, Inputs};
+
+/// How the derivatives are taken.
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
+pub enum Scheme {
+    Fixed(DiffScheme),
+    /// Per node, the candidate with the least estimated total error.
+    Auto,
+}
+
+/// Where the per-vector random error comes from.
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
+pub enum VelocityNoise {
+    /// Estimated from each frame (`noise::estimate`).
+    Estimate,
+    /// The input's sigma_u and sigma_v columns.
+    Columns,
+    /// A fixed level in m/s.
+    Value(f64),
+}
+
+/// The resolved parameters of the gradient stage.
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
-pub struct Params {}
+pub struct Params {
+    pub scheme: Scheme,
+    /// Window and order of the least-squares scheme (5, 1: the 4-point
+    /// stencil).
+    pub ls_window: usize,
+    pub ls_order: u32,
+    /// The schemes `auto` chooses from, in tie-breaking order.
+    pub candidates: Vec<DiffScheme>,
+    pub velocity_noise: VelocityNoise,
+    pub correlation: Correlation,
+    /// The smoother (resolved by the smoothing section).
+    #[serde(skip)]
+    pub smoother: Smoother,
+    /// The quantities to make besides omega (names from `quantities::ALL`).
+    pub quantities: Vec<&'static str>,
+    /// Radius in nodes of the Gamma1/Gamma2 disc.
+    pub gamma_radius: usize,
+    /// Estimate the truncation error (`Quantity.bias`).
+    pub truncation: bool,
+}
+
+impl Params {
+    /// The least-squares scheme with this plan's window and order.
+    pub fn least_squares(&self) -> DiffScheme {
+        DiffScheme::LeastSquares {
+            window: self.ls_window,
+            order: self.ls_order,
+        }
+    }
+}
 
 impl Default for Params {
     fn default() -> Self {
-        Params {}
+        let ls = DiffScheme::LeastSquares {
+            window: 5,
+            order: 1,
+        };
+        Params {
+            scheme: Scheme::Fixed(ls),
+            ls_window: 5,
+            ls_order: 1,
+            candidates: vec![
+                ls,
+                DiffScheme::Central,
+                DiffScheme::Richardson,
+                DiffScheme::Circulation,
+            ],
+            velocity_noise: VelocityNoise::Estimate,
+            correlation: Correlation::Independent,
+            smoother: Smoother::None,
+            quantities: quantities::ALL[1..].iter().map(|(n, _)| *n).collect(),
+            gamma_radius: 2,
+            truncation: true,
+        }
     }
 }
 
@@ -31,7 +138,8 @@ pub struct Quantity {
     pub value: Array2<f64>,
     /// Propagated standard uncertainty of the instantaneous value.
     pub unc: Option<Array2<f64>>,
-    /// Estimated truncation (bias) error, a systematic component.
+    /// Estimated truncation (bias) error, a systematic component: the
+    /// standard uncertainty it contributes (non-negative, debiased).
     pub bias: Option<Array2<f64>>,
 }
 
@@ -46,18 +154,329 @@ pub struct Derived {
     pub v_unc: Array2<f64>,
     /// Quantities in the order of `quantity_names`; "omega" is first.
     pub quantities: Vec<Quantity>,
-    /// Noise level estimated from this frame (m/s), when estimated.
+    /// Noise level estimated from this frame (m/s), when it could be made
+    /// (always attempted, whatever `velocity_noise` says).
     pub noise_estimate: Option<f64>,
+    /// The noise level used for valid vectors (m/s; NaN when unknown).
+    pub noise_used: f64,
+    /// The scheme at each node as an index into `scheme_names`
+    /// (`u8::MAX` where no derivative was taken).
+    pub scheme_map: Array2<u8>,
+    pub scheme_names: Vec<&'static str>,
+    /// Nodes per scheme, in the order of `scheme_names`.
+    pub scheme_counts: Vec<usize>,
+    /// Nodes where an edge or a mask forced a narrower stencil.
+    pub fallback_nodes: usize,
+    /// Valid vectors without a sigma column value (`"columns"` only).
+    pub sigma_fallback_nodes: usize,
+}
+
+impl Derived {
+    pub fn get(&self, name: &str) -> Option<&Quantity> {
+        self.quantities.iter().find(|q| q.name == name)
+    }
 }
 
 /// Names of the quantities `derive` produces with these parameters.
 pub fn quantity_names(p: &Params) -> Vec<&'static str> {
-    let _ = p;
-    vec!["omega"]
+    let mut v = vec!["omega"];
+    for (n, _) in quantities::ALL.iter().skip(1) {
+        if p.quantities.contains(n) {
+            v.push(*n);
+        }
+    }
+    v
+}
+
+/// The per-vector uncertainty maps, the level used and the fallback count.
+fn per_vector_sigma(
+    p: &Params,
+    field: &Field,
+    estimate: Option<f64>,
+) -> (Array2<f64>, Array2<f64>, f64, usize) {
+    let est = estimate.unwrap_or(f64::NAN);
+    let level = match p.velocity_noise {
+        VelocityNoise::Value(x) => x,
+        VelocityNoise::Estimate => est,
+        VelocityNoise::Columns => {
+            let mut s: Vec<f64> = field
+                .status
+                .iter()
+                .zip(field.sigma_u.iter().zip(field.sigma_v.iter()))
+                .filter(|(&st, _)| st == VALID)
+                .flat_map(|(_, (a, b))| [*a, *b])
+                .filter(|x| x.is_finite())
+                .collect();
+            if s.is_empty() {
+                est
+            } else {
+                let m = s.len() / 2;
+                *s.select_nth_unstable_by(m, |a, b| a.total_cmp(b)).1
+            }
+        }
+    };
+    let sh = field.status.dim();
+    let mut su = Array2::from_elem(sh, f64::NAN);
+    let mut sv = Array2::from_elem(sh, f64::NAN);
+    let mut fallback = 0;
+    for ((j, i), &st) in field.status.indexed_iter() {
+        if !field.has_value(j, i) {
+            continue;
+        }
+        let (cu, cv) = (field.sigma_u[[j, i]], field.sigma_v[[j, i]]);
+        let (a, b) = match st {
+            VALID => match p.velocity_noise {
+                VelocityNoise::Columns => {
+                    if !(cu.is_finite() && cv.is_finite()) {
+                        fallback += 1;
+                    }
+                    (
+                        if cu.is_finite() { cu } else { level },
+                        if cv.is_finite() { cv } else { level },
+                    )
+                }
+                _ => (level, level),
+            },
+            MASKED => continue,
+            _ => {
+                let f = |c: f64| if c.is_finite() { c } else { 0.0 };
+                (level.hypot(f(cu)), level.hypot(f(cv)))
+            }
+        };
+        su[[j, i]] = a;
+        sv[[j, i]] = b;
+    }
+    (su, sv, level, fallback)
 }
 
 /// Derives every quantity from a filled field.
 pub fn derive(p: &Params, field: &Field) -> Derived {
-    let _ = (p, field);
-    todo!("derive: derive")
+    let sh = field.status.dim();
+    let ok = Array2::from_shape_fn(sh, |(j, i)| field.has_value(j, i));
+    let noise_estimate = noise::estimate(field, &p.correlation);
+    let (sig_u, sig_v, level, sigma_fallback_nodes) = per_vector_sigma(p, field, noise_estimate);
+    let masked = |a: &Array2<f64>| {
+        Array2::from_shape_fn(sh, |(j, i)| if ok[[j, i]] { a[[j, i]] } else { f64::NAN })
+    };
+    let (u, v) = (masked(&field.u), masked(&field.v));
+
+    // Smoothing: values from the smoother, uncertainty through its stencil.
+    let smoother: Option<Stencil> = match p.smoother {
+        Smoother::None => None,
+        _ => p.smoother.equivalent_stencil().map(|s| {
+            let sum: f64 = s.taps.iter().map(|t| t.w).sum();
+            if sum.abs() > 1e-12 {
+                s.scaled(1.0 / sum)
+            } else {
+                s
+            }
+        }),
+    };
+    let (us, vs, u_unc, v_unc) = match &smoother {
+        None => (u.clone(), v.clone(), sig_u.clone(), sig_v.clone()),
+        Some(s) => {
+            let us = masked(&p.smoother.apply(&u, &ok).as_standard_layout().to_owned());
+            let vs = masked(&p.smoother.apply(&v, &ok).as_standard_layout().to_owned());
+            let gain = p.correlation.gain(s);
+            let mut uu = Array2::from_elem(sh, f64::NAN);
+            let mut vu = Array2::from_elem(sh, f64::NAN);
+            for ((j, i), &o) in ok.indexed_iter() {
+                if !o {
+                    continue;
+                }
+                let (st, g) = if s.fits(j, i, &ok) {
+                    (s.clone(), gain)
+                } else {
+                    match restricted(s, &ok, j, i) {
+                        Some(r) => {
+                            let g = p.correlation.gain(&r);
+                            (r, g)
+                        }
+                        None => continue,
+                    }
+                };
+                uu[[j, i]] = p.correlation.variance_at(&st, g, &sig_u, j, i).sqrt();
+                vu[[j, i]] = p.correlation.variance_at(&st, g, &sig_v, j, i).sqrt();
+            }
+            (us, vs, uu, vu)
+        }
+    };
+
+    let not_plain = summed_area(&Array2::from_shape_fn(sh, |(j, i)| {
+        !(ok[[j, i]] && sig_u[[j, i]] == level && sig_v[[j, i]] == level)
+    }));
+    let inp = Inputs {
+        ok: &ok,
+        us: &us,
+        vs: &vs,
+        u: &u,
+        v: &v,
+        sig_u: &sig_u,
+        sig_v: &sig_v,
+        corr: p.correlation,
+        smoother: smoother.as_ref(),
+        not_plain: &not_plain,
+        sig_ref: (level, level),
+        dx: field.grid.dx,
+        dy: field.grid.dy,
+        truncation: p.truncation,
+    };
+    let schemes: Vec<DiffScheme> = match p.scheme {
+        Scheme::Fixed(s) => vec![s],
+        Scheme::Auto => p.candidates.clone(),
+    };
+    let grads: Vec<Grad> = schemes.iter().map(|&s| gradient(s, &inp)).collect();
+    let (g, scheme_map) = choose(grads, &ok);
+    let mut scheme_counts = vec![0usize; schemes.len()];
+    for &m in scheme_map.iter() {
+        if (m as usize) < scheme_counts.len() {
+            scheme_counts[m as usize] += 1;
+        }
+    }
+
+    let mut out = Vec::new();
+    let (gam1, gam2) = if p.quantities.iter().any(|q| q.starts_with("gamma")) {
+        let (a, b) = quantities::gamma(&us, &vs, &ok, p.gamma_radius, field.grid.dx, field.grid.dy);
+        (Some(a), Some(b))
+    } else {
+        (None, None)
+    };
+    for name in quantity_names(p) {
+        let unit = quantities::unit(name);
+        match name {
+            "gamma1" | "gamma2" => {
+                let value = if name == "gamma1" {
+                    gam1.clone()
+                } else {
+                    gam2.clone()
+                };
+                out.push(Quantity {
+                    name,
+                    unit,
+                    value: value.expect("gamma computed"),
+                    unc: None,
+                    bias: None,
+                });
+            }
+            _ => {
+                let kind = quantities::Kind::of(name).expect("a tensor quantity");
+                let mut val = Array2::from_elem(sh, f64::NAN);
+                let mut unc = Array2::from_elem(sh, f64::NAN);
+                let mut bias = Array2::from_elem(sh, f64::NAN);
+                for ((j, i), &o) in ok.indexed_iter() {
+                    if o {
+                        let (a, b, c) = quantities::at(kind, &g, j, i);
+                        val[[j, i]] = a;
+                        unc[[j, i]] = b;
+                        bias[[j, i]] = c;
+                    }
+                }
+                out.push(Quantity {
+                    name,
+                    unit,
+                    value: val,
+                    unc: Some(unc),
+                    bias: p.truncation.then_some(bias),
+                });
+            }
+        }
+    }
+    Derived {
+        u: us,
+        v: vs,
+        u_unc,
+        v_unc,
+        quantities: out,
+        noise_estimate,
+        noise_used: level,
+        scheme_map,
+        scheme_names: schemes.iter().map(|s| s.name()).collect(),
+        scheme_counts,
+        fallback_nodes: g.fallback,
+        sigma_fallback_nodes,
+    }
+}
+
+/// The estimated total squared error of the vorticity of `g` at a node:
+/// propagated variance plus the squared debiased truncation (the latter
+/// taken as 0 where it could not be estimated).
+fn omega_error2(g: &Grad, j: usize, i: usize) -> f64 {
+    let (_, var, b, vb) = quantities::linear(g, j, i, [0.0, -1.0, 1.0, 0.0]);
+    let t = quantities::debias(b, vb);
+    var + if t.is_finite() { t * t } else { 0.0 }
+}
+
+/// Keeps, per node, the scheme with the least estimated error averaged over
+/// the node's 3 x 3 neighbourhood (a single scheme is kept whole).
+fn choose(mut grads: Vec<Grad>, ok: &Array2<bool>) -> (Grad, Array2<u8>) {
+    let sh = ok.dim();
+    let has =
+        |g: &Grad, j: usize, i: usize| g.val[1][[j, i]].is_finite() && g.val[2][[j, i]].is_finite();
+    let mut map = Array2::from_elem(sh, u8::MAX);
+    if grads.len() == 1 {
+        let g = grads.pop().unwrap();
+        for ((j, i), m) in map.indexed_iter_mut() {
+            if ok[[j, i]] && has(&g, j, i) {
+                *m = 0;
+            }
+        }
+        return (g, map);
+    }
+    // Each scheme's estimated error, then its mean over the 3 x 3
+    // neighbourhood: choosing by a node's own noisy estimate alone would
+    // favour, node by node, whichever scheme's truncation happens to be
+    // underestimated there (a selection bias that erodes coverage).
+    let err: Vec<Array2<f64>> = grads
+        .iter()
+        .map(|g| {
+            Array2::from_shape_fn(sh, |(j, i)| {
+                if ok[[j, i]] && has(g, j, i) {
+                    omega_error2(g, j, i)
+                } else {
+                    f64::NAN
+                }
+            })
+        })
+        .collect();
+    let (ny, nx) = sh;
+    for ((j, i), m) in map.indexed_iter_mut() {
+        if !ok[[j, i]] {
+            continue;
+        }
+        let mut best = (f64::INFINITY, u8::MAX);
+        for (k, e) in err.iter().enumerate() {
+            if !e[[j, i]].is_finite() {
+                continue;
+            }
+            let (mut s, mut n) = (0.0, 0);
+            for jj in j.saturating_sub(1)..(j + 2).min(ny) {
+                for ii in i.saturating_sub(1)..(i + 2).min(nx) {
+                    let x = e[[jj, ii]];
+                    if x.is_finite() {
+                        s += x;
+                        n += 1;
+                    }
+                }
+            }
+            let mean = s / n as f64;
+            if mean < best.0 || best.1 == u8::MAX {
+                best = (mean, k as u8);
+            }
+        }
+        *m = best.1;
+    }
+    let mut out = grads.remove(0);
+    for ((j, i), &m) in map.indexed_iter() {
+        if m == u8::MAX || m == 0 {
+            continue;
+        }
+        let src = &grads[m as usize - 1];
+        for c in 0..4 {
+            out.val[c][[j, i]] = src.val[c][[j, i]];
+            out.var[c][[j, i]] = src.var[c][[j, i]];
+            out.bias[c][[j, i]] = src.bias[c][[j, i]];
+            out.bvar[c][[j, i]] = src.bvar[c][[j, i]];
+        }
+    }
+    (out, map)
 }

@@ -8,7 +8,12 @@
 //! sum_k w_k f[j + dj_k, i + di_k]`. Derivative stencils carry the 1/h of
 //! the grid pitch in their weights, so `out` is in physical units.
 
+pub mod correlation;
+pub mod derivatives;
+pub mod lsq;
 pub mod smooth;
+
+use ndarray::Array2;
 
 /// One weight at offset `(dj, di)` (rows are y, columns are x).
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -60,6 +65,87 @@ impl Stencil {
         Stencil {
             taps: self.taps.iter().map(|t| Tap { w: t.w * k, ..*t }).collect(),
         }
+    }
+
+    /// A single tap of weight 1 at the origin (the identity operator).
+    pub fn identity() -> Stencil {
+        Stencil {
+            taps: vec![Tap {
+                dj: 0,
+                di: 0,
+                w: 1.0,
+            }],
+        }
+    }
+
+    /// The stencil moved by `(dj, di)`.
+    pub fn shifted(&self, dj: i32, di: i32) -> Stencil {
+        Stencil {
+            taps: self
+                .taps
+                .iter()
+                .map(|t| Tap {
+                    dj: t.dj + dj,
+                    di: t.di + di,
+                    w: t.w,
+                })
+                .collect(),
+        }
+    }
+
+    /// `sum_k a_k * self_k + b_k * other_k`: a linear combination, normalised.
+    pub fn combine(&self, a: f64, other: &Stencil, b: f64) -> Stencil {
+        let mut taps: Vec<Tap> = self.taps.iter().map(|t| Tap { w: a * t.w, ..*t }).collect();
+        taps.extend(other.taps.iter().map(|t| Tap { w: b * t.w, ..*t }));
+        Stencil::new(taps)
+    }
+
+    /// The noise factor `sqrt(sum w_k^2)`: the standard deviation of the
+    /// stencil's output for independent unit-variance errors at its taps
+    /// (GUM eq. 13 with rho = 0; METHODS.md). 0 for an empty stencil.
+    pub fn noise_factor(&self) -> f64 {
+        self.taps.iter().map(|t| t.w * t.w).sum::<f64>().sqrt()
+    }
+
+    /// The moment `sum_k w_k di_k^p dj_k^q` (in index units). A derivative
+    /// stencil in x with the 1/h in its weights has moment (1, 0) = 1/h and
+    /// vanishing lower moments; its truncation follows from the higher ones.
+    pub fn moment(&self, p: u32, q: u32) -> f64 {
+        self.taps
+            .iter()
+            .map(|t| t.w * (t.di as f64).powi(p as i32) * (t.dj as f64).powi(q as i32))
+            .sum()
+    }
+
+    /// True when every tap lands inside the `(ny, nx)` grid at node `(j, i)`
+    /// and `ok` holds there.
+    #[inline]
+    pub fn fits(&self, j: usize, i: usize, ok: &Array2<bool>) -> bool {
+        let (ny, nx) = ok.dim();
+        self.taps.iter().all(|t| {
+            let jj = j as i64 + t.dj as i64;
+            let ii = i as i64 + t.di as i64;
+            jj >= 0
+                && ii >= 0
+                && (jj as usize) < ny
+                && (ii as usize) < nx
+                && ok[[jj as usize, ii as usize]]
+        })
+    }
+
+    /// `sum_k w_k a[j + dj_k, i + di_k]`. The caller makes sure the stencil
+    /// fits (see `fits`); a tap outside the grid panics.
+    #[inline]
+    pub fn apply_at(&self, a: &Array2<f64>, j: usize, i: usize) -> f64 {
+        self.taps
+            .iter()
+            .map(|t| {
+                t.w * a[[
+                    (j as i64 + t.dj as i64) as usize,
+                    (i as i64 + t.di as i64) as usize,
+                ]]
+            })
+            .sum()
     }
 
     /// `self` applied after `first`: the composite stencil of the two linear

@@ -1,0 +1,250 @@
+//! The quantities built from the velocity-gradient tensor, their propagated
+//! uncertainty and their truncation estimate; and Graftieaux's Gamma1/Gamma2.
+//!
+//! Owns: the table of quantities (name, unit, formula), first-order
+//! propagation for the nonlinear ones, the debiased truncation magnitude,
+//! and the Gamma criteria. Does not own: the tensor (`gradient`).
+//!
+//! With `a = du/dx, b = du/dy, c = dv/dx, d = dv/dy`:
+//!
+//! | name | formula | unit |
+//! |---|---|---|
+//! | omega | c - b (out-of-plane vorticity) | 1/s |
+//! | div | a + d (in-plane divergence; = -dw/dz for incompressible flow) | 1/s |
+//! | exx, eyy, exy | a, d, (b + c)/2 (strain-rate components) | 1/s |
+//! | lambda_ci | sqrt(max(0, ad - bc - (a+d)^2/4)) (Zhou et al. 1999) | 1/s |
+//! | q | -bc - (a^2 + d^2)/2 (Hunt, Wray & Moin 1988) | 1/s^2 |
+//! | stretching | -omega (a + d) (= omega dw/dz, incompressible) | 1/s^2 |
+//! | gamma1, gamma2 | Graftieaux et al. 2001, see `gamma` | 1 |
+//!
+//! Uncertainty: every quantity `f(a, b, c, d)` is linearised,
+//! `u(f)^2 = sum_x (df/dx)^2 u(x)^2` (GUM eq. 10, first order). The four
+//! components are treated as uncorrelated: u and v errors are independent,
+//! and for a stencil antisymmetric along its axis and symmetric across it
+//! (every interior stencil) with uniform uncertainty and a symmetric
+//! correlation model the covariance of `du/dx` and `du/dy` vanishes
+//! (derived: reflecting x flips the sign of one and not of the other). At
+//! one-sided edge stencils this is an approximation. For `lambda_ci` with
+//! `D = ad - bc - (a+d)^2/4`, `u(lambda) = u(D) / (2 sqrt(max(D, 0) + u(D)/4))`:
+//! the first-order `u(D)/(2 lambda)` where `D >> u(D)`, and `sqrt(u(D))`,
+//! the half-width of `sqrt` over `[0, u(D)]`, at `D = 0` where the first
+//! order fails. Gamma1 and Gamma2 are bounded indicators; they carry no
+//! uncertainty (None).
+//!
+//! Truncation: the signed estimates of the components combine with the same
+//! coefficients; the estimate's own noise variance `v_b` is removed from its
+//! square, `bias = sqrt(max(0, b^2 - v_b))` (an unbiased estimate of the
+//! squared systematic error, clipped at zero), so that pure noise does not
+//! pose as a systematic error.
+
+use ndarray::Array2;
+
+use super::gradient::Grad;
+
+/// Every quantity the stage can make, in output order, with its unit.
+pub const ALL: [(&str, &str); 10] = [
+    ("omega", "1/s"),
+    ("div", "1/s"),
+    ("exx", "1/s"),
+    ("eyy", "1/s"),
+    ("exy", "1/s"),
+    ("lambda_ci", "1/s"),
+    ("q", "1/s^2"),
+    ("stretching", "1/s^2"),
+    ("gamma1", "1"),
+    ("gamma2", "1"),
+];
+
+/// The unit of a quantity name from `ALL`.
+pub fn unit(name: &str) -> &'static str {
+    ALL.iter().find(|(n, _)| *n == name).map_or("", |(_, u)| u)
+}
+
+/// `sqrt(max(0, b^2 - v_b))`; NaN stays NaN.
+#[inline]
+pub fn debias(b: f64, vb: f64) -> f64 {
+    (b * b - vb).max(0.0).sqrt()
+}
+
+/// Value, variance, signed bias and bias variance of a linear combination
+/// `sum_k c_k x_k` of the tensor components at one node.
+#[inline]
+pub fn linear(g: &Grad, j: usize, i: usize, c: [f64; 4]) -> (f64, f64, f64, f64) {
+    let (mut val, mut var, mut b, mut vb) = (0.0, 0.0, 0.0, 0.0);
+    for (k, &ck) in c.iter().enumerate() {
+        if ck != 0.0 {
+            val += ck * g.val[k][[j, i]];
+            var += ck * ck * g.var[k][[j, i]];
+            b += ck * g.bias[k][[j, i]];
+            vb += ck * ck * g.bvar[k][[j, i]];
+        }
+    }
+    (val, var, b, vb)
+}
+
+/// A quantity of the tensor, resolved from its name once per frame.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Kind {
+    Omega,
+    Div,
+    Exx,
+    Eyy,
+    Exy,
+    LambdaCi,
+    Q,
+    Stretching,
+}
+
+impl Kind {
+    /// The kind of a tensor quantity from `ALL` (None for the Gammas).
+    pub fn of(name: &str) -> Option<Kind> {
+        Some(match name {
+            "omega" => Kind::Omega,
+            "div" => Kind::Div,
+            "exx" => Kind::Exx,
+            "eyy" => Kind::Eyy,
+            "exy" => Kind::Exy,
+            "lambda_ci" => Kind::LambdaCi,
+            "q" => Kind::Q,
+            "stretching" => Kind::Stretching,
+            _ => return None,
+        })
+    }
+}
+
+/// Value, standard uncertainty and debiased truncation of a quantity at
+/// one node.
+pub fn at(kind: Kind, g: &Grad, j: usize, i: usize) -> (f64, f64, f64) {
+    let [a, b, c, d] = [0, 1, 2, 3].map(|k| g.val[k][[j, i]]);
+    let lin = |co: [f64; 4]| {
+        let (_, var, bb, vb) = linear(g, j, i, co);
+        (var.sqrt(), debias(bb, vb))
+    };
+    match kind {
+        Kind::Omega => {
+            let (u, bi) = lin([0.0, -1.0, 1.0, 0.0]);
+            (c - b, u, bi)
+        }
+        Kind::Div => {
+            let (u, bi) = lin([1.0, 0.0, 0.0, 1.0]);
+            (a + d, u, bi)
+        }
+        Kind::Exx => {
+            let (u, bi) = lin([1.0, 0.0, 0.0, 0.0]);
+            (a, u, bi)
+        }
+        Kind::Eyy => {
+            let (u, bi) = lin([0.0, 0.0, 0.0, 1.0]);
+            (d, u, bi)
+        }
+        Kind::Exy => {
+            let (u, bi) = lin([0.0, 0.5, 0.5, 0.0]);
+            (0.5 * (b + c), u, bi)
+        }
+        Kind::Q => {
+            let (u, bi) = lin([-a, -c, -b, -d]);
+            (-b * c - 0.5 * (a * a + d * d), u, bi)
+        }
+        Kind::Stretching => {
+            let (om, dv) = (c - b, a + d);
+            let (u, bi) = lin([-om, dv, -dv, -om]);
+            (-om * dv, u, bi)
+        }
+        Kind::LambdaCi => {
+            let dd = a * d - b * c - 0.25 * (a + d) * (a + d);
+            let (ud, bd) = lin([0.5 * (d - a), -c, -b, 0.5 * (a - d)]);
+            let den = 2.0 * (dd.max(0.0) + 0.25 * ud).sqrt();
+            let lam = dd.max(0.0).sqrt();
+            if den > 0.0 {
+                (lam, ud / den, bd / den)
+            } else {
+                (lam, 0.0, 0.0)
+            }
+        }
+    }
+}
+
+/// Graftieaux, Michard & Grosjean 2001 (Meas. Sci. Technol. 12:1422, from
+/// memory): at P, over the neighbours M in a disc of `radius` nodes,
+/// `Gamma1 = (1/N) sum (PM x U_M)_z / (|PM| |U_M|)` and Gamma2 the same with
+/// `U_M - U_P~`, `U_P~` the mean velocity over the disc (P included).
+/// A disc, not a square, because the angles of its nodes are close to
+/// uniform, which the criterion's threshold 2/pi assumes (radius 2 gives
+/// 0.638 for a linear field with rotation = strain, 2/pi = 0.6366; a 5 x 5
+/// square gives 0.613, derived). Neighbours without a value are left out;
+/// a neighbour with zero (relative) velocity contributes 0 and counts.
+/// NaN where fewer than half of the disc's neighbours have values.
+/// `ok` marks nodes with values; `dx`, `dy` the pitch.
+pub fn gamma(
+    u: &Array2<f64>,
+    v: &Array2<f64>,
+    ok: &Array2<bool>,
+    radius: usize,
+    dx: f64,
+    dy: f64,
+) -> (Array2<f64>, Array2<f64>) {
+    let (ny, nx) = ok.dim();
+    let r = radius as i64;
+    let disc: Vec<(i64, i64, f64, f64, f64)> = (-r..=r)
+        .flat_map(|dj| (-r..=r).map(move |di| (dj, di)))
+        .filter(|&(dj, di)| (dj, di) != (0, 0) && dj * dj + di * di <= r * r)
+        .map(|(dj, di)| {
+            let (px, py) = (di as f64 * dx, dj as f64 * dy);
+            let n = (px * px + py * py).sqrt();
+            (dj, di, px / n, py / n, n)
+        })
+        .collect();
+    let mut g1 = Array2::from_elem((ny, nx), f64::NAN);
+    let mut g2 = Array2::from_elem((ny, nx), f64::NAN);
+    let mut nb: Vec<(f64, f64, f64, f64)> = Vec::with_capacity(disc.len());
+    for j in 0..ny {
+        for i in 0..nx {
+            if !ok[[j, i]] {
+                continue;
+            }
+            nb.clear();
+            let (mut su, mut sv) = (u[[j, i]], v[[j, i]]);
+            for &(dj, di, ex, ey, _) in &disc {
+                let (jj, ii) = (j as i64 + dj, i as i64 + di);
+                if jj < 0 || ii < 0 || jj >= ny as i64 || ii >= nx as i64 {
+                    continue;
+                }
+                let (jj, ii) = (jj as usize, ii as usize);
+                if ok[[jj, ii]] {
+                    let (um, vm) = (u[[jj, ii]], v[[jj, ii]]);
+                    su += um;
+                    sv += vm;
+                    nb.push((ex, ey, um, vm));
+                }
+            }
+            if nb.is_empty() || 2 * nb.len() < disc.len() {
+                continue;
+            }
+            let m = (nb.len() + 1) as f64;
+            let (mu, mv) = (su / m, sv / m);
+            // Velocities below 1e-9 of the largest in the disc are zero
+            // (rounding would otherwise give them an arbitrary direction).
+            let (mut top1, mut top2) = (0.0f64, 0.0f64);
+            for &(_, _, um, vm) in &nb {
+                top1 = top1.max(um.hypot(vm));
+                top2 = top2.max((um - mu).hypot(vm - mv));
+            }
+            let term = |ex: f64, ey: f64, a: f64, b: f64, top: f64| {
+                let n = (a * a + b * b).sqrt();
+                if n > 1e-9 * top {
+                    (ex * b - ey * a) / n
+                } else {
+                    0.0
+                }
+            };
+            let (mut s1, mut s2) = (0.0, 0.0);
+            for &(ex, ey, um, vm) in &nb {
+                s1 += term(ex, ey, um, vm, top1);
+                s2 += term(ex, ey, um - mu, vm - mv, top2);
+            }
+            g1[[j, i]] = s1 / nb.len() as f64;
+            g2[[j, i]] = s2 / nb.len() as f64;
+        }
+    }
+    (g1, g2)
+}
