@@ -41,8 +41,28 @@ use moments::Moments;
 
 pub use codec::{FORMAT_MAGIC, FORMAT_VERSION};
 
+/// The CONTRACT `ensemble` columns after x, y, in order; every table of
+/// `RunStats` (ensemble and each phase bin) starts with them.
+pub const CONTRACT_COLUMNS: [&str; 12] = [
+    "n_valid",
+    "u_mean",
+    "v_mean",
+    "u_std",
+    "v_std",
+    "uv_cov",
+    "omega_mean",
+    "omega_std",
+    "u_mean_unc",
+    "v_mean_unc",
+    "omega_mean_unc",
+    "omega_inst_unc",
+];
+
 /// Resolved statistics parameters (from `[statistics]` and `[phase]`).
+/// Missing fields deserialise to their defaults (partial states written by
+/// an older build of the same format version stay readable).
 #[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
+#[serde(default)]
 pub struct Params {
     /// Phase bins (CONTRACT `[phase] bins`), used when frames have phases.
     pub phase_bins: usize,
@@ -82,19 +102,17 @@ impl Default for Params {
 }
 
 impl Params {
-    /// The parameters that shape the accumulated sums; partial states merge
-    /// only when these agree.
-    fn accumulation_key(&self) -> (usize, Option<u64>, Vec<(u64, u64)>, usize, bool) {
-        (
-            self.phase_bins,
-            self.phase_width_deg.map(f64::to_bits),
-            self.probes
+    /// Names of the fields in which `self` and `other` differ.
+    fn differences(&self, other: &Params) -> Vec<String> {
+        let (a, b) = (serde_json::to_value(self), serde_json::to_value(other));
+        match (a, b) {
+            (Ok(serde_json::Value::Object(a)), Ok(serde_json::Value::Object(b))) => a
                 .iter()
-                .map(|&(x, y)| (x.to_bits(), y.to_bits()))
+                .filter(|(k, v)| b.get(*k) != Some(*v))
+                .map(|(k, _)| k.clone())
                 .collect(),
-            self.max_lag,
-            self.include_filled,
-        )
+            _ => vec!["(unreadable)".into()],
+        }
     }
 }
 
@@ -154,6 +172,12 @@ impl RunAccumulator {
             traces,
             span: None,
         }
+    }
+
+    /// The parameters the accumulator was made with (a merge of partial
+    /// states finishes with these, so it writes what one run writes).
+    pub fn params(&self) -> &Params {
+        &self.params
     }
 
     /// Frames pushed so far.
@@ -287,10 +311,12 @@ impl RunAccumulator {
                 self.quantities.join(", ")
             )));
         }
-        if self.params.accumulation_key() != later.params.accumulation_key() {
-            return Err(Error::data(
-                "cannot merge partial statistics made with different [statistics] or [phase] settings",
-            ));
+        let diff = self.params.differences(&later.params);
+        if !diff.is_empty() {
+            return Err(Error::data(format!(
+                "cannot merge partial statistics made with different [statistics] or [phase] settings ({})",
+                diff.join(", ")
+            )));
         }
         if let (Some((_, a)), Some((b, _))) = (self.span, later.span) {
             if b <= a {

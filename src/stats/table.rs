@@ -1,6 +1,22 @@
 //! Finishing: accumulated sums → the ensemble and phase tables, summary
 //! scalars and warnings.
 //!
+//! Columns, in order (NN = the coverage in percent, e.g. 95):
+//! CONTRACT: `n_valid, u_mean, v_mean, u_std, v_std, uv_cov, omega_mean,
+//! omega_std, u_mean_unc, v_mean_unc, omega_mean_unc, omega_inst_unc`;
+//! then `n_samples, u_std_unc, v_std_unc, uv_cov_unc, omega_std_unc,
+//! u_mean_unc_pNN, v_mean_unc_pNN, omega_mean_unc_pNN, u_inst_unc,
+//! v_inst_unc, omega_bias, k, k_coherent, k_stochastic, u_skew, u_flat,
+//! v_skew, v_flat, omega_skew, omega_flat, u_n_eff, v_n_eff, omega_n_eff,
+//! outlier_frac, filled_frac`; then for every other derived quantity q, in
+//! `derive` order: `q_mean, q_std, q_mean_unc, q_std_unc, q_mean_unc_pNN,
+//! q_inst_unc, q_bias`. Phase-bin tables have the same columns (N_eff = N;
+//! `k_coherent` = the bin's (u~^2 + v~^2)/2, `k_stochastic` = the bin's k)
+//! followed by `u_coherent, v_coherent, omega_coherent` (bin mean minus
+//! ensemble mean). `n_valid`, `n_samples` and `*_n_eff` are counts stored
+//! as f64. `outlier_frac`/`filled_frac`: fraction of the frames offered in
+//! which the node was replaced / filled.
+//!
 //! Column rules (every value SI; NaN where a node has too few samples):
 //! - `*_mean`, `*_std` (sample standard deviation, divisor N - 1), `uv_cov`
 //!   (divisor N - 1), skewness and flatness from the population central

@@ -195,24 +195,80 @@ fn chunk_merges_equal_one_pass_and_repeat_bit_for_bit() {
 }
 
 #[test]
-fn merge_is_associative() {
+fn merge_is_associative_for_random_splits() {
     let g = grid(3, 2);
-    let frames = random_frames(g, 45, 42, true);
     let p = params();
-    let [a, b, c] = [&frames[..10], &frames[10..31], &frames[31..]].map(|f| accumulate(&p, g, f));
-    let mut left = a.clone();
-    left.merge(b.clone());
-    left.merge(c.clone());
-    let mut bc = b;
-    bc.merge(c);
-    let mut right = a;
-    right.merge(bc);
-    assert_same(
-        &left.finish(&p),
-        &right.finish(&p),
-        1e-12,
-        "(a+b)+c vs a+(b+c)",
+    for seed in 0..4u64 {
+        let frames = random_frames(g, 45, 420 + seed, true);
+        let mut r = rng(4200 + seed);
+        let i = r.random_range(1..30);
+        let j = r.random_range(i + 1..44);
+        let [a, b, c] = [&frames[..i], &frames[i..j], &frames[j..]].map(|f| accumulate(&p, g, f));
+        let mut left = a.clone();
+        left.merge(b.clone());
+        left.merge(c.clone());
+        let mut bc = b;
+        bc.merge(c);
+        let mut right = a;
+        right.merge(bc);
+        assert_same(
+            &left.finish(&p),
+            &right.finish(&p),
+            1e-12,
+            &format!("(a+b)+c vs a+(b+c), split {i}/{j}"),
+        );
+    }
+}
+
+#[test]
+fn pushing_equals_merging_single_frames_bit_for_bit() {
+    // Push is the merge formula with n_b = 1, so chunks of one frame give
+    // the very same bytes as one pass.
+    let g = grid(3, 2);
+    let frames = random_frames(g, 30, 49, true);
+    let p = params();
+    assert_eq!(
+        chunked(&p, g, &frames, 1).to_bytes(),
+        accumulate(&p, g, &frames).to_bytes()
     );
+}
+
+#[test]
+fn thread_count_does_not_change_a_bit() {
+    // The driver's scheme: fixed chunks of 16 frames, accumulated in
+    // parallel, merged in frame order.
+    use rayon::prelude::*;
+    let g = grid(4, 3);
+    let frames = random_frames(g, 100, 50, true);
+    let p = params();
+    let run = |threads: usize| {
+        let pool = rayon::ThreadPoolBuilder::new()
+            .num_threads(threads)
+            .build()
+            .unwrap();
+        pool.install(|| {
+            let parts: Vec<RunAccumulator> = frames
+                .par_chunks(16)
+                .map(|c| accumulate(&p, g, c))
+                .collect();
+            let mut it = parts.into_iter();
+            let mut a = it.next().unwrap();
+            it.for_each(|c| a.merge(c));
+            a.to_bytes()
+        })
+    };
+    assert_eq!(run(1), run(4));
+}
+
+#[test]
+fn an_empty_run_finishes_with_empty_columns() {
+    let g = grid(2, 2);
+    let p = params();
+    let s = RunAccumulator::new(&p, g, &Q).finish(&p);
+    assert_eq!(s.ensemble.get("n_valid").unwrap(), &[0.0; 4]);
+    assert!(s.ensemble.get("u_mean").unwrap().iter().all(|x| x.is_nan()));
+    assert!(s.phase.is_empty() && s.n_eff.is_none());
+    assert_eq!(s.convergence.unwrap().n_rows(), 0);
 }
 
 #[test]
@@ -255,7 +311,8 @@ fn merging_out_of_order_or_mismatched_partials_is_an_error() {
         g,
         &frames[5..],
     );
-    assert!(a.clone().try_merge(other).is_err());
+    let e = a.clone().try_merge(other).unwrap_err();
+    assert!(e.message.contains("phase_bins"), "{e}");
     let mut empty = RunAccumulator::new(&p, g, &Q);
     empty.merge(a.clone());
     empty.merge(RunAccumulator::new(&p, g, &Q));
@@ -604,6 +661,7 @@ fn ensemble_columns_start_with_the_contract_ones() {
         "omega_inst_unc",
     ];
     assert_eq!(&names[..12], &contract);
+    assert_eq!(contract, CONTRACT_COLUMNS);
     assert!(names.contains(&"div_mean_unc_p95") && !names.contains(&"x"));
     let phase_names: Vec<&str> = s.phase[0]
         .table
@@ -614,4 +672,20 @@ fn ensemble_columns_start_with_the_contract_ones() {
     assert_eq!(&phase_names[..names.len()], &names[..]);
     let conv = s.convergence.unwrap();
     assert_eq!(conv.n_rows(), 5);
+}
+
+#[test]
+fn state_size_does_not_grow_with_the_frames() {
+    // O(nodes x quantities x moments): without probes the partial state of
+    // 60 and of 200 frames has the same size (lag sums and head/tail frames
+    // are capped by max_lag).
+    let g = grid(3, 2);
+    let p = Params {
+        probes: vec![],
+        ..params()
+    };
+    let frames = random_frames(g, 200, 51, true);
+    let small = accumulate(&p, g, &frames[..60]).to_bytes().len();
+    let large = accumulate(&p, g, &frames).to_bytes().len();
+    assert_eq!(small, large);
 }
