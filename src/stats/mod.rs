@@ -2,53 +2,419 @@
 //! ensemble and phase-bin tables, effective sample size, GUM combination.
 //!
 //! Owns: everything that sums over frames. Does not own: per-frame values
-//! (`derive`), writing files (`io`).
+//! (`derive`), writing files (`io`), the command line of shards (`cli`).
 //!
-//! STUB (skeleton): signatures agreed between the stages; the statistics
-//! owner replaces the `todo!()` bodies.
+//! The flow: the driver makes one `RunAccumulator` per fixed-size chunk of
+//! frames, `push`es the chunk's frames in frame order, and `merge`s the
+//! chunk accumulators in frame order; a shard's partial state is
+//! `to_bytes` of its accumulator, and `merge` of the partials in frame order
+//! gives the same statistics as one run (to round-off; bit-identical for a
+//! fixed chunking, whatever the number of threads). `finish` turns the
+//! accumulated sums into tables.
+//!
+//! What counts as a sample (the rule behind CONTRACT `n_valid`): a node's
+//! velocity counts in a frame when its status is VALID and u, v are finite;
+//! a derived quantity counts where the node's velocity counts and its value
+//! is finite. With `include_filled` replaced and filled vectors count too
+//! (`n_valid` still counts only valid ones; `n_samples` is what was used).
+//! Memory: a fixed number of values per node, quantity and moment for the
+//! ensemble and each phase bin reached, the lag sums of `lags`, and three
+//! numbers per frame and probe; nothing else grows with the frames.
+
+mod codec;
+pub mod gum;
+pub mod lags;
+pub mod moments;
+mod phase;
+mod probes;
+mod table;
+#[cfg(test)]
+mod tests;
 
 use crate::derive::Derived;
-use crate::field::{Field, FrameMeta, Grid, NodeTable};
+use crate::error::{Error, Result};
+use crate::field::{Field, FrameMeta, Grid, NodeTable, FILLED, REPLACED, VALID};
 use crate::io::Table;
 
-#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+use lags::{Clock, Lags};
+use moments::Moments;
+
+pub use codec::{FORMAT_MAGIC, FORMAT_VERSION};
+
+/// The CONTRACT `ensemble` columns after x, y, in order; every table of
+/// `RunStats` (ensemble and each phase bin) starts with them.
+pub const CONTRACT_COLUMNS: [&str; 12] = [
+    "n_valid",
+    "u_mean",
+    "v_mean",
+    "u_std",
+    "v_std",
+    "uv_cov",
+    "omega_mean",
+    "omega_std",
+    "u_mean_unc",
+    "v_mean_unc",
+    "omega_mean_unc",
+    "omega_inst_unc",
+];
+
+/// Resolved statistics parameters (from `[statistics]` and `[phase]`).
+/// Missing fields deserialise to their defaults (partial states written by
+/// an older build of the same format version stay readable).
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
+#[serde(default)]
 pub struct Params {
     /// Phase bins (CONTRACT `[phase] bins`), used when frames have phases.
     pub phase_bins: usize,
+    /// Width of each phase window in degrees, centred on the bin centre;
+    /// `None`: the whole bin (360 / bins). Never wider than the spacing.
+    pub phase_width_deg: Option<f64>,
+    /// Probe points (x, y) in metres; the nearest node is traced.
+    pub probes: Vec<(f64, f64)>,
+    /// Coverage probability of the expanded uncertainties (default 0.95).
+    pub coverage: f64,
+    /// Largest lag (frames) of the autocorrelation sum for N_eff.
+    pub max_lag: usize,
+    /// Relative standard uncertainty of the length calibration (fraction).
+    pub calibration_unc: f64,
+    /// Relative standard uncertainty of the pulse separation (fraction).
+    pub pulse_separation_unc: f64,
+    /// Count replaced and filled vectors as samples (default false).
+    pub include_filled: bool,
+    /// Final fraction of the frames over which convergence is judged.
+    pub convergence_tail: f64,
 }
 
 impl Default for Params {
     fn default() -> Self {
-        Params { phase_bins: 12 }
+        Params {
+            phase_bins: 12,
+            phase_width_deg: None,
+            probes: Vec::new(),
+            coverage: 0.95,
+            max_lag: 50,
+            calibration_unc: 0.0,
+            pulse_separation_unc: 0.0,
+            include_filled: false,
+            convergence_tail: 0.2,
+        }
     }
 }
 
-/// The accumulators of one run (ensemble, phase bins, probes). One per
+impl Params {
+    /// Names of the fields in which `self` and `other` differ.
+    fn differences(&self, other: &Params) -> Vec<String> {
+        let (a, b) = (serde_json::to_value(self), serde_json::to_value(other));
+        match (a, b) {
+            (Ok(serde_json::Value::Object(a)), Ok(serde_json::Value::Object(b))) => a
+                .iter()
+                .filter(|(k, v)| b.get(*k) != Some(*v))
+                .map(|(k, _)| k.clone())
+                .collect(),
+            _ => vec!["(unreadable)".into()],
+        }
+    }
+}
+
+/// One probe's trace: the node and, per frame, (index, u, v, omega), NaN
+/// where the node had no sample.
+#[derive(Debug, Clone, PartialEq)]
+struct Trace {
+    node: usize,
+    rows: Vec<(u64, [f64; 3])>,
+}
+
+/// The accumulators of one run (ensemble, phase bins, lags, probes). One per
 /// chunk of frames; chunks merge in frame order.
 #[derive(Debug, Clone)]
 pub struct RunAccumulator {
     pub grid: Grid,
+    params: Params,
+    quantities: Vec<String>,
+    /// Unit of each quantity, learnt from the first frame ("" before).
+    units: Vec<String>,
+    ens: Moments,
+    /// One per phase bin, allocated when the first frame reaches it.
+    bins: Vec<Option<Moments>>,
+    /// Frames without a phase, and with a phase outside every window.
+    unphased: u64,
+    outside: u64,
+    /// Lagged sums for N_eff, when frames carry `time_s`.
+    lags: Option<Lags>,
+    clock: Clock,
+    traces: Vec<Trace>,
+    /// Run-wide index of the first and last frame pushed.
+    span: Option<(u64, u64)>,
 }
 
 impl RunAccumulator {
     pub fn new(p: &Params, grid: Grid, quantities: &[&'static str]) -> Self {
-        let _ = (p, quantities);
-        RunAccumulator { grid }
+        let nodes = grid.len();
+        let traces = p
+            .probes
+            .iter()
+            .map(|&(x, y)| Trace {
+                node: probes::nearest_node(&grid, x, y),
+                rows: Vec::new(),
+            })
+            .collect();
+        RunAccumulator {
+            grid,
+            params: p.clone(),
+            quantities: quantities.iter().map(|s| s.to_string()).collect(),
+            units: vec![String::new(); quantities.len()],
+            ens: Moments::new(nodes, quantities.len()),
+            bins: vec![None; p.phase_bins],
+            unphased: 0,
+            outside: 0,
+            lags: None,
+            clock: Clock::new(),
+            traces,
+            span: None,
+        }
     }
+
+    /// The parameters the accumulator was made with (a merge of partial
+    /// states finishes with these, so it writes what one run writes).
+    pub fn params(&self) -> &Params {
+        &self.params
+    }
+
+    /// Frames pushed so far.
+    pub fn frames(&self) -> u64 {
+        self.clock.frames
+    }
+
+    /// Names of the derived quantities, in column order.
+    pub fn quantities(&self) -> &[String] {
+        &self.quantities
+    }
+
+    /// Index of "omega" among the quantities.
+    fn omega(&self) -> Option<usize> {
+        self.quantities.iter().position(|q| q == "omega")
+    }
+
     /// Adds one frame. `field` gives the status per node (valid vectors are
-    /// the samples; replaced and filled ones are not), `derived` the values.
+    /// the samples; replaced and filled ones are not, unless
+    /// `include_filled`), `derived` the values. Frames must come in
+    /// increasing `meta.index`; `derived` must hold the quantities named at
+    /// `new`, in that order, on this grid (a programming error otherwise).
     pub fn push(&mut self, meta: &FrameMeta, field: &Field, derived: &Derived) {
-        let _ = (meta, field, derived);
-        todo!("stats: push")
+        let sh = self.grid.shape();
+        assert_eq!(field.status.dim(), sh, "field shape");
+        assert_eq!(derived.u.dim(), sh, "derived shape");
+        assert_eq!(
+            derived.quantities.len(),
+            self.quantities.len(),
+            "quantity count"
+        );
+        for (i, q) in derived.quantities.iter().enumerate() {
+            assert_eq!(q.name, self.quantities[i], "quantity order");
+            if self.units[i].is_empty() {
+                self.units[i] = q.unit.to_string();
+            }
+        }
+        let index = meta.index as u64;
+        if let Some((_, last)) = self.span {
+            assert!(index > last, "frame {index} pushed after frame {last}");
+        }
+        self.span = Some((self.span.map_or(index, |s| s.0), index));
+        self.clock.push(index, meta.time_s);
+
+        let counts = self.sample_mask(field);
+        offer(&mut self.ens, field, derived, &counts);
+        match phase::bin_of(&self.params, meta.phase_deg) {
+            phase::Binned::Bin(b) => {
+                let nq = self.quantities.len();
+                let m = self.bins[b].get_or_insert_with(|| Moments::new(sh.0 * sh.1, nq));
+                offer(m, field, derived, &counts);
+            }
+            phase::Binned::NoPhase => self.unphased += 1,
+            phase::Binned::Outside => self.outside += 1,
+        }
+        let om = self.omega();
+        if meta.time_s.is_some() {
+            let nodes = self.grid.len();
+            let series = 2 + usize::from(om.is_some());
+            let max_lag = self.params.max_lag;
+            let lags = self
+                .lags
+                .get_or_insert_with(|| Lags::new(max_lag, series * nodes));
+            let mut values = vec![f64::NAN; series * nodes];
+            for (k, (&c, ((&u, &v), w))) in counts
+                .iter()
+                .zip(
+                    derived
+                        .u
+                        .iter()
+                        .zip(derived.v.iter())
+                        .zip(omega_iter(derived, om, nodes)),
+                )
+                .enumerate()
+            {
+                if c && u.is_finite() && v.is_finite() {
+                    values[k] = u;
+                    values[nodes + k] = v;
+                    if series == 3 && w.is_finite() {
+                        values[2 * nodes + k] = w;
+                    }
+                }
+            }
+            lags.push(index, values);
+        }
+        for t in &mut self.traces {
+            let (j, i) = (t.node / self.grid.nx, t.node % self.grid.nx);
+            let mut row = [f64::NAN; 3];
+            let (u, v) = (derived.u[[j, i]], derived.v[[j, i]]);
+            if counts[t.node] && u.is_finite() && v.is_finite() {
+                row[0] = u;
+                row[1] = v;
+                if let Some(o) = om {
+                    row[2] = derived.quantities[o].value[[j, i]];
+                }
+            }
+            t.rows.push((index, row));
+        }
     }
-    /// Merges the accumulator of the frames that follow `self`'s.
+
+    /// Per node: does this frame's vector count as a sample?
+    fn sample_mask(&self, field: &Field) -> Vec<bool> {
+        let filled = self.params.include_filled;
+        field
+            .status
+            .iter()
+            .map(|&s| s == VALID || (filled && (s == REPLACED || s == FILLED)))
+            .collect()
+    }
+
+    /// Merges the accumulator of the frames that follow `self`'s. Panics
+    /// when the two cannot merge (see `try_merge`): chunk accumulators of
+    /// one run always can.
     pub fn merge(&mut self, later: RunAccumulator) {
-        let _ = later;
-        todo!("stats: merge")
+        if let Err(e) = self.try_merge(later) {
+            panic!("{e}");
+        }
     }
+
+    /// Merges `later` (frames after `self`'s) or says why not: a different
+    /// grid, quantity list or accumulation parameters, or frames that do not
+    /// follow. `self` is unchanged on error.
+    pub fn try_merge(&mut self, later: RunAccumulator) -> Result<()> {
+        if let Some(d) = self.grid.difference(&later.grid, 1e-9) {
+            return Err(Error::data(format!("cannot merge partial statistics: {d}")));
+        }
+        if self.quantities != later.quantities {
+            return Err(Error::data(format!(
+                "cannot merge partial statistics of quantities [{}] with [{}]",
+                later.quantities.join(", "),
+                self.quantities.join(", ")
+            )));
+        }
+        let diff = self.params.differences(&later.params);
+        if !diff.is_empty() {
+            return Err(Error::data(format!(
+                "cannot merge partial statistics made with different [statistics] or [phase] settings ({})",
+                diff.join(", ")
+            )));
+        }
+        if let (Some((_, a)), Some((b, _))) = (self.span, later.span) {
+            if b <= a {
+                return Err(Error::data(format!(
+                    "cannot merge partial statistics out of order: frames from {b} after frames up to {a}"
+                )));
+            }
+        }
+        for (u, l) in self.units.iter_mut().zip(&later.units) {
+            if u.is_empty() {
+                *u = l.clone();
+            }
+        }
+        self.ens.merge(&later.ens);
+        for (a, b) in self.bins.iter_mut().zip(later.bins) {
+            match (a.as_mut(), b) {
+                (Some(a), Some(b)) => a.merge(&b),
+                (None, Some(b)) => *a = Some(b),
+                (_, None) => {}
+            }
+        }
+        self.unphased += later.unphased;
+        self.outside += later.outside;
+        match (self.lags.as_mut(), later.lags) {
+            (Some(a), Some(b)) => a.merge(b),
+            (None, Some(b)) => self.lags = Some(b),
+            (_, None) => {}
+        }
+        self.clock.merge(&later.clock);
+        for (a, b) in self.traces.iter_mut().zip(later.traces) {
+            a.rows.extend(b.rows);
+        }
+        self.span = match (self.span, later.span) {
+            (Some((a, _)), Some((_, b))) => Some((a, b)),
+            (s, None) => s,
+            (None, s) => s,
+        };
+        Ok(())
+    }
+
+    /// The finished statistics with the uncertainty settings of `p`
+    /// (coverage, systematic components, convergence tail, lag cap up to
+    /// the accumulated `max_lag`).
     pub fn finish(&self, p: &Params) -> RunStats {
-        let _ = p;
-        todo!("stats: finish")
+        table::finish(self, p)
+    }
+}
+
+/// omega's values in node order, or NaN when there is no omega.
+fn omega_iter<'a>(
+    d: &'a Derived,
+    om: Option<usize>,
+    nodes: usize,
+) -> Box<dyn Iterator<Item = f64> + 'a> {
+    match om {
+        Some(o) => Box::new(d.quantities[o].value.iter().copied()),
+        None => Box::new(std::iter::repeat_n(f64::NAN, nodes)),
+    }
+}
+
+/// Adds one frame's samples (where `counts`) to a set of moments.
+fn offer(m: &mut Moments, field: &Field, d: &Derived, counts: &[bool]) {
+    m.frames += 1.0;
+    for (k, &s) in field.status.iter().enumerate() {
+        match s {
+            VALID => m.n_valid[k] += 1.0,
+            REPLACED => m.n_replaced[k] += 1.0,
+            FILLED => m.n_filled[k] += 1.0,
+            _ => {}
+        }
+    }
+    for (k, (((&c, &uu), &vv), (&su, &sv))) in counts
+        .iter()
+        .zip(d.u.iter())
+        .zip(d.v.iter())
+        .zip(d.u_unc.iter().zip(d.v_unc.iter()))
+        .enumerate()
+    {
+        if c && uu.is_finite() && vv.is_finite() {
+            m.add_velocity(k, uu, vv);
+            m.u.add_unc(k, Some(su), None);
+            m.v.add_unc(k, Some(sv), None);
+        }
+    }
+    let nx = d.u.ncols();
+    for (q, acc) in d.quantities.iter().zip(m.q.iter_mut()) {
+        for (k, &x) in q.value.iter().enumerate() {
+            let (j, i) = (k / nx, k % nx);
+            let vel_ok = counts[k] && d.u[[j, i]].is_finite() && d.v[[j, i]].is_finite();
+            if vel_ok && x.is_finite() {
+                acc.add(k, x);
+                acc.add_unc(
+                    k,
+                    q.unc.as_ref().map(|a| a[[j, i]]),
+                    q.bias.as_ref().map(|a| a[[j, i]]),
+                );
+            }
+        }
     }
 }
 
@@ -71,7 +437,8 @@ pub struct RunStats {
     pub phase: Vec<PhaseBin>,
     /// Running statistics at probe points, when probes are named.
     pub convergence: Option<Table>,
-    /// Effective number of independent samples (time-resolved runs).
+    /// Effective number of independent samples (time-resolved runs): the
+    /// mean over nodes of the velocity N_eff.
     pub n_eff: Option<f64>,
     /// Scalar results for campaign.csv, name and value in SI.
     pub summary: Vec<(String, f64)>,

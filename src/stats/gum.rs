@@ -1,0 +1,200 @@
+//! Combining uncertainty components (GUM, JCGM 100:2008) and the
+//! uncertainty of sample statistics (Sciacchitano & Wieneke 2016).
+//!
+//! Owns: the combined standard uncertainty of independent components
+//! (GUM eq. 10 with unit sensitivities, `u_c^2 = sum u_i^2`), the
+//! Welch-Satterthwaite effective degrees of freedom (GUM G.2b,
+//! `nu_eff = u_c^4 / sum(u_i^4 / nu_i)`, components with infinite nu drop out
+//! of the sum), the expanded uncertainty `U = t_{(1+p)/2}(nu_eff) u_c`
+//! (GUM G.3, Student's t from statrs), and the standard uncertainties of a
+//! mean, a standard deviation and a covariance from N_eff samples.
+//!
+//! Edge behaviour: an empty or all-zero set of components gives u_c = 0 and
+//! nu_eff = infinity; nu_eff = infinity uses the normal quantile; nu_eff < 1
+//! is raised to 1 (the t quantile stays finite); non-finite inputs give NaN.
+
+use statrs::distribution::{ContinuousCDF, Normal, StudentsT};
+
+/// One component: standard uncertainty and its degrees of freedom
+/// (`f64::INFINITY` for a component taken as exactly known, e.g. Type B
+/// without a stated reliability).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Component {
+    pub u: f64,
+    pub dof: f64,
+}
+
+/// Combined standard uncertainty and Welch-Satterthwaite degrees of freedom.
+pub fn combine(components: &[Component]) -> (f64, f64) {
+    let uc2: f64 = components.iter().map(|c| c.u * c.u).sum();
+    let denom: f64 = components
+        .iter()
+        .filter(|c| c.dof.is_finite() && c.u != 0.0)
+        .map(|c| c.u.powi(4) / c.dof)
+        .sum();
+    let nu = if denom > 0.0 {
+        uc2 * uc2 / denom
+    } else {
+        f64::INFINITY
+    };
+    (uc2.sqrt(), nu)
+}
+
+/// The coverage factor for coverage probability `p` at `dof` degrees of
+/// freedom: the two-sided Student t quantile `t_{(1+p)/2}(dof)`.
+pub fn coverage_factor(p: f64, dof: f64) -> f64 {
+    if !(p > 0.0 && p < 1.0) || dof.is_nan() {
+        return f64::NAN;
+    }
+    let q = 0.5 * (1.0 + p);
+    if dof.is_infinite() || dof > 1e7 {
+        return Normal::standard().inverse_cdf(q);
+    }
+    StudentsT::new(0.0, 1.0, dof.max(1.0))
+        .expect("t distribution with positive dof")
+        .inverse_cdf(q)
+}
+
+/// Expanded uncertainty `k u_c` at coverage `p` for these components.
+pub fn expanded(components: &[Component], p: f64) -> f64 {
+    let (uc, nu) = combine(components);
+    if uc == 0.0 {
+        return 0.0;
+    }
+    coverage_factor(p, nu) * uc
+}
+
+/// Standard uncertainty of a mean: `sigma / sqrt(N_eff)`.
+pub fn mean_unc(sigma: f64, n_eff: f64) -> f64 {
+    if n_eff >= 1.0 {
+        sigma / n_eff.sqrt()
+    } else {
+        f64::NAN
+    }
+}
+
+/// Standard uncertainty of a standard deviation: `sigma / sqrt(2 (N_eff - 1))`
+/// (Gaussian samples).
+pub fn std_unc(sigma: f64, n_eff: f64) -> f64 {
+    if n_eff > 1.0 {
+        sigma / (2.0 * (n_eff - 1.0)).sqrt()
+    } else {
+        f64::NAN
+    }
+}
+
+/// Standard uncertainty of a covariance (Reynolds shear stress):
+/// `sqrt((sigma_u^2 sigma_v^2 + cov^2) / (N_eff - 1))` (Gaussian samples).
+pub fn cov_unc(su: f64, sv: f64, cov: f64, n_eff: f64) -> f64 {
+    if n_eff > 1.0 {
+        ((su * su * sv * sv + cov * cov) / (n_eff - 1.0)).sqrt()
+    } else {
+        f64::NAN
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::testutil::{assert_close, floats, python, rng};
+    use rand_distr::{Distribution, StandardNormal};
+
+    #[test]
+    fn gum_annex_g_worked_example() {
+        // JCGM 100:2008 Annex G, G.4.1 (from memory, values per METHODS.md):
+        // relative uncertainties 0.25 %, 0.57 %, 0.82 % from 10, 5, 15
+        // observations (nu = n - 1): u_c = 1.0295 %, nu_eff = 19.0,
+        // t_0.975(19) = 2.0930, U_95 = 2.155 %.
+        let c = [
+            Component { u: 0.25, dof: 9.0 },
+            Component { u: 0.57, dof: 4.0 },
+            Component { u: 0.82, dof: 14.0 },
+        ];
+        let (uc, nu) = combine(&c);
+        assert_close(uc, 1.0295, 5e-5, 0.0, "u_c (%)");
+        assert_close(nu, 19.0, 0.05, 0.0, "nu_eff");
+        // The tabulated t at 19 degrees of freedom; curlew itself uses the
+        // fractional nu_eff (statrs), which changes U_95 by less than 1e-3 %.
+        assert_close(
+            coverage_factor(0.95, 19.0),
+            2.0930,
+            5e-5,
+            0.0,
+            "t_0.975(19)",
+        );
+        assert_close(expanded(&c, 0.95), 2.155, 5e-4, 0.0, "U_95 (%)");
+        // Cross-check the t quantile against scipy.stats.t.ppf (reference library).
+        let r = floats(&python(
+            "from scipy.stats import t; print(t.ppf(0.975, 19), t.ppf(0.995, 7.3))",
+            "",
+        ));
+        assert_close(coverage_factor(0.95, 19.0), r[0], 1e-9, 0.0, "t vs scipy");
+        assert_close(
+            coverage_factor(0.99, 7.3),
+            r[1],
+            1e-8,
+            0.0,
+            "t vs scipy (fractional dof)",
+        );
+    }
+
+    #[test]
+    fn infinite_dof_uses_the_normal_quantile_and_empty_sets_are_zero() {
+        // Common practice: k = 1.95996 for 95 % of a normal distribution.
+        assert_close(
+            coverage_factor(0.95, f64::INFINITY),
+            1.959964,
+            1e-6,
+            0.0,
+            "k95",
+        );
+        assert_eq!(combine(&[]), (0.0, f64::INFINITY));
+        assert_eq!(expanded(&[Component { u: 0.0, dof: 3.0 }], 0.95), 0.0);
+    }
+
+    #[test]
+    fn monte_carlo_checks_the_statistics_uncertainty_formulas() {
+        // Sciacchitano & Wieneke 2016 (from memory, METHODS.md): N = 100,
+        // sigma = 1, rho_uv = 0.5 give u(mean) = 0.1000, u(std) = 0.07107,
+        // u(cov) = 0.11237. The formulas must give those values, and the
+        // scatter of the statistics over seeded trials must match within 3 %.
+        let n = 100;
+        assert_close(mean_unc(1.0, n as f64), 0.1000, 5e-5, 0.0, "formula mean");
+        assert_close(std_unc(1.0, n as f64), 0.07107, 5e-6, 0.0, "formula std");
+        assert_close(
+            cov_unc(1.0, 1.0, 0.5, n as f64),
+            0.11237,
+            5e-6,
+            0.0,
+            "formula cov",
+        );
+        let trials = 4000;
+        let mut r = rng(31);
+        let (mut means, mut stds, mut covs) = (vec![], vec![], vec![]);
+        let rho: f64 = 0.5;
+        for _ in 0..trials {
+            let mut m = crate::stats::moments::Moments::new(1, 0);
+            for _ in 0..n {
+                let a: f64 = StandardNormal.sample(&mut r);
+                let b: f64 = StandardNormal.sample(&mut r);
+                m.add_velocity(0, a, rho * a + (1.0 - rho * rho).sqrt() * b);
+            }
+            means.push(m.u.mean[0]);
+            stds.push((m.u.m2[0] / (n as f64 - 1.0)).sqrt());
+            covs.push(m.cuv[0] / (n as f64 - 1.0));
+        }
+        let sd = |x: &[f64]| {
+            let mu = x.iter().sum::<f64>() / x.len() as f64;
+            (x.iter().map(|a| (a - mu) * (a - mu)).sum::<f64>() / (x.len() as f64 - 1.0)).sqrt()
+        };
+        assert_close(sd(&means), 0.1000, 0.0, 0.03, "MC scatter of the mean");
+        assert_close(sd(&stds), 0.07107, 0.0, 0.03, "MC scatter of the std");
+        assert_close(
+            sd(&covs),
+            0.11237,
+            0.0,
+            0.03,
+            "MC scatter of the covariance",
+        );
+    }
+}

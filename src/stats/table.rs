@@ -1,0 +1,595 @@
+//! Finishing: accumulated sums → the ensemble and phase tables, summary
+//! scalars and warnings.
+//!
+//! Columns, in order (NN = the coverage in percent, e.g. 95):
+//! CONTRACT: `n_valid, u_mean, v_mean, u_std, v_std, uv_cov, omega_mean,
+//! omega_std, u_mean_unc, v_mean_unc, omega_mean_unc, omega_inst_unc`;
+//! then `n_samples, u_std_unc, v_std_unc, uv_cov_unc, omega_std_unc,
+//! u_mean_unc_pNN, v_mean_unc_pNN, omega_mean_unc_pNN, u_inst_unc,
+//! v_inst_unc, omega_bias, k, k_coherent, k_stochastic, u_skew, u_flat,
+//! v_skew, v_flat, omega_skew, omega_flat, u_n_eff, v_n_eff, omega_n_eff,
+//! outlier_frac, filled_frac`; then for every other derived quantity q, in
+//! `derive` order: `q_mean, q_std, q_mean_unc, q_std_unc, q_mean_unc_pNN,
+//! q_inst_unc, q_bias`. Phase-bin tables have the same columns (N_eff = N;
+//! `k_coherent` = the bin's (u~^2 + v~^2)/2, `k_stochastic` = the bin's k)
+//! followed by `u_coherent, v_coherent, omega_coherent` (bin mean minus
+//! ensemble mean). `n_valid`, `n_samples` and `*_n_eff` are counts stored
+//! as f64. `outlier_frac`/`filled_frac`: fraction of the frames offered in
+//! which the node was replaced / filled.
+//!
+//! Column rules (every value SI; NaN where a node has too few samples):
+//! - `*_mean`, `*_std` (sample standard deviation, divisor N - 1), `uv_cov`
+//!   (divisor N - 1), skewness and flatness from the population central
+//!   moments (`m3 / m2^1.5`, `m4 / m2^2`; common practice).
+//! - `*_mean_unc`: combined standard uncertainty of the mean (GUM eq. 10):
+//!   the random part `sigma / sqrt(N_eff)` (nu = N_eff - 1), the RMS over
+//!   frames of the truncation-bias estimate of a derived quantity
+//!   (systematic, not corrected, nu = infinity), and the scale systematics:
+//!   a quantity of unit m^a s^b made from pixel displacements and positions
+//!   scales as M^a dt^b with the magnification M and the pulse separation
+//!   dt, so it carries the relative uncertainty
+//!   `sqrt((a r_cal)^2 + (b r_dt)^2)` times |value| (velocity: a = 1,
+//!   b = -1; vorticity: a = 0, b = -1, i.e. no calibration term). Both have
+//!   nu = infinity.
+//! - `*_std_unc`: `sigma / sqrt(2 (N_eff - 1))` with the scale systematic of
+//!   the quantity; `uv_cov_unc`: `sqrt((s_u^2 s_v^2 + cov^2)/(N_eff - 1))`
+//!   with twice the velocity's relative scale uncertainty.
+//! - `*_mean_unc_pNN`: expanded uncertainty at coverage NN %, k from
+//!   Student t at the Welch-Satterthwaite nu_eff.
+//! - `*_inst_unc`: RMS over the counted samples of the per-frame standard
+//!   uncertainty (CONTRACT `omega_inst_unc`); `*_bias`: RMS truncation bias.
+//! - N_eff: per node and series (u, v, omega) for time-resolved runs (see
+//!   `lags`); the other derived quantities use omega's, `uv_cov` the smaller
+//!   of u's and v's. Otherwise, and always inside phase bins (one frame per
+//!   cycle per bin), N_eff = N.
+
+use super::gum::{self, Component};
+use super::moments::{Moments, Scalar};
+use super::phase;
+use super::probes::{self, ProbeInput};
+use super::{Params, PhaseBin, RunAccumulator, RunStats};
+use crate::field::{Grid, NodeTable};
+
+/// Column suffix of the expanded uncertainty: 0.95 → "p95", 0.9545 → "p95_45".
+pub fn coverage_suffix(p: f64) -> String {
+    let pct = p * 100.0;
+    if (pct - pct.round()).abs() < 1e-9 {
+        format!("p{}", pct.round() as i64)
+    } else {
+        let s = format!("{pct:.4}");
+        format!("p{}", s.trim_end_matches('0').replace('.', "_"))
+    }
+}
+
+/// Exponents (a, b) of a unit written as m^a s^b ("m/s", "1/s", "m^2/s^2",
+/// "", "1"); `None` for anything else.
+pub fn scale_exponents(unit: &str) -> Option<(i32, i32)> {
+    let unit = unit.trim();
+    let (num, den) = match unit.split_once('/') {
+        Some((n, d)) => (n, Some(d)),
+        None => (unit, None),
+    };
+    let mut e = (0, 0);
+    let mut part = |s: &str, sign: i32| -> Option<()> {
+        for tok in s.split(['*', ' ', '.']).filter(|t| !t.is_empty()) {
+            let (base, pow) = match tok.split_once('^') {
+                Some((b, p)) => (b, p.parse::<i32>().ok()?),
+                None => (tok, 1),
+            };
+            match base {
+                "m" => e.0 += sign * pow,
+                "s" => e.1 += sign * pow,
+                "1" => {}
+                _ => return None,
+            }
+        }
+        Some(())
+    };
+    part(num, 1)?;
+    if let Some(d) = den {
+        part(d.trim_start_matches('(').trim_end_matches(')'), -1)?;
+    }
+    Some(e)
+}
+
+/// What the table builder needs besides the moments.
+struct Ctx<'a> {
+    grid: Grid,
+    p: &'a Params,
+    quantities: &'a [String],
+    /// Relative scale uncertainty of each quantity (NaN-free; 0 when none).
+    q_rel: Vec<f64>,
+    vel_rel: f64,
+    omega: Option<usize>,
+    suffix: String,
+}
+
+/// Statistics of one scalar at one node.
+struct Stat {
+    n: f64,
+    mean: f64,
+    std: f64,
+    skew: f64,
+    flat: f64,
+    inst: f64,
+    bias: f64,
+}
+
+fn stat(s: &Scalar, k: usize) -> Stat {
+    let n = s.n[k];
+    let nan = f64::NAN;
+    let mean = if n > 0.0 { s.mean[k] } else { nan };
+    let std = if n >= 2.0 {
+        (s.m2[k] / (n - 1.0)).sqrt()
+    } else {
+        nan
+    };
+    let (skew, flat) = if n >= 3.0 && s.m2[k] > 0.0 {
+        let m2 = s.m2[k] / n;
+        (s.m3[k] / n / m2.powf(1.5), s.m4[k] / n / (m2 * m2))
+    } else {
+        (nan, nan)
+    };
+    let rms = |sum: f64, c: f64| if c > 0.0 { (sum / c).sqrt() } else { nan };
+    Stat {
+        n,
+        mean,
+        std,
+        skew,
+        flat,
+        inst: rms(s.unc2[k], s.unc_n[k]),
+        bias: rms(s.bias2[k], s.bias_n[k]),
+    }
+}
+
+/// (combined, expanded) standard uncertainty of a mean.
+fn mean_uncs(st: &Stat, n_eff: f64, rel: f64, coverage: f64) -> (f64, f64) {
+    if st.n < 2.0 {
+        return (f64::NAN, f64::NAN);
+    }
+    let mut c = vec![Component {
+        u: gum::mean_unc(st.std, n_eff),
+        dof: n_eff - 1.0,
+    }];
+    if st.bias.is_finite() {
+        c.push(Component {
+            u: st.bias,
+            dof: f64::INFINITY,
+        });
+    }
+    if rel > 0.0 {
+        c.push(Component {
+            u: rel * st.mean.abs(),
+            dof: f64::INFINITY,
+        });
+    }
+    (gum::combine(&c).0, gum::expanded(&c, coverage))
+}
+
+fn std_unc(st: &Stat, n_eff: f64, rel: f64) -> f64 {
+    let r = gum::std_unc(st.std, n_eff);
+    (r * r + (rel * st.std).powi(2)).sqrt()
+}
+
+/// The columns of one set of moments (ensemble or bin). `neff` holds the
+/// per-node N_eff of (u, v, omega); `k_parts` the k_coherent and
+/// k_stochastic maps.
+fn node_table(
+    m: &Moments,
+    neff: &[Vec<f64>; 3],
+    k_parts: (Vec<f64>, Vec<f64>),
+    c: &Ctx,
+) -> NodeTable {
+    let nodes = c.grid.len();
+    let cols = |f: &dyn Fn(usize) -> f64| -> Vec<f64> { (0..nodes).map(f).collect() };
+    let empty = Scalar::new(nodes);
+    let om = c.omega.map_or(&empty, |o| &m.q[o]);
+    let su = |k| stat(&m.u, k);
+    let sv = |k| stat(&m.v, k);
+    let sw = |k| stat(om, k);
+    let cov = |k: usize| {
+        if m.u.n[k] >= 2.0 {
+            m.cuv[k] / (m.u.n[k] - 1.0)
+        } else {
+            f64::NAN
+        }
+    };
+    let w_rel = c.omega.map_or(0.0, |o| c.q_rel[o]);
+    let cv = c.p.coverage;
+    let mut t = NodeTable::new(c.grid);
+    // CONTRACT columns, in order.
+    t.push("n_valid", m.n_valid.clone());
+    t.push("u_mean", cols(&|k| su(k).mean));
+    t.push("v_mean", cols(&|k| sv(k).mean));
+    t.push("u_std", cols(&|k| su(k).std));
+    t.push("v_std", cols(&|k| sv(k).std));
+    t.push("uv_cov", cols(&cov));
+    t.push("omega_mean", cols(&|k| sw(k).mean));
+    t.push("omega_std", cols(&|k| sw(k).std));
+    t.push(
+        "u_mean_unc",
+        cols(&|k| mean_uncs(&su(k), neff[0][k], c.vel_rel, cv).0),
+    );
+    t.push(
+        "v_mean_unc",
+        cols(&|k| mean_uncs(&sv(k), neff[1][k], c.vel_rel, cv).0),
+    );
+    t.push(
+        "omega_mean_unc",
+        cols(&|k| mean_uncs(&sw(k), neff[2][k], w_rel, cv).0),
+    );
+    t.push("omega_inst_unc", cols(&|k| sw(k).inst));
+    // Our own.
+    let sfx = &c.suffix;
+    t.push("n_samples", m.u.n.clone());
+    t.push(
+        "u_std_unc",
+        cols(&|k| std_unc(&su(k), neff[0][k], c.vel_rel)),
+    );
+    t.push(
+        "v_std_unc",
+        cols(&|k| std_unc(&sv(k), neff[1][k], c.vel_rel)),
+    );
+    t.push(
+        "uv_cov_unc",
+        cols(&|k| {
+            let ne = neff[0][k].min(neff[1][k]);
+            let r = gum::cov_unc(su(k).std, sv(k).std, cov(k), ne);
+            (r * r + (2.0 * c.vel_rel * cov(k)).powi(2)).sqrt()
+        }),
+    );
+    t.push(
+        "omega_std_unc",
+        cols(&|k| std_unc(&sw(k), neff[2][k], w_rel)),
+    );
+    t.push(
+        format!("u_mean_unc_{sfx}"),
+        cols(&|k| mean_uncs(&su(k), neff[0][k], c.vel_rel, cv).1),
+    );
+    t.push(
+        format!("v_mean_unc_{sfx}"),
+        cols(&|k| mean_uncs(&sv(k), neff[1][k], c.vel_rel, cv).1),
+    );
+    t.push(
+        format!("omega_mean_unc_{sfx}"),
+        cols(&|k| mean_uncs(&sw(k), neff[2][k], w_rel, cv).1),
+    );
+    t.push("u_inst_unc", cols(&|k| su(k).inst));
+    t.push("v_inst_unc", cols(&|k| sv(k).inst));
+    t.push("omega_bias", cols(&|k| sw(k).bias));
+    t.push(
+        "k",
+        cols(&|k| 0.5 * (su(k).std.powi(2) + sv(k).std.powi(2))),
+    );
+    t.push("k_coherent", k_parts.0);
+    t.push("k_stochastic", k_parts.1);
+    t.push("u_skew", cols(&|k| su(k).skew));
+    t.push("u_flat", cols(&|k| su(k).flat));
+    t.push("v_skew", cols(&|k| sv(k).skew));
+    t.push("v_flat", cols(&|k| sv(k).flat));
+    t.push("omega_skew", cols(&|k| sw(k).skew));
+    t.push("omega_flat", cols(&|k| sw(k).flat));
+    t.push("u_n_eff", neff[0].clone());
+    t.push("v_n_eff", neff[1].clone());
+    t.push("omega_n_eff", neff[2].clone());
+    let frac = |x: &Vec<f64>| {
+        x.iter()
+            .map(|&a| {
+                if m.frames > 0.0 {
+                    a / m.frames
+                } else {
+                    f64::NAN
+                }
+            })
+            .collect()
+    };
+    t.push("outlier_frac", frac(&m.n_replaced));
+    t.push("filled_frac", frac(&m.n_filled));
+    for (qi, name) in c.quantities.iter().enumerate() {
+        if Some(qi) == c.omega {
+            continue;
+        }
+        let s = |k| stat(&m.q[qi], k);
+        let rel = c.q_rel[qi];
+        t.push(format!("{name}_mean"), cols(&|k| s(k).mean));
+        t.push(format!("{name}_std"), cols(&|k| s(k).std));
+        t.push(
+            format!("{name}_mean_unc"),
+            cols(&|k| mean_uncs(&s(k), neff[2][k], rel, cv).0),
+        );
+        t.push(
+            format!("{name}_std_unc"),
+            cols(&|k| std_unc(&s(k), neff[2][k], rel)),
+        );
+        t.push(
+            format!("{name}_mean_unc_{sfx}"),
+            cols(&|k| mean_uncs(&s(k), neff[2][k], rel, cv).1),
+        );
+        t.push(format!("{name}_inst_unc"), cols(&|k| s(k).inst));
+        t.push(format!("{name}_bias"), cols(&|k| s(k).bias));
+    }
+    t
+}
+
+/// N_eff = N for every series (independent samples).
+fn independent(m: &Moments, omega: Option<usize>) -> [Vec<f64>; 3] {
+    let w = omega.map_or_else(|| m.u.n.clone(), |o| m.q[o].n.clone());
+    [m.u.n.clone(), m.v.n.clone(), w]
+}
+
+pub(super) fn finish(acc: &RunAccumulator, p: &Params) -> RunStats {
+    let mut warnings = Vec::new();
+    let grid = acc.grid;
+    let nodes = grid.len();
+    let omega = acc.omega();
+    if omega.is_none() {
+        warnings.push("no omega among the derived quantities; the omega columns are empty".into());
+    }
+    let rel = |unit: &str, name: &str, warnings: &mut Vec<String>| -> f64 {
+        if p.calibration_unc == 0.0 && p.pulse_separation_unc == 0.0 {
+            return 0.0;
+        }
+        match scale_exponents(unit) {
+            Some((a, b)) => ((a as f64 * p.calibration_unc).powi(2)
+                + (b as f64 * p.pulse_separation_unc).powi(2))
+            .sqrt(),
+            None => {
+                warnings.push(format!(
+                    "unit '{unit}' of {name} is not of the form m^a/s^b; its calibration and pulse-separation uncertainty is left out"
+                ));
+                0.0
+            }
+        }
+    };
+    let q_rel = acc
+        .quantities
+        .iter()
+        .zip(&acc.units)
+        .map(|(q, u)| rel(u, q, &mut warnings))
+        .collect();
+    let ctx = Ctx {
+        grid,
+        p,
+        quantities: &acc.quantities,
+        q_rel,
+        vel_rel: rel("m/s", "velocity", &mut warnings),
+        omega,
+        suffix: coverage_suffix(p.coverage),
+    };
+
+    // Effective sample size.
+    let mut neff = independent(&acc.ens, omega);
+    let mut run_neff = None;
+    let step = acc.clock.uniform_step();
+    if acc.clock.timed > 0 && step.is_none() && acc.clock.frames >= 3 {
+        warnings.push(format!(
+            "{} of {} frames have time_s but the steps are not uniform; samples are treated as independent (N_eff = N)",
+            acc.clock.timed, acc.clock.frames
+        ));
+    }
+    if let (Some(_), Some(lags)) = (step, acc.lags.as_ref()) {
+        let cap = p.max_lag.min(acc.params.max_lag).max(1);
+        let mut capped = [0usize; 3];
+        let series: Vec<&Scalar> = match omega {
+            Some(o) => vec![&acc.ens.u, &acc.ens.v, &acc.ens.q[o]],
+            None => vec![&acc.ens.u, &acc.ens.v],
+        };
+        for (s, sc) in series.iter().enumerate() {
+            for (k, slot) in neff[s].iter_mut().enumerate() {
+                let (ne, _, hit) = lags.n_eff(s * nodes + k, sc.n[k], sc.mean[k], sc.m2[k], cap);
+                *slot = ne;
+                capped[s] += usize::from(hit);
+            }
+        }
+        if omega.is_none() {
+            neff[2] = (0..nodes).map(|k| neff[0][k].min(neff[1][k])).collect();
+        }
+        for (s, name) in ["u", "v", "omega"].iter().enumerate() {
+            if capped[s] > 0 {
+                warnings.push(format!(
+                    "at {} of {nodes} nodes the autocorrelation of {name} is still positive at the lag cap ({cap} frames); N_eff there is an upper bound (raise [statistics] max_lag)",
+                    capped[s]
+                ));
+            }
+        }
+        let vals: Vec<f64> = (0..nodes)
+            .filter(|&k| acc.ens.u.n[k] > 0.0)
+            .map(|k| 0.5 * (neff[0][k] + neff[1][k]))
+            .collect();
+        if !vals.is_empty() {
+            run_neff = Some(vals.iter().sum::<f64>() / vals.len() as f64);
+        }
+    }
+
+    // Phase bins and the energy split.
+    let has_phase = acc.bins.iter().any(|b| b.is_some()) || acc.outside > 0;
+    let empty = Moments::new(nodes, acc.quantities.len());
+    let bin_moments: Vec<&Moments> = acc
+        .bins
+        .iter()
+        .map(|b| b.as_ref().unwrap_or(&empty))
+        .collect();
+    let mut phase_tables = Vec::new();
+    let (k_coh, k_sto) = if has_phase {
+        phase::energy_split(&bin_moments, nodes)
+    } else {
+        (vec![f64::NAN; nodes], vec![f64::NAN; nodes])
+    };
+    let ensemble = node_table(&acc.ens, &neff, (k_coh.clone(), k_sto.clone()), &ctx);
+    let mut summary = Vec::new();
+    if has_phase {
+        let mean = |s: &Scalar, k: usize| if s.n[k] > 0.0 { s.mean[k] } else { f64::NAN };
+        for (b, m) in bin_moments.iter().enumerate() {
+            let coh: Vec<[f64; 3]> = (0..nodes)
+                .map(|k| {
+                    let w = omega.map_or(f64::NAN, |o| mean(&m.q[o], k) - mean(&acc.ens.q[o], k));
+                    [
+                        mean(&m.u, k) - mean(&acc.ens.u, k),
+                        mean(&m.v, k) - mean(&acc.ens.v, k),
+                        w,
+                    ]
+                })
+                .collect();
+            let kc = coh
+                .iter()
+                .map(|c| 0.5 * (c[0] * c[0] + c[1] * c[1]))
+                .collect();
+            let ks = (0..nodes)
+                .map(|k| {
+                    if m.u.n[k] >= 2.0 {
+                        0.5 * (m.u.m2[k] + m.v.m2[k]) / (m.u.n[k] - 1.0)
+                    } else {
+                        f64::NAN
+                    }
+                })
+                .collect();
+            let mut table = node_table(m, &independent(m, omega), (kc, ks), &ctx);
+            for (i, name) in ["u_coherent", "v_coherent", "omega_coherent"]
+                .iter()
+                .enumerate()
+            {
+                table.push(*name, coh.iter().map(|c| c[i]).collect());
+            }
+            phase_tables.push(PhaseBin {
+                bin: b,
+                centre_deg: phase::centre_deg(acc.params.phase_bins, b),
+                n_frames: m.frames as usize,
+                table,
+            });
+        }
+        let empty_bins: Vec<String> = phase_tables
+            .iter()
+            .filter(|b| b.n_frames == 0)
+            .map(|b| b.bin.to_string())
+            .collect();
+        if !empty_bins.is_empty() {
+            warnings.push(format!(
+                "phase bins {} hold no frames",
+                empty_bins.join(", ")
+            ));
+        }
+        if acc.unphased > 0 {
+            warnings.push(format!(
+                "{} of {} frames have no phase_deg; they are left out of the phase bins",
+                acc.unphased, acc.clock.frames
+            ));
+        }
+        if acc.outside > 0 {
+            warnings.push(format!(
+                "{} frames lie outside every phase window ({} degrees wide); they are left out of the phase bins",
+                acc.outside,
+                acc.params.phase_width_deg.unwrap_or(f64::NAN)
+            ));
+        }
+        let (sc, ss): (f64, f64) = k_coh
+            .iter()
+            .zip(&k_sto)
+            .filter(|(a, b)| a.is_finite() && b.is_finite())
+            .fold((0.0, 0.0), |(x, y), (a, b)| (x + a, y + b));
+        if sc + ss > 0.0 {
+            summary.push(("k_coherent_frac".to_string(), sc / (sc + ss)));
+            summary.push(("k_stochastic_frac".to_string(), ss / (sc + ss)));
+        }
+        summary.push((
+            "phase_frames".to_string(),
+            bin_moments.iter().map(|m| m.frames).sum(),
+        ));
+    }
+
+    // Summary scalars.
+    let col = |n: &str| ensemble.get(n).expect("column");
+    let (om, omu) = (col("omega_mean"), col("omega_mean_unc"));
+    if let Some(k) = (0..nodes)
+        .filter(|&k| om[k].is_finite())
+        .max_by(|&a, &b| om[a].abs().total_cmp(&om[b].abs()))
+    {
+        summary.push(("omega_mean_peak".into(), om[k]));
+        summary.push(("omega_mean_peak_unc".into(), omu[k]));
+        summary.push(("omega_mean_peak_x".into(), grid.x(k % grid.nx)));
+        summary.push(("omega_mean_peak_y".into(), grid.y(k / grid.nx)));
+    }
+    for name in ["u_mean_unc", "omega_mean_unc"] {
+        let mut v: Vec<f64> = col(name)
+            .iter()
+            .copied()
+            .filter(|x| x.is_finite())
+            .collect();
+        if !v.is_empty() {
+            v.sort_by(f64::total_cmp);
+            summary.push((format!("{name}_median"), v[v.len() / 2]));
+        }
+    }
+    if let Some(ne) = run_neff {
+        summary.push(("n_eff_mean".into(), ne));
+        let n = col("n_samples");
+        let r: Vec<f64> = (0..nodes)
+            .filter(|&k| n[k] > 0.0)
+            .map(|k| 0.5 * (neff[0][k] + neff[1][k]) / n[k])
+            .collect();
+        summary.push(("n_eff_ratio".into(), r.iter().sum::<f64>() / r.len() as f64));
+        summary.push(("time_step_s".into(), step.unwrap_or(f64::NAN)));
+    }
+    let samples = col("n_samples");
+    summary.push((
+        "samples_per_node_mean".into(),
+        samples.iter().sum::<f64>() / nodes.max(1) as f64,
+    ));
+
+    // Convergence at the probes.
+    let convergence = (!acc.traces.is_empty()).then(|| {
+        let inputs: Vec<ProbeInput> = acc
+            .traces
+            .iter()
+            .zip(&acc.params.probes)
+            .map(|(t, &point)| {
+                let k = t.node;
+                let ratio = |s: usize, n: f64| if n > 0.0 { neff[s][k] / n } else { 1.0 };
+                let nw = omega.map_or(0.0, |o| acc.ens.q[o].n[k]);
+                ProbeInput {
+                    point,
+                    node: k,
+                    rows: &t.rows,
+                    ratio: [
+                        ratio(0, acc.ens.u.n[k]),
+                        ratio(1, acc.ens.v.n[k]),
+                        ratio(2, nw),
+                    ],
+                }
+            })
+            .collect();
+        probes::convergence(
+            &grid,
+            &inputs,
+            p.convergence_tail,
+            p.coverage,
+            &mut warnings,
+        )
+    });
+
+    RunStats {
+        ensemble,
+        phase: phase_tables,
+        convergence,
+        n_eff: run_neff,
+        summary,
+        warnings,
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn units_and_suffixes() {
+        assert_eq!(scale_exponents("m/s"), Some((1, -1)));
+        assert_eq!(scale_exponents("1/s"), Some((0, -1)));
+        assert_eq!(scale_exponents("1/s^2"), Some((0, -2)));
+        assert_eq!(scale_exponents("m^2/s"), Some((2, -1)));
+        assert_eq!(scale_exponents(""), Some((0, 0)));
+        assert_eq!(scale_exponents("rad"), None);
+        assert_eq!(coverage_suffix(0.95), "p95");
+        assert_eq!(coverage_suffix(0.9545), "p95_45");
+        assert_eq!(coverage_suffix(0.99), "p99");
+    }
+}

@@ -1,0 +1,691 @@
+//! Whole-accumulator tests: properties of merging, serialisation, phase
+//! averaging and the uncertainty columns, on fields built by hand.
+
+use ndarray::Array2;
+use rand::Rng;
+use rand_distr::{Distribution, StandardNormal};
+
+use super::*;
+use crate::derive::Quantity;
+use crate::field::{Field, FrameMeta, Grid, FILLED, REPLACED, VALID};
+use crate::io::Values;
+use crate::testutil::{assert_close, rng};
+
+const Q: [&str; 2] = ["omega", "div"];
+
+fn grid(nx: usize, ny: usize) -> Grid {
+    Grid {
+        nx,
+        ny,
+        x0: 0.0,
+        y0: 0.0,
+        dx: 1e-3,
+        dy: 1e-3,
+    }
+}
+
+/// One frame from per-node (u, v, omega, div) and status functions.
+struct Frame {
+    meta: FrameMeta,
+    field: Field,
+    derived: Derived,
+}
+
+fn frame(
+    g: Grid,
+    index: usize,
+    time: Option<f64>,
+    phase: Option<f64>,
+    vals: &dyn Fn(usize, usize) -> [f64; 4],
+    status: &dyn Fn(usize, usize) -> u8,
+) -> Frame {
+    let sh = g.shape();
+    let mut field = Field::empty(g);
+    let mut a: Vec<Array2<f64>> = (0..4).map(|_| Array2::zeros(sh)).collect();
+    for j in 0..g.ny {
+        for i in 0..g.nx {
+            let v = vals(j, i);
+            for q in 0..4 {
+                a[q][[j, i]] = v[q];
+            }
+            field.status[[j, i]] = status(j, i);
+        }
+    }
+    field.u = a[0].clone();
+    field.v = a[1].clone();
+    let quantity = |name, value: &Array2<f64>, unc: f64| Quantity {
+        name,
+        unit: "1/s",
+        value: value.clone(),
+        unc: Some(Array2::from_elem(sh, unc)),
+        bias: Some(Array2::from_elem(sh, 0.01)),
+    };
+    let derived = Derived {
+        u: a[0].clone(),
+        v: a[1].clone(),
+        u_unc: Array2::from_elem(sh, 0.02),
+        v_unc: Array2::from_elem(sh, 0.03),
+        quantities: vec![
+            quantity("omega", &a[2], 0.1 + 0.1 * (index % 2) as f64),
+            quantity("div", &a[3], 0.05),
+        ],
+        noise_estimate: None,
+    };
+    Frame {
+        meta: FrameMeta {
+            index,
+            name: format!("f{index:04}"),
+            time_s: time,
+            phase_deg: phase,
+        },
+        field,
+        derived,
+    }
+}
+
+/// Random frames with a few replaced and filled nodes, phases and times.
+fn random_frames(g: Grid, n: usize, seed: u64, timed: bool) -> Vec<Frame> {
+    let mut r = rng(seed);
+    (0..n)
+        .map(|f| {
+            let noise: Vec<f64> = (0..4 * g.len())
+                .map(|_| StandardNormal.sample(&mut r))
+                .collect();
+            let st: Vec<u8> = (0..g.len())
+                .map(|_| match r.random_range(0..20) {
+                    0 => REPLACED,
+                    1 => FILLED,
+                    _ => VALID,
+                })
+                .collect();
+            let phase = r.random_range(0.0..720.0) - 180.0;
+            frame(
+                g,
+                f,
+                timed.then_some(f as f64 * 1e-3),
+                Some(phase),
+                &|j, i| {
+                    let k = j * g.nx + i;
+                    [
+                        1.0 + 0.1 * noise[4 * k],
+                        0.2 + 0.05 * noise[4 * k + 1],
+                        30.0 * noise[4 * k + 2],
+                        noise[4 * k + 3],
+                    ]
+                },
+                &|j, i| st[j * g.nx + i],
+            )
+        })
+        .collect()
+}
+
+fn params() -> Params {
+    Params {
+        phase_bins: 4,
+        probes: vec![(1e-3, 1e-3)],
+        max_lag: 6,
+        ..Params::default()
+    }
+}
+
+fn accumulate(p: &Params, g: Grid, frames: &[Frame]) -> RunAccumulator {
+    let mut a = RunAccumulator::new(p, g, &Q);
+    for f in frames {
+        a.push(&f.meta, &f.field, &f.derived);
+    }
+    a
+}
+
+fn chunked(p: &Params, g: Grid, frames: &[Frame], size: usize) -> RunAccumulator {
+    let mut it = frames.chunks(size).map(|c| accumulate(p, g, c));
+    let mut a = it.next().unwrap();
+    it.for_each(|c| a.merge(c));
+    a
+}
+
+/// Every column of two stats agree within `rel` (NaN where the other is NaN).
+fn assert_same(a: &RunStats, b: &RunStats, rel: f64, what: &str) {
+    let tables = |s: &RunStats| {
+        let mut v = vec![s.ensemble.clone()];
+        v.extend(s.phase.iter().map(|p| p.table.clone()));
+        v
+    };
+    for (ta, tb) in tables(a).iter().zip(tables(b).iter()) {
+        assert_eq!(ta.columns.len(), tb.columns.len());
+        for ((na, ca), (nb, cb)) in ta.columns.iter().zip(&tb.columns) {
+            assert_eq!(na, nb);
+            for (x, y) in ca.iter().zip(cb) {
+                assert_close(*x, *y, 1e-300, rel, &format!("{what}: {na}"));
+            }
+        }
+    }
+    let (Some(ca), Some(cb)) = (&a.convergence, &b.convergence) else {
+        assert!(
+            a.convergence.is_none() && b.convergence.is_none(),
+            "{what}: convergence"
+        );
+        return;
+    };
+    for ((na, va), (nb, vb)) in ca.columns.iter().zip(&cb.columns) {
+        assert_eq!(na, nb);
+        match (va, vb) {
+            (Values::F64(x), Values::F64(y)) => {
+                for (x, y) in x.iter().zip(y) {
+                    assert_close(*x, *y, 1e-300, rel, &format!("{what}: convergence {na}"));
+                }
+            }
+            _ => assert_eq!(va, vb, "{what}: convergence {na}"),
+        }
+    }
+}
+
+#[test]
+fn chunk_merges_equal_one_pass_and_repeat_bit_for_bit() {
+    let g = grid(3, 2);
+    let frames = random_frames(g, 70, 41, true);
+    let p = params();
+    let one = accumulate(&p, g, &frames).finish(&p);
+    for size in [1, 16, 33] {
+        let c = chunked(&p, g, &frames, size);
+        assert_same(&c.finish(&p), &one, 1e-12, &format!("chunks of {size}"));
+        // The same chunking always gives the same bytes (any thread count).
+        assert_eq!(c.to_bytes(), chunked(&p, g, &frames, size).to_bytes());
+    }
+    assert!(one.n_eff.is_some());
+}
+
+#[test]
+fn merge_is_associative_for_random_splits() {
+    let g = grid(3, 2);
+    let p = params();
+    for seed in 0..4u64 {
+        let frames = random_frames(g, 45, 420 + seed, true);
+        let mut r = rng(4200 + seed);
+        let i = r.random_range(1..30);
+        let j = r.random_range(i + 1..44);
+        let [a, b, c] = [&frames[..i], &frames[i..j], &frames[j..]].map(|f| accumulate(&p, g, f));
+        let mut left = a.clone();
+        left.merge(b.clone());
+        left.merge(c.clone());
+        let mut bc = b;
+        bc.merge(c);
+        let mut right = a;
+        right.merge(bc);
+        assert_same(
+            &left.finish(&p),
+            &right.finish(&p),
+            1e-12,
+            &format!("(a+b)+c vs a+(b+c), split {i}/{j}"),
+        );
+    }
+}
+
+#[test]
+fn pushing_equals_merging_single_frames_bit_for_bit() {
+    // Push is the merge formula with n_b = 1, so chunks of one frame give
+    // the very same bytes as one pass.
+    let g = grid(3, 2);
+    let frames = random_frames(g, 30, 49, true);
+    let p = params();
+    assert_eq!(
+        chunked(&p, g, &frames, 1).to_bytes(),
+        accumulate(&p, g, &frames).to_bytes()
+    );
+}
+
+#[test]
+fn thread_count_does_not_change_a_bit() {
+    // The driver's scheme: fixed chunks of 16 frames, accumulated in
+    // parallel, merged in frame order.
+    use rayon::prelude::*;
+    let g = grid(4, 3);
+    let frames = random_frames(g, 100, 50, true);
+    let p = params();
+    let run = |threads: usize| {
+        let pool = rayon::ThreadPoolBuilder::new()
+            .num_threads(threads)
+            .build()
+            .unwrap();
+        pool.install(|| {
+            let parts: Vec<RunAccumulator> = frames
+                .par_chunks(16)
+                .map(|c| accumulate(&p, g, c))
+                .collect();
+            let mut it = parts.into_iter();
+            let mut a = it.next().unwrap();
+            it.for_each(|c| a.merge(c));
+            a.to_bytes()
+        })
+    };
+    assert_eq!(run(1), run(4));
+}
+
+#[test]
+fn an_empty_run_finishes_with_empty_columns() {
+    let g = grid(2, 2);
+    let p = params();
+    let s = RunAccumulator::new(&p, g, &Q).finish(&p);
+    assert_eq!(s.ensemble.get("n_valid").unwrap(), &[0.0; 4]);
+    assert!(s.ensemble.get("u_mean").unwrap().iter().all(|x| x.is_nan()));
+    assert!(s.phase.is_empty() && s.n_eff.is_none());
+    assert_eq!(s.convergence.unwrap().n_rows(), 0);
+}
+
+#[test]
+fn ensemble_does_not_depend_on_frame_order() {
+    // Without time_s the samples are independent: any order, same statistics.
+    let g = grid(2, 2);
+    let mut frames = random_frames(g, 40, 43, false);
+    let p = Params {
+        probes: vec![],
+        ..params()
+    };
+    let one = accumulate(&p, g, &frames).finish(&p);
+    frames.reverse();
+    for (i, f) in frames.iter_mut().enumerate() {
+        f.meta.index = i;
+    }
+    assert_same(
+        &chunked(&p, g, &frames, 7).finish(&p),
+        &one,
+        1e-12,
+        "reversed",
+    );
+}
+
+#[test]
+fn merging_out_of_order_or_mismatched_partials_is_an_error() {
+    let g = grid(2, 2);
+    let frames = random_frames(g, 10, 44, false);
+    let p = params();
+    let a = accumulate(&p, g, &frames[..5]);
+    let b = accumulate(&p, g, &frames[5..]);
+    let mut late = b.clone();
+    let e = late.try_merge(a.clone()).unwrap_err();
+    assert!(e.message.contains("out of order"), "{e}");
+    let other = accumulate(
+        &Params {
+            phase_bins: 6,
+            ..p.clone()
+        },
+        g,
+        &frames[5..],
+    );
+    let e = a.clone().try_merge(other).unwrap_err();
+    assert!(e.message.contains("phase_bins"), "{e}");
+    let mut empty = RunAccumulator::new(&p, g, &Q);
+    empty.merge(a.clone());
+    empty.merge(RunAccumulator::new(&p, g, &Q));
+    assert_eq!(
+        empty.to_bytes(),
+        a.to_bytes(),
+        "empty accumulators are neutral"
+    );
+}
+
+#[test]
+fn serialisation_round_trips_and_rejects_other_versions_and_damage() {
+    let g = grid(3, 2);
+    let frames = random_frames(g, 20, 45, true);
+    let p = params();
+    let a = accumulate(&p, g, &frames);
+    let bytes = a.to_bytes();
+    assert_eq!(&bytes[..8], FORMAT_MAGIC);
+    let back = RunAccumulator::from_bytes(&bytes).unwrap();
+    assert_eq!(back.to_bytes(), bytes);
+    assert_same(&back.finish(&p), &a.finish(&p), 0.0, "round trip");
+    let mut v2 = bytes.clone();
+    v2[8..12].copy_from_slice(&2u32.to_le_bytes());
+    let e = RunAccumulator::from_bytes(&v2).unwrap_err();
+    assert!(
+        e.message.contains("version 2") && e.message.contains("version 1"),
+        "{e}"
+    );
+    let e = RunAccumulator::from_bytes(&bytes[..bytes.len() - 100]).unwrap_err();
+    assert!(e.message.contains("truncated"), "{e}");
+    let mut dmg = bytes.clone();
+    dmg[40] ^= 1;
+    assert!(RunAccumulator::from_bytes(&dmg)
+        .unwrap_err()
+        .message
+        .contains("checksum"));
+    assert!(RunAccumulator::from_bytes(b"PK\x03\x04 not ours")
+        .unwrap_err()
+        .message
+        .contains("magic"));
+    assert_eq!(RunAccumulator::from_bytes(&[]).unwrap_err().exit_code(), 1);
+}
+
+#[test]
+fn samples_counts_and_instantaneous_uncertainty_follow_the_rules() {
+    // Node 0 valid in frames 0..4 with u = 1, 2, 3, 4; replaced in frame 4
+    // and filled in frame 5 (u = 100, excluded by default).
+    let g = grid(1, 1);
+    let us = [1.0, 2.0, 3.0, 4.0, 100.0, 100.0];
+    let st = [VALID, VALID, VALID, VALID, REPLACED, FILLED];
+    let frames: Vec<Frame> = (0..6)
+        .map(|f| {
+            frame(
+                g,
+                f,
+                None,
+                None,
+                &|_, _| [us[f], 0.0, us[f], 0.0],
+                &|_, _| st[f],
+            )
+        })
+        .collect();
+    let p = Params::default();
+    let s = accumulate(&p, g, &frames).finish(&p);
+    let c = |n: &str| s.ensemble.get(n).unwrap()[0];
+    assert_eq!(c("n_valid"), 4.0);
+    assert_eq!(c("u_mean"), 2.5);
+    // Sample std of 1..4 = sqrt(5/3); u(mean) = s/sqrt(4) (no systematics on u).
+    assert_close(c("u_std"), (5.0f64 / 3.0).sqrt(), 1e-15, 0.0, "u_std");
+    assert_close(
+        c("u_mean_unc"),
+        (5.0f64 / 3.0).sqrt() / 2.0,
+        1e-15,
+        0.0,
+        "u_mean_unc",
+    );
+    // Expanded: t_0.975(3) = 3.182446 (scipy.stats.t.ppf(0.975, 3)).
+    assert_close(
+        c("u_mean_unc_p95"),
+        3.182446305284263 * (5.0f64 / 3.0).sqrt() / 2.0,
+        1e-12,
+        0.0,
+        "U95",
+    );
+    assert_close(c("outlier_frac"), 1.0 / 6.0, 1e-15, 0.0, "outlier_frac");
+    assert_close(c("filled_frac"), 1.0 / 6.0, 1e-15, 0.0, "filled_frac");
+    // omega unc alternates 0.1, 0.2 over the 4 counted frames: RMS sqrt(0.025).
+    assert_close(
+        c("omega_inst_unc"),
+        0.025f64.sqrt(),
+        1e-15,
+        0.0,
+        "omega_inst_unc",
+    );
+    assert_close(c("u_inst_unc"), 0.02, 1e-15, 0.0, "u_inst_unc");
+    // omega_mean_unc combines s/sqrt(N) with the RMS bias 0.01 (GUM eq. 10).
+    let r = (5.0f64 / 3.0).sqrt() / 2.0;
+    assert_close(
+        c("omega_mean_unc"),
+        (r * r + 1e-4).sqrt(),
+        1e-15,
+        0.0,
+        "omega_mean_unc",
+    );
+    assert!(s.phase.is_empty() && s.n_eff.is_none());
+    // With include_filled the replaced and filled vectors are samples too.
+    let p = Params {
+        include_filled: true,
+        ..Params::default()
+    };
+    let s = accumulate(&p, g, &frames).finish(&p);
+    assert_eq!(s.ensemble.get("n_samples").unwrap()[0], 6.0);
+    assert_eq!(s.ensemble.get("n_valid").unwrap()[0], 4.0);
+}
+
+#[test]
+fn scale_systematics_enter_by_unit() {
+    // u = 2 +- 1 alternating (N = 100): random part s/10; calibration 1 %
+    // and pulse separation 2 % give 2 * sqrt(0.01^2 + 0.02^2) for u (m/s);
+    // vorticity (1/s) carries only the pulse-separation part.
+    let g = grid(1, 1);
+    let frames: Vec<Frame> = (0..100)
+        .map(|f| {
+            let x = if f % 2 == 0 { 3.0 } else { 1.0 };
+            frame(g, f, None, None, &|_, _| [x, 0.0, x, 0.0], &|_, _| VALID)
+        })
+        .collect();
+    let p = Params {
+        calibration_unc: 0.01,
+        pulse_separation_unc: 0.02,
+        ..Params::default()
+    };
+    let s = accumulate(&p, g, &frames).finish(&p);
+    let sd = (100.0f64 / 99.0).sqrt();
+    let c = |n: &str| s.ensemble.get(n).unwrap()[0];
+    let sys = 2.0 * (0.01f64.powi(2) + 0.02f64.powi(2)).sqrt();
+    assert_close(
+        c("u_mean_unc"),
+        ((sd / 10.0).powi(2) + sys * sys).sqrt(),
+        1e-14,
+        0.0,
+        "u_mean_unc",
+    );
+    let sys_w = 2.0 * 0.02;
+    assert_close(
+        c("omega_mean_unc"),
+        ((sd / 10.0).powi(2) + sys_w * sys_w + 1e-4).sqrt(),
+        1e-14,
+        0.0,
+        "omega",
+    );
+    // Welch-Satterthwaite: nu_eff = u_c^4 / (u_r^4 / 99).
+    let uc = ((sd / 10.0).powi(2) + sys * sys).sqrt();
+    let nu = uc.powi(4) / ((sd / 10.0).powi(4) / 99.0);
+    assert_close(
+        c("u_mean_unc_p95"),
+        gum::coverage_factor(0.95, nu) * uc,
+        1e-14,
+        0.0,
+        "U95",
+    );
+}
+
+#[test]
+fn phase_bins_reproduce_the_analytic_bin_means_and_the_parts_add_back() {
+    // u = U + A cos(phi) + noise, v = B sin(phi); 720 frames with evenly
+    // spaced phases, 12 bins. The bin mean of cos over [a, b) is
+    // (sin b - sin a)/(b - a) (calculus; midpoint-rule error ~1e-6 here).
+    let g = grid(2, 1);
+    let (u0, amp, bamp) = (1.5, 0.4, 0.3);
+    let n = 720;
+    let mut r = rng(46);
+    let noise: Vec<f64> = (0..n)
+        .map(|_| 0.05 * Distribution::<f64>::sample(&StandardNormal, &mut r))
+        .collect();
+    let frames: Vec<Frame> = (0..n)
+        .map(|f| {
+            let ph = (f as f64 * 7.0 + 0.5) % 720.0 * 0.5; // a permutation of the 720 midpoints
+            let phr = ph.to_radians();
+            frame(
+                g,
+                f,
+                None,
+                Some(ph + 360.0 * (f % 3) as f64),
+                &|_, i| {
+                    [
+                        u0 + amp * phr.cos() + noise[f] * i as f64,
+                        bamp * phr.sin(),
+                        0.0,
+                        0.0,
+                    ]
+                },
+                &|_, _| VALID,
+            )
+        })
+        .collect();
+    let p = Params {
+        phase_bins: 12,
+        ..Params::default()
+    };
+    let s = chunked(&p, g, &frames, 16).finish(&p);
+    assert_eq!(s.phase.len(), 12);
+    for b in &s.phase {
+        assert_eq!(b.n_frames, 60);
+        let (a, e) = (
+            (b.bin as f64 * 30.0).to_radians(),
+            ((b.bin as f64 + 1.0) * 30.0).to_radians(),
+        );
+        let cos_mean = (e.sin() - a.sin()) / (e - a);
+        let sin_mean = (a.cos() - e.cos()) / (e - a);
+        assert_close(
+            b.table.get("u_mean").unwrap()[0],
+            u0 + amp * cos_mean,
+            1e-5,
+            0.0,
+            "bin mean u",
+        );
+        assert_close(
+            b.table.get("v_mean").unwrap()[0],
+            bamp * sin_mean,
+            1e-5,
+            0.0,
+            "bin mean v",
+        );
+        assert_close(
+            b.table.get("u_coherent").unwrap()[0],
+            amp * cos_mean,
+            1e-5,
+            0.0,
+            "coherent u",
+        );
+        assert_eq!(b.centre_deg, b.bin as f64 * 30.0 + 15.0);
+    }
+    // The parts add back: k_coherent + k_stochastic = k at every node, and
+    // the frame-weighted coherent parts sum to zero.
+    let e = &s.ensemble;
+    for k in 0..2 {
+        let (kc, ks, kk) = (
+            e.get("k_coherent").unwrap()[k],
+            e.get("k_stochastic").unwrap()[k],
+            e.get("k").unwrap()[k],
+        );
+        assert_close(kc + ks, kk, 0.0, 1e-12, "k_coherent + k_stochastic = k");
+        let sum: f64 = s
+            .phase
+            .iter()
+            .map(|b| b.n_frames as f64 * b.table.get("u_coherent").unwrap()[k])
+            .sum();
+        assert_close(sum, 0.0, 1e-12, 0.0, "sum of coherent parts");
+    }
+    // Node 0 has no noise: nearly all energy is coherent; the within-bin
+    // spread of a 30-degree bin is what is left: 1 - sinc^2(15 deg) of it.
+    let frac = s
+        .summary
+        .iter()
+        .find(|(n, _)| n == "k_coherent_frac")
+        .unwrap()
+        .1;
+    assert!(frac > 0.9 && frac < 1.0, "coherent fraction {frac}");
+    let sinc = (15f64.to_radians()).sin() / 15f64.to_radians();
+    let kc0 = e.get("k_coherent").unwrap()[0];
+    assert_close(
+        kc0,
+        0.25 * (amp * amp + bamp * bamp) * sinc * sinc * 720.0 / 719.0,
+        0.0,
+        1e-4,
+        "k_coherent, node 0",
+    );
+}
+
+#[test]
+fn time_resolved_runs_get_n_eff_from_the_autocorrelation() {
+    // AR(1) with coefficient 0.5 at every node: N_eff ~ N/3 (derived,
+    // METHODS.md); the uncertainty of the mean uses it.
+    let g = grid(2, 1);
+    let n = 3000;
+    let mut r = rng(47);
+    let mut x = [0.0f64; 2];
+    let frames: Vec<Frame> = (0..n)
+        .map(|f| {
+            for xi in x.iter_mut() {
+                *xi = 0.5 * *xi + Distribution::<f64>::sample(&StandardNormal, &mut r);
+            }
+            let xv = x;
+            frame(
+                g,
+                f,
+                Some(0.002 * f as f64),
+                None,
+                &|_, i| [5.0 + xv[i], xv[1 - i], xv[i], 0.0],
+                &|_, _| VALID,
+            )
+        })
+        .collect();
+    let p = Params {
+        max_lag: 30,
+        ..Params::default()
+    };
+    let s = chunked(&p, g, &frames, 16).finish(&p);
+    let e = &s.ensemble;
+    for k in 0..2 {
+        let ne = e.get("u_n_eff").unwrap()[k];
+        assert_close(ne, n as f64 / 3.0, 0.0, 0.12, "u_n_eff");
+        let sd = e.get("u_std").unwrap()[k];
+        assert_close(
+            e.get("u_mean_unc").unwrap()[k],
+            sd / ne.sqrt(),
+            0.0,
+            1e-12,
+            "u_mean_unc uses N_eff",
+        );
+    }
+    let mean = s.n_eff.unwrap();
+    assert_close(mean, n as f64 / 3.0, 0.0, 0.1, "run N_eff");
+    // A jump in time_s: not uniform, so independent samples and a warning.
+    let mut frames = frames;
+    frames.truncate(100);
+    frames[50].meta.time_s = Some(1.0);
+    let s = accumulate(&p, g, &frames).finish(&p);
+    assert_eq!(s.ensemble.get("u_n_eff").unwrap()[0], 100.0);
+    assert!(
+        s.warnings.iter().any(|w| w.contains("not uniform")),
+        "{:?}",
+        s.warnings
+    );
+}
+
+#[test]
+fn ensemble_columns_start_with_the_contract_ones() {
+    let g = grid(2, 2);
+    let p = params();
+    let s = accumulate(&p, g, &random_frames(g, 5, 48, false)).finish(&p);
+    let names: Vec<&str> = s.ensemble.columns.iter().map(|(n, _)| n.as_str()).collect();
+    let contract = [
+        "n_valid",
+        "u_mean",
+        "v_mean",
+        "u_std",
+        "v_std",
+        "uv_cov",
+        "omega_mean",
+        "omega_std",
+        "u_mean_unc",
+        "v_mean_unc",
+        "omega_mean_unc",
+        "omega_inst_unc",
+    ];
+    assert_eq!(&names[..12], &contract);
+    assert_eq!(contract, CONTRACT_COLUMNS);
+    assert!(names.contains(&"div_mean_unc_p95") && !names.contains(&"x"));
+    let phase_names: Vec<&str> = s.phase[0]
+        .table
+        .columns
+        .iter()
+        .map(|(n, _)| n.as_str())
+        .collect();
+    assert_eq!(&phase_names[..names.len()], &names[..]);
+    let conv = s.convergence.unwrap();
+    assert_eq!(conv.n_rows(), 5);
+}
+
+#[test]
+fn state_size_does_not_grow_with_the_frames() {
+    // O(nodes x quantities x moments): without probes the partial state of
+    // 60 and of 200 frames has the same size (lag sums and head/tail frames
+    // are capped by max_lag).
+    let g = grid(3, 2);
+    let p = Params {
+        probes: vec![],
+        ..params()
+    };
+    let frames = random_frames(g, 200, 51, true);
+    let small = accumulate(&p, g, &frames[..60]).to_bytes().len();
+    let large = accumulate(&p, g, &frames).to_bytes().len();
+    assert_eq!(small, large);
+}
