@@ -57,6 +57,14 @@ pub struct Args {
     /// Fraction of vectors per frame that are gaps (missing rows or empty cells).
     #[arg(long, default_value_t = 0.02)]
     pub gaps: f64,
+    /// Also write sigma_u, sigma_v columns (the noise standard deviation);
+    /// the pipeline then takes the velocity noise from them.
+    #[arg(long)]
+    pub sigma_columns: bool,
+    /// Also write a flag column; a third of the gaps become flagged rows
+    /// (a value written with flag = 1).
+    #[arg(long)]
+    pub flag_column: bool,
     /// Camera calibration, micrometres per pixel.
     #[arg(long, default_value_t = 40.0)]
     pub pixel_um: f64,
@@ -157,6 +165,8 @@ pub fn run(args: Args) -> Result<()> {
         outlier_fraction: args.outliers,
         outlier_scale: args.outlier_scale,
         gap_fraction: args.gaps,
+        sigma_columns: args.sigma_columns,
+        flag_column: args.flag_column,
         length_unit: args.length_unit,
         velocity_unit: args.velocity_unit,
         format: args.format,
@@ -186,7 +196,7 @@ pub fn run(args: Args) -> Result<()> {
     );
     for r in &s.runs {
         println!(
-            "  run {}: {} frames of {} x {} at {} mm, pulse separation {} ms, noise {:.3e} m/s; {} outliers, {} missing, {} empty",
+            "  run {}: {} frames of {} x {} at {} mm, pulse separation {} ms, noise {:.3e} m/s; {} outliers, {} missing, {} empty, {} flagged",
             r.id,
             r.frames,
             r.grid.nx,
@@ -196,7 +206,8 @@ pub fn run(args: Args) -> Result<()> {
             r.noise_sigma,
             r.n_outliers,
             r.n_missing,
-            r.n_empty
+            r.n_empty,
+            r.n_flagged
         );
     }
     println!("  pipeline: {}", s.pipeline.display());

@@ -13,10 +13,11 @@
 //! - outlier: a vector of uniform random direction and magnitude uniform
 //!   in `[0.5, outlier_scale] * max(|u_true|, 0.1 speed)`; it is written
 //!   like any other vector (nothing in the file marks it);
-//! - gap: half the gaps (by a second draw) are missing rows, half are rows
-//!   with empty `u` and `v` cells. A node on the edge of the grid is never a
-//!   missing row (it becomes an empty one) so that the grid a reader infers
-//!   from the rows is always the whole grid.
+//! - gap: a second draw makes it a missing row or a row with empty `u` and
+//!   `v` cells, with equal odds; with a flag column, a third kind joins with
+//!   equal odds: a flagged row (a noisy value written, `flag = 1`). A node on
+//!   the edge of the grid is never a missing row (it becomes an empty one)
+//!   so that the grid a reader infers from the rows is always the whole grid.
 //!
 //! Nodes inside a body are absent rows and are not events.
 
@@ -42,6 +43,8 @@ pub enum Kind {
     Empty = 3,
     /// Inside a body: absent, and not an event.
     Body = 4,
+    /// The row carries a value but a nonzero `flag` (only with a flag column).
+    Flagged = 5,
 }
 
 impl Kind {
@@ -51,6 +54,7 @@ impl Kind {
             1 => Kind::Outlier,
             2 => Kind::Missing,
             3 => Kind::Empty,
+            5 => Kind::Flagged,
             _ => Kind::Body,
         }
     }
@@ -62,16 +66,21 @@ impl Kind {
             Kind::Missing => "missing",
             Kind::Empty => "empty",
             Kind::Body => "body",
+            Kind::Flagged => "flagged",
         }
     }
-    /// True for nodes with no value in the file.
+    /// True for nodes a reader must treat as invalid input (no value, or
+    /// flagged).
     pub fn is_gap(self) -> bool {
-        matches!(self, Kind::Missing | Kind::Empty | Kind::Body)
+        matches!(
+            self,
+            Kind::Missing | Kind::Empty | Kind::Body | Kind::Flagged
+        )
     }
 }
 
-/// The measured values (SI; NaN where there is no value) and each node's
-/// `Kind` code.
+/// The measured values (SI; NaN where the file has no value; flagged rows
+/// keep the value they are written with) and each node's `Kind` code.
 #[derive(Debug, Clone)]
 pub struct Measured {
     pub u: Array2<f64>,
@@ -113,15 +122,25 @@ pub fn corrupt(
             let p: f64 = rng.random();
             if p < opts.gap_fraction {
                 let edge = i == 0 || j == 0 || i + 1 == nx || j + 1 == ny;
-                let half: bool = rng.random();
-                let k = if half && !edge {
-                    Kind::Missing
+                let kinds: &[Kind] = if opts.flag_column {
+                    &[Kind::Missing, Kind::Empty, Kind::Flagged]
                 } else {
-                    Kind::Empty
+                    &[Kind::Missing, Kind::Empty]
                 };
+                let mut k = kinds[rng.random_range(0..kinds.len())];
+                if k == Kind::Missing && edge {
+                    k = Kind::Empty;
+                }
                 m.kind[[j, i]] = k as u8;
-                m.u[[j, i]] = f64::NAN;
-                m.v[[j, i]] = f64::NAN;
+                if k == Kind::Flagged {
+                    let nu: f64 = StandardNormal.sample(&mut rng);
+                    let nv: f64 = StandardNormal.sample(&mut rng);
+                    m.u[[j, i]] += sigma * nu;
+                    m.v[[j, i]] += sigma * nv;
+                } else {
+                    m.u[[j, i]] = f64::NAN;
+                    m.v[[j, i]] = f64::NAN;
+                }
             } else if p < opts.gap_fraction + opts.outlier_fraction {
                 let local = truth.u[[j, i]].hypot(truth.v[[j, i]]).max(floor);
                 let mag = local * (0.5 + (opts.outlier_scale - 0.5) * rng.random::<f64>());

@@ -39,26 +39,32 @@ pub const LAMB_OSEEN_PEAK_SWIRL: f64 = 0.638_172_7;
 /// `u_theta = gamma / (2 pi r) (1 - exp(-r²/rc²))`,
 /// `omega = gamma / (pi rc²) exp(-r²/rc²)`; in Cartesian form
 /// `u = -u_theta (y - yc)/r`, `v = u_theta (x - xc)/r`.
-/// The factor `(1 - exp(-s))/r²` is evaluated with `exp_m1`, and at `r = 0`
-/// by its limit `1/rc²`, so the centre gives `u = v = 0` and the peak
+/// The factor `(1 - exp(-s))/r²` (`s = r²/rc²`) is evaluated with `exp_m1`
+/// for `s < 0.5` (no cancellation), and at `r = 0` by its limit `1/rc²`, so the centre gives `u = v = 0` and the peak
 /// vorticity. A viscously spreading vortex has `rc² = rc0² + 4 nu t`
 /// (the caller passes the current `rc`).
 pub fn lamb_oseen(x: f64, y: f64, xc: f64, yc: f64, gamma: f64, rc: f64) -> Sample {
     let dx = x - xc;
     let dy = y - yc;
     let r2 = dx * dx + dy * dy;
-    let s = r2 / (rc * rc);
-    // u_theta / r = gamma/(2 pi) * (1 - exp(-s)) / r²
-    let g = if r2 > 0.0 {
+    let inv_rc2 = 1.0 / (rc * rc);
+    let s = r2 * inv_rc2;
+    // e = exp(-s); beyond s = 700 it is below 1e-304 and taken as 0 (this
+    // skips libm's slow underflow path; no printed digit can change)
+    let e = if s > 700.0 { 0.0 } else { (-s).exp() };
+    // (1 - exp(-s)) / r², accurate near the centre, limit 1/rc² at r = 0
+    let g = if r2 == 0.0 {
+        inv_rc2
+    } else if s < 0.5 {
         -(-s).exp_m1() / r2
     } else {
-        1.0 / (rc * rc)
+        (1.0 - e) / r2
     };
     let k = gamma / (2.0 * std::f64::consts::PI) * g;
     Sample {
         u: -k * dy,
         v: k * dx,
-        omega: gamma / (std::f64::consts::PI * rc * rc) * (-s).exp(),
+        omega: gamma * inv_rc2 / std::f64::consts::PI * e,
     }
 }
 

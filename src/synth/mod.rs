@@ -35,10 +35,12 @@
 //!   README.md                the scenario, the command that made it, the layout
 //!   <run id>/                one run per speed, id `u` + speed in cm/s (u015 = 0.15 m/s)
 //!     f00001.csv …           format csv: one frame per file, columns x, y, u, v in the
-//!                            declared units; missing rows and empty cells are gaps
+//!                            declared units (then sigma_u, sigma_v and flag when asked);
+//!                            missing rows, empty cells and flagged rows are gaps
 //!     vectors.parquet        format parquet instead: one long table, columns frame (i64,
 //!                            1-based), x, y, u, v (f64, null where a cell is empty)
-//!     frames.csv             frame table: frame (file name, or parquet frame id), time_s,
+//!     frames.csv             frame table: frame (file name without extension, as in
+//!                            `FrameMeta::name`, or the parquet frame id), time_s,
 //!                            phase_deg (periodic scenarios only)
 //!     truth/
 //!       mean.csv             per node, SI: x, y, body, u_mean, v_mean, u_std, v_std, uv_cov,
@@ -46,7 +48,8 @@
 //!                            (std with N-1, covariance with N-1)
 //!       phase.csv            periodic scenarios: per phase bin and node: phase_bin, phase_deg
 //!                            (bin centre), n_frames, x, y, u_mean, v_mean, omega_mean
-//!       events.csv           frame, i, j, kind (outlier | missing | empty) for every corrupted node
+//!       events.csv           frame, i, j, kind (outlier | missing | empty | flagged) for every
+//!                            corrupted node, frames in order, nodes in node order
 //!       params.json          the options, the seed, the run's flow parameters and counts
 //!       fields/<frame>.csv   only with truth frames on: x, y, u, v, omega noise-free, SI
 //! ```
@@ -234,8 +237,13 @@ pub struct SynthOptions {
     pub outlier_fraction: f64,
     /// Outlier magnitude at most this many times the local speed.
     pub outlier_scale: f64,
-    /// Fraction of nodes per frame that are gaps (missing rows or empty cells).
+    /// Fraction of nodes per frame that are gaps (missing rows, empty cells,
+    /// or flagged rows when `flag_column`).
     pub gap_fraction: f64,
+    /// Write `sigma_u`, `sigma_v` columns: the noise standard deviation.
+    pub sigma_columns: bool,
+    /// Write a `flag` column (0, or 1 on flagged gap rows).
+    pub flag_column: bool,
     pub length_unit: LengthUnit,
     pub velocity_unit: VelocityUnit,
     pub format: OutFormat,
@@ -277,6 +285,8 @@ impl Default for SynthOptions {
             outlier_fraction: 0.03,
             outlier_scale: 3.0,
             gap_fraction: 0.02,
+            sigma_columns: false,
+            flag_column: false,
             length_unit: LengthUnit::Mm,
             velocity_unit: VelocityUnit::MPerS,
             format: OutFormat::Csv,
@@ -415,8 +425,9 @@ pub struct SynthFrame {
     /// Noise-free vorticity, 1/s (NaN inside a body).
     pub omega: Array2<f64>,
     /// As a reader sees the file, before printed rounding: outliers VALID
-    /// with their random value; gaps and body nodes FILLED (missing or
-    /// invalid in the input) with NaN. `sigma_u`, `sigma_v` NaN.
+    /// with their random value; gaps (flagged rows too) and body nodes
+    /// FILLED (missing or invalid in the input) with NaN. `sigma_u`,
+    /// `sigma_v`: the noise sigma with sigma columns on, else NaN.
     pub measured: Field,
     /// `Kind` code per node.
     pub kind: Array2<u8>,
@@ -449,11 +460,17 @@ pub(crate) fn make_frame(
     measured.v.assign(&m.v);
     for ((j, i), &c) in m.kind.indexed_iter() {
         truth.status[[j, i]] = if tf.body[[j, i]] { MASKED } else { VALID };
-        measured.status[[j, i]] = if Kind::from_code(c).is_gap() {
-            FILLED
+        if Kind::from_code(c).is_gap() {
+            measured.status[[j, i]] = FILLED;
+            measured.u[[j, i]] = f64::NAN;
+            measured.v[[j, i]] = f64::NAN;
         } else {
-            VALID
-        };
+            measured.status[[j, i]] = VALID;
+            if opts.sigma_columns {
+                measured.sigma_u[[j, i]] = setup.noise_sigma;
+                measured.sigma_v[[j, i]] = setup.noise_sigma;
+            }
+        }
     }
     SynthFrame {
         meta: FrameMeta {
@@ -481,6 +498,7 @@ pub struct RunSummary {
     pub n_outliers: usize,
     pub n_missing: usize,
     pub n_empty: usize,
+    pub n_flagged: usize,
     /// Nodes inside a body, per frame.
     pub n_body: usize,
     /// Bytes of frame data written.

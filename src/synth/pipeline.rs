@@ -88,14 +88,28 @@ pub fn pipeline_toml(opts: &SynthOptions, runs: &[RunSetup], prefix: &str) -> St
         OutFormat::Csv => "csv",
         OutFormat::Parquet => "parquet",
     };
+    let mut extra = String::new();
+    if opts.sigma_columns {
+        extra.push_str(", sigma_u = \"sigma_u\", sigma_v = \"sigma_v\"");
+    }
+    if opts.flag_column {
+        extra.push_str(", flag = \"flag\"");
+    }
     t.push_str(&format!(
-        "\n[input]\nformat = \"{format}\"\ncolumns = {{ x = \"x\", y = \"y\", u = \"u\", v = \"v\" }}\nlength_unit = \"{}\"\nvelocity_unit = \"{}\"\npixel_size = {}                # metres per pixel\n",
+        "\n[input]\nformat = \"{format}\"\ncolumns = {{ x = \"x\", y = \"y\", u = \"u\", v = \"v\"{extra} }}\nlength_unit = \"{}\"\nvelocity_unit = \"{}\"\npixel_size = {}                # metres per pixel\n",
         opts.length_unit.name(),
         opts.velocity_unit.name(),
         tidy(opts.pixel_size)
     ));
     t.push_str("\n[derivatives]\nscheme = \"least-squares\"\n");
-    t.push_str("\n[uncertainty]\nvelocity_noise = \"estimate\"\nneighbour_correlation = 0.0\n");
+    t.push_str(&format!(
+        "\n[uncertainty]\nvelocity_noise = \"{}\"\nneighbour_correlation = 0.0\n",
+        if opts.sigma_columns {
+            "columns"
+        } else {
+            "estimate"
+        }
+    ));
     if opts.scenario.periodic() {
         t.push_str(&format!("\n[phase]\nbins = {}\n", opts.phase_bins));
     }

@@ -75,23 +75,19 @@ impl RunSetup {
     pub fn truth(&self, opts: &SynthOptions, k: usize) -> TruthFrame {
         let g = self.grid;
         let t = self.time(opts, k);
-        let sh = g.shape();
-        let mut tf = TruthFrame {
-            u: Array2::zeros(sh),
-            v: Array2::zeros(sh),
-            omega: Array2::zeros(sh),
-            body: Array2::from_elem(sh, false),
-        };
         let vortices = match self.flow {
-            Flow::Wake { .. } => {
-                let th = self.phase_deg(opts, k).unwrap_or(0.0).to_radians();
-                match self.flow {
-                    Flow::Wake { street, .. } => street.vortices(th),
-                    _ => unreachable!(),
-                }
+            Flow::Wake { street, .. } => {
+                street.vortices(self.phase_deg(opts, k).unwrap_or(0.0).to_radians())
             }
             _ => Vec::new(),
         };
+        let n = g.len();
+        let (mut u, mut v, mut w) = (
+            Vec::with_capacity(n),
+            Vec::with_capacity(n),
+            Vec::with_capacity(n),
+        );
+        let mut body = Vec::with_capacity(n);
         for j in 0..g.ny {
             let y = g.y(j);
             for i in 0..g.nx {
@@ -111,22 +107,24 @@ impl RunSetup {
                         Some(flows::taylor_green(x, y, t, u0, k, nu))
                     }
                 };
-                match s {
-                    Some(s) => {
-                        tf.u[[j, i]] = s.u;
-                        tf.v[[j, i]] = s.v;
-                        tf.omega[[j, i]] = s.omega;
-                    }
-                    None => {
-                        tf.u[[j, i]] = f64::NAN;
-                        tf.v[[j, i]] = f64::NAN;
-                        tf.omega[[j, i]] = f64::NAN;
-                        tf.body[[j, i]] = true;
-                    }
-                }
+                let s = s.unwrap_or(Sample {
+                    u: f64::NAN,
+                    v: f64::NAN,
+                    omega: f64::NAN,
+                });
+                u.push(s.u);
+                v.push(s.v);
+                w.push(s.omega);
+                body.push(s.u.is_nan());
             }
         }
-        tf
+        let arr = |d: Vec<f64>| Array2::from_shape_vec(g.shape(), d).expect("grid shape");
+        TruthFrame {
+            u: arr(u),
+            v: arr(v),
+            omega: arr(w),
+            body: Array2::from_shape_vec(g.shape(), body).expect("grid shape"),
+        }
     }
 }
 

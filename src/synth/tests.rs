@@ -118,8 +118,9 @@ fn events_match_the_written_frames_and_the_in_memory_frames() {
     let (mut n_meas, mut sum_sq) = (0usize, 0.0f64);
     for k in 0..opts.frames {
         let f = frame_field(&opts, 0, k).unwrap();
-        let file = format!("{}.csv", f.meta.name);
-        let rs = rows(&out.join("u015").join(&file));
+        let file = f.meta.name.clone();
+        let rs = rows(&out.join("u015").join(format!("{file}.csv")));
+        assert_eq!(file, format!("f{:05}", k + 1));
         assert_eq!(rs[0], ["x", "y", "u", "v"]);
         let mut seen = vec![false; g.len()];
         for r in &rs[1..] {
@@ -266,6 +267,7 @@ fn truth_mean_and_phase_bins_are_the_means_of_the_noise_free_frames() {
     generate(&opts, &out).unwrap();
     let frames = rows(&out.join("u015/frames.csv"));
     assert_eq!(frames[0], ["frame", "time_s", "phase_deg"]);
+    assert_eq!(frames[1][0], "f00001", "keys are frame names without extension");
     let nodes = 14 * 9;
     let mut sum = vec![[0.0f64; 3]; nodes];
     let mut bins = vec![vec![[0.0f64; 3]; nodes]; 12];
@@ -432,4 +434,62 @@ fn solid_body_and_taylor_green_truth_follow_their_formulas() {
     assert!((f9.truth.u[[j, i]] / f0.truth.u[[j, i]] - decay).abs() < 1e-12);
     assert_eq!(f9.meta.phase_deg, None);
     assert_eq!(f9.meta.name, "f00010");
+}
+
+#[test]
+fn flag_and_sigma_columns_follow_the_bookkeeping_and_the_pipeline_maps_them() {
+    let tmp = tempfile::tempdir().unwrap();
+    let mut opts = small(Scenario::Vortex);
+    opts.frames = 20;
+    opts.gap_fraction = 0.15;
+    opts.flag_column = true;
+    opts.sigma_columns = true;
+    opts.velocity_unit = VelocityUnit::MmPerS;
+    let out = tmp.path().join("c");
+    let s = generate(&opts, &out).unwrap();
+    let sigma_mm_s = s.runs[0].noise_sigma * 1e3;
+    let ev = rows(&out.join("u020/truth/events.csv"));
+    let flagged: BTreeSet<(String, String, String)> = ev[1..]
+        .iter()
+        .filter(|r| r[3] == "flagged")
+        .map(|r| (r[0].clone(), r[1].clone(), r[2].clone()))
+        .collect();
+    assert_eq!(flagged.len(), s.runs[0].n_flagged);
+    assert!(s.runs[0].n_flagged > 0 && s.runs[0].n_missing > 0);
+    let g = s.runs[0].grid;
+    let mut seen = BTreeSet::new();
+    for k in 0..20 {
+        let name = frame_name(k, 20);
+        let f = rows(&out.join(format!("u020/{name}.csv")));
+        assert_eq!(f[0], ["x", "y", "u", "v", "sigma_u", "sigma_v", "flag"]);
+        for r in &f[1..] {
+            let i = ((r[0].parse::<f64>().unwrap() * 1e-3 - g.x0) / g.dx).round() as usize;
+            let j = ((r[1].parse::<f64>().unwrap() * 1e-3 - g.y0) / g.dy).round() as usize;
+            if r[6] == "1" {
+                assert!(!r[2].is_empty(), "a flagged row keeps its value");
+                seen.insert((name.clone(), i.to_string(), j.to_string()));
+            } else {
+                assert_eq!(r[6], "0");
+            }
+            if !r[2].is_empty() {
+                let sg: f64 = r[4].parse().unwrap();
+                assert!(
+                    (sg - sigma_mm_s).abs() < 1e-4 * sigma_mm_s,
+                    "{sg} vs {sigma_mm_s}"
+                );
+            }
+        }
+    }
+    assert_eq!(seen, flagged);
+    let plan = Plan::load(&out.join("pipeline.toml")).unwrap();
+    let c = &plan.runs[0].input.columns;
+    assert_eq!(c.flag.as_deref(), Some("flag"));
+    assert_eq!(c.sigma_u.as_deref(), Some("sigma_u"));
+    assert_eq!(plan.runs[0].input.velocity_scale, 1e-3);
+    let f = frame_field(&opts, 0, 3).unwrap();
+    assert!(f
+        .kind
+        .iter()
+        .zip(f.measured.u.iter())
+        .all(|(&k, u)| Kind::from_code(k).is_gap() == u.is_nan()));
 }

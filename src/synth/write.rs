@@ -169,6 +169,7 @@ fn write_run(opts: &SynthOptions, run: usize, setup: &RunSetup, dir: &Path) -> R
         })
         .collect();
     let xy = prefixes_xy(setup, ls);
+    let cols = Columns::new(opts, setup, vs, dvel);
     let mut stats = TruthStats::new(g, opts.phase_bins);
     let mut events = Vec::with_capacity(1 << 16);
     events.extend_from_slice(b"frame,i,j,kind\n");
@@ -179,7 +180,7 @@ fn write_run(opts: &SynthOptions, run: usize, setup: &RunSetup, dir: &Path) -> R
         b"frame,time_s\n".as_slice()
     });
     let mut parquet = match opts.format {
-        OutFormat::Parquet => Some(ParquetFrames::create(&dir.join("vectors.parquet"))?),
+        OutFormat::Parquet => Some(ParquetFrames::create(&dir.join("vectors.parquet"), &cols)?),
         OutFormat::Csv => None,
     };
     let mut summary = RunSummary {
@@ -192,6 +193,7 @@ fn write_run(opts: &SynthOptions, run: usize, setup: &RunSetup, dir: &Path) -> R
         n_outliers: 0,
         n_missing: 0,
         n_empty: 0,
+        n_flagged: 0,
         n_body: 0,
         bytes: 0,
     };
@@ -206,7 +208,7 @@ fn write_run(opts: &SynthOptions, run: usize, setup: &RunSetup, dir: &Path) -> R
                 let name = frame_name(k, opts.frames);
                 let mut bytes = 0;
                 if opts.format == OutFormat::Csv {
-                    let buf = frame_csv(&measured, &prefixes, vs, dvel);
+                    let buf = frame_csv(&measured, &prefixes, &cols);
                     let p = dir.join(format!("{name}.csv"));
                     fs::write(&p, &buf).with_path(&p)?;
                     bytes = buf.len() as u64;
@@ -224,13 +226,15 @@ fn write_run(opts: &SynthOptions, run: usize, setup: &RunSetup, dir: &Path) -> R
             })
             .collect::<Result<Vec<Made>>>()?;
         if let Some(pq) = parquet.as_mut() {
-            pq.write_chunk(start, &made, &xy, vs)?;
+            pq.write_chunk(start, &made, &xy)?;
         }
         for (off, m) in made.iter().enumerate() {
             let k = start + off;
             let name = frame_name(k, opts.frames);
+            // the frame table's key: the file's name without extension
+            // (`FrameMeta::name`), or the parquet frame id
             let key = match opts.format {
-                OutFormat::Csv => format!("{name}.csv"),
+                OutFormat::Csv => name,
                 OutFormat::Parquet => (k + 1).to_string(),
             };
             let phase = setup.phase_deg(opts, k);
@@ -238,7 +242,7 @@ fn write_run(opts: &SynthOptions, run: usize, setup: &RunSetup, dir: &Path) -> R
             summary.bytes += m.bytes;
             frame_table.extend_from_slice(key.as_bytes());
             frame_table.push(b',');
-            push(&mut frame_table, setup.time(opts, k), Some(6));
+            push(&mut frame_table, setup.time(opts, k), Some(9));
             if let Some(p) = phase {
                 frame_table.push(b',');
                 push(&mut frame_table, p, Some(4));
@@ -257,6 +261,7 @@ fn write_run(opts: &SynthOptions, run: usize, setup: &RunSetup, dir: &Path) -> R
                     Kind::Outlier => summary.n_outliers += 1,
                     Kind::Missing => summary.n_missing += 1,
                     Kind::Empty => summary.n_empty += 1,
+                    Kind::Flagged => summary.n_flagged += 1,
                 }
                 events.extend_from_slice(key.as_bytes());
                 events.extend_from_slice(format!(",{i},{j},{}\n", kind.name()).as_bytes());
@@ -296,25 +301,72 @@ fn write_run(opts: &SynthOptions, run: usize, setup: &RunSetup, dir: &Path) -> R
     Ok(summary)
 }
 
+/// The column layout of written frames.
+#[derive(Debug, Clone, Copy)]
+struct Columns {
+    /// (m/s) per written velocity unit.
+    vs: f64,
+    dvel: Option<u32>,
+    /// The noise sigma in written units, when sigma columns are on.
+    sigma: Option<f64>,
+    flag: bool,
+}
+
+impl Columns {
+    fn new(opts: &SynthOptions, setup: &RunSetup, vs: f64, dvel: Option<u32>) -> Self {
+        Columns {
+            vs,
+            dvel,
+            sigma: opts.sigma_columns.then_some(setup.noise_sigma / vs),
+            flag: opts.flag_column,
+        }
+    }
+
+    fn header(&self) -> String {
+        let mut h = String::from("x,y,u,v");
+        if self.sigma.is_some() {
+            h.push_str(",sigma_u,sigma_v");
+        }
+        if self.flag {
+            h.push_str(",flag");
+        }
+        h
+    }
+}
+
 /// The CSV text of one measured frame (gaps as described in `corrupt`).
-fn frame_csv(m: &Measured, prefixes: &[Vec<u8>], vs: f64, dvel: Option<u32>) -> Vec<u8> {
-    let mut buf = Vec::with_capacity(8 + prefixes.len() * 36);
-    buf.extend_from_slice(b"x,y,u,v\n");
+fn frame_csv(m: &Measured, prefixes: &[Vec<u8>], cols: &Columns) -> Vec<u8> {
+    let mut buf = Vec::with_capacity(32 + prefixes.len() * 48);
+    buf.extend_from_slice(cols.header().as_bytes());
+    buf.push(b'\n');
     for (k, ((u, v), c)) in m.u.iter().zip(m.v.iter()).zip(m.kind.iter()).enumerate() {
-        match Kind::from_code(*c) {
-            Kind::Missing | Kind::Body => continue,
-            Kind::Empty => {
-                buf.extend_from_slice(&prefixes[k]);
-                buf.extend_from_slice(b",\n");
+        let kind = Kind::from_code(*c);
+        if matches!(kind, Kind::Missing | Kind::Body) {
+            continue;
+        }
+        buf.extend_from_slice(&prefixes[k]);
+        let has_value = kind != Kind::Empty;
+        if has_value {
+            push(&mut buf, u / cols.vs, cols.dvel);
+        }
+        buf.push(b',');
+        if has_value {
+            push(&mut buf, v / cols.vs, cols.dvel);
+        }
+        if let Some(sg) = cols.sigma {
+            buf.push(b',');
+            if has_value {
+                push(&mut buf, sg, cols.dvel.map(|d| (d + 2).min(15)));
             }
-            Kind::Measured | Kind::Outlier => {
-                buf.extend_from_slice(&prefixes[k]);
-                push(&mut buf, u / vs, dvel);
-                buf.push(b',');
-                push(&mut buf, v / vs, dvel);
-                buf.push(b'\n');
+            buf.push(b',');
+            if has_value {
+                push(&mut buf, sg, cols.dvel.map(|d| (d + 2).min(15)));
             }
         }
+        if cols.flag {
+            buf.extend_from_slice(if kind == Kind::Flagged { b",1" } else { b",0" });
+        }
+        buf.push(b'\n');
     }
     buf
 }
@@ -354,25 +406,35 @@ fn prefixes_xy(setup: &RunSetup, ls: f64) -> (Vec<f64>, Vec<f64>) {
 /// frames writer this is the one place to switch.
 struct ParquetFrames {
     path: PathBuf,
+    cols: Columns,
     writer: polars::prelude::BatchedWriter<fs::File>,
 }
 
 impl ParquetFrames {
-    fn create(path: &Path) -> Result<Self> {
+    fn create(path: &Path, cols: &Columns) -> Result<Self> {
         use polars::prelude::*;
         let file = fs::File::create(path).with_path(path)?;
-        let schema = Schema::from_iter([
-            Field::new("frame".into(), DataType::Int64),
-            Field::new("x".into(), DataType::Float64),
-            Field::new("y".into(), DataType::Float64),
-            Field::new("u".into(), DataType::Float64),
-            Field::new("v".into(), DataType::Float64),
-        ]);
-        let writer = ParquetWriter::new(file).batched(&schema).map_err(|e| {
-            Error::data(format!("cannot start the parquet table: {e}")).with_path(path)
-        })?;
+        let mut fields = vec![Field::new("frame".into(), DataType::Int64)];
+        let mut names = vec!["x", "y", "u", "v"];
+        if cols.sigma.is_some() {
+            names.extend(["sigma_u", "sigma_v"]);
+        }
+        fields.extend(
+            names
+                .iter()
+                .map(|n| Field::new((*n).into(), DataType::Float64)),
+        );
+        if cols.flag {
+            fields.push(Field::new("flag".into(), DataType::Int64));
+        }
+        let writer = ParquetWriter::new(file)
+            .batched(&Schema::from_iter(fields))
+            .map_err(|e| {
+                Error::data(format!("cannot start the parquet table: {e}")).with_path(path)
+            })?;
         Ok(ParquetFrames {
             path: path.to_path_buf(),
+            cols: *cols,
             writer,
         })
     }
@@ -382,25 +444,18 @@ impl ParquetFrames {
         start: usize,
         made: &[Made],
         xy: &(Vec<f64>, Vec<f64>),
-        vs: f64,
     ) -> Result<()> {
         use polars::prelude::*;
         let cap = made.len() * xy.0.len();
-        let (mut f, mut x, mut y) = (
-            Vec::with_capacity(cap),
-            Vec::with_capacity(cap),
-            Vec::with_capacity(cap),
-        );
+        let mut f = Vec::with_capacity(cap);
+        let (mut x, mut y) = (Vec::with_capacity(cap), Vec::with_capacity(cap));
         let (mut u, mut v) = (Vec::with_capacity(cap), Vec::with_capacity(cap));
+        let mut sg = Vec::with_capacity(if self.cols.sigma.is_some() { cap } else { 0 });
+        let mut flag = Vec::with_capacity(if self.cols.flag { cap } else { 0 });
+        let vs = self.cols.vs;
         for (off, m) in made.iter().enumerate() {
-            for (k, ((mu, mv), c)) in m
-                .measured
-                .u
-                .iter()
-                .zip(m.measured.v.iter())
-                .zip(m.measured.kind.iter())
-                .enumerate()
-            {
+            let m = &m.measured;
+            for (k, ((mu, mv), c)) in m.u.iter().zip(m.v.iter()).zip(m.kind.iter()).enumerate() {
                 let kind = Kind::from_code(*c);
                 if matches!(kind, Kind::Missing | Kind::Body) {
                     continue;
@@ -408,27 +463,37 @@ impl ParquetFrames {
                 f.push((start + off + 1) as i64);
                 x.push(xy.0[k]);
                 y.push(xy.1[k]);
-                let empty = kind == Kind::Empty;
-                u.push((!empty).then_some(mu / vs));
-                v.push((!empty).then_some(mv / vs));
+                let has = kind != Kind::Empty;
+                u.push(has.then_some(mu / vs));
+                v.push(has.then_some(mv / vs));
+                if let Some(s) = self.cols.sigma {
+                    sg.push(has.then_some(s));
+                }
+                if self.cols.flag {
+                    flag.push(i64::from(kind == Kind::Flagged));
+                }
             }
         }
         let n = f.len();
-        let df = DataFrame::new(
-            n,
-            vec![
-                Column::new("frame".into(), f),
-                Column::new("x".into(), x),
-                Column::new("y".into(), y),
-                Column::new("u".into(), u),
-                Column::new("v".into(), v),
-            ],
-        )
-        .and_then(|df| self.writer.write_batch(&df))
-        .map_err(|e| {
-            Error::data(format!("cannot write the parquet table: {e}")).with_path(&self.path)
-        });
-        df
+        let mut columns = vec![
+            Column::new("frame".into(), f),
+            Column::new("x".into(), x),
+            Column::new("y".into(), y),
+            Column::new("u".into(), u),
+            Column::new("v".into(), v),
+        ];
+        if self.cols.sigma.is_some() {
+            columns.push(Column::new("sigma_u".into(), sg.clone()));
+            columns.push(Column::new("sigma_v".into(), sg));
+        }
+        if self.cols.flag {
+            columns.push(Column::new("flag".into(), flag));
+        }
+        DataFrame::new(n, columns)
+            .and_then(|df| self.writer.write_batch(&df))
+            .map_err(|e| {
+                Error::data(format!("cannot write the parquet table: {e}")).with_path(&self.path)
+            })
     }
 
     fn finish(self) -> Result<u64> {
