@@ -1,0 +1,160 @@
+//! Measurement errors: Gaussian noise, outliers and gaps, seeded per frame.
+//!
+//! Owns: the random part of a synthetic frame. Each frame has its own
+//! ChaCha8 stream (`seed`, stream = `run << 32 | frame`), so frames can be
+//! made in any order or in parallel and still give the same values.
+//!
+//! For every node, in node order (`j` outer, `i` inner), one uniform draw
+//! decides its fate: with probability `gap_fraction` a gap, with
+//! probability `outlier_fraction` an outlier, else a measurement with
+//! noise. Then:
+//! - noise: `u + N(0, sigma)`, `v + N(0, sigma)` with `sigma = noise_px`
+//!   pixels of displacement in m/s;
+//! - outlier: a vector of uniform random direction and magnitude uniform
+//!   in `[0.5, outlier_scale] * max(|u_true|, 0.1 speed)`; it is written
+//!   like any other vector (nothing in the file marks it);
+//! - gap: a second draw makes it a missing row or a row with empty `u` and
+//!   `v` cells, with equal odds; with a flag column, a third kind joins with
+//!   equal odds: a flagged row (a noisy value written, `flag = 1`). A node on
+//!   the edge of the grid is never a missing row (it becomes an empty one)
+//!   so that the grid a reader infers from the rows is always the whole grid.
+//!
+//! Nodes inside a body are absent rows and are not events.
+
+use ndarray::Array2;
+use rand::{Rng, SeedableRng};
+use rand_chacha::ChaCha8Rng;
+use rand_distr::{Distribution, StandardNormal};
+
+use super::scenario::{RunSetup, TruthFrame};
+use super::SynthOptions;
+
+/// What happened to one node of one frame.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+#[repr(u8)]
+pub enum Kind {
+    /// Measured with noise.
+    Measured = 0,
+    /// Replaced by a random vector.
+    Outlier = 1,
+    /// The node's row is absent from the frame file.
+    Missing = 2,
+    /// The node's row is present with empty `u` and `v` cells.
+    Empty = 3,
+    /// Inside a body: absent, and not an event.
+    Body = 4,
+    /// The row carries a value but a nonzero `flag` (only with a flag column).
+    Flagged = 5,
+}
+
+impl Kind {
+    pub fn from_code(c: u8) -> Kind {
+        match c {
+            0 => Kind::Measured,
+            1 => Kind::Outlier,
+            2 => Kind::Missing,
+            3 => Kind::Empty,
+            5 => Kind::Flagged,
+            _ => Kind::Body,
+        }
+    }
+    /// The name written in the events table.
+    pub fn name(self) -> &'static str {
+        match self {
+            Kind::Measured => "measured",
+            Kind::Outlier => "outlier",
+            Kind::Missing => "missing",
+            Kind::Empty => "empty",
+            Kind::Body => "body",
+            Kind::Flagged => "flagged",
+        }
+    }
+    /// True for nodes a reader must treat as invalid input (no value, or
+    /// flagged).
+    pub fn is_gap(self) -> bool {
+        matches!(
+            self,
+            Kind::Missing | Kind::Empty | Kind::Body | Kind::Flagged
+        )
+    }
+}
+
+/// The measured values (SI; NaN where the file has no value; flagged rows
+/// keep the value they are written with) and each node's `Kind` code.
+#[derive(Debug, Clone)]
+pub struct Measured {
+    pub u: Array2<f64>,
+    pub v: Array2<f64>,
+    pub kind: Array2<u8>,
+}
+
+/// The generator of frame `frame` of run number `run`.
+pub fn frame_rng(seed: u64, run: usize, frame: usize) -> ChaCha8Rng {
+    let mut r = ChaCha8Rng::seed_from_u64(seed);
+    r.set_stream(((run as u64) << 32) | frame as u64);
+    r
+}
+
+/// Applies noise, outliers and gaps to a noise-free frame (see the module
+/// doc for the exact procedure).
+pub fn corrupt(
+    opts: &SynthOptions,
+    setup: &RunSetup,
+    truth: &TruthFrame,
+    run: usize,
+    frame: usize,
+) -> Measured {
+    let mut rng = frame_rng(opts.seed, run, frame);
+    let (ny, nx) = truth.u.dim();
+    let mut m = Measured {
+        u: truth.u.clone(),
+        v: truth.v.clone(),
+        kind: Array2::zeros((ny, nx)),
+    };
+    let sigma = setup.noise_sigma;
+    let floor = 0.1 * setup.speed;
+    for j in 0..ny {
+        for i in 0..nx {
+            if truth.body[[j, i]] {
+                m.kind[[j, i]] = Kind::Body as u8;
+                continue;
+            }
+            let p: f64 = rng.random();
+            if p < opts.gap_fraction {
+                let edge = i == 0 || j == 0 || i + 1 == nx || j + 1 == ny;
+                let kinds: &[Kind] = if opts.flag_column {
+                    &[Kind::Missing, Kind::Empty, Kind::Flagged]
+                } else {
+                    &[Kind::Missing, Kind::Empty]
+                };
+                let mut k = kinds[rng.random_range(0..kinds.len())];
+                if k == Kind::Missing && edge {
+                    k = Kind::Empty;
+                }
+                m.kind[[j, i]] = k as u8;
+                if k == Kind::Flagged {
+                    let nu: f64 = StandardNormal.sample(&mut rng);
+                    let nv: f64 = StandardNormal.sample(&mut rng);
+                    m.u[[j, i]] += sigma * nu;
+                    m.v[[j, i]] += sigma * nv;
+                } else {
+                    m.u[[j, i]] = f64::NAN;
+                    m.v[[j, i]] = f64::NAN;
+                }
+            } else if p < opts.gap_fraction + opts.outlier_fraction {
+                let local = truth.u[[j, i]].hypot(truth.v[[j, i]]).max(floor);
+                let mag = local * (0.5 + (opts.outlier_scale - 0.5) * rng.random::<f64>());
+                let ang = std::f64::consts::TAU * rng.random::<f64>();
+                m.u[[j, i]] = mag * ang.cos();
+                m.v[[j, i]] = mag * ang.sin();
+                m.kind[[j, i]] = Kind::Outlier as u8;
+            } else {
+                let nu: f64 = StandardNormal.sample(&mut rng);
+                let nv: f64 = StandardNormal.sample(&mut rng);
+                m.u[[j, i]] += sigma * nu;
+                m.v[[j, i]] += sigma * nv;
+            }
+        }
+    }
+    m
+}

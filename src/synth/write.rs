@@ -1,0 +1,504 @@
+//! Writing a synthetic campaign: frames, frame tables, truth, the pipeline.
+//!
+//! Owns: the bytes of a synthetic campaign (layout in `synth`'s module doc)
+//! and its atomic appearance: everything goes into a hidden sibling folder
+//! `.<name>.partial-<pid>` that is renamed into place only when complete.
+//!
+//! Speed: frames are made and written in parallel (rayon) in chunks of a
+//! fixed size; the coordinate text of every node is formatted once per run;
+//! values are printed by `numfmt` without allocation; each frame file is
+//! built in memory and written with one system call. Truth statistics and
+//! events are gathered in frame order after each chunk, so output bytes do
+//! not depend on the number of threads.
+
+use std::fs;
+use std::path::{Path, PathBuf};
+
+use rayon::prelude::*;
+
+use super::corrupt::{self, Kind, Measured};
+use super::numfmt::{decimals_for, push};
+use super::pipeline;
+use super::scenario::{RunSetup, TruthFrame};
+use super::truth::TruthStats;
+use super::{
+    frame_name, LengthUnit, OutFormat, RunSummary, SynthOptions, SynthSummary, VelocityUnit,
+};
+use crate::error::{Error, Result, WithPath};
+
+/// Frames made in parallel before their truth is gathered.
+const CHUNK: usize = 64;
+
+/// Writes the campaign of `runs` into `out` (see `synth::generate`).
+pub fn write_campaign(opts: &SynthOptions, runs: &[RunSetup], out: &Path) -> Result<SynthSummary> {
+    if out.exists() && !opts.force {
+        return Err(Error::usage(format!(
+            "output folder {} exists; pass --force to replace it",
+            out.display()
+        )));
+    }
+    let name = out
+        .file_name()
+        .ok_or_else(|| Error::usage(format!("output folder {} has no name", out.display())))?
+        .to_string_lossy()
+        .into_owned();
+    let parent = match out.parent() {
+        Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
+        _ => PathBuf::from("."),
+    };
+    fs::create_dir_all(&parent).with_path(&parent)?;
+    let pid = std::process::id();
+    let temp = parent.join(format!(".{name}.partial-{pid}"));
+    if temp.exists() {
+        fs::remove_dir_all(&temp).with_path(&temp)?;
+    }
+    fs::create_dir(&temp).with_path(&temp)?;
+    let result = (|| -> Result<Vec<RunSummary>> {
+        let mut summaries = Vec::new();
+        for (r, setup) in runs.iter().enumerate() {
+            summaries.push(write_run(opts, r, setup, &temp.join(&setup.id))?);
+        }
+        let text = pipeline::pipeline_toml(opts, runs, "");
+        let p = temp.join("pipeline.toml");
+        fs::write(&p, text).with_path(&p)?;
+        let p = temp.join("README.md");
+        fs::write(&p, pipeline::readme(opts, runs, &summaries)).with_path(&p)?;
+        Ok(summaries)
+    })();
+    let summaries = match result {
+        Ok(s) => s,
+        Err(e) => {
+            let _ = fs::remove_dir_all(&temp);
+            return Err(e);
+        }
+    };
+    // swap in: old out aside, new in place, old removed
+    if out.exists() {
+        let old = parent.join(format!(".{name}.old-{pid}"));
+        fs::rename(out, &old).with_path(out)?;
+        if let Err(e) = fs::rename(&temp, out) {
+            let _ = fs::rename(&old, out);
+            return Err(Error::io(out, e));
+        }
+        fs::remove_dir_all(&old).with_path(&old)?;
+    } else {
+        fs::rename(&temp, out).with_path(out)?;
+    }
+    if let Some(copy) = &opts.pipeline_copy {
+        let dir = match copy.parent() {
+            Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
+            _ => PathBuf::from("."),
+        };
+        fs::create_dir_all(&dir).with_path(&dir)?;
+        let prefix = pipeline::relative_path(&dir, out)?;
+        let text = pipeline::pipeline_toml(opts, runs, &prefix);
+        let tmp = copy.with_extension("toml.partial");
+        fs::write(&tmp, text).with_path(&tmp)?;
+        fs::rename(&tmp, copy).with_path(copy)?;
+    }
+    Ok(SynthSummary {
+        out: out.to_path_buf(),
+        pipeline: out.join("pipeline.toml"),
+        runs: summaries,
+    })
+}
+
+/// Metres per written length unit, and (m/s) per written velocity unit.
+pub fn unit_scales(opts: &SynthOptions, setup: &RunSetup) -> (f64, f64) {
+    let ls = match opts.length_unit {
+        LengthUnit::M => 1.0,
+        LengthUnit::Mm => 1e-3,
+        LengthUnit::Px => opts.pixel_size,
+    };
+    let vs = match opts.velocity_unit {
+        VelocityUnit::MPerS => 1.0,
+        VelocityUnit::MmPerS => 1e-3,
+        VelocityUnit::Px => setup.px_velocity,
+    };
+    (ls, vs)
+}
+
+/// Decimals of written coordinates and velocities: `digits` significant
+/// digits relative to the largest coordinate and to the speed, and at
+/// least a thousandth of the pitch for coordinates.
+fn value_decimals(
+    opts: &SynthOptions,
+    setup: &RunSetup,
+    ls: f64,
+    vs: f64,
+) -> (Option<u32>, Option<u32>) {
+    let g = setup.grid;
+    let coord = [g.x0, g.x(g.nx - 1), g.y0, g.y(g.ny - 1)]
+        .iter()
+        .fold(0f64, |m, v| m.max(v.abs()))
+        / ls;
+    let pitch = g.dx.min(g.dy) / ls;
+    let dxy = decimals_for(coord, opts.digits).map(|d| {
+        d.max((1000.0 / pitch).log10().ceil().max(0.0) as u32)
+            .min(15)
+    });
+    (dxy, decimals_for(setup.speed / vs, opts.digits))
+}
+
+/// One frame made in the parallel part.
+struct Made {
+    truth: TruthFrame,
+    measured: Measured,
+    bytes: u64,
+}
+
+fn write_run(opts: &SynthOptions, run: usize, setup: &RunSetup, dir: &Path) -> Result<RunSummary> {
+    let truth_dir = dir.join("truth");
+    fs::create_dir_all(&truth_dir).with_path(&truth_dir)?;
+    if opts.truth_frames {
+        let p = truth_dir.join("fields");
+        fs::create_dir_all(&p).with_path(&p)?;
+    }
+    let g = setup.grid;
+    let (ls, vs) = unit_scales(opts, setup);
+    let (dxy, dvel) = value_decimals(opts, setup, ls, vs);
+    // "x,y," of every node, formatted once
+    let prefixes: Vec<Vec<u8>> = (0..g.len())
+        .map(|k| {
+            let mut b = Vec::with_capacity(24);
+            push(&mut b, g.x(k % g.nx) / ls, dxy);
+            b.push(b',');
+            push(&mut b, g.y(k / g.nx) / ls, dxy);
+            b.push(b',');
+            b
+        })
+        .collect();
+    let xy = prefixes_xy(setup, ls);
+    let cols = Columns::new(opts, setup, vs, dvel);
+    let mut stats = TruthStats::new(g, opts.phase_bins);
+    let mut events = Vec::with_capacity(1 << 16);
+    events.extend_from_slice(b"frame,i,j,kind\n");
+    let mut frame_table = Vec::with_capacity(opts.frames * 32);
+    frame_table.extend_from_slice(if opts.scenario.periodic() {
+        b"frame,time_s,phase_deg\n".as_slice()
+    } else {
+        b"frame,time_s\n".as_slice()
+    });
+    let mut parquet = match opts.format {
+        OutFormat::Parquet => Some(ParquetFrames::create(&dir.join("vectors.parquet"), &cols)?),
+        OutFormat::Csv => None,
+    };
+    let mut summary = RunSummary {
+        id: setup.id.clone(),
+        speed: setup.speed,
+        frames: opts.frames,
+        grid: g,
+        pulse_separation: setup.pulse_separation,
+        noise_sigma: setup.noise_sigma,
+        n_outliers: 0,
+        n_missing: 0,
+        n_empty: 0,
+        n_flagged: 0,
+        n_body: 0,
+        bytes: 0,
+    };
+    let mut start = 0;
+    while start < opts.frames {
+        let end = (start + CHUNK).min(opts.frames);
+        let made: Vec<Made> = (start..end)
+            .into_par_iter()
+            .map(|k| -> Result<Made> {
+                let truth = setup.truth(opts, k);
+                let measured = corrupt::corrupt(opts, setup, &truth, run, k);
+                let name = frame_name(k, opts.frames);
+                let mut bytes = 0;
+                if opts.format == OutFormat::Csv {
+                    let buf = frame_csv(&measured, &prefixes, &cols);
+                    let p = dir.join(format!("{name}.csv"));
+                    fs::write(&p, &buf).with_path(&p)?;
+                    bytes = buf.len() as u64;
+                }
+                if opts.truth_frames {
+                    let buf = truth_frame_csv(setup, &truth);
+                    let p = dir.join("truth").join("fields").join(format!("{name}.csv"));
+                    fs::write(&p, &buf).with_path(&p)?;
+                }
+                Ok(Made {
+                    truth,
+                    measured,
+                    bytes,
+                })
+            })
+            .collect::<Result<Vec<Made>>>()?;
+        if let Some(pq) = parquet.as_mut() {
+            pq.write_chunk(start, &made, &xy)?;
+        }
+        for (off, m) in made.iter().enumerate() {
+            let k = start + off;
+            let name = frame_name(k, opts.frames);
+            // the frame table's key: the file's name without extension
+            // (`FrameMeta::name`), or the parquet frame id
+            let key = match opts.format {
+                OutFormat::Csv => name,
+                OutFormat::Parquet => (k + 1).to_string(),
+            };
+            let phase = setup.phase_deg(opts, k);
+            stats.add(&m.truth, phase);
+            summary.bytes += m.bytes;
+            frame_table.extend_from_slice(key.as_bytes());
+            frame_table.push(b',');
+            push(&mut frame_table, setup.time(opts, k), Some(9));
+            if let Some(p) = phase {
+                frame_table.push(b',');
+                push(&mut frame_table, p, Some(4));
+            }
+            frame_table.push(b'\n');
+            for ((j, i), &c) in m.measured.kind.indexed_iter() {
+                let kind = Kind::from_code(c);
+                match kind {
+                    Kind::Measured => continue,
+                    Kind::Body => {
+                        if k == 0 {
+                            summary.n_body += 1;
+                        }
+                        continue;
+                    }
+                    Kind::Outlier => summary.n_outliers += 1,
+                    Kind::Missing => summary.n_missing += 1,
+                    Kind::Empty => summary.n_empty += 1,
+                    Kind::Flagged => summary.n_flagged += 1,
+                }
+                events.extend_from_slice(key.as_bytes());
+                events.extend_from_slice(format!(",{i},{j},{}\n", kind.name()).as_bytes());
+            }
+        }
+        start = end;
+    }
+    if let Some(pq) = parquet {
+        summary.bytes = pq.finish()?;
+    }
+    let p = dir.join("frames.csv");
+    fs::write(&p, &frame_table).with_path(&p)?;
+    if opts.truth {
+        let td = opts.digits.max(8);
+        let p = truth_dir.join("mean.csv");
+        fs::write(&p, stats.mean_csv(setup.speed, td)).with_path(&p)?;
+        if opts.scenario.periodic() {
+            let p = truth_dir.join("phase.csv");
+            fs::write(&p, stats.phase_csv(setup.speed, td)).with_path(&p)?;
+        }
+        let p = truth_dir.join("events.csv");
+        fs::write(&p, &events).with_path(&p)?;
+        let params = serde_json::json!({
+            "generator": format!("curlew {} synth", crate::VERSION),
+            "seed": opts.seed,
+            "options": opts,
+            "run": setup,
+            "summary": summary,
+        });
+        let p = truth_dir.join("params.json");
+        let text = serde_json::to_string_pretty(&params)
+            .map_err(|e| Error::data(format!("cannot encode parameters: {e}")))?;
+        fs::write(&p, text + "\n").with_path(&p)?;
+    } else {
+        fs::remove_dir_all(&truth_dir).with_path(&truth_dir)?;
+    }
+    Ok(summary)
+}
+
+/// The column layout of written frames.
+#[derive(Debug, Clone, Copy)]
+struct Columns {
+    /// (m/s) per written velocity unit.
+    vs: f64,
+    dvel: Option<u32>,
+    /// The noise sigma in written units, when sigma columns are on.
+    sigma: Option<f64>,
+    flag: bool,
+}
+
+impl Columns {
+    fn new(opts: &SynthOptions, setup: &RunSetup, vs: f64, dvel: Option<u32>) -> Self {
+        Columns {
+            vs,
+            dvel,
+            sigma: opts.sigma_columns.then_some(setup.noise_sigma / vs),
+            flag: opts.flag_column,
+        }
+    }
+
+    fn header(&self) -> String {
+        let mut h = String::from("x,y,u,v");
+        if self.sigma.is_some() {
+            h.push_str(",sigma_u,sigma_v");
+        }
+        if self.flag {
+            h.push_str(",flag");
+        }
+        h
+    }
+}
+
+/// The CSV text of one measured frame (gaps as described in `corrupt`).
+fn frame_csv(m: &Measured, prefixes: &[Vec<u8>], cols: &Columns) -> Vec<u8> {
+    let mut buf = Vec::with_capacity(32 + prefixes.len() * 48);
+    buf.extend_from_slice(cols.header().as_bytes());
+    buf.push(b'\n');
+    for (k, ((u, v), c)) in m.u.iter().zip(m.v.iter()).zip(m.kind.iter()).enumerate() {
+        let kind = Kind::from_code(*c);
+        if matches!(kind, Kind::Missing | Kind::Body) {
+            continue;
+        }
+        buf.extend_from_slice(&prefixes[k]);
+        let has_value = kind != Kind::Empty;
+        if has_value {
+            push(&mut buf, u / cols.vs, cols.dvel);
+        }
+        buf.push(b',');
+        if has_value {
+            push(&mut buf, v / cols.vs, cols.dvel);
+        }
+        if let Some(sg) = cols.sigma {
+            buf.push(b',');
+            if has_value {
+                push(&mut buf, sg, cols.dvel.map(|d| (d + 2).min(15)));
+            }
+            buf.push(b',');
+            if has_value {
+                push(&mut buf, sg, cols.dvel.map(|d| (d + 2).min(15)));
+            }
+        }
+        if cols.flag {
+            buf.extend_from_slice(if kind == Kind::Flagged { b",1" } else { b",0" });
+        }
+        buf.push(b'\n');
+    }
+    buf
+}
+
+/// A noise-free frame in SI, full precision: x, y, u, v, omega.
+fn truth_frame_csv(setup: &RunSetup, tf: &TruthFrame) -> Vec<u8> {
+    let g = setup.grid;
+    let mut buf = Vec::with_capacity(16 + g.len() * 90);
+    buf.extend_from_slice(b"x,y,u,v,omega\n");
+    for j in 0..g.ny {
+        for i in 0..g.nx {
+            for (c, v) in [g.x(i), g.y(j), tf.u[[j, i]], tf.v[[j, i]], tf.omega[[j, i]]]
+                .iter()
+                .enumerate()
+            {
+                if c > 0 {
+                    buf.push(b',');
+                }
+                push(&mut buf, *v, None);
+            }
+            buf.push(b'\n');
+        }
+    }
+    buf
+}
+
+fn prefixes_xy(setup: &RunSetup, ls: f64) -> (Vec<f64>, Vec<f64>) {
+    let g = setup.grid;
+    (0..g.len())
+        .map(|k| (g.x(k % g.nx) / ls, g.y(k / g.nx) / ls))
+        .unzip()
+}
+
+/// The parquet long table of a run, written in row groups of one chunk.
+///
+/// Written with polars directly behind this one type; when `io` gains a
+/// frames writer this is the one place to switch.
+struct ParquetFrames {
+    path: PathBuf,
+    cols: Columns,
+    writer: polars::prelude::BatchedWriter<fs::File>,
+}
+
+impl ParquetFrames {
+    fn create(path: &Path, cols: &Columns) -> Result<Self> {
+        use polars::prelude::*;
+        let file = fs::File::create(path).with_path(path)?;
+        let mut fields = vec![Field::new("frame".into(), DataType::Int64)];
+        let mut names = vec!["x", "y", "u", "v"];
+        if cols.sigma.is_some() {
+            names.extend(["sigma_u", "sigma_v"]);
+        }
+        fields.extend(
+            names
+                .iter()
+                .map(|n| Field::new((*n).into(), DataType::Float64)),
+        );
+        if cols.flag {
+            fields.push(Field::new("flag".into(), DataType::Int64));
+        }
+        let writer = ParquetWriter::new(file)
+            .batched(&Schema::from_iter(fields))
+            .map_err(|e| {
+                Error::data(format!("cannot start the parquet table: {e}")).with_path(path)
+            })?;
+        Ok(ParquetFrames {
+            path: path.to_path_buf(),
+            cols: *cols,
+            writer,
+        })
+    }
+
+    fn write_chunk(
+        &mut self,
+        start: usize,
+        made: &[Made],
+        xy: &(Vec<f64>, Vec<f64>),
+    ) -> Result<()> {
+        use polars::prelude::*;
+        let cap = made.len() * xy.0.len();
+        let mut f = Vec::with_capacity(cap);
+        let (mut x, mut y) = (Vec::with_capacity(cap), Vec::with_capacity(cap));
+        let (mut u, mut v) = (Vec::with_capacity(cap), Vec::with_capacity(cap));
+        let mut sg = Vec::with_capacity(if self.cols.sigma.is_some() { cap } else { 0 });
+        let mut flag = Vec::with_capacity(if self.cols.flag { cap } else { 0 });
+        let vs = self.cols.vs;
+        for (off, m) in made.iter().enumerate() {
+            let m = &m.measured;
+            for (k, ((mu, mv), c)) in m.u.iter().zip(m.v.iter()).zip(m.kind.iter()).enumerate() {
+                let kind = Kind::from_code(*c);
+                if matches!(kind, Kind::Missing | Kind::Body) {
+                    continue;
+                }
+                f.push((start + off + 1) as i64);
+                x.push(xy.0[k]);
+                y.push(xy.1[k]);
+                let has = kind != Kind::Empty;
+                u.push(has.then_some(mu / vs));
+                v.push(has.then_some(mv / vs));
+                if let Some(s) = self.cols.sigma {
+                    sg.push(has.then_some(s));
+                }
+                if self.cols.flag {
+                    flag.push(i64::from(kind == Kind::Flagged));
+                }
+            }
+        }
+        let n = f.len();
+        let mut columns = vec![
+            Column::new("frame".into(), f),
+            Column::new("x".into(), x),
+            Column::new("y".into(), y),
+            Column::new("u".into(), u),
+            Column::new("v".into(), v),
+        ];
+        if self.cols.sigma.is_some() {
+            columns.push(Column::new("sigma_u".into(), sg.clone()));
+            columns.push(Column::new("sigma_v".into(), sg));
+        }
+        if self.cols.flag {
+            columns.push(Column::new("flag".into(), flag));
+        }
+        DataFrame::new(n, columns)
+            .and_then(|df| self.writer.write_batch(&df))
+            .map_err(|e| {
+                Error::data(format!("cannot write the parquet table: {e}")).with_path(&self.path)
+            })
+    }
+
+    fn finish(self) -> Result<u64> {
+        self.writer.finish().map_err(|e| {
+            Error::data(format!("cannot finish the parquet table: {e}")).with_path(&self.path)
+        })
+    }
+}
