@@ -416,6 +416,9 @@ pub struct Curve {
     pub xy: Vec<(f64, f64)>,
     pub band: Option<Vec<(f64, f64, f64)>>,
     pub color: RGBColor,
+    /// Points with error bars (the band's lower and upper ends) instead of
+    /// a line with a shaded band.
+    pub markers: bool,
 }
 
 /// A line chart panel.
@@ -498,6 +501,24 @@ fn draw_lines<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, p: &LinePanel) 
         .y_labels(6)
         .draw()?;
     for c in &p.curves {
+        if c.markers {
+            let color = c.color;
+            if let Some(b) = &c.band {
+                chart.draw_series(b.iter().filter(|q| q.1.is_finite() && q.2.is_finite()).map(
+                    |q| PathElement::new(vec![(q.0, q.1), (q.0, q.2)], color.stroke_width(2)),
+                ))?;
+            }
+            let s = chart.draw_series(
+                c.xy.iter()
+                    .filter(|q| q.0.is_finite() && q.1.is_finite())
+                    .map(|q| Circle::new(*q, 6, color.filled())),
+            )?;
+            if !c.label.is_empty() {
+                s.label(c.label.clone())
+                    .legend(move |(x, y)| Circle::new((x + 12, y), 6, color.filled()));
+            }
+            continue;
+        }
         if let Some(b) = &c.band {
             let mut poly: Vec<(f64, f64)> = b
                 .iter()

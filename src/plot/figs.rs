@@ -349,6 +349,7 @@ fn validation_figures(c: &mut Ctx) -> Result<()> {
                     .map(|k| (x(k), frac(k, fr[k].validation.outliers())))
                     .collect(),
                 band: None,
+                markers: false,
                 color: RUN_COLORS[1],
             },
             Curve {
@@ -357,6 +358,7 @@ fn validation_figures(c: &mut Ctx) -> Result<()> {
                     .map(|k| (x(k), frac(k, fr[k].validation.invalid_input)))
                     .collect(),
                 band: None,
+                markers: false,
                 color: RUN_COLORS[0],
             },
         ];
@@ -430,6 +432,7 @@ fn convergence_figure(c: &mut Ctx) -> Result<()> {
                 .map(|(x, y)| (*x, (y - last) / norm))
                 .collect(),
             band: None,
+            markers: false,
             color,
         });
         if curves.len() == 6 {
