@@ -221,9 +221,11 @@ pub fn scalar_figure(
     out: &Path,
 ) -> Result<Vec<FigureRef>> {
     let re: Vec<Option<f64>> = sel.iter().map(|r| r.conditions.reynolds()).collect();
-    let by_re = re.iter().all(|r| r.is_some());
-    let xpos = |id: &str| -> f64 {
-        let i = sel.iter().position(|r| r.id == id).unwrap_or(0);
+    // Against Re when every run has one and they all differ; else by run.
+    let mut sorted: Vec<f64> = re.iter().flatten().copied().collect();
+    sorted.sort_by(f64::total_cmp);
+    let by_re = sorted.len() == sel.len() && sorted.windows(2).all(|w| w[1] > w[0] * (1.0 + 1e-9));
+    let xpos = |i: usize| -> f64 {
         if by_re {
             re[i].unwrap()
         } else {
@@ -243,18 +245,24 @@ pub fn scalar_figure(
             if rows.is_empty() {
                 return None;
             }
-            let xy = rows.iter().map(|s| (xpos(&s.run), s.value)).collect();
-            let band = Some(
-                rows.iter()
-                    .map(|s| {
-                        (
-                            xpos(&s.run),
+            let curves = sel
+                .iter()
+                .enumerate()
+                .filter_map(|(i, r)| {
+                    let s = rows.iter().find(|s| s.run == r.id)?;
+                    Some(Curve {
+                        label: r.id.clone(),
+                        xy: vec![(xpos(i), s.value)],
+                        band: Some(vec![(
+                            xpos(i),
                             s.value - k * s.uncertainty,
                             s.value + k * s.uncertainty,
-                        )
+                        )]),
+                        color: RUN_COLORS[i % RUN_COLORS.len()],
+                        markers: true,
                     })
-                    .collect(),
-            );
+                })
+                .collect();
             Some(LinePanel {
                 title: name.to_string(),
                 x_label: if by_re {
@@ -263,13 +271,7 @@ pub fn scalar_figure(
                     "run number".into()
                 },
                 y_label: format!("({})", rows[0].unit),
-                curves: vec![Curve {
-                    label: String::new(),
-                    xy,
-                    band,
-                    color: RUN_COLORS[0],
-                    markers: true,
-                }],
+                curves,
                 log_y: false,
             })
         })
