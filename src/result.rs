@@ -49,4 +49,6 @@ pub struct CampaignResult {
     /// The manifest as written (tool version, pipeline, inputs, timings).
     pub manifest: serde_json::Value,
     pub warnings: Vec<String>,
+    /// The comparisons between runs (`[[compare]]`, or the automatic one).
+    pub comparisons: Vec<crate::compare::ComparisonResult>,
 }

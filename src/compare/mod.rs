@@ -1,0 +1,304 @@
+//! Comparisons between runs: profiles at stations overlaid with
+//! uncertainty bands, a difference map with the significance of each
+//! difference, and a table of scalar results across flow conditions.
+//!
+//! Owns: the comparison arithmetic (`interp`, `scalars`), its tables and
+//! figures (`figures`) under `OUT/compare/<slug>/`. Does not own: the plan
+//! (`plan::report`) or the drawing layer (`plot::draw`).
+//!
+//! Conventions: Δ = second run − first run, on the first run's grid; the
+//! second run is interpolated bilinearly where its grid differs (see
+//! `interp`). Bands and the significance test use the plan's coverage
+//! factor k (default 2). A run named by a comparison but not reduced in
+//! this invocation (`--runs`) leaves the comparison with a warning and
+//! nothing else.
+
+mod figures;
+pub mod interp;
+pub mod scalars;
+
+use std::path::{Path, PathBuf};
+
+use crate::error::{Error, Result};
+use crate::plan::report::ComparePlan;
+use crate::result::{FigureRef, RunResult};
+
+pub use scalars::Scalar;
+
+/// A profile of one run at one station.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Profile {
+    pub run: String,
+    /// "x = 30 mm" or "y = 0 mm".
+    pub station: String,
+    /// Position along the line (m).
+    pub s: Vec<f64>,
+    pub value: Vec<f64>,
+    pub uncertainty: Vec<f64>,
+}
+
+/// What one comparison produced; paths relative to the campaign folder.
+#[derive(Debug, Clone)]
+pub struct ComparisonResult {
+    pub title: String,
+    pub slug: String,
+    pub runs: Vec<String>,
+    /// Made by curlew without a `[[compare]]` (first two runs).
+    pub automatic: bool,
+    pub quantity: String,
+    pub coverage: f64,
+    pub figures: Vec<FigureRef>,
+    /// CSV tables written (difference, profiles, scalars).
+    pub tables: Vec<PathBuf>,
+    pub scalars: Vec<Scalar>,
+    /// Nodes where Δ and its uncertainty are known.
+    pub n_compared: usize,
+    pub n_significant: usize,
+    /// n_significant / n_compared, when anything was compared.
+    pub significant_fraction: Option<f64>,
+    /// True when the second run's grid differed and it was interpolated.
+    pub interpolated: bool,
+    pub warnings: Vec<String>,
+}
+
+/// Runs every comparison; `runs` are the reduced runs (any order).
+pub fn run_comparisons(
+    plans: &[ComparePlan],
+    runs: &[RunResult],
+    out: &Path,
+) -> Result<Vec<ComparisonResult>> {
+    plans.iter().map(|p| run_one(p, runs, out)).collect()
+}
+
+fn run_one(p: &ComparePlan, runs: &[RunResult], out: &Path) -> Result<ComparisonResult> {
+    let mut res = ComparisonResult {
+        title: p.title.clone(),
+        slug: p.slug.clone(),
+        runs: p.runs.clone(),
+        automatic: p.automatic,
+        quantity: p.quantity.clone(),
+        coverage: p.coverage,
+        figures: Vec::new(),
+        tables: Vec::new(),
+        scalars: Vec::new(),
+        n_compared: 0,
+        n_significant: 0,
+        significant_fraction: None,
+        interpolated: false,
+        warnings: Vec::new(),
+    };
+    let mut sel: Vec<&RunResult> = Vec::new();
+    for id in &p.runs {
+        match runs.iter().find(|r| &r.id == id) {
+            Some(r) => sel.push(r),
+            None => res.warnings.push(format!(
+                "run '{id}' was not reduced in this invocation; comparison skipped"
+            )),
+        }
+    }
+    if sel.len() < p.runs.len() {
+        return Ok(res);
+    }
+    let dir = out.join("compare").join(&p.slug);
+    std::fs::create_dir_all(&dir).map_err(|e| Error::io(&dir, e))?;
+    let rel = |q: &Path| q.strip_prefix(out).unwrap_or(q).to_path_buf();
+
+    // Scalars across conditions.
+    for r in &sel {
+        res.scalars.extend(scalars::run_scalars(
+            &r.id,
+            &r.stats.ensemble,
+            &r.conditions,
+            p.vortex_threshold,
+            p.wake_x,
+        ));
+    }
+    let path = dir.join("scalars.csv");
+    write_rows(
+        &path,
+        &["run", "quantity", "value", "uncertainty", "unit"],
+        res.scalars.iter().map(|s| {
+            vec![
+                s.run.clone(),
+                s.name.clone(),
+                num(s.value),
+                num(s.uncertainty),
+                s.unit.clone(),
+            ]
+        }),
+    )?;
+    res.tables.push(rel(&path));
+
+    // Difference map of the first two runs.
+    let (a, b) = (sel[0], sel[1]);
+    match interp::difference(
+        &a.stats.ensemble,
+        &b.stats.ensemble,
+        &p.quantity,
+        p.coverage,
+    ) {
+        None => res.warnings.push(format!(
+            "'{}' is not a column of both runs; no difference map",
+            p.quantity
+        )),
+        Some(d) => {
+            if d.n_compared == 0 {
+                res.warnings.push(format!(
+                    "no node has both a difference and an uncertainty ('{}' missing or the grids do not overlap)",
+                    interp::uncertainty_column(&p.quantity)
+                ));
+            }
+            res.n_compared = d.n_compared;
+            res.n_significant = d.n_significant;
+            res.interpolated = d.interpolated;
+            res.significant_fraction =
+                (d.n_compared > 0).then(|| d.n_significant as f64 / d.n_compared as f64);
+            if d.interpolated {
+                res.warnings.push(format!(
+                    "the grids of '{}' and '{}' differ; '{}' was interpolated bilinearly onto the grid of '{}'",
+                    a.id, b.id, b.id, a.id
+                ));
+            }
+            let path = dir.join("difference.csv");
+            let g = d.grid;
+            write_rows(
+                &path,
+                &["x", "y", "a", "b", "delta", "delta_unc", "significant"],
+                (0..g.len()).map(|k| {
+                    vec![
+                        num(g.x(k % g.nx)),
+                        num(g.y(k / g.nx)),
+                        num(d.a[k]),
+                        num(d.b[k]),
+                        num(d.delta[k]),
+                        num(d.u_delta[k]),
+                        u8::from(d.significant[k]).to_string(),
+                    ]
+                }),
+            )?;
+            res.tables.push(rel(&path));
+            res.figures
+                .extend(figures::difference_figures(p, a, b, &d, &dir, out)?);
+        }
+    }
+
+    // Profiles.
+    let profiles = profiles(p, &sel);
+    if profiles.is_empty() {
+        res.warnings.push(format!(
+            "'{}' is not a column of the runs; no profiles",
+            p.profile
+        ));
+    } else {
+        let path = dir.join("profiles.csv");
+        write_rows(
+            &path,
+            &["run", "station", "s", "value", "uncertainty"],
+            profiles.iter().flat_map(|pr| {
+                (0..pr.s.len()).map(move |k| {
+                    vec![
+                        pr.run.clone(),
+                        pr.station.clone(),
+                        num(pr.s[k]),
+                        num(pr.value[k]),
+                        num(pr.uncertainty[k]),
+                    ]
+                })
+            }),
+        )?;
+        res.tables.push(rel(&path));
+        res.figures
+            .extend(figures::profile_figure(p, &sel, &profiles, &dir, out)?);
+    }
+    res.figures
+        .extend(figures::scalar_figure(p, &sel, &res.scalars, &dir, out)?);
+    Ok(res)
+}
+
+/// The stations of a plan: its own, or three vertical lines at 25, 50 and
+/// 75 % of the first run's x range.
+pub fn stations(p: &ComparePlan, first: &RunResult) -> (Vec<f64>, Vec<f64>) {
+    if !p.at_x.is_empty() || !p.at_y.is_empty() {
+        return (p.at_x.clone(), p.at_y.clone());
+    }
+    let g = first.stats.ensemble.grid;
+    let (x0, x1) = (g.x0, g.x(g.nx.saturating_sub(1)));
+    (
+        [0.25, 0.5, 0.75]
+            .iter()
+            .map(|f| x0 + f * (x1 - x0))
+            .collect(),
+        Vec::new(),
+    )
+}
+
+/// Profiles of `p.profile` of every run at every station, sampled
+/// bilinearly at the run's own nodes along the line.
+pub fn profiles(p: &ComparePlan, sel: &[&RunResult]) -> Vec<Profile> {
+    let (at_x, at_y) = stations(p, sel[0]);
+    let uq = interp::uncertainty_column(&p.profile);
+    let mut out = Vec::new();
+    for r in sel {
+        let t = &r.stats.ensemble;
+        let Some(col) = t.get(&p.profile) else {
+            continue;
+        };
+        let unc = t.get(&uq);
+        let g = t.grid;
+        let sample = |x: f64, y: f64| {
+            (
+                interp::sample(&g, col, x, y),
+                unc.map_or(f64::NAN, |u| interp::sample(&g, u, x, y)),
+            )
+        };
+        for &x in &at_x {
+            let (v, u): (Vec<f64>, Vec<f64>) = (0..g.ny).map(|j| sample(x, g.y(j))).unzip();
+            out.push(Profile {
+                run: r.id.clone(),
+                station: format!("x = {} mm", crate::plot::draw::tick(x * 1e3)),
+                s: (0..g.ny).map(|j| g.y(j)).collect(),
+                value: v,
+                uncertainty: u,
+            });
+        }
+        for &y in &at_y {
+            let (v, u): (Vec<f64>, Vec<f64>) = (0..g.nx).map(|i| sample(g.x(i), y)).unzip();
+            out.push(Profile {
+                run: r.id.clone(),
+                station: format!("y = {} mm", crate::plot::draw::tick(y * 1e3)),
+                s: (0..g.nx).map(|i| g.x(i)).collect(),
+                value: v,
+                uncertainty: u,
+            });
+        }
+    }
+    out
+}
+
+/// A number for CSV: shortest round-trip form; empty for NaN.
+fn num(x: f64) -> String {
+    if x.is_finite() {
+        format!("{x}")
+    } else {
+        String::new()
+    }
+}
+
+/// Writes a CSV to a temporary name and renames it into place.
+fn write_rows(path: &Path, header: &[&str], rows: impl Iterator<Item = Vec<String>>) -> Result<()> {
+    let tmp = path.with_extension("csv.partial");
+    let io = |e: std::io::Error| Error::io(path, e);
+    {
+        let mut w = csv::Writer::from_path(&tmp).map_err(|e| Error::io(&tmp, e.into()))?;
+        let csv_err = |e: csv::Error| Error::io(path, e.into());
+        w.write_record(header).map_err(csv_err)?;
+        for r in rows {
+            w.write_record(&r).map_err(csv_err)?;
+        }
+        w.flush().map_err(io)?;
+    }
+    std::fs::rename(&tmp, path).map_err(io)
+}
+
+#[cfg(test)]
+mod tests;

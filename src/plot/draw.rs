@@ -1,0 +1,598 @@
+//! The drawing layer: the embedded font, writing one figure as PNG and SVG,
+//! and the two kinds of panel curlew draws (a field map with its colour bar,
+//! and a line chart with optional bands).
+//!
+//! Owns: pixels and layout. Does not own: which figures a run gets (`figs`).
+//!
+//! Every figure is drawn by one generic function over the plotters backend,
+//! so the PNG and the SVG are the same drawing. Maps keep an equal aspect
+//! ratio: the plot area's pixel size is computed from the grid's extent.
+
+use std::path::{Path, PathBuf};
+use std::sync::Once;
+
+use plotters::coord::Shift;
+use plotters::prelude::*;
+use plotters::style::FontStyle;
+
+use super::colormap::{Colormap, NO_DATA};
+use crate::error::{Error, ErrorKind, Result};
+use crate::field::Grid;
+
+static FONT: &[u8] = include_bytes!("../../assets/fonts/DejaVuSans.ttf");
+static REGISTER: Once = Once::new();
+
+/// The font family every text uses (DejaVu Sans, embedded).
+pub const FAMILY: &str = "sans-serif";
+/// Text sizes in pixels (at the default 1000 px width).
+pub const TITLE_PX: f64 = 26.0;
+pub const LABEL_PX: f64 = 21.0;
+pub const TICK_PX: f64 = 18.0;
+
+/// Registers the embedded font under the family names plotters asks for,
+/// so text renders on a machine without system fonts.
+pub fn register_fonts() {
+    REGISTER.call_once(|| {
+        for fam in ["sans-serif", "serif", "monospace"] {
+            for st in [
+                FontStyle::Normal,
+                FontStyle::Bold,
+                FontStyle::Italic,
+                FontStyle::Oblique,
+            ] {
+                // The font is a valid TTF shipped with the crate; a failure
+                // here would be a packaging bug caught by every figure test.
+                let _ = plotters::style::register_font(fam, st, FONT);
+            }
+        }
+    });
+}
+
+pub type DrawResult<DB> =
+    std::result::Result<(), DrawingAreaErrorKind<<DB as DrawingBackend>::ErrorType>>;
+
+/// A figure: its pixel size and how to draw it on any backend.
+pub trait Figure {
+    fn size(&self) -> (u32, u32);
+    fn draw<DB: DrawingBackend>(&self, root: &DrawingArea<DB, Shift>) -> DrawResult<DB>;
+}
+
+fn draw_error(path: &Path, e: impl std::fmt::Display) -> Error {
+    Error::new(ErrorKind::Io, format!("drawing the figure failed: {e}")).with_path(path)
+}
+
+/// Writes `dir/<stem>.png` and `dir/<stem>.svg`. Each is drawn to a
+/// temporary name first and renamed, so no half-written figure is left.
+pub fn write_figure(fig: &impl Figure, dir: &Path, stem: &str) -> Result<(PathBuf, PathBuf)> {
+    register_fonts();
+    std::fs::create_dir_all(dir).map_err(|e| Error::io(dir, e))?;
+    let png = dir.join(format!("{stem}.png"));
+    let svg = dir.join(format!("{stem}.svg"));
+    let tmp_png = dir.join(format!(".{stem}.partial.png"));
+    {
+        let root = BitMapBackend::new(&tmp_png, fig.size()).into_drawing_area();
+        root.fill(&WHITE).map_err(|e| draw_error(&png, e))?;
+        fig.draw(&root).map_err(|e| draw_error(&png, e))?;
+        root.present().map_err(|e| draw_error(&png, e))?;
+    }
+    let mut text = String::new();
+    {
+        let root = SVGBackend::with_string(&mut text, fig.size()).into_drawing_area();
+        root.fill(&WHITE).map_err(|e| draw_error(&svg, e))?;
+        fig.draw(&root).map_err(|e| draw_error(&svg, e))?;
+        root.present().map_err(|e| draw_error(&svg, e))?;
+    }
+    let tmp_svg = dir.join(format!(".{stem}.partial.svg"));
+    std::fs::write(&tmp_svg, text).map_err(|e| Error::io(&tmp_svg, e))?;
+    std::fs::rename(&tmp_png, &png).map_err(|e| Error::io(&png, e))?;
+    std::fs::rename(&tmp_svg, &svg).map_err(|e| Error::io(&svg, e))?;
+    Ok((png, svg))
+}
+
+/// How coordinates are shown: divide metres by `scale`, label with `unit`.
+#[derive(Debug, Clone)]
+pub struct Axes {
+    pub scale: f64,
+    pub x_label: String,
+    pub y_label: String,
+}
+
+/// One field map panel: values at the nodes of `grid` (node order j outer),
+/// already in display units, drawn as cells with colour map `cmap` over
+/// `range`.
+pub struct MapPanel<'a> {
+    pub title: String,
+    pub grid: Grid,
+    pub values: Vec<f64>,
+    pub cmap: &'a Colormap,
+    pub range: (f64, f64),
+    /// (u, v, every): vectors drawn at every n-th node in each direction.
+    pub vectors: Option<(&'a [f64], &'a [f64], usize)>,
+    /// Nodes to draw faded toward white (e.g. not significant).
+    pub faded: Option<Vec<bool>>,
+}
+
+/// Pixel layout of a row/grid of maps sharing one colour bar.
+pub struct MapLayout {
+    pub panel_w: u32,
+    pub panel_h: u32,
+    pub cols: u32,
+    pub rows: u32,
+    pub left: u32,
+    pub bottom: u32,
+    pub top: u32,
+    pub right: u32,
+    pub bar_w: u32,
+}
+
+impl MapLayout {
+    /// A layout of `n` panels of grid `g` in about `width` pixels, with the
+    /// plot area's aspect equal to the grid's extent.
+    pub fn new(g: &Grid, n: usize, cols: usize, width: u32) -> MapLayout {
+        let cols = cols.clamp(1, n.max(1)) as u32;
+        let rows = (n.max(1) as u32).div_ceil(cols);
+        let (left, bottom, top, right, bar_w) = (112, 70, 56, 14, 200);
+        let lx = g.nx as f64 * g.dx;
+        let ly = g.ny as f64 * g.dy;
+        let avail = (width.saturating_sub(bar_w) / cols)
+            .saturating_sub(left + right)
+            .max(120);
+        let mut pw = avail as f64;
+        let mut ph = pw * ly / lx;
+        let max_h = if rows == 1 { 760.0 } else { 480.0 };
+        if ph > max_h {
+            ph = max_h;
+            pw = ph * lx / ly;
+        }
+        if ph < 120.0 {
+            ph = 120.0;
+            pw = (ph * lx / ly).min(avail as f64 * 1.6);
+        }
+        MapLayout {
+            panel_w: pw.round() as u32,
+            panel_h: ph.round() as u32,
+            cols,
+            rows,
+            left,
+            bottom,
+            top,
+            right,
+            bar_w,
+        }
+    }
+    pub fn cell(&self) -> (u32, u32) {
+        (
+            self.left + self.panel_w + self.right,
+            self.top + self.panel_h + self.bottom,
+        )
+    }
+    pub fn size(&self, header: u32) -> (u32, u32) {
+        let (cw, ch) = self.cell();
+        (cw * self.cols + self.bar_w, ch * self.rows + header)
+    }
+}
+
+/// A tick label: at most six decimals, trailing zeros dropped; scientific
+/// notation outside 1e-3..1e5.
+pub fn tick(v: f64) -> String {
+    if v == 0.0 || !v.is_finite() {
+        return "0".into();
+    }
+    if !(1e-3..1e5).contains(&v.abs()) {
+        return format!("{v:.1e}");
+    }
+    let s = format!("{v:.6}");
+    let s = s.trim_end_matches('0').trim_end_matches('.');
+    if s == "-0" {
+        "0".into()
+    } else {
+        s.to_string()
+    }
+}
+
+fn blend_white(c: RGBColor, keep: f64) -> RGBColor {
+    let f = |x: u8| (255.0 - (255.0 - x as f64) * keep).round() as u8;
+    RGBColor(f(c.0), f(c.1), f(c.2))
+}
+
+/// Draws one map panel into `area` (of size `layout.cell()`).
+pub fn draw_map<DB: DrawingBackend>(
+    area: &DrawingArea<DB, Shift>,
+    p: &MapPanel,
+    axes: &Axes,
+    layout: &MapLayout,
+) -> DrawResult<DB> {
+    let g = p.grid;
+    let s = axes.scale;
+    let xr = (g.x0 - 0.5 * g.dx) / s..(g.x(g.nx - 1) + 0.5 * g.dx) / s;
+    let yr = (g.y0 - 0.5 * g.dy) / s..(g.y(g.ny - 1) + 0.5 * g.dy) / s;
+    let mut chart = ChartBuilder::on(area)
+        .caption(&p.title, (FAMILY, LABEL_PX + 1.0))
+        .margin_right(layout.right)
+        .margin_left(14)
+        .margin_top(6)
+        .x_label_area_size(layout.bottom - 6)
+        .y_label_area_size(layout.left - 14)
+        .build_cartesian_2d(xr, yr)?;
+    chart
+        .configure_mesh()
+        .disable_mesh()
+        .x_desc(&axes.x_label)
+        .y_desc(&axes.y_label)
+        .x_label_formatter(&|v| tick(*v))
+        .y_label_formatter(&|v| tick(*v))
+        .label_style((FAMILY, TICK_PX))
+        .axis_desc_style((FAMILY, LABEL_PX))
+        .x_labels(6)
+        .y_labels(6)
+        .draw()?;
+    let (lo, hi) = p.range;
+    chart.draw_series(
+        (0..g.ny)
+            .flat_map(|j| (0..g.nx).map(move |i| (j, i)))
+            .map(|(j, i)| {
+                let k = j * g.nx + i;
+                let mut c = p.cmap.map(p.values[k], lo, hi);
+                if p.faded.as_ref().is_some_and(|f| f[k]) && c != NO_DATA {
+                    c = blend_white(c, 0.22);
+                }
+                let (x, y) = (g.x(i) / s, g.y(j) / s);
+                let (hx, hy) = (0.5 * g.dx / s * 1.02, 0.5 * g.dy / s * 1.02);
+                Rectangle::new([(x - hx, y - hy), (x + hx, y + hy)], c.filled())
+            }),
+    )?;
+    if let Some((u, v, every)) = p.vectors {
+        let every = every.max(1);
+        let smax = u
+            .iter()
+            .zip(v)
+            .map(|(a, b)| a.hypot(*b))
+            .filter(|x| x.is_finite())
+            .fold(0.0, f64::max);
+        if smax > 0.0 {
+            let len = 0.9 * every as f64 * g.dx.min(g.dy) / s / smax;
+            let ink = RGBColor(25, 25, 30);
+            let mut arrows = Vec::new();
+            for j in (every / 2..g.ny).step_by(every) {
+                for i in (every / 2..g.nx).step_by(every) {
+                    let k = j * g.nx + i;
+                    let (a, b) = (u[k], v[k]);
+                    if !(a.is_finite() && b.is_finite()) {
+                        continue;
+                    }
+                    let (x, y) = (g.x(i) / s, g.y(j) / s);
+                    let (ex, ey) = (x + len * a, y + len * b);
+                    arrows.push(vec![(x, y), (ex, ey)]);
+                    let (l, ang) = ((len * a).hypot(len * b), b.atan2(a));
+                    if l > 0.0 {
+                        let h = 0.3 * l;
+                        for d in [2.7_f64, -2.7] {
+                            arrows.push(vec![
+                                (ex, ey),
+                                (ex + h * (ang + d).cos(), ey + h * (ang + d).sin()),
+                            ]);
+                        }
+                    }
+                }
+            }
+            // A pale halo keeps the arrows readable on dark and light cells.
+            chart.draw_series(
+                arrows
+                    .iter()
+                    .map(|pts| PathElement::new(pts.clone(), WHITE.mix(0.55).stroke_width(3))),
+            )?;
+            chart.draw_series(
+                arrows
+                    .into_iter()
+                    .map(|pts| PathElement::new(pts, ink.stroke_width(1))),
+            )?;
+        }
+    }
+    Ok(())
+}
+
+/// Draws a vertical colour bar for `cmap` over `range` labelled `label`.
+pub fn draw_colorbar<DB: DrawingBackend>(
+    area: &DrawingArea<DB, Shift>,
+    cmap: &Colormap,
+    range: (f64, f64),
+    label: &str,
+    top: u32,
+    bottom: u32,
+) -> DrawResult<DB> {
+    let (lo, hi) = if range.1 > range.0 {
+        range
+    } else {
+        (range.0 - 1.0, range.0 + 1.0)
+    };
+    let mut chart = ChartBuilder::on(area)
+        .margin_top(top)
+        .margin_bottom(bottom)
+        .margin_left(24)
+        .margin_right(16)
+        .set_label_area_size(LabelAreaPosition::Right, 130)
+        .build_cartesian_2d(0.0..1.0, lo..hi)?;
+    chart
+        .configure_mesh()
+        .disable_mesh()
+        .disable_x_axis()
+        .y_desc(label)
+        .set_all_tick_mark_size(6)
+        .y_label_formatter(&|v| tick(*v))
+        .label_style((FAMILY, TICK_PX))
+        .axis_desc_style((FAMILY, LABEL_PX))
+        .y_labels(7)
+        .draw()?;
+    let n = 128;
+    chart.draw_series((0..n).map(|k| {
+        let a = lo + (hi - lo) * k as f64 / n as f64;
+        let b = lo + (hi - lo) * (k + 1) as f64 / n as f64;
+        let c = cmap.at((k as f64 + 0.5) / n as f64);
+        Rectangle::new([(0.0, a), (1.0, b)], c.filled())
+    }))?;
+    chart.draw_series(std::iter::once(Rectangle::new(
+        [(0.0, lo), (1.0, hi)],
+        BLACK.stroke_width(1),
+    )))?;
+    Ok(())
+}
+
+/// A figure of one or more map panels sharing one colour bar.
+pub struct MapFigure<'a> {
+    pub heading: Option<String>,
+    pub panels: Vec<MapPanel<'a>>,
+    pub axes: Axes,
+    pub bar_label: String,
+    pub layout: MapLayout,
+}
+
+impl<'a> MapFigure<'a> {
+    pub fn new(
+        heading: Option<String>,
+        panels: Vec<MapPanel<'a>>,
+        axes: Axes,
+        bar_label: String,
+        cols: usize,
+        width: u32,
+    ) -> Self {
+        let layout = MapLayout::new(&panels[0].grid, panels.len(), cols, width);
+        MapFigure {
+            heading,
+            panels,
+            axes,
+            bar_label,
+            layout,
+        }
+    }
+    fn header(&self) -> u32 {
+        if self.heading.is_some() {
+            44
+        } else {
+            0
+        }
+    }
+}
+
+impl Figure for MapFigure<'_> {
+    fn size(&self) -> (u32, u32) {
+        self.layout.size(self.header())
+    }
+    fn draw<DB: DrawingBackend>(&self, root: &DrawingArea<DB, Shift>) -> DrawResult<DB> {
+        let (w, _) = self.size();
+        let mut body = root.clone();
+        if let Some(h) = &self.heading {
+            let (head, rest) = root.split_vertically(self.header());
+            head.draw_text(
+                h,
+                &(FAMILY, TITLE_PX).into_text_style(&head),
+                (self.layout.left as i32, 10),
+            )?;
+            body = rest;
+        }
+        let (maps, bar) = body.split_horizontally(w - self.layout.bar_w);
+        let (cw, ch) = self.layout.cell();
+        for (n, p) in self.panels.iter().enumerate() {
+            let (r, c) = (n as u32 / self.layout.cols, n as u32 % self.layout.cols);
+            let cell = maps.clone().shrink((c * cw, r * ch), (cw, ch));
+            draw_map(&cell, p, &self.axes, &self.layout)?;
+        }
+        let p0 = &self.panels[0];
+        let bar_h = ch * self.layout.rows;
+        let bar_area = bar.clone().shrink((0, 0), (self.layout.bar_w, bar_h));
+        draw_colorbar(
+            &bar_area,
+            p0.cmap,
+            p0.range,
+            &self.bar_label,
+            34,
+            bar_h - ch + self.layout.bottom,
+        )
+    }
+}
+
+/// One curve of a line chart, with an optional band (lower, upper).
+pub struct Curve {
+    pub label: String,
+    pub xy: Vec<(f64, f64)>,
+    pub band: Option<Vec<(f64, f64, f64)>>,
+    pub color: RGBColor,
+    /// Points with error bars (the band's lower and upper ends) instead of
+    /// a line with a shaded band.
+    pub markers: bool,
+}
+
+/// A line chart panel.
+pub struct LinePanel {
+    pub title: String,
+    pub x_label: String,
+    pub y_label: String,
+    pub curves: Vec<Curve>,
+    /// Draw x vertically (profiles along y: value on x, position on y).
+    pub log_y: bool,
+}
+
+/// A figure of line panels side by side.
+pub struct LineFigure {
+    pub heading: Option<String>,
+    pub panels: Vec<LinePanel>,
+    pub width: u32,
+    pub height: u32,
+}
+
+/// Categorical colours for runs (distinct in lightness and hue; our own).
+pub const RUN_COLORS: [RGBColor; 6] = [
+    RGBColor(31, 92, 153),
+    RGBColor(196, 78, 34),
+    RGBColor(46, 139, 87),
+    RGBColor(120, 60, 150),
+    RGBColor(160, 130, 20),
+    RGBColor(90, 90, 90),
+];
+
+fn finite_range(vals: impl Iterator<Item = f64>) -> Option<(f64, f64)> {
+    let (mut lo, mut hi) = (f64::INFINITY, f64::NEG_INFINITY);
+    for v in vals.filter(|v| v.is_finite()) {
+        lo = lo.min(v);
+        hi = hi.max(v);
+    }
+    if lo > hi {
+        return None;
+    }
+    if hi - lo <= 1e-12 * hi.abs().max(1e-300) {
+        let pad = if hi == 0.0 { 1.0 } else { 0.05 * hi.abs() };
+        return Some((lo - pad, hi + pad));
+    }
+    let pad = 0.05 * (hi - lo);
+    Some((lo - pad, hi + pad))
+}
+
+fn draw_lines<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, p: &LinePanel) -> DrawResult<DB> {
+    let xs = p.curves.iter().flat_map(|c| c.xy.iter().map(|q| q.0));
+    let (x0, x1) = finite_range(xs).unwrap_or((0.0, 1.0));
+    let ys = p.curves.iter().flat_map(|c| {
+        c.xy.iter().map(|q| q.1).chain(
+            c.band
+                .iter()
+                .flat_map(|b| b.iter().flat_map(|q| [q.1, q.2])),
+        )
+    });
+    let (mut y0, y1) = finite_range(ys).unwrap_or((0.0, 1.0));
+    if p.log_y {
+        y0 = y0.max(y1 * 1e-6).max(1e-300);
+    }
+    let mut builder = ChartBuilder::on(area);
+    builder
+        .caption(&p.title, (FAMILY, LABEL_PX + 1.0))
+        .margin(14)
+        .x_label_area_size(62)
+        .y_label_area_size(100);
+    let mut chart = builder.build_cartesian_2d(x0..x1, y0..y1)?;
+    chart
+        .configure_mesh()
+        .light_line_style(RGBColor(235, 235, 235))
+        .bold_line_style(RGBColor(215, 215, 215))
+        .x_desc(&p.x_label)
+        .y_desc(&p.y_label)
+        .x_label_formatter(&|v| tick(*v))
+        .y_label_formatter(&|v| tick(*v))
+        .label_style((FAMILY, TICK_PX))
+        .axis_desc_style((FAMILY, LABEL_PX))
+        .x_labels(6)
+        .y_labels(6)
+        .draw()?;
+    for c in &p.curves {
+        if c.markers {
+            let color = c.color;
+            if let Some(b) = &c.band {
+                chart.draw_series(b.iter().filter(|q| q.1.is_finite() && q.2.is_finite()).map(
+                    |q| PathElement::new(vec![(q.0, q.1), (q.0, q.2)], color.stroke_width(2)),
+                ))?;
+            }
+            let s = chart.draw_series(
+                c.xy.iter()
+                    .filter(|q| q.0.is_finite() && q.1.is_finite())
+                    .map(|q| Circle::new(*q, 6, color.filled())),
+            )?;
+            if !c.label.is_empty() {
+                s.label(c.label.clone())
+                    .legend(move |(x, y)| Circle::new((x + 12, y), 6, color.filled()));
+            }
+            continue;
+        }
+        if let Some(b) = &c.band {
+            let mut poly: Vec<(f64, f64)> = b
+                .iter()
+                .filter(|q| q.1.is_finite() && q.2.is_finite())
+                .map(|q| (q.0, q.2.min(y1).max(y0)))
+                .collect();
+            let lower: Vec<(f64, f64)> = b
+                .iter()
+                .rev()
+                .filter(|q| q.1.is_finite() && q.2.is_finite())
+                .map(|q| (q.0, q.1.min(y1).max(y0)))
+                .collect();
+            poly.extend(lower);
+            if poly.len() >= 3 {
+                chart.draw_series(std::iter::once(Polygon::new(
+                    poly,
+                    c.color.mix(0.2).filled(),
+                )))?;
+            }
+        }
+        // Break the line at missing values.
+        let mut seg: Vec<(f64, f64)> = Vec::new();
+        let mut segs = Vec::new();
+        for &q in &c.xy {
+            if q.0.is_finite() && q.1.is_finite() {
+                seg.push(q);
+            } else if !seg.is_empty() {
+                segs.push(std::mem::take(&mut seg));
+            }
+        }
+        if !seg.is_empty() {
+            segs.push(seg);
+        }
+        let color = c.color;
+        let mut first = true;
+        for s in segs {
+            let series = chart.draw_series(LineSeries::new(s, color.stroke_width(3)))?;
+            if first && !c.label.is_empty() {
+                series.label(c.label.clone()).legend(move |(x, y)| {
+                    PathElement::new(vec![(x, y), (x + 24, y)], color.stroke_width(3))
+                });
+                first = false;
+            }
+        }
+    }
+    if p.curves.iter().filter(|c| !c.label.is_empty()).count() > 0 {
+        chart
+            .configure_series_labels()
+            .label_font((FAMILY, TICK_PX))
+            .background_style(WHITE.mix(0.85))
+            .border_style(RGBColor(160, 160, 160))
+            .position(SeriesLabelPosition::UpperRight)
+            .draw()?;
+    }
+    Ok(())
+}
+
+impl Figure for LineFigure {
+    fn size(&self) -> (u32, u32) {
+        let h = if self.heading.is_some() { 44 } else { 0 };
+        (self.width, self.height + h)
+    }
+    fn draw<DB: DrawingBackend>(&self, root: &DrawingArea<DB, Shift>) -> DrawResult<DB> {
+        let mut body = root.clone();
+        if let Some(h) = &self.heading {
+            let (head, rest) = root.split_vertically(44);
+            head.draw_text(h, &(FAMILY, TITLE_PX).into_text_style(&head), (100, 10))?;
+            body = rest;
+        }
+        let n = self.panels.len().max(1);
+        let areas = body.split_evenly((1, n));
+        for (a, p) in areas.iter().zip(&self.panels) {
+            draw_lines(a, p)?;
+        }
+        Ok(())
+    }
+}

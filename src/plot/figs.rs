@@ -1,0 +1,508 @@
+//! The figures of one run: which exist, their values in display units,
+//! their limits and captions.
+//!
+//! Figures (each skipped when its columns are missing): vorticity with a
+//! vector overlay, uncertainty of the mean vorticity, mean speed, velocity
+//! fluctuations, Reynolds shear stress, validation map, rejected fraction
+//! per frame, convergence, phase sequence.
+
+use std::path::Path;
+
+use super::colormap::{Colormap, EMBER, TIDE};
+use super::draw::{
+    write_figure, Axes, Curve, LineFigure, LinePanel, MapFigure, MapPanel, RUN_COLORS,
+};
+use super::{figure_ref, magnitude_limit, symmetric_limit, Params};
+use crate::error::Result;
+use crate::field::NodeTable;
+use crate::io::table::Values;
+use crate::result::{FigureRef, RunResult};
+
+/// Display units of a run's figures: dimensional (mm, m/s, 1/s) or
+/// nondimensional with the run's U and L (x/L, u/U, ωL/U).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Units {
+    /// (U, L) when nondimensional.
+    pub scales: Option<(f64, f64)>,
+}
+
+impl Units {
+    pub fn new(p: &Params, run: &RunResult) -> Units {
+        Units {
+            scales: if p.nondimensional {
+                run.conditions.scales()
+            } else {
+                None
+            },
+        }
+    }
+    pub fn axes(&self) -> Axes {
+        match self.scales {
+            Some((_, l)) => Axes {
+                scale: l,
+                x_label: "x / L".into(),
+                y_label: "y / L".into(),
+            },
+            None => Axes {
+                scale: 1e-3,
+                x_label: "x (mm)".into(),
+                y_label: "y (mm)".into(),
+            },
+        }
+    }
+    /// Factor from SI velocity to display, and its unit text.
+    pub fn velocity(&self) -> (f64, &'static str) {
+        match self.scales {
+            Some((u, _)) => (1.0 / u, "/ U"),
+            None => (1.0, "(m/s)"),
+        }
+    }
+    /// Factor from SI vorticity (1/s) to display.
+    pub fn vorticity(&self) -> (f64, &'static str) {
+        match self.scales {
+            Some((u, l)) => (l / u, "L / U"),
+            None => (1.0, "(1/s)"),
+        }
+    }
+    /// Factor from SI kinematic stress (m²/s²) to display.
+    pub fn stress(&self) -> (f64, &'static str) {
+        match self.scales {
+            Some((u, _)) => (1.0 / (u * u), "/ U²"),
+            None => (1.0, "(m²/s²)"),
+        }
+    }
+}
+
+/// `x` with three significant digits.
+pub fn sig(x: f64) -> String {
+    if x == 0.0 || !x.is_finite() {
+        return format!("{x}");
+    }
+    let d = (2 - x.abs().log10().floor() as i32).max(0) as usize;
+    if !(1e-3..1e5).contains(&x.abs()) {
+        return format!("{x:.2e}");
+    }
+    format!("{x:.d$}")
+}
+
+fn scaled(v: &[f64], f: f64) -> Vec<f64> {
+    v.iter().map(|x| x * f).collect()
+}
+
+fn vector_every(p: &Params, nt: &NodeTable) -> usize {
+    p.vector_every
+        .unwrap_or_else(|| (nt.grid.nx.max(nt.grid.ny) / 24).max(1))
+}
+
+struct Ctx<'a> {
+    p: &'a Params,
+    run: &'a RunResult,
+    out: &'a Path,
+    dir: std::path::PathBuf,
+    units: Units,
+    figs: Vec<FigureRef>,
+}
+
+impl<'a> Ctx<'a> {
+    fn map(
+        &self,
+        title: &str,
+        values: Vec<f64>,
+        cmap: &'static Colormap,
+        range: (f64, f64),
+        vectors: bool,
+    ) -> Option<MapPanel<'a>> {
+        let run: &'a RunResult = self.run;
+        let e = &run.stats.ensemble;
+        let vec = if vectors {
+            match (e.get("u_mean"), e.get("v_mean")) {
+                (Some(u), Some(v)) => Some((u, v, vector_every(self.p, e))),
+                _ => None,
+            }
+        } else {
+            None
+        };
+        Some(MapPanel {
+            title: title.into(),
+            grid: e.grid,
+            values,
+            cmap,
+            range,
+            vectors: vec,
+            faded: None,
+        })
+    }
+
+    fn save(
+        &mut self,
+        fig: &impl super::draw::Figure,
+        stem: &str,
+        title: &str,
+        caption: String,
+    ) -> Result<()> {
+        let paths = write_figure(fig, &self.dir, stem)?;
+        self.figs.push(figure_ref(self.out, paths, title, caption));
+        Ok(())
+    }
+
+    fn single(
+        &mut self,
+        panel: MapPanel,
+        bar: String,
+        stem: &str,
+        title: &str,
+        caption: String,
+    ) -> Result<()> {
+        let fig = MapFigure::new(None, vec![panel], self.units.axes(), bar, 1, self.p.width);
+        self.save(&fig, stem, title, caption)
+    }
+}
+
+pub fn run_figures(p: &Params, run: &RunResult, out: &Path) -> Result<Vec<FigureRef>> {
+    let e = &run.stats.ensemble;
+    let mut c = Ctx {
+        p,
+        run,
+        out,
+        dir: out.join(&run.id).join("figures"),
+        units: Units::new(p, run),
+        figs: Vec::new(),
+    };
+    if e.grid.is_empty() {
+        return Ok(c.figs);
+    }
+    let nondim_note = match c.units.scales {
+        Some((u, l)) => format!(" Scales: U = {u:.4} m/s, L = {:.4} mm.", l * 1e3),
+        None => String::new(),
+    };
+    let (wf, wu) = c.units.vorticity();
+    let (vf, vu) = c.units.velocity();
+    let (sf, su) = c.units.stress();
+
+    if let Some(om) = e.get("omega_mean") {
+        let vals = scaled(om, wf);
+        let lim = p
+            .vorticity_limit
+            .map(|l| l * wf)
+            .unwrap_or_else(|| symmetric_limit(&vals));
+        let every = vector_every(p, e);
+        if let Some(panel) = c.map(
+            "Mean vorticity and mean velocity",
+            vals,
+            &TIDE,
+            (-lim, lim),
+            true,
+        ) {
+            let cap = format!(
+                "Ensemble-mean out-of-plane vorticity; arrows show the mean velocity at every {every}th node \
+                 (longest arrow = largest speed). Colour limits ±{} (99.8th percentile of |ω| unless set).{nondim_note}",
+                sig(lim)
+            );
+            c.single(panel, format!("ω {wu}"), "vorticity", "Mean vorticity", cap)?;
+        }
+    }
+    if let Some(unc) = e.get("omega_mean_unc") {
+        let vals = scaled(unc, wf);
+        let hi = magnitude_limit(&vals);
+        if let Some(panel) = c.map(
+            "Standard uncertainty of the mean vorticity",
+            vals,
+            &EMBER,
+            (0.0, hi),
+            false,
+        ) {
+            let cap = "Propagated standard uncertainty (k = 1) of the ensemble-mean vorticity at each node; \
+                       an estimate, not a bound."
+                .to_string();
+            c.single(
+                panel,
+                format!("u(ω) {wu}"),
+                "vorticity-uncertainty",
+                "Vorticity uncertainty",
+                cap,
+            )?;
+        }
+    }
+    if let (Some(u), Some(v)) = (e.get("u_mean"), e.get("v_mean")) {
+        let speed: Vec<f64> = u.iter().zip(v).map(|(a, b)| a.hypot(*b) * vf).collect();
+        let hi = magnitude_limit(&speed);
+        if let Some(panel) = c.map("Mean speed", speed, &EMBER, (0.0, hi), true) {
+            let cap =
+                "Magnitude of the ensemble-mean in-plane velocity, with mean-velocity arrows."
+                    .to_string();
+            c.single(panel, format!("|u| {vu}"), "speed", "Mean speed", cap)?;
+        }
+    }
+    if let (Some(us), Some(vs)) = (e.get("u_std"), e.get("v_std")) {
+        let (a, b) = (scaled(us, vf), scaled(vs, vf));
+        let hi = magnitude_limit(&a).max(magnitude_limit(&b));
+        let mk = |t: &str, vals| MapPanel {
+            title: t.into(),
+            grid: e.grid,
+            values: vals,
+            cmap: &EMBER,
+            range: (0.0, hi),
+            vectors: None,
+            faded: None,
+        };
+        let fig = MapFigure::new(
+            None,
+            vec![
+                mk("Streamwise fluctuation u′", a),
+                mk("Transverse fluctuation v′", b),
+            ],
+            c.units.axes(),
+            format!("std {vu}"),
+            2,
+            p.width.max(1200),
+        );
+        let cap = "Standard deviation of u and v over the valid samples of each node.".to_string();
+        c.save(&fig, "fluctuations", "Velocity fluctuations", cap)?;
+    }
+    if let Some(uv) = e.get("uv_cov") {
+        let vals = scaled(uv, sf);
+        let lim = symmetric_limit(&vals);
+        if let Some(panel) = c.map(
+            "Reynolds shear stress ⟨u′v′⟩",
+            vals,
+            &TIDE,
+            (-lim, lim),
+            false,
+        ) {
+            let cap = "Covariance of u and v (kinematic Reynolds shear stress), symmetric limits."
+                .to_string();
+            c.single(
+                panel,
+                format!("⟨u′v′⟩ {su}"),
+                "reynolds-stress",
+                "Reynolds shear stress",
+                cap,
+            )?;
+        }
+    }
+    validation_figures(&mut c)?;
+    convergence_figure(&mut c)?;
+    phase_figure(&mut c)?;
+    Ok(c.figs)
+}
+
+fn validation_figures(c: &mut Ctx) -> Result<()> {
+    let e = &c.run.stats.ensemble;
+    let used = c.run.frames.iter().filter(|f| !f.rejected).count();
+    let mut panels = Vec::new();
+    if let Some(o) = e.get("outlier_frac") {
+        panels.push(("Rejected by validation", o.to_vec()));
+    }
+    if let Some(f) = e.get("filled_frac") {
+        panels.push(("Missing in the input, filled", f.to_vec()));
+    }
+    if panels.is_empty() && used > 0 {
+        if let Some(n) = e.get("n_valid") {
+            let nv = n.iter().map(|k| 1.0 - k / used as f64).collect();
+            panels.push(("Not a valid measurement", nv));
+        }
+    }
+    if !panels.is_empty() {
+        let hi = panels
+            .iter()
+            .flat_map(|(_, v)| v.iter().copied())
+            .filter(|x| x.is_finite())
+            .fold(0.0, f64::max)
+            .max(0.01);
+        let n = panels.len();
+        let mps = panels
+            .into_iter()
+            .map(|(t, v)| MapPanel {
+                title: t.into(),
+                grid: e.grid,
+                values: v,
+                cmap: &EMBER,
+                range: (0.0, hi),
+                vectors: None,
+                faded: None,
+            })
+            .collect();
+        let width = if n > 1 {
+            c.p.width.max(1200)
+        } else {
+            c.p.width
+        };
+        let fig = MapFigure::new(
+            None,
+            mps,
+            c.units.axes(),
+            "fraction of frames".into(),
+            n,
+            width,
+        );
+        let cap = format!("Fraction of the {used} frames used in which each node's vector was not a valid measurement.");
+        c.save(&fig, "validation-map", "Validation map", cap)?;
+    }
+    let fr = &c.run.frames;
+    if !fr.is_empty() {
+        let x = |k: usize| fr[k].meta.index as f64;
+        let frac = |k: usize, n: usize| n as f64 / fr[k].n_vectors.max(1) as f64;
+        let curves = vec![
+            Curve {
+                label: "rejected by validation".into(),
+                xy: (0..fr.len())
+                    .map(|k| (x(k), frac(k, fr[k].validation.outliers())))
+                    .collect(),
+                band: None,
+                markers: false,
+                color: RUN_COLORS[1],
+            },
+            Curve {
+                label: "invalid in the input".into(),
+                xy: (0..fr.len())
+                    .map(|k| (x(k), frac(k, fr[k].validation.invalid_input)))
+                    .collect(),
+                band: None,
+                markers: false,
+                color: RUN_COLORS[0],
+            },
+        ];
+        let n_rej = fr.iter().filter(|f| f.rejected).count();
+        let fig = LineFigure {
+            heading: None,
+            panels: vec![LinePanel {
+                title: "Rejected vectors per frame".into(),
+                x_label: "frame".into(),
+                y_label: "fraction of vectors".into(),
+                curves,
+                log_y: false,
+            }],
+            width: c.p.width,
+            height: 520,
+        };
+        let cap = format!(
+            "Per-frame fraction of vectors rejected by the validation tests and invalid in the input; \
+             {n_rej} of {} frames were rejected whole.",
+            fr.len()
+        );
+        c.save(
+            &fig,
+            "rejected-per-frame",
+            "Rejected vectors per frame",
+            cap,
+        )?;
+    }
+    Ok(())
+}
+
+fn convergence_figure(c: &mut Ctx) -> Result<()> {
+    let Some(t) = &c.run.stats.convergence else {
+        return Ok(());
+    };
+    if t.n_rows() < 2 {
+        return Ok(());
+    }
+    let as_f64 = |v: &Values| -> Vec<f64> {
+        match v {
+            Values::F64(x) => x.clone(),
+            Values::I64(x) => x.iter().map(|&k| k as f64).collect(),
+            Values::Str(_) => Vec::new(),
+        }
+    };
+    let xname = ["n_frames", "frames", "n", "frame"]
+        .into_iter()
+        .find(|n| t.get(n).is_some())
+        .unwrap_or(&t.columns[0].0);
+    let xs = as_f64(t.get(xname).expect("column exists"));
+    if xs.is_empty() {
+        return Ok(());
+    }
+    let mut curves = Vec::new();
+    for (name, vals) in t.columns.iter().filter(|(n, _)| n != xname) {
+        let ys = as_f64(vals);
+        let Some(&last) = ys.iter().rev().find(|y| y.is_finite()) else {
+            continue;
+        };
+        let span = ys
+            .iter()
+            .filter(|y| y.is_finite())
+            .fold(0.0_f64, |m, y| m.max(y.abs()));
+        let norm = last.abs().max(1e-3 * span).max(1e-300);
+        let color = RUN_COLORS[curves.len() % RUN_COLORS.len()];
+        curves.push(Curve {
+            label: name.clone(),
+            xy: xs
+                .iter()
+                .zip(&ys)
+                .map(|(x, y)| (*x, (y - last) / norm))
+                .collect(),
+            band: None,
+            markers: false,
+            color,
+        });
+        if curves.len() == 6 {
+            break;
+        }
+    }
+    if curves.is_empty() {
+        return Ok(());
+    }
+    let fig = LineFigure {
+        heading: None,
+        panels: vec![LinePanel {
+            title: "Convergence of the running statistics".into(),
+            x_label: format!("{xname}"),
+            y_label: "(s_n − s_N) / |s_N|".into(),
+            curves,
+            log_y: false,
+        }],
+        width: c.p.width,
+        height: 560,
+    };
+    let cap = "Running statistics after n frames, relative to their final value s_N; \
+               a flat trace near zero means the statistic has converged."
+        .to_string();
+    c.save(&fig, "convergence", "Convergence", cap)
+}
+
+fn phase_figure(c: &mut Ctx) -> Result<()> {
+    let bins = &c.run.stats.phase;
+    let usable: Vec<_> = bins
+        .iter()
+        .filter(|b| b.table.get("omega_mean").is_some())
+        .collect();
+    if usable.len() < 2 {
+        return Ok(());
+    }
+    let (wf, wu) = c.units.vorticity();
+    let all: Vec<f64> = usable
+        .iter()
+        .flat_map(|b| b.table.get("omega_mean").unwrap().iter().map(|x| x * wf))
+        .collect();
+    let lim =
+        c.p.vorticity_limit
+            .map(|l| l * wf)
+            .unwrap_or_else(|| symmetric_limit(&all));
+    let panels: Vec<MapPanel> = usable
+        .iter()
+        .map(|b| MapPanel {
+            title: format!("φ = {:.0}°  ({} frames)", b.centre_deg, b.n_frames),
+            grid: b.table.grid,
+            values: scaled(b.table.get("omega_mean").unwrap(), wf),
+            cmap: &TIDE,
+            range: (-lim, lim),
+            vectors: None,
+            faded: None,
+        })
+        .collect();
+    let cols = if panels.len() <= 4 { panels.len() } else { 4 };
+    let n = panels.len();
+    let fig = MapFigure::new(
+        Some("Phase-mean vorticity".into()),
+        panels,
+        c.units.axes(),
+        format!("ω {wu}"),
+        cols,
+        c.p.width.max(1600),
+    );
+    let cap = format!(
+        "Phase-mean vorticity in {n} phase bins (bin centres shown), shared symmetric limits ±{}.",
+        sig(lim)
+    );
+    c.save(&fig, "phase-sequence", "Phase sequence", cap)
+}

@@ -1,0 +1,106 @@
+use super::fixtures::{grid, run, VORTEX};
+use super::*;
+
+/// Width and height from a PNG's IHDR chunk (PNG spec, ISO/IEC 15948 §11.2.2).
+pub(crate) fn png_size(path: &Path) -> (u32, u32) {
+    let b = std::fs::read(path).unwrap();
+    assert_eq!(
+        &b[..8],
+        b"\x89PNG\r\n\x1a\n",
+        "{} is not a PNG",
+        path.display()
+    );
+    assert_eq!(&b[12..16], b"IHDR");
+    let be = |s: &[u8]| u32::from_be_bytes([s[0], s[1], s[2], s[3]]);
+    (be(&b[16..20]), be(&b[20..24]))
+}
+
+#[test]
+fn run_figures_write_every_figure_as_png_and_svg() {
+    let dir = tempfile::tempdir().unwrap();
+    let r = run("r1", &VORTEX, grid(64, 48));
+    let figs = run_figures(&Params::default(), &r, dir.path()).unwrap();
+    // Set CURLEW_FIGURE_PREVIEW=DIR to keep a copy for looking at.
+    if let Ok(keep) = std::env::var("CURLEW_FIGURE_PREVIEW") {
+        run_figures(&Params::default(), &r, Path::new(&keep)).unwrap();
+    }
+    let stems: Vec<String> = figs
+        .iter()
+        .map(|f| f.png.file_stem().unwrap().to_string_lossy().into_owned())
+        .collect();
+    for want in [
+        "vorticity",
+        "vorticity-uncertainty",
+        "speed",
+        "fluctuations",
+        "reynolds-stress",
+        "validation-map",
+        "rejected-per-frame",
+        "convergence",
+        "phase-sequence",
+    ] {
+        assert!(stems.iter().any(|s| s == want), "missing {want}: {stems:?}");
+    }
+    for f in &figs {
+        assert!(f.png.starts_with("r1/figures"), "{}", f.png.display());
+        let (w, h) = png_size(&dir.path().join(&f.png));
+        assert!(
+            (900..=2400).contains(&w) && (300..=2000).contains(&h),
+            "{}: {w} x {h}",
+            f.png.display()
+        );
+        let svg = std::fs::read_to_string(dir.path().join(&f.svg)).unwrap();
+        assert!(
+            svg.starts_with("<svg") && svg.trim_end().ends_with("</svg>"),
+            "{}",
+            f.svg.display()
+        );
+        assert!(svg.contains("<text"), "{} has no text", f.svg.display());
+    }
+    // No partial files are left behind.
+    let left: Vec<_> = std::fs::read_dir(dir.path().join("r1/figures"))
+        .unwrap()
+        .filter_map(|e| e.ok())
+        .filter(|e| e.file_name().to_string_lossy().contains("partial"))
+        .collect();
+    assert!(left.is_empty());
+}
+
+#[test]
+fn missing_columns_skip_figures_without_error() {
+    let dir = tempfile::tempdir().unwrap();
+    let mut r = run("r2", &VORTEX, grid(20, 10));
+    r.stats
+        .ensemble
+        .columns
+        .retain(|(n, _)| n == "x" || n == "y" || n == "omega_mean");
+    r.stats.phase.clear();
+    r.stats.convergence = None;
+    r.frames.clear();
+    let figs = run_figures(&Params::default(), &r, dir.path()).unwrap();
+    assert_eq!(
+        figs.len(),
+        1,
+        "{:?}",
+        figs.iter().map(|f| &f.title).collect::<Vec<_>>()
+    );
+    assert_eq!(figs[0].title, "Mean vorticity");
+}
+
+#[test]
+fn map_layout_keeps_equal_aspect() {
+    let g = grid(64, 48);
+    let l = draw::MapLayout::new(&g, 1, 1, 1000);
+    // Extent 64 mm x 48 mm: pixel aspect must match within rounding.
+    let ratio = l.panel_w as f64 / l.panel_h as f64;
+    crate::testutil::assert_close(ratio, 64.0 / 48.0, 0.01, 0.0, "aspect");
+}
+
+#[test]
+fn quantile_nearest_rank() {
+    // Nearest-rank definition (common practice): q = 0.5 of 1..=10 is 5.
+    let v: Vec<f64> = (1..=10).map(f64::from).collect();
+    assert_eq!(quantile(v.iter().copied(), 0.5), Some(5.0));
+    assert_eq!(quantile(v.iter().copied(), 0.99), Some(10.0));
+    assert_eq!(quantile([f64::NAN].into_iter(), 0.5), None);
+}
