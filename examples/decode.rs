@@ -5,7 +5,9 @@
 use rayon::prelude::*;
 
 fn main() {
-    let path = std::env::args().nth(1).expect("usage: decode PIPELINE.toml");
+    let path = std::env::args()
+        .nth(1)
+        .expect("usage: decode PIPELINE.toml");
     let plan = curlew::plan::Plan::load(std::path::Path::new(&path)).unwrap_or_else(|e| {
         eprintln!("{e}");
         std::process::exit(2)
@@ -16,9 +18,17 @@ fn main() {
         let frames = curlew::reduce::list_run_frames(run).expect("frames");
         vectors += frames
             .par_iter()
-            .map(|(_, src)| curlew::io::read_frame(&run.input, src).expect("read").u.len())
+            .map(|(_, src)| {
+                curlew::io::read_frame(&run.input, src)
+                    .expect("read")
+                    .u
+                    .len()
+            })
             .sum::<usize>();
     }
     let s = t.elapsed().as_secs_f64();
-    println!("decoded {vectors} vectors in {s:.3} s ({:.1} M vectors/s)", vectors as f64 / s / 1e6);
+    println!(
+        "decoded {vectors} vectors in {s:.3} s ({:.1} M vectors/s)",
+        vectors as f64 / s / 1e6
+    );
 }

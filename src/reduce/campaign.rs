@@ -12,7 +12,7 @@ use super::{outputs, InputFile, Reduced};
 use crate::error::{Error, Result};
 use crate::plan::Plan;
 use crate::result::{CampaignResult, RunResult};
-use crate::{io, plot, report};
+use crate::{compare, io, plot, report};
 
 /// How the campaign was reduced, for the manifest.
 #[derive(Debug, Clone, Default)]
@@ -95,7 +95,22 @@ pub fn finish_campaign(
         runs.push(rr);
     }
 
-    let extra: Vec<Vec<(String, f64)>> = runs.iter().map(|_| Vec::new()).collect();
+    let mut compare_s = 0.0;
+    let comparisons = if plan.figures || !plan.compare.is_empty() {
+        let t = Instant::now();
+        let c = compare::run_comparisons(&plan.compare, &runs, out)?;
+        for r in &c {
+            warnings.extend(r.warnings.iter().cloned());
+        }
+        compare_s = t.elapsed().as_secs_f64();
+        c
+    } else {
+        Vec::new()
+    };
+    let extra: Vec<Vec<(String, f64)>> = runs
+        .iter()
+        .map(report::conditions::campaign_columns)
+        .collect();
     io::write_csv(
         &out.join("campaign.csv"),
         &outputs::campaign_table(&runs, &extra),
@@ -119,6 +134,15 @@ pub fn finish_campaign(
         "inputs": inputs,
         "runs": manifest_runs,
         "warnings": warnings,
+        "comparisons": comparisons.iter().map(|c| serde_json::json!({
+            "title": c.title,
+            "runs": c.runs,
+            "quantity": c.quantity,
+            "n_compared": c.n_compared,
+            "n_significant": c.n_significant,
+            "interpolated": c.interpolated,
+        })).collect::<Vec<_>>(),
+        "comparisons_s": compare_s,
         "finish_s": t_all.elapsed().as_secs_f64(),
     });
     let result = CampaignResult {
@@ -126,6 +150,7 @@ pub fn finish_campaign(
         runs,
         manifest: manifest.clone(),
         warnings,
+        comparisons,
     };
     let text = serde_json::to_string_pretty(&manifest)
         .map_err(|e| Error::data(format!("manifest: {e}")))?;

@@ -444,14 +444,3 @@ pub struct RunStats {
     pub summary: Vec<(String, f64)>,
     pub warnings: Vec<String>,
 }
-
-impl RunAccumulator {
-    /// STUB: versioned serialisation of the partial state.
-    pub fn to_bytes(&self) -> Vec<u8> {
-        todo!("stats: to_bytes")
-    }
-    pub fn from_bytes(b: &[u8]) -> crate::error::Result<Self> {
-        let _ = b;
-        todo!("stats: from_bytes")
-    }
-}

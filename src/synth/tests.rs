@@ -267,7 +267,10 @@ fn truth_mean_and_phase_bins_are_the_means_of_the_noise_free_frames() {
     generate(&opts, &out).unwrap();
     let frames = rows(&out.join("u015/frames.csv"));
     assert_eq!(frames[0], ["frame", "time_s", "phase_deg"]);
-    assert_eq!(frames[1][0], "f00001", "keys are frame names without extension");
+    assert_eq!(
+        frames[1][0], "f00001",
+        "keys are frame names without extension"
+    );
     let nodes = 14 * 9;
     let mut sum = vec![[0.0f64; 3]; nodes];
     let mut bins = vec![vec![[0.0f64; 3]; nodes]; 12];
