@@ -489,11 +489,9 @@ pub(crate) fn scan_table(
 mod tests {
     use super::*;
 
-    fn row(
-        line: &str,
-        format: Format,
-        ncells: usize,
-    ) -> std::result::Result<(usize, Vec<Option<f64>>), (usize, String)> {
+    type Row = std::result::Result<(usize, Vec<Option<f64>>), (usize, String)>;
+
+    fn row(line: &str, format: Format, ncells: usize) -> Row {
         let role_of: Vec<u8> = (0..ncells as u8)
             .map(|k| if k < 7 { k } else { NONE })
             .collect();
