@@ -254,10 +254,13 @@ pub fn assemble(
     let grid = grid_si(ax, ay, length_scale);
     let mut f = Field::empty(grid);
     f.status.fill(FILLED);
+    // The line (or row) that gave each node; 0 = none yet.
     let mut owner: Array2<usize> = Array2::zeros(grid.shape());
+    let (rx, ry) = (1.0 / ax.pitch, 1.0 / ay.pitch);
     for k in 0..rows.len() {
-        let i = ((rows.x[k] - ax.origin) / ax.pitch).round() as usize;
-        let j = ((rows.y[k] - ay.origin) / ay.pitch).round() as usize;
+        // In range: infer_grid put every value within tolerance of a node.
+        let i = ((rows.x[k] - ax.origin) * rx).round() as usize;
+        let j = ((rows.y[k] - ay.origin) * ry).round() as usize;
         let o = &mut owner[[j, i]];
         if *o != 0 {
             return Err(Error::data(format!(
