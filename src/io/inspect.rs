@@ -242,6 +242,29 @@ mod tests {
     }
 
     #[test]
+    fn a_parquet_long_table_reports_frames_and_the_first_grid() {
+        let d = tempfile::tempdir().unwrap();
+        let p = d.path().join("run.parquet");
+        let g = crate::field::Grid {
+            nx: 5,
+            ny: 4,
+            x0: 0.0,
+            y0: 1e-3,
+            dx: 2e-3,
+            dy: 1e-3,
+        };
+        let f = Field::from_fn(g, |x, y| (x * 100.0, -y));
+        crate::io::write_frames_parquet(&p, &[(3, &f), (8, &f), (9, &f)]).unwrap();
+        let mut sp = spec(Format::Parquet);
+        sp.length_scale = 1.0;
+        let s = describe(&p, &sp).unwrap();
+        assert!(s.contains("rows       60"), "{s}");
+        assert!(s.contains("frames     3 (ids 3 .. 9)"), "{s}");
+        assert!(s.contains("5 x 4 nodes, pitch 2.0000 x 1.0000 mm"), "{s}");
+        assert!(s.contains("u          0.000000 .. 0.800000 m/s"), "{s}");
+    }
+
+    #[test]
     fn an_output_table_reports_each_column() {
         let d = tempfile::tempdir().unwrap();
         let p = d.path().join("ensemble.csv");
