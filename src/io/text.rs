@@ -3,7 +3,8 @@
 //!
 //! Owns: splitting lines and cells without allocating per cell, the cell
 //! rules of CONTRACT.md, and the errors that name file, line, column and
-//! value. Does not own: the grid (`grid`).
+//! value. Does not own: the grid (`grid`), the frame table's columns
+//! (`frame_table`, which uses the same line and cell rules).
 //!
 //! The whole file is read into one buffer; lines and cells are slices of it
 //! and numbers are parsed straight from the bytes with `fast-float2`
@@ -26,10 +27,10 @@ use std::path::Path;
 use crate::error::{Error, Result, WithPath};
 
 use super::grid::RawRows;
-use super::{ColumnMap, Format, FrameTable};
+use super::{ColumnMap, Format};
 
 /// A line of the file: its 1-based number and its bytes (no line ending).
-struct Lines<'a> {
+pub(super) struct Lines<'a> {
     rest: &'a [u8],
     number: usize,
 }
@@ -51,7 +52,7 @@ impl<'a> Iterator for Lines<'a> {
     }
 }
 
-fn lines(bytes: &[u8]) -> Lines<'_> {
+pub(super) fn lines(bytes: &[u8]) -> Lines<'_> {
     let bytes = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(bytes); // UTF-8 BOM
     Lines {
         rest: bytes,
@@ -59,7 +60,7 @@ fn lines(bytes: &[u8]) -> Lines<'_> {
     }
 }
 
-fn is_comment_or_blank(line: &[u8]) -> bool {
+pub(super) fn is_comment_or_blank(line: &[u8]) -> bool {
     match line.iter().position(|b| !b.is_ascii_whitespace()) {
         None => true,
         Some(p) => line[p] == b'#',
@@ -77,7 +78,11 @@ fn trim(cell: &[u8]) -> &[u8] {
 
 /// Calls `each(index, cell)` for every cell of `line`; returns the count.
 #[inline]
-fn for_cells<'a>(line: &'a [u8], format: Format, mut each: impl FnMut(usize, &'a [u8])) -> usize {
+pub(super) fn for_cells<'a>(
+    line: &'a [u8],
+    format: Format,
+    mut each: impl FnMut(usize, &'a [u8]),
+) -> usize {
     let mut n = 0;
     match format {
         Format::Text => {
@@ -193,7 +198,7 @@ fn scan_row(
     }
 }
 
-fn show(cell: &[u8]) -> String {
+pub(super) fn show(cell: &[u8]) -> String {
     String::from_utf8_lossy(cell).into_owned()
 }
 
@@ -218,7 +223,7 @@ pub(crate) fn read_bytes(path: &Path) -> Result<Vec<u8>> {
 }
 
 /// The header line: its number and cell names.
-fn header<'a>(
+pub(super) fn header<'a>(
     it: &mut Lines<'a>,
     format: Format,
     skip_lines: usize,
@@ -244,7 +249,7 @@ fn header<'a>(
 }
 
 /// Index of column `name` in `names`, or the error naming what was found.
-fn find(names: &[String], name: &str, path: &Path, line: usize) -> Result<usize> {
+pub(super) fn find(names: &[String], name: &str, path: &Path, line: usize) -> Result<usize> {
     names.iter().position(|n| n == name).ok_or_else(|| {
         let numeric = names
             .iter()
@@ -379,82 +384,6 @@ pub(crate) fn parse_frame(
         return Err(Error::data("the file has a header but no data rows").with_path(path));
     }
     Ok(rows)
-}
-
-/// Reads a frame table: CSV with `frame` and `time_s` and/or `phase_deg`.
-/// A column that is present must have a number in every row; a duplicate
-/// frame is an error naming both lines.
-pub(crate) fn parse_frame_table(bytes: &[u8], path: &Path) -> Result<FrameTable> {
-    let mut it = lines(bytes);
-    let (hline, names) = header(&mut it, Format::Csv, 0, path)?;
-    let fcol = find(&names, "frame", path, hline)?;
-    let tcol = names.iter().position(|n| n == "time_s");
-    let pcol = names.iter().position(|n| n == "phase_deg");
-    if tcol.is_none() && pcol.is_none() {
-        return Err(Error::data(format!(
-            "a frame table needs a 'time_s' or a 'phase_deg' column; the header has: {}",
-            names.join(", ")
-        ))
-        .with_path(path)
-        .with_line(hline));
-    }
-    let mut table = FrameTable::default();
-    let mut seen: std::collections::HashMap<String, usize> = Default::default();
-    for (no, line) in it {
-        if is_comment_or_blank(line) {
-            continue;
-        }
-        let (mut frame, mut t, mut p): (&[u8], &[u8], &[u8]) = (b"", b"", b"");
-        let n = for_cells(line, Format::Csv, |k, c| {
-            if k == fcol {
-                frame = c;
-            }
-            if Some(k) == tcol {
-                t = c;
-            }
-            if Some(k) == pcol {
-                p = c;
-            }
-        });
-        if n != names.len() {
-            return Err(Error::data(format!(
-                "the line has {n} cells, the header names {}",
-                names.len()
-            ))
-            .with_path(path)
-            .with_line(no));
-        }
-        if frame.is_empty() {
-            return Err(Error::data("empty frame name")
-                .with_path(path)
-                .with_line(no)
-                .with_column("frame"));
-        }
-        let value = |cell: &[u8], col: Option<usize>, name: &str| -> Result<Option<f64>> {
-            if col.is_none() {
-                return Ok(None);
-            }
-            match number(cell) {
-                Ok(Some(x)) => Ok(Some(x)),
-                Ok(None) => Err(Error::data(format!("'{}' is not a number", show(cell)))),
-                Err(m) => Err(Error::data(m)),
-            }
-            .map_err(|e| e.with_path(path).with_line(no).with_column(name))
-        };
-        let name = show(frame);
-        let time = value(t, tcol, "time_s")?;
-        let phase = value(p, pcol, "phase_deg")?;
-        if let Some(first) = seen.insert(name.clone(), no) {
-            return Err(Error::data(format!(
-                "frame '{name}' is listed twice, on lines {first} and {no}"
-            ))
-            .with_path(path)
-            .with_line(no)
-            .with_column("frame"));
-        }
-        table.rows.push((name, time, phase));
-    }
-    Ok(table)
 }
 
 /// The header names and data cells of a generic text table (for
