@@ -101,36 +101,23 @@ fn describe_table(out: &mut String, t: &Table) {
         "column", "min", "max", "NaN"
     );
     for (name, vals) in &t.columns {
-        match vals {
-            Values::F64(v) => {
-                let (lo, hi, nan, _) = range(v.iter().copied());
-                let _ = writeln!(
-                    out,
-                    "{name:<w$}  {:>16}  {:>16}  {nan:>8}",
-                    num(lo),
-                    num(hi)
-                );
-            }
-            Values::I64(v) => {
-                let (lo, hi, nan, _) = range(v.iter().map(|&x| x as f64));
-                let _ = writeln!(
-                    out,
-                    "{name:<w$}  {:>16}  {:>16}  {nan:>8}",
-                    num(lo),
-                    num(hi)
-                );
-            }
+        let numbers: Vec<f64> = match vals {
+            Values::F64(v) => v.clone(),
+            Values::I64(v) => v.iter().map(|&x| x as f64).collect(),
             Values::Str(v) => {
                 let distinct: std::collections::BTreeSet<&String> = v.iter().collect();
-                let _ = writeln!(
-                    out,
-                    "{name:<w$}  {:>16}  {:>16}  {:>8}",
-                    "text",
-                    format!("{} distinct", distinct.len()),
-                    "-"
-                );
+                let d = format!("{} distinct", distinct.len());
+                let _ = writeln!(out, "{name:<w$}  {:>16}  {d:>16}  {:>8}", "text", "-");
+                continue;
             }
-        }
+        };
+        let (lo, hi, nan, _) = range(numbers.into_iter());
+        let _ = writeln!(
+            out,
+            "{name:<w$}  {:>16}  {:>16}  {nan:>8}",
+            num(lo),
+            num(hi)
+        );
     }
 }
 
@@ -192,25 +179,13 @@ pub fn describe(path: &Path, spec: &InputSpec) -> Result<String> {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::io::{write_csv, ColumnMap};
+    use crate::io::write_csv;
 
+    /// The io tests' spec, with positions in mm.
     fn spec(format: Format) -> InputSpec {
         InputSpec {
-            format,
-            columns: ColumnMap {
-                x: "x".into(),
-                y: "y".into(),
-                u: "u".into(),
-                v: "v".into(),
-                sigma_u: None,
-                sigma_v: None,
-                flag: None,
-                frame: "frame".into(),
-            },
             length_scale: 1e-3,
-            velocity_scale: 1.0,
-            skip_lines: 0,
-            grid_tolerance: 0.05,
+            ..crate::io::tests::spec(format)
         }
     }
 
