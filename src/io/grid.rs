@@ -82,7 +82,14 @@ fn gaps(c: &[f64]) -> Vec<f64> {
 /// allowed). `tol` is the tolerance in pitches (0 < tol < 0.5). See the
 /// module documentation for the method.
 pub fn infer_axis(values: &[f64], tol: f64) -> std::result::Result<Axis, AxisError> {
-    let mut d: Vec<f64> = values.to_vec();
+    // Runs of one value (y along a row of a row-ordered file) collapse first,
+    // which shortens the sort.
+    let mut d: Vec<f64> = Vec::with_capacity(values.len());
+    for &x in values {
+        if d.last() != Some(&x) {
+            d.push(x);
+        }
+    }
     d.sort_unstable_by(f64::total_cmp);
     d.dedup();
     if d.len() < 2 {
@@ -276,9 +283,11 @@ pub fn assemble(
     let mut owner: Array2<usize> = Array2::zeros(grid.shape());
     let (rx, ry) = (1.0 / ax.pitch, 1.0 / ay.pitch);
     for k in 0..rows.len() {
-        // In range: infer_grid put every value within tolerance of a node.
-        let i = ((rows.x[k] - ax.origin) * rx).round() as usize;
-        let j = ((rows.y[k] - ay.origin) * ry).round() as usize;
+        // In range: infer_grid put every value within tolerance of a node,
+        // so the scaled offset is >= -tol and +0.5 then truncation rounds
+        // (without a libm call: `round` was 3 % of a frame read in a profile).
+        let i = ((rows.x[k] - ax.origin) * rx + 0.5) as usize;
+        let j = ((rows.y[k] - ay.origin) * ry + 0.5) as usize;
         let o = &mut owner[[j, i]];
         if *o != 0 {
             return Err(Error::data(format!(
