@@ -101,36 +101,23 @@ fn describe_table(out: &mut String, t: &Table) {
         "column", "min", "max", "NaN"
     );
     for (name, vals) in &t.columns {
-        match vals {
-            Values::F64(v) => {
-                let (lo, hi, nan, _) = range(v.iter().copied());
-                let _ = writeln!(
-                    out,
-                    "{name:<w$}  {:>16}  {:>16}  {nan:>8}",
-                    num(lo),
-                    num(hi)
-                );
-            }
-            Values::I64(v) => {
-                let (lo, hi, nan, _) = range(v.iter().map(|&x| x as f64));
-                let _ = writeln!(
-                    out,
-                    "{name:<w$}  {:>16}  {:>16}  {nan:>8}",
-                    num(lo),
-                    num(hi)
-                );
-            }
+        let numbers: Vec<f64> = match vals {
+            Values::F64(v) => v.clone(),
+            Values::I64(v) => v.iter().map(|&x| x as f64).collect(),
             Values::Str(v) => {
                 let distinct: std::collections::BTreeSet<&String> = v.iter().collect();
-                let _ = writeln!(
-                    out,
-                    "{name:<w$}  {:>16}  {:>16}  {:>8}",
-                    "text",
-                    format!("{} distinct", distinct.len()),
-                    "-"
-                );
+                let d = format!("{} distinct", distinct.len());
+                let _ = writeln!(out, "{name:<w$}  {:>16}  {d:>16}  {:>8}", "text", "-");
+                continue;
             }
-        }
+        };
+        let (lo, hi, nan, _) = range(numbers.into_iter());
+        let _ = writeln!(
+            out,
+            "{name:<w$}  {:>16}  {:>16}  {nan:>8}",
+            num(lo),
+            num(hi)
+        );
     }
 }
 
@@ -192,25 +179,13 @@ pub fn describe(path: &Path, spec: &InputSpec) -> Result<String> {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::io::{write_csv, ColumnMap};
+    use crate::io::write_csv;
 
+    /// The io tests' spec, with positions in mm.
     fn spec(format: Format) -> InputSpec {
         InputSpec {
-            format,
-            columns: ColumnMap {
-                x: "x".into(),
-                y: "y".into(),
-                u: "u".into(),
-                v: "v".into(),
-                sigma_u: None,
-                sigma_v: None,
-                flag: None,
-                frame: "frame".into(),
-            },
             length_scale: 1e-3,
-            velocity_scale: 1.0,
-            skip_lines: 0,
-            grid_tolerance: 0.05,
+            ..crate::io::tests::spec(format)
         }
     }
 
@@ -239,6 +214,29 @@ mod tests {
             "{s}"
         );
         assert!(s.contains("u          -1.000000 .. 3.000000 m/s"), "{s}");
+    }
+
+    #[test]
+    fn a_parquet_long_table_reports_frames_and_the_first_grid() {
+        let d = tempfile::tempdir().unwrap();
+        let p = d.path().join("run.parquet");
+        let g = crate::field::Grid {
+            nx: 5,
+            ny: 4,
+            x0: 0.0,
+            y0: 1e-3,
+            dx: 2e-3,
+            dy: 1e-3,
+        };
+        let f = Field::from_fn(g, |x, y| (x * 100.0, -y));
+        crate::io::write_frames_parquet(&p, &[(3, &f), (8, &f), (9, &f)]).unwrap();
+        let mut sp = spec(Format::Parquet);
+        sp.length_scale = 1.0;
+        let s = describe(&p, &sp).unwrap();
+        assert!(s.contains("rows       60"), "{s}");
+        assert!(s.contains("frames     3 (ids 3 .. 9)"), "{s}");
+        assert!(s.contains("5 x 4 nodes, pitch 2.0000 x 1.0000 mm"), "{s}");
+        assert!(s.contains("u          0.000000 .. 0.800000 m/s"), "{s}");
     }
 
     #[test]

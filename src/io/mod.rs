@@ -7,8 +7,10 @@
 //! Rooms: `text` (csv, tsv, whitespace text and the frame table, parsed
 //! from bytes), `parquet` (long tables and parquet outputs), `grid` (grid
 //! inference and placing rows on nodes), `write` (CSV output, atomic files
-//! and folders, hashes), `inspect` (summaries for `curlew inspect`), `natural` (natural sort order of frame files).
+//! and folders, hashes), `inspect` (summaries for `curlew inspect`), `natural` (natural sort order of frame files), `frame_table` (time and
+//! phase per frame).
 
+mod frame_table;
 pub mod grid;
 pub mod inspect;
 mod natural;
@@ -225,7 +227,7 @@ impl FrameTable {
 /// names both lines.
 pub fn read_frame_table(path: &Path) -> Result<FrameTable> {
     let bytes = text::read_bytes(path)?;
-    text::parse_frame_table(&bytes, path)
+    frame_table::parse_frame_table(&bytes, path)
 }
 
 /// Writes `table` as parquet (F64 → Float64, I64 → Int64, Str → String);

@@ -8,7 +8,7 @@
 //! Memory and speed: the first access to a file builds an index of where
 //! each frame's rows are (runs of consecutive rows), decoding only the frame
 //! column, one row group at a time; the index is kept in a process-wide
-//! cache keyed by path, size and modification time, behind a mutex, so
+//! cache keyed by path, frame column, size and modification time, behind a mutex, so
 //! `read_frame` may be called from many threads. A frame read decodes only
 //! the mapped columns of the row groups its rows fall in (a polars slice
 //! read), so a 1000-frame file is never held decoded at once. A file written
@@ -41,7 +41,8 @@ pub(crate) struct FrameIndex {
     pub columns: Vec<String>,
 }
 
-type Key = (PathBuf, u64, Option<std::time::SystemTime>);
+/// Path, frame column, size and modification time.
+type Key = (PathBuf, String, u64, Option<std::time::SystemTime>);
 
 fn cache() -> &'static Mutex<HashMap<Key, Arc<FrameIndex>>> {
     static CACHE: OnceLock<Mutex<HashMap<Key, Arc<FrameIndex>>>> = OnceLock::new();
@@ -55,13 +56,18 @@ fn open(path: &Path) -> Result<File> {
 /// The frame index of `path` (built once per file version).
 pub(crate) fn index(path: &Path, frame_col: &str) -> Result<Arc<FrameIndex>> {
     let meta = std::fs::metadata(path).with_path(path)?;
-    let key = (path.to_path_buf(), meta.len(), meta.modified().ok());
+    let key = (
+        path.to_path_buf(),
+        frame_col.to_string(),
+        meta.len(),
+        meta.modified().ok(),
+    );
     let mut guard = cache().lock().unwrap_or_else(|p| p.into_inner());
     if let Some(ix) = guard.get(&key) {
         return Ok(ix.clone());
     }
     let ix = Arc::new(build_index(path, frame_col)?);
-    guard.retain(|k, _| k.0 != key.0);
+    guard.retain(|k, _| k.0 != key.0 || k.1 != key.1);
     guard.insert(key, ix.clone());
     Ok(ix)
 }

@@ -7,7 +7,7 @@ use super::*;
 use crate::error::ErrorKind;
 use crate::field::{FILLED, VALID};
 
-fn spec(format: Format) -> InputSpec {
+pub(crate) fn spec(format: Format) -> InputSpec {
     InputSpec {
         format,
         columns: ColumnMap {

@@ -3,7 +3,8 @@
 //!
 //! Owns: splitting lines and cells without allocating per cell, the cell
 //! rules of CONTRACT.md, and the errors that name file, line, column and
-//! value. Does not own: the grid (`grid`).
+//! value. Does not own: the grid (`grid`), the frame table's columns
+//! (`frame_table`, which uses the same line and cell rules).
 //!
 //! The whole file is read into one buffer; lines and cells are slices of it
 //! and numbers are parsed straight from the bytes with `fast-float2`
@@ -26,10 +27,10 @@ use std::path::Path;
 use crate::error::{Error, Result, WithPath};
 
 use super::grid::RawRows;
-use super::{ColumnMap, Format, FrameTable};
+use super::{ColumnMap, Format};
 
 /// A line of the file: its 1-based number and its bytes (no line ending).
-struct Lines<'a> {
+pub(super) struct Lines<'a> {
     rest: &'a [u8],
     number: usize,
 }
@@ -41,7 +42,7 @@ impl<'a> Iterator for Lines<'a> {
             return None;
         }
         self.number += 1;
-        let (line, rest) = match self.rest.iter().position(|&b| b == b'\n') {
+        let (line, rest) = match memchr::memchr(b'\n', self.rest) {
             Some(p) => (&self.rest[..p], &self.rest[p + 1..]),
             None => (self.rest, &self.rest[self.rest.len()..]),
         };
@@ -51,7 +52,7 @@ impl<'a> Iterator for Lines<'a> {
     }
 }
 
-fn lines(bytes: &[u8]) -> Lines<'_> {
+pub(super) fn lines(bytes: &[u8]) -> Lines<'_> {
     let bytes = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(bytes); // UTF-8 BOM
     Lines {
         rest: bytes,
@@ -59,7 +60,7 @@ fn lines(bytes: &[u8]) -> Lines<'_> {
     }
 }
 
-fn is_comment_or_blank(line: &[u8]) -> bool {
+pub(super) fn is_comment_or_blank(line: &[u8]) -> bool {
     match line.iter().position(|b| !b.is_ascii_whitespace()) {
         None => true,
         Some(p) => line[p] == b'#',
@@ -77,7 +78,11 @@ fn trim(cell: &[u8]) -> &[u8] {
 
 /// Calls `each(index, cell)` for every cell of `line`; returns the count.
 #[inline]
-fn for_cells<'a>(line: &'a [u8], format: Format, mut each: impl FnMut(usize, &'a [u8])) -> usize {
+pub(super) fn for_cells<'a>(
+    line: &'a [u8],
+    format: Format,
+    mut each: impl FnMut(usize, &'a [u8]),
+) -> usize {
     let mut n = 0;
     match format {
         Format::Text => {
@@ -100,7 +105,100 @@ fn for_cells<'a>(line: &'a [u8], format: Format, mut each: impl FnMut(usize, &'a
     n
 }
 
-fn show(cell: &[u8]) -> String {
+#[inline]
+fn is_blank(b: u8) -> bool {
+    b == b' ' || b == b'\t'
+}
+
+/// The end of the cell starting at `p`: the next delimiter (csv, tsv) or
+/// blank (text), or the end of the line.
+#[inline]
+fn cell_end(line: &[u8], p: usize, format: Format) -> usize {
+    let rest = &line[p..];
+    let found = match format {
+        Format::Text => rest.iter().position(|&b| is_blank(b)),
+        Format::Tsv => memchr::memchr(b'\t', rest),
+        _ => memchr::memchr(b',', rest),
+    };
+    found.map_or(line.len(), |i| p + i)
+}
+
+/// One pass over a data line: for every cell `k` with a role `r =
+/// role_of[k]`, sets `vals[r]` to its number (`None` for empty or NaN).
+/// Returns the number of cells, or the role and message of the first bad
+/// cell. Fast path: the number is parsed in place at the cell start and must
+/// be followed (after blanks) by the delimiter or the line end; anything else
+/// (quotes, empty, text) goes through `number` on the trimmed cell.
+#[inline]
+fn scan_row(
+    line: &[u8],
+    format: Format,
+    role_of: &[u8],
+    vals: &mut [Option<f64>; 7],
+) -> std::result::Result<usize, (usize, String)> {
+    let n = line.len();
+    let text = format == Format::Text;
+    let delim = if format == Format::Tsv { b'\t' } else { b',' };
+    let at_end = |e: usize| {
+        e == n
+            || if text {
+                is_blank(line[e])
+            } else {
+                line[e] == delim
+            }
+    };
+    let mut p = 0;
+    if text {
+        while p < n && is_blank(line[p]) {
+            p += 1;
+        }
+    }
+    let mut k = 0;
+    loop {
+        let role = role_of.get(k).copied().unwrap_or(NONE);
+        let mut e = usize::MAX;
+        if role != NONE {
+            let r = role as usize;
+            let mut q = p;
+            while q < n && line[q] == b' ' {
+                q += 1;
+            }
+            if let Ok((x, used)) = fast_float2::parse_partial::<f64, _>(&line[q..]) {
+                let mut end = q + used;
+                while end < n && line[end] == b' ' && !at_end(end) {
+                    end += 1;
+                }
+                if at_end(end) && x.is_finite() {
+                    vals[r] = Some(x);
+                    e = end;
+                }
+            }
+            if e == usize::MAX {
+                e = cell_end(line, p, format);
+                vals[r] = number(trim(&line[p..e])).map_err(|m| (r, m))?;
+            }
+        } else {
+            e = cell_end(line, p, format);
+        }
+        k += 1;
+        if text {
+            while e < n && is_blank(line[e]) {
+                e += 1;
+            }
+            if e >= n {
+                return Ok(k);
+            }
+            p = e;
+        } else {
+            if e >= n {
+                return Ok(k);
+            }
+            p = e + 1;
+        }
+    }
+}
+
+pub(super) fn show(cell: &[u8]) -> String {
     String::from_utf8_lossy(cell).into_owned()
 }
 
@@ -125,7 +223,7 @@ pub(crate) fn read_bytes(path: &Path) -> Result<Vec<u8>> {
 }
 
 /// The header line: its number and cell names.
-fn header<'a>(
+pub(super) fn header<'a>(
     it: &mut Lines<'a>,
     format: Format,
     skip_lines: usize,
@@ -151,7 +249,7 @@ fn header<'a>(
 }
 
 /// Index of column `name` in `names`, or the error naming what was found.
-fn find(names: &[String], name: &str, path: &Path, line: usize) -> Result<usize> {
+pub(super) fn find(names: &[String], name: &str, path: &Path, line: usize) -> Result<usize> {
     names.iter().position(|n| n == name).ok_or_else(|| {
         let numeric = names
             .iter()
@@ -215,7 +313,7 @@ pub(crate) fn parse_frame(
         present[w.0] = true;
     }
     let has = |r: usize| present[r];
-    let cap = bytes.iter().filter(|&&b| b == b'\n').count() + 1;
+    let cap = memchr::memchr_iter(b'\n', bytes).count() + 1;
     let vec = || Vec::with_capacity(cap);
     let mut rows = RawRows {
         x: vec(),
@@ -228,18 +326,17 @@ pub(crate) fn parse_frame(
         line: Vec::with_capacity(cap),
     };
     let ncol = names.len();
-    let mut cells: [&[u8]; 7] = [b""; 7];
+    let mut vals: [Option<f64>; 7] = [None; 7];
     for (no, line) in it {
         if is_comment_or_blank(line) {
             continue;
         }
-        let n = for_cells(line, format, |k, c| {
-            if let Some(&r) = role_of.get(k) {
-                if r != NONE {
-                    cells[r as usize] = c;
-                }
-            }
-        });
+        let n = scan_row(line, format, &role_of, &mut vals).map_err(|(r, m)| {
+            Error::data(m)
+                .with_path(path)
+                .with_line(no)
+                .with_column(role_name[r])
+        })?;
         if n != ncol {
             return Err(Error::data(format!(
                 "the line has {n} cells, the header (line {hline}) names {ncol}"
@@ -247,23 +344,12 @@ pub(crate) fn parse_frame(
             .with_path(path)
             .with_line(no));
         }
-        let cell = |r: usize| -> Result<Option<f64>> {
-            number(cells[r]).map_err(|m| {
-                Error::data(m)
+        let pos = |r: usize| -> Result<f64> {
+            vals[r].ok_or_else(|| {
+                Error::data("empty or NaN cell: a node position must be a number")
                     .with_path(path)
                     .with_line(no)
                     .with_column(role_name[r])
-            })
-        };
-        let pos = |r: usize| -> Result<f64> {
-            cell(r)?.ok_or_else(|| {
-                Error::data(format!(
-                    "'{}': a node position must be a number",
-                    show(cells[r])
-                ))
-                .with_path(path)
-                .with_line(no)
-                .with_column(role_name[r])
             })
         };
         rows.x.push(pos(X)?);
@@ -273,24 +359,18 @@ pub(crate) fn parse_frame(
             rows.invalid.push(false);
             continue;
         }
-        let u = cell(U)?;
-        let v = cell(V)?;
-        let flagged = if has(FLAG) {
-            cell(FLAG)?.is_some_and(|f| f != 0.0)
-        } else {
-            false
-        };
+        let (u, v) = (vals[U], vals[V]);
+        let flagged = has(FLAG) && vals[FLAG].is_some_and(|f| f != 0.0);
         for (r, dst) in [(SU, &mut rows.sigma_u), (SV, &mut rows.sigma_v)] {
             if let Some(dst) = dst {
-                let s = cell(r)?.unwrap_or(f64::NAN);
+                let s = vals[r].unwrap_or(f64::NAN);
                 if s < 0.0 {
-                    return Err(Error::data(format!(
-                        "'{}': an uncertainty cannot be negative",
-                        show(cells[r])
-                    ))
-                    .with_path(path)
-                    .with_line(no)
-                    .with_column(role_name[r]));
+                    return Err(
+                        Error::data(format!("'{s}': an uncertainty cannot be negative"))
+                            .with_path(path)
+                            .with_line(no)
+                            .with_column(role_name[r]),
+                    );
                 }
                 dst.push(s);
             }
@@ -304,82 +384,6 @@ pub(crate) fn parse_frame(
         return Err(Error::data("the file has a header but no data rows").with_path(path));
     }
     Ok(rows)
-}
-
-/// Reads a frame table: CSV with `frame` and `time_s` and/or `phase_deg`.
-/// A column that is present must have a number in every row; a duplicate
-/// frame is an error naming both lines.
-pub(crate) fn parse_frame_table(bytes: &[u8], path: &Path) -> Result<FrameTable> {
-    let mut it = lines(bytes);
-    let (hline, names) = header(&mut it, Format::Csv, 0, path)?;
-    let fcol = find(&names, "frame", path, hline)?;
-    let tcol = names.iter().position(|n| n == "time_s");
-    let pcol = names.iter().position(|n| n == "phase_deg");
-    if tcol.is_none() && pcol.is_none() {
-        return Err(Error::data(format!(
-            "a frame table needs a 'time_s' or a 'phase_deg' column; the header has: {}",
-            names.join(", ")
-        ))
-        .with_path(path)
-        .with_line(hline));
-    }
-    let mut table = FrameTable::default();
-    let mut seen: std::collections::HashMap<String, usize> = Default::default();
-    for (no, line) in it {
-        if is_comment_or_blank(line) {
-            continue;
-        }
-        let (mut frame, mut t, mut p): (&[u8], &[u8], &[u8]) = (b"", b"", b"");
-        let n = for_cells(line, Format::Csv, |k, c| {
-            if k == fcol {
-                frame = c;
-            }
-            if Some(k) == tcol {
-                t = c;
-            }
-            if Some(k) == pcol {
-                p = c;
-            }
-        });
-        if n != names.len() {
-            return Err(Error::data(format!(
-                "the line has {n} cells, the header names {}",
-                names.len()
-            ))
-            .with_path(path)
-            .with_line(no));
-        }
-        if frame.is_empty() {
-            return Err(Error::data("empty frame name")
-                .with_path(path)
-                .with_line(no)
-                .with_column("frame"));
-        }
-        let value = |cell: &[u8], col: Option<usize>, name: &str| -> Result<Option<f64>> {
-            if col.is_none() {
-                return Ok(None);
-            }
-            match number(cell) {
-                Ok(Some(x)) => Ok(Some(x)),
-                Ok(None) => Err(Error::data(format!("'{}' is not a number", show(cell)))),
-                Err(m) => Err(Error::data(m)),
-            }
-            .map_err(|e| e.with_path(path).with_line(no).with_column(name))
-        };
-        let name = show(frame);
-        let time = value(t, tcol, "time_s")?;
-        let phase = value(p, pcol, "phase_deg")?;
-        if let Some(first) = seen.insert(name.clone(), no) {
-            return Err(Error::data(format!(
-                "frame '{name}' is listed twice, on lines {first} and {no}"
-            ))
-            .with_path(path)
-            .with_line(no)
-            .with_column("frame"));
-        }
-        table.rows.push((name, time, phase));
-    }
-    Ok(table)
 }
 
 /// The header names and data cells of a generic text table (for
@@ -412,7 +416,61 @@ pub(crate) fn scan_table(
 
 #[cfg(test)]
 mod tests {
-    use super::number;
+    use super::*;
+
+    type Row = std::result::Result<(usize, Vec<Option<f64>>), (usize, String)>;
+
+    fn row(line: &str, format: Format, ncells: usize) -> Row {
+        let role_of: Vec<u8> = (0..ncells as u8)
+            .map(|k| if k < 7 { k } else { NONE })
+            .collect();
+        let mut vals = [Some(-99.0); 7];
+        let n = scan_row(line.as_bytes(), format, &role_of, &mut vals)?;
+        Ok((n, vals[..ncells.min(7)].to_vec()))
+    }
+
+    #[test]
+    fn rows_split_into_cells_with_quotes_blanks_and_empties() {
+        let r = row(" 1.5 ,\"2\", ,nan,-3e2,", Format::Csv, 6).unwrap();
+        assert_eq!(
+            r,
+            (
+                6,
+                vec![Some(1.5), Some(2.0), None, None, Some(-300.0), None]
+            )
+        );
+        let r = row("1\t\t2.25\t", Format::Tsv, 4).unwrap();
+        assert_eq!(r, (4, vec![Some(1.0), None, Some(2.25), None]));
+        let r = row("\t 1  2\t\t-0.5 NaN  ", Format::Text, 4).unwrap();
+        assert_eq!(r, (4, vec![Some(1.0), Some(2.0), Some(-0.5), None]));
+        // A number followed by text is not a number; nor is a decimal comma.
+        assert_eq!(
+            row("1,1.5abc", Format::Csv, 2).unwrap_err(),
+            (1, "'1.5abc' is not a number".into())
+        );
+        assert_eq!(
+            row("1 2,5", Format::Text, 2).unwrap_err(),
+            (1, "'2,5' is not a number".into())
+        );
+        assert_eq!(
+            row("1,inf", Format::Csv, 2).unwrap_err(),
+            (1, "'inf' is not a finite number".into())
+        );
+        // Cells without a role are counted, not parsed.
+        assert_eq!(
+            row("1,2,x,y,z,w,v,junk,more", Format::Csv, 9)
+                .unwrap_err()
+                .0,
+            2
+        );
+        let role_of = [0u8, NONE, 1];
+        let mut vals = [None; 7];
+        assert_eq!(
+            scan_row(b"4,junk,5,extra", Format::Csv, &role_of, &mut vals),
+            Ok(4)
+        );
+        assert_eq!((vals[0], vals[1]), (Some(4.0), Some(5.0)));
+    }
 
     #[test]
     fn numbers_parse_bit_for_bit_like_std() {

@@ -1,0 +1,91 @@
+//! The frame table: time and phase of each frame, from a CSV with the
+//! columns `frame` and `time_s` and/or `phase_deg` (CONTRACT.md).
+//!
+//! Owns: its column rules: a present column needs a number in every row
+//! (no empty cells: a frame without its phase would silently leave the
+//! phase average), phase is kept as given (stats takes it modulo 360), a
+//! frame listed twice is an error naming both lines. Lines and cells follow
+//! `text` (comments, quotes, physical line numbers).
+
+use std::path::Path;
+
+use crate::error::{Error, Result};
+
+use super::text::{for_cells, header, is_comment_or_blank, lines, number, show};
+use super::{Format, FrameTable};
+
+/// Reads a frame table: CSV with `frame` and `time_s` and/or `phase_deg`.
+/// A column that is present must have a number in every row; a duplicate
+/// frame is an error naming both lines.
+pub(crate) fn parse_frame_table(bytes: &[u8], path: &Path) -> Result<FrameTable> {
+    let mut it = lines(bytes);
+    let (hline, names) = header(&mut it, Format::Csv, 0, path)?;
+    let fcol = super::text::find(&names, "frame", path, hline)?;
+    let tcol = names.iter().position(|n| n == "time_s");
+    let pcol = names.iter().position(|n| n == "phase_deg");
+    if tcol.is_none() && pcol.is_none() {
+        return Err(Error::data(format!(
+            "a frame table needs a 'time_s' or a 'phase_deg' column; the header has: {}",
+            names.join(", ")
+        ))
+        .with_path(path)
+        .with_line(hline));
+    }
+    let mut table = FrameTable::default();
+    let mut seen: std::collections::HashMap<String, usize> = Default::default();
+    for (no, line) in it {
+        if is_comment_or_blank(line) {
+            continue;
+        }
+        let (mut frame, mut t, mut p): (&[u8], &[u8], &[u8]) = (b"", b"", b"");
+        let n = for_cells(line, Format::Csv, |k, c| {
+            if k == fcol {
+                frame = c;
+            }
+            if Some(k) == tcol {
+                t = c;
+            }
+            if Some(k) == pcol {
+                p = c;
+            }
+        });
+        if n != names.len() {
+            return Err(Error::data(format!(
+                "the line has {n} cells, the header names {}",
+                names.len()
+            ))
+            .with_path(path)
+            .with_line(no));
+        }
+        if frame.is_empty() {
+            return Err(Error::data("empty frame name")
+                .with_path(path)
+                .with_line(no)
+                .with_column("frame"));
+        }
+        let value = |cell: &[u8], col: Option<usize>, name: &str| -> Result<Option<f64>> {
+            if col.is_none() {
+                return Ok(None);
+            }
+            match number(cell) {
+                Ok(Some(x)) => Ok(Some(x)),
+                Ok(None) => Err(Error::data(format!("'{}' is not a number", show(cell)))),
+                Err(m) => Err(Error::data(m)),
+            }
+            .map_err(|e| e.with_path(path).with_line(no).with_column(name))
+        };
+        let name = show(frame);
+        let time = value(t, tcol, "time_s")?;
+        let phase = value(p, pcol, "phase_deg")?;
+        if let Some(first) = seen.insert(name.clone(), no) {
+            return Err(Error::data(format!(
+                "frame '{name}' is listed twice, on lines {first} and {no}"
+            ))
+            .with_path(path)
+            .with_line(no)
+            .with_column("frame"));
+        }
+        table.rows.push((name, time, phase));
+    }
+    Ok(table)
+}
