@@ -142,33 +142,58 @@ fn stat(s: &Scalar, k: usize) -> Stat {
     }
 }
 
-/// (combined, expanded) standard uncertainty of a mean.
-fn mean_uncs(st: &Stat, n_eff: f64, rel: f64, coverage: f64) -> (f64, f64) {
-    if st.n < 2.0 {
-        return (f64::NAN, f64::NAN);
-    }
-    let mut c = vec![Component {
-        u: gum::mean_unc(st.std, n_eff),
-        dof: n_eff - 1.0,
-    }];
-    if st.bias.is_finite() {
-        c.push(Component {
-            u: st.bias,
-            dof: f64::INFINITY,
-        });
-    }
-    if rel > 0.0 {
-        c.push(Component {
-            u: rel * st.mean.abs(),
-            dof: f64::INFINITY,
-        });
-    }
-    (gum::combine(&c).0, gum::expanded(&c, coverage))
+/// A scalar's statistics at one node with its uncertainties.
+struct Full {
+    st: Stat,
+    /// Combined and expanded standard uncertainty of the mean.
+    mean_unc: f64,
+    mean_exp: f64,
+    std_unc: f64,
 }
 
-fn std_unc(st: &Stat, n_eff: f64, rel: f64) -> f64 {
-    let r = gum::std_unc(st.std, n_eff);
-    (r * r + (rel * st.std).powi(2)).sqrt()
+/// The statistics of `s` at every node, with N_eff `neff` and the relative
+/// scale uncertainty `rel` (see the module doc).
+fn full(s: &Scalar, neff: &[f64], rel: f64, coverage: f64) -> Vec<Full> {
+    (0..s.n.len())
+        .map(|k| {
+            let st = stat(s, k);
+            let ne = neff[k];
+            let (mut mean_unc, mut mean_exp) = (f64::NAN, f64::NAN);
+            if st.n >= 2.0 {
+                let mut c = vec![Component {
+                    u: gum::mean_unc(st.std, ne),
+                    dof: ne - 1.0,
+                }];
+                if st.bias.is_finite() {
+                    c.push(Component {
+                        u: st.bias,
+                        dof: f64::INFINITY,
+                    });
+                }
+                if rel > 0.0 {
+                    c.push(Component {
+                        u: rel * st.mean.abs(),
+                        dof: f64::INFINITY,
+                    });
+                }
+                let (uc, nu) = gum::combine(&c);
+                mean_unc = uc;
+                mean_exp = if uc == 0.0 {
+                    0.0
+                } else {
+                    gum::coverage_factor(coverage, nu) * uc
+                };
+            }
+            let r = gum::std_unc(st.std, ne);
+            let std_unc = (r * r + (rel * st.std).powi(2)).sqrt();
+            Full {
+                st,
+                mean_unc,
+                mean_exp,
+                std_unc,
+            }
+        })
+        .collect()
 }
 
 /// The columns of one set of moments (ensemble or bin). `neff` holds the
@@ -180,99 +205,35 @@ fn node_table(
     k_parts: (Vec<f64>, Vec<f64>),
     c: &Ctx,
 ) -> NodeTable {
-    let nodes = c.grid.len();
-    let cols = |f: &dyn Fn(usize) -> f64| -> Vec<f64> { (0..nodes).map(f).collect() };
-    let empty = Scalar::new(nodes);
-    let om = c.omega.map_or(&empty, |o| &m.q[o]);
-    let su = |k| stat(&m.u, k);
-    let sv = |k| stat(&m.v, k);
-    let sw = |k| stat(om, k);
-    let cov = |k: usize| {
-        if m.u.n[k] >= 2.0 {
-            m.cuv[k] / (m.u.n[k] - 1.0)
-        } else {
-            f64::NAN
-        }
-    };
-    let w_rel = c.omega.map_or(0.0, |o| c.q_rel[o]);
     let cv = c.p.coverage;
-    let mut t = NodeTable::new(c.grid);
-    // CONTRACT columns, in order.
-    t.push("n_valid", m.n_valid.clone());
-    t.push("u_mean", cols(&|k| su(k).mean));
-    t.push("v_mean", cols(&|k| sv(k).mean));
-    t.push("u_std", cols(&|k| su(k).std));
-    t.push("v_std", cols(&|k| sv(k).std));
-    t.push("uv_cov", cols(&cov));
-    t.push("omega_mean", cols(&|k| sw(k).mean));
-    t.push("omega_std", cols(&|k| sw(k).std));
-    t.push(
-        "u_mean_unc",
-        cols(&|k| mean_uncs(&su(k), neff[0][k], c.vel_rel, cv).0),
-    );
-    t.push(
-        "v_mean_unc",
-        cols(&|k| mean_uncs(&sv(k), neff[1][k], c.vel_rel, cv).0),
-    );
-    t.push(
-        "omega_mean_unc",
-        cols(&|k| mean_uncs(&sw(k), neff[2][k], w_rel, cv).0),
-    );
-    t.push("omega_inst_unc", cols(&|k| sw(k).inst));
-    // Our own.
-    let sfx = &c.suffix;
-    t.push("n_samples", m.u.n.clone());
-    t.push(
-        "u_std_unc",
-        cols(&|k| std_unc(&su(k), neff[0][k], c.vel_rel)),
-    );
-    t.push(
-        "v_std_unc",
-        cols(&|k| std_unc(&sv(k), neff[1][k], c.vel_rel)),
-    );
-    t.push(
-        "uv_cov_unc",
-        cols(&|k| {
+    let empty = Scalar::new(c.grid.len());
+    let w_rel = c.omega.map_or(0.0, |o| c.q_rel[o]);
+    let fu = full(&m.u, &neff[0], c.vel_rel, cv);
+    let fv = full(&m.v, &neff[1], c.vel_rel, cv);
+    let fw = full(c.omega.map_or(&empty, |o| &m.q[o]), &neff[2], w_rel, cv);
+    let col = |f: &[Full], g: &dyn Fn(&Full) -> f64| -> Vec<f64> { f.iter().map(g).collect() };
+    let cov: Vec<f64> = (0..m.cuv.len())
+        .map(|k| {
+            if m.u.n[k] >= 2.0 {
+                m.cuv[k] / (m.u.n[k] - 1.0)
+            } else {
+                f64::NAN
+            }
+        })
+        .collect();
+    let cov_unc: Vec<f64> = (0..cov.len())
+        .map(|k| {
             let ne = neff[0][k].min(neff[1][k]);
-            let r = gum::cov_unc(su(k).std, sv(k).std, cov(k), ne);
-            (r * r + (2.0 * c.vel_rel * cov(k)).powi(2)).sqrt()
-        }),
-    );
-    t.push(
-        "omega_std_unc",
-        cols(&|k| std_unc(&sw(k), neff[2][k], w_rel)),
-    );
-    t.push(
-        format!("u_mean_unc_{sfx}"),
-        cols(&|k| mean_uncs(&su(k), neff[0][k], c.vel_rel, cv).1),
-    );
-    t.push(
-        format!("v_mean_unc_{sfx}"),
-        cols(&|k| mean_uncs(&sv(k), neff[1][k], c.vel_rel, cv).1),
-    );
-    t.push(
-        format!("omega_mean_unc_{sfx}"),
-        cols(&|k| mean_uncs(&sw(k), neff[2][k], w_rel, cv).1),
-    );
-    t.push("u_inst_unc", cols(&|k| su(k).inst));
-    t.push("v_inst_unc", cols(&|k| sv(k).inst));
-    t.push("omega_bias", cols(&|k| sw(k).bias));
-    t.push(
-        "k",
-        cols(&|k| 0.5 * (su(k).std.powi(2) + sv(k).std.powi(2))),
-    );
-    t.push("k_coherent", k_parts.0);
-    t.push("k_stochastic", k_parts.1);
-    t.push("u_skew", cols(&|k| su(k).skew));
-    t.push("u_flat", cols(&|k| su(k).flat));
-    t.push("v_skew", cols(&|k| sv(k).skew));
-    t.push("v_flat", cols(&|k| sv(k).flat));
-    t.push("omega_skew", cols(&|k| sw(k).skew));
-    t.push("omega_flat", cols(&|k| sw(k).flat));
-    t.push("u_n_eff", neff[0].clone());
-    t.push("v_n_eff", neff[1].clone());
-    t.push("omega_n_eff", neff[2].clone());
-    let frac = |x: &Vec<f64>| {
+            let r = gum::cov_unc(fu[k].st.std, fv[k].st.std, cov[k], ne);
+            (r * r + (2.0 * c.vel_rel * cov[k]).powi(2)).sqrt()
+        })
+        .collect();
+    let kk: Vec<f64> = fu
+        .iter()
+        .zip(&fv)
+        .map(|(a, b)| 0.5 * (a.st.std.powi(2) + b.st.std.powi(2)))
+        .collect();
+    let frac = |x: &Vec<f64>| -> Vec<f64> {
         x.iter()
             .map(|&a| {
                 if m.frames > 0.0 {
@@ -283,30 +244,59 @@ fn node_table(
             })
             .collect()
     };
+    let sfx = &c.suffix;
+    let mut t = NodeTable::new(c.grid);
+    // CONTRACT columns, in order.
+    t.push("n_valid", m.n_valid.clone());
+    t.push("u_mean", col(&fu, &|f| f.st.mean));
+    t.push("v_mean", col(&fv, &|f| f.st.mean));
+    t.push("u_std", col(&fu, &|f| f.st.std));
+    t.push("v_std", col(&fv, &|f| f.st.std));
+    t.push("uv_cov", cov);
+    t.push("omega_mean", col(&fw, &|f| f.st.mean));
+    t.push("omega_std", col(&fw, &|f| f.st.std));
+    t.push("u_mean_unc", col(&fu, &|f| f.mean_unc));
+    t.push("v_mean_unc", col(&fv, &|f| f.mean_unc));
+    t.push("omega_mean_unc", col(&fw, &|f| f.mean_unc));
+    t.push("omega_inst_unc", col(&fw, &|f| f.st.inst));
+    // Our own.
+    t.push("n_samples", m.u.n.clone());
+    t.push("u_std_unc", col(&fu, &|f| f.std_unc));
+    t.push("v_std_unc", col(&fv, &|f| f.std_unc));
+    t.push("uv_cov_unc", cov_unc);
+    t.push("omega_std_unc", col(&fw, &|f| f.std_unc));
+    t.push(format!("u_mean_unc_{sfx}"), col(&fu, &|f| f.mean_exp));
+    t.push(format!("v_mean_unc_{sfx}"), col(&fv, &|f| f.mean_exp));
+    t.push(format!("omega_mean_unc_{sfx}"), col(&fw, &|f| f.mean_exp));
+    t.push("u_inst_unc", col(&fu, &|f| f.st.inst));
+    t.push("v_inst_unc", col(&fv, &|f| f.st.inst));
+    t.push("omega_bias", col(&fw, &|f| f.st.bias));
+    t.push("k", kk);
+    t.push("k_coherent", k_parts.0);
+    t.push("k_stochastic", k_parts.1);
+    t.push("u_skew", col(&fu, &|f| f.st.skew));
+    t.push("u_flat", col(&fu, &|f| f.st.flat));
+    t.push("v_skew", col(&fv, &|f| f.st.skew));
+    t.push("v_flat", col(&fv, &|f| f.st.flat));
+    t.push("omega_skew", col(&fw, &|f| f.st.skew));
+    t.push("omega_flat", col(&fw, &|f| f.st.flat));
+    t.push("u_n_eff", neff[0].clone());
+    t.push("v_n_eff", neff[1].clone());
+    t.push("omega_n_eff", neff[2].clone());
     t.push("outlier_frac", frac(&m.n_replaced));
     t.push("filled_frac", frac(&m.n_filled));
     for (qi, name) in c.quantities.iter().enumerate() {
         if Some(qi) == c.omega {
             continue;
         }
-        let s = |k| stat(&m.q[qi], k);
-        let rel = c.q_rel[qi];
-        t.push(format!("{name}_mean"), cols(&|k| s(k).mean));
-        t.push(format!("{name}_std"), cols(&|k| s(k).std));
-        t.push(
-            format!("{name}_mean_unc"),
-            cols(&|k| mean_uncs(&s(k), neff[2][k], rel, cv).0),
-        );
-        t.push(
-            format!("{name}_std_unc"),
-            cols(&|k| std_unc(&s(k), neff[2][k], rel)),
-        );
-        t.push(
-            format!("{name}_mean_unc_{sfx}"),
-            cols(&|k| mean_uncs(&s(k), neff[2][k], rel, cv).1),
-        );
-        t.push(format!("{name}_inst_unc"), cols(&|k| s(k).inst));
-        t.push(format!("{name}_bias"), cols(&|k| s(k).bias));
+        let fq = full(&m.q[qi], &neff[2], c.q_rel[qi], cv);
+        t.push(format!("{name}_mean"), col(&fq, &|f| f.st.mean));
+        t.push(format!("{name}_std"), col(&fq, &|f| f.st.std));
+        t.push(format!("{name}_mean_unc"), col(&fq, &|f| f.mean_unc));
+        t.push(format!("{name}_std_unc"), col(&fq, &|f| f.std_unc));
+        t.push(format!("{name}_mean_unc_{sfx}"), col(&fq, &|f| f.mean_exp));
+        t.push(format!("{name}_inst_unc"), col(&fq, &|f| f.st.inst));
+        t.push(format!("{name}_bias"), col(&fq, &|f| f.st.bias));
     }
     t
 }

@@ -689,3 +689,37 @@ fn state_size_does_not_grow_with_the_frames() {
     let large = accumulate(&p, g, &frames).to_bytes().len();
     assert_eq!(small, large);
 }
+
+#[test]
+#[ignore = "throughput probe, run by hand"]
+fn throughput_probe() {
+    let g = grid(100, 100);
+    let p = Params {
+        probes: vec![(1e-3, 1e-3)],
+        ..Params::default()
+    };
+    let frames = random_frames(g, 48, 52, true);
+    for timed in [false, true] {
+        let t0 = std::time::Instant::now();
+        let mut acc = RunAccumulator::new(&p, g, &Q);
+        for rep in 0..4 {
+            for f in &frames {
+                let mut meta = f.meta.clone();
+                meta.index += rep * 48;
+                if !timed {
+                    meta.time_s = None;
+                }
+                acc.push(&meta, &f.field, &f.derived);
+            }
+        }
+        let t1 = t0.elapsed();
+        let s = acc.finish(&p);
+        eprintln!(
+            "timed {timed}: push {:.2} ms/frame, finish {:.1} ms, state {} MB",
+            t1.as_secs_f64() * 1e3 / 192.0,
+            (t0.elapsed() - t1).as_secs_f64() * 1e3,
+            acc.to_bytes().len() as f64 / 1e6
+        );
+        assert!(s.ensemble.columns.len() > 40);
+    }
+}
