@@ -20,6 +20,9 @@
 //! Memory: a fixed number of values per node, quantity and moment for the
 //! ensemble and each phase bin reached, the lag sums of `lags`, and three
 //! numbers per frame and probe; nothing else grows with the frames.
+//! Measured (`throughput_probe`, 100 x 100 nodes, omega and one more
+//! quantity, 12 bins all reached): 41.6 MB of state; with `time_s` and
+//! `max_lag = 50`, 114 MB (the lag sums: 96 bytes per node and lag).
 
 mod codec;
 pub mod gum;
@@ -178,6 +181,12 @@ impl RunAccumulator {
     /// states finishes with these, so it writes what one run writes).
     pub fn params(&self) -> &Params {
         &self.params
+    }
+
+    /// Run-wide index of the first and the last frame pushed (`None` when
+    /// empty): partial states merge in the order of their first frame.
+    pub fn span(&self) -> Option<(u64, u64)> {
+        self.span
     }
 
     /// Frames pushed so far.

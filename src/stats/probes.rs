@@ -16,6 +16,13 @@
 //! half its standard uncertainty, so a false alarm is about a 4-sigma event.
 //! Fewer than 10 samples before the tail: a warning that convergence cannot
 //! be judged.
+//!
+//! Table columns, one row per probe and frame offered (frame order):
+//! `probe` (0-based, pipeline order), `probe_x, probe_y` (the point asked
+//! for), `x, y` (the node traced), `frame` (run-wide frame index),
+//! `n_samples` (u samples so far), then `u_mean, u_std, u_mean_unc, v_mean,
+//! v_std, v_mean_unc, omega_mean, omega_std, omega_mean_unc` (running
+//! values; NaN until there are enough samples).
 
 use super::gum;
 use crate::field::Grid;

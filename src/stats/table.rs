@@ -350,11 +350,18 @@ pub(super) fn finish(acc: &RunAccumulator, p: &Params) -> RunStats {
     // Effective sample size.
     let mut neff = independent(&acc.ens, omega);
     let mut run_neff = None;
-    let step = acc.clock.uniform_step();
-    if acc.clock.timed > 0 && step.is_none() && acc.clock.frames >= 3 {
+    let base = acc.clock.time_base();
+    let step = base.map(|b| b.step);
+    if acc.clock.timed > 0 && base.is_none() && acc.clock.frames >= 3 {
         warnings.push(format!(
             "{} of {} frames have time_s but the steps are not uniform; samples are treated as independent (N_eff = N)",
             acc.clock.timed, acc.clock.frames
+        ));
+    }
+    if let Some(b) = base.filter(|b| b.gaps > 0) {
+        warnings.push(format!(
+            "time_s has {} gaps longer than the step of {:.4e} s (burst recording?); N_eff uses the autocorrelation over the frames, including the few lag pairs across a gap",
+            b.gaps, b.step
         ));
     }
     if let (Some(_), Some(lags)) = (step, acc.lags.as_ref()) {
