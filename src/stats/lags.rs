@@ -12,7 +12,11 @@
 //! present, divided by the variance about the final mean:
 //! `rho(k) = [sum_pairs (x_t - m)(x_{t+k} - m) / C_k] / (M2 / N)`.
 //! Gaps (a node not valid in a frame, a frame not offered) simply remove
-//! pairs: lags are differences of the run-wide frame index.
+//! pairs: lags are differences of the run-wide frame index. Per node, not
+//! from a spatial average: the integral time scale differs across a wake.
+//! Bias of this estimator on uncorrelated samples (numpy simulation, 2000
+//! trials, recorded in the stats report): mean N_eff/N = 0.91 at N = 100,
+//! 0.93 at 200, 0.96 at 1000 (median 1.0): slightly conservative.
 //!
 //! Merging: per series, node and lag we keep, relative to a shift `c` (the
 //! node's first sample, which limits cancellation), `S_k = sum x y`,

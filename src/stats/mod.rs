@@ -25,6 +25,7 @@
 //! `max_lag = 50`, 114 MB (the lag sums: 96 bytes per node and lag).
 
 mod codec;
+mod finish;
 pub mod gum;
 pub mod lags;
 pub mod moments;
@@ -370,7 +371,7 @@ impl RunAccumulator {
     /// (coverage, systematic components, convergence tail, lag cap up to
     /// the accumulated `max_lag`).
     pub fn finish(&self, p: &Params) -> RunStats {
-        table::finish(self, p)
+        finish::finish(self, p)
     }
 }
 
