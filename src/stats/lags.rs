@@ -406,6 +406,10 @@ mod tests {
             l.push(i as u64, vec![x]);
         }
         let ne = n_eff_of(&l, &xs, 50);
+        eprintln!(
+            "AR(1) a = 0.5, N = {n}: N_eff = {ne:.1} (N/3 = {:.1})",
+            n as f64 / 3.0
+        );
         assert_close(ne, n as f64 / 3.0, 0.0, 0.05, "N_eff of AR(1) 0.5");
         // White noise: N_eff close to N (first zero crossing cuts at once or soon).
         let xs = ar1(n, 0.0, 22);

@@ -289,3 +289,79 @@ fn time_resolved_runs_get_n_eff_from_the_autocorrelation() {
         s.warnings
     );
 }
+
+#[test]
+fn running_statistics_end_at_the_ensemble_values() {
+    // The last row of each probe's trace is the ensemble value at its node.
+    let g = grid(3, 2);
+    let p = Params {
+        probes: vec![(0.0, 0.0), (2e-3, 1e-3)],
+        ..params()
+    };
+    let frames = random_frames(g, 40, 53, false);
+    let s = chunked(&p, g, &frames, 16).finish(&p);
+    let t = s.convergence.unwrap();
+    assert_eq!(t.n_rows(), 80);
+    let f = |n: &str| match t.get(n) {
+        Some(Values::F64(v)) => v.clone(),
+        _ => panic!("{n}"),
+    };
+    for (probe, node) in [(0usize, 0usize), (1, 5)] {
+        let last = 40 * probe + 39;
+        for name in ["u_mean", "u_std", "v_mean", "omega_std"] {
+            assert_close(
+                f(name)[last],
+                s.ensemble.get(name).unwrap()[node],
+                0.0,
+                1e-12,
+                name,
+            );
+        }
+        assert_eq!(f("x")[last], g.x(node % 3));
+    }
+}
+
+#[test]
+fn n_eff_uncertainty_matches_the_scatter_of_correlated_means() {
+    // Monte Carlo (seeded): AR(1) with a = 0.5 has Var(mean) = 3 sigma^2/N
+    // (derived; 1 + 2 sum a^k = (1 + a)/(1 - a)). The u_mean_unc built from
+    // the estimated N_eff must match the observed scatter of the means.
+    let g = grid(1, 1);
+    let (trials, n) = (150, 400);
+    let mut r = rng(54);
+    let p = Params {
+        max_lag: 20,
+        ..Params::default()
+    };
+    let (mut means, mut unc2) = (Vec::new(), Vec::new());
+    for _ in 0..trials {
+        let mut x = 0.0f64;
+        let mut acc = RunAccumulator::new(&p, g, &Q);
+        let mut fr = frame(g, 0, Some(0.0), None, &|_, _| [0.0; 4], &|_, _| VALID);
+        for f in 0..n {
+            x = 0.5 * x + Distribution::<f64>::sample(&StandardNormal, &mut r);
+            fr.meta.index = f;
+            fr.meta.time_s = Some(f as f64 * 1e-3);
+            fr.derived.u[[0, 0]] = x;
+            fr.derived.v[[0, 0]] = -x;
+            acc.push(&fr.meta, &fr.field, &fr.derived);
+        }
+        let s = acc.finish(&p);
+        means.push(s.ensemble.get("u_mean").unwrap()[0]);
+        unc2.push(s.ensemble.get("u_mean_unc").unwrap()[0].powi(2));
+    }
+    let m = means.iter().sum::<f64>() / trials as f64;
+    let var = means.iter().map(|a| (a - m) * (a - m)).sum::<f64>() / (trials as f64 - 1.0);
+    let predicted = unc2.iter().sum::<f64>() / trials as f64;
+    // True value 3 sigma_u^2 / N with sigma_u^2 = 1/(1 - a^2) = 4/3.
+    let truth = 3.0 * (4.0 / 3.0) / n as f64;
+    eprintln!("u_mean_unc^2 mean {predicted:.4e}, observed var {var:.4e}, truth {truth:.4e}");
+    assert_close(predicted, truth, 0.0, 0.15, "mean u_mean_unc^2 vs truth");
+    assert_close(
+        var,
+        truth,
+        0.0,
+        0.3,
+        "observed scatter vs truth (150 trials)",
+    );
+}
