@@ -19,7 +19,7 @@
 //! 3. quantities: u64 count, names (str), then their units (str);
 //! 4. span: opt(u64 first index, u64 last index); unphased, outside (u64);
 //! 5. clock: frames, timed (u64), opt(u64, f64) first, opt(u64, f64) last,
-//!    step_min, step_max (f64);
+//!    u8 irregular, u64 cluster count, each f64 step and u64 count;
 //! 6. ensemble moments (below); 7. phase bins: u64 count, each opt(moments);
 //! 8. lags: opt(max_lag, len (u64), shift vec, u64 block count, each block
 //!    s, p, q, c vecs, head then tail: u64 count, each u64 index + vec);
@@ -228,8 +228,12 @@ impl RunAccumulator {
         w.u64(c.timed);
         w.opt_pair(c.first);
         w.opt_pair(c.last);
-        w.f64(c.step_min);
-        w.f64(c.step_max);
+        w.u8(u8::from(c.irregular));
+        w.u64(c.steps.len() as u64);
+        for &(s, n) in &c.steps {
+            w.f64(s);
+            w.u64(n);
+        }
         w.moments(&self.ens);
         w.u64(self.bins.len() as u64);
         for b in &self.bins {
@@ -337,8 +341,13 @@ impl RunAccumulator {
             timed: r.u64()?,
             first: r.opt_pair()?,
             last: r.opt_pair()?,
-            step_min: r.f64()?,
-            step_max: r.f64()?,
+            irregular: r.flag()?,
+            steps: {
+                let n = r.count(16)?;
+                (0..n)
+                    .map(|_| Ok((r.f64()?, r.u64()?)))
+                    .collect::<Result<Vec<_>>>()?
+            },
         };
         let ens = r.moments(nodes, nq)?;
         let nb = r.count(1)?;

@@ -12,7 +12,11 @@
 //! present, divided by the variance about the final mean:
 //! `rho(k) = [sum_pairs (x_t - m)(x_{t+k} - m) / C_k] / (M2 / N)`.
 //! Gaps (a node not valid in a frame, a frame not offered) simply remove
-//! pairs: lags are differences of the run-wide frame index.
+//! pairs: lags are differences of the run-wide frame index. Per node, not
+//! from a spatial average: the integral time scale differs across a wake.
+//! Bias of this estimator on uncorrelated samples (numpy simulation, 2000
+//! trials, recorded in the stats report): mean N_eff/N = 0.91 at N = 100,
+//! 0.93 at 200, 0.96 at 1000 (median 1.0): slightly conservative.
 //!
 //! Merging: per series, node and lag we keep, relative to a shift `c` (the
 //! node's first sample, which limits cancellation), `S_k = sum x y`,
@@ -95,15 +99,18 @@ impl Lags {
     fn pair(&mut self, k: usize, earlier: &[f64], later: &[f64]) {
         let shift = std::mem::take(&mut self.shift);
         let b = self.block(k);
-        for j in 0..earlier.len() {
-            let (a, l) = (earlier[j], later[j]);
+        let sums =
+            b.s.iter_mut()
+                .zip(b.p.iter_mut())
+                .zip(b.q.iter_mut())
+                .zip(b.c.iter_mut());
+        for ((((s, p), q), c), ((&a, &l), &sh)) in sums.zip(earlier.iter().zip(later).zip(&shift)) {
             if a.is_finite() && l.is_finite() {
-                let x = a - shift[j];
-                let y = l - shift[j];
-                b.s[j] += x * y;
-                b.p[j] += x;
-                b.q[j] += y;
-                b.c[j] += 1.0;
+                let (x, y) = (a - sh, l - sh);
+                *s += x * y;
+                *p += x;
+                *q += y;
+                *c += 1.0;
             }
         }
         self.shift = shift;
@@ -244,6 +251,16 @@ fn finish_neff(n: f64, sum: f64) -> f64 {
 }
 
 /// Whether the frames' `time_s` is uniform in the run-wide frame index.
+///
+/// Rule (documented choice): the time step per index step between
+/// consecutive timed frames is clustered (members within `UNIFORM_TOL` of
+/// the cluster's smallest step). The run is time-resolved when every frame
+/// has a time and at least `RESOLVED_SHARE` of the steps fall in the
+/// smallest positive cluster; larger steps are gaps (burst recording, a
+/// pause). Lag pairs are formed by index, so the few pairs that straddle a
+/// gap enter the autocorrelation too; with bursts of B frames they are a
+/// fraction of about k/B of the pairs at lag k. More than `MAX_CLUSTERS`
+/// distinct steps: irregular, samples independent.
 #[derive(Debug, Clone, PartialEq, Default)]
 pub struct Clock {
     pub frames: u64,
@@ -251,27 +268,51 @@ pub struct Clock {
     pub timed: u64,
     pub first: Option<(u64, f64)>,
     pub last: Option<(u64, f64)>,
-    /// Smallest and largest time step per index step between timed frames.
-    pub step_min: f64,
-    pub step_max: f64,
+    /// (smallest step of the cluster, number of steps), in order of first
+    /// appearance.
+    pub steps: Vec<(f64, u64)>,
+    pub irregular: bool,
 }
 
-/// Relative spread of time steps accepted as uniform (printed times round).
+/// Relative spread of time steps taken as one step (printed times round).
 pub const UNIFORM_TOL: f64 = 0.01;
+/// Share of the steps that must be the base step.
+pub const RESOLVED_SHARE: f64 = 0.9;
+/// Distinct step clusters kept before the clock is called irregular.
+pub const MAX_CLUSTERS: usize = 32;
+
+/// The time base of a time-resolved run.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct TimeBase {
+    /// Seconds per frame index.
+    pub step: f64,
+    /// Steps longer than the base step.
+    pub gaps: u64,
+}
 
 impl Clock {
     pub fn new() -> Self {
-        Clock {
-            step_min: f64::INFINITY,
-            step_max: f64::NEG_INFINITY,
-            ..Default::default()
+        Clock::default()
+    }
+
+    fn add_step(&mut self, s: f64, n: u64) {
+        if self.irregular {
+            return;
+        }
+        let near = |c: f64| (s - c).abs() <= UNIFORM_TOL * c.abs().min(s.abs());
+        if let Some(cl) = self.steps.iter_mut().find(|(c, _)| near(*c)) {
+            cl.0 = cl.0.min(s);
+            cl.1 += n;
+        } else if self.steps.len() < MAX_CLUSTERS {
+            self.steps.push((s, n));
+        } else {
+            self.irregular = true;
+            self.steps.clear();
         }
     }
 
     fn step(&mut self, a: (u64, f64), b: (u64, f64)) {
-        let s = (b.1 - a.1) / (b.0 - a.0) as f64;
-        self.step_min = self.step_min.min(s);
-        self.step_max = self.step_max.max(s);
+        self.add_step((b.1 - a.1) / (b.0 - a.0) as f64, 1);
     }
 
     pub fn push(&mut self, index: u64, time: Option<f64>) {
@@ -292,26 +333,39 @@ impl Clock {
         if let (Some(l), Some(f)) = (self.last, b.first) {
             self.step(l, f);
         }
-        self.step_min = self.step_min.min(b.step_min);
-        self.step_max = self.step_max.max(b.step_max);
+        if b.irregular {
+            self.irregular = true;
+            self.steps.clear();
+        }
+        for &(s, n) in &b.steps {
+            self.add_step(s, n);
+        }
         self.frames += b.frames;
         self.timed += b.timed;
         self.first = self.first.or(b.first);
         self.last = b.last.or(self.last);
     }
 
-    /// The time step when every frame had a time and the steps agree within
-    /// `UNIFORM_TOL`; `None` otherwise (samples are then independent).
-    pub fn uniform_step(&self) -> Option<f64> {
-        if self.frames < 3
-            || self.timed != self.frames
-            || self.step_min.is_nan()
-            || self.step_min <= 0.0
-        {
+    /// The time base when the run is time-resolved (see the type doc);
+    /// `None` otherwise (samples are then independent).
+    pub fn time_base(&self) -> Option<TimeBase> {
+        if self.frames < 3 || self.timed != self.frames || self.irregular {
             return None;
         }
-        let mid = 0.5 * (self.step_min + self.step_max);
-        ((self.step_max - self.step_min) <= UNIFORM_TOL * mid).then_some(mid)
+        let total: u64 = self.steps.iter().map(|c| c.1).sum();
+        let &(step, n) = self
+            .steps
+            .iter()
+            .filter(|c| c.0 > 0.0)
+            .min_by(|a, b| a.0.total_cmp(&b.0))?;
+        let later = self
+            .steps
+            .iter()
+            .filter(|c| c.0 > step)
+            .map(|c| c.1)
+            .sum::<u64>();
+        let ok = n as f64 >= RESOLVED_SHARE * total as f64 && n + later == total;
+        ok.then_some(TimeBase { step, gaps: later })
     }
 }
 
@@ -352,6 +406,10 @@ mod tests {
             l.push(i as u64, vec![x]);
         }
         let ne = n_eff_of(&l, &xs, 50);
+        eprintln!(
+            "AR(1) a = 0.5, N = {n}: N_eff = {ne:.1} (N/3 = {:.1})",
+            n as f64 / 3.0
+        );
         assert_close(ne, n as f64 / 3.0, 0.0, 0.05, "N_eff of AR(1) 0.5");
         // White noise: N_eff close to N (first zero crossing cuts at once or soon).
         let xs = ar1(n, 0.0, 22);
@@ -412,15 +470,35 @@ mod tests {
         }
         let mut m = a.clone();
         m.merge(&b);
-        assert_close(m.uniform_step().unwrap(), 0.01, 0.0, 1e-9, "step");
+        let tb = m.time_base().unwrap();
+        assert_close(tb.step, 0.01, 0.0, 1e-9, "step");
+        assert_eq!(tb.gaps, 0);
+        // One step back in time: not resolved.
         let mut c = Clock::new();
-        c.push(9, Some(0.2));
-        m.merge(&c);
-        assert!(m.uniform_step().is_none());
+        c.push(9, Some(0.0));
+        let mut back = m.clone();
+        back.merge(&c);
+        assert!(back.time_base().is_none());
+        // Bursts: 3 bursts of 20 frames at 1 ms, 1 s apart: resolved, 2 gaps.
+        let mut burst = Clock::new();
+        for i in 0..60u64 {
+            burst.push(i, Some((i / 20) as f64 + 1e-3 * (i % 20) as f64));
+        }
+        let tb = burst.time_base().unwrap();
+        assert_eq!(tb.gaps, 2);
+        assert_close(tb.step, 1e-3, 0.0, 1e-6, "burst step");
+        // Steps that alternate 1 and 2 ms: half the steps are not the base.
+        let mut alt = Clock::new();
+        let mut t = 0.0;
+        for i in 0..40u64 {
+            alt.push(i, Some(t));
+            t += if i % 2 == 0 { 1e-3 } else { 2e-3 };
+        }
+        assert!(alt.time_base().is_none());
         let mut d = Clock::new();
         d.push(0, None);
         d.push(1, None);
         d.push(2, None);
-        assert!(d.uniform_step().is_none());
+        assert!(d.time_base().is_none());
     }
 }

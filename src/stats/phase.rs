@@ -12,7 +12,7 @@
 //! "no phase".
 //!
 //! Triple decomposition (Reynolds & Hussain 1972, J. Fluid Mech. 54:263,
-//! from memory): u = U + u~ + u'', with U the mean, u~ = <u>_phase - U the
+//! from memory): u = U + u~ + u'', with U the mean, u~ = `<u>_phase` - U the
 //! coherent part and u'' the stochastic rest. Over the binned samples of a
 //! node (N_b of them, bin counts n_k, bin means m_k, bin second central sums
 //! M2_k, M' = sum n_k m_k / N_b) the total sum of squares splits exactly

@@ -16,6 +16,13 @@
 //! half its standard uncertainty, so a false alarm is about a 4-sigma event.
 //! Fewer than 10 samples before the tail: a warning that convergence cannot
 //! be judged.
+//!
+//! Table columns, one row per probe and frame offered (probe by probe, in
+//! frame order): `frame` (run-wide frame index), the running values
+//! `u_mean, v_mean, omega_mean, u_std, v_std, omega_std, u_mean_unc,
+//! v_mean_unc, omega_mean_unc` (NaN until there are enough samples),
+//! `n_samples` (u samples so far), `probe` (0-based, pipeline order),
+//! `probe_x, probe_y` (the point asked for), `x, y` (the node traced).
 
 use super::gum;
 use crate::field::Grid;
@@ -168,23 +175,25 @@ pub(super) fn convergence(
             }
         }
     }
+    // Statistics first, keys after (see the module doc for the order).
     let mut t = Table::new();
+    t.push("frame", Values::I64(frame));
+    let n_samples = cols[0].iter().map(|&n| n as i64).collect();
+    for what in 0..3 {
+        for (s, (name, _)) in NAMES.iter().enumerate() {
+            let suffix = ["mean", "std", "mean_unc"][what];
+            t.push(
+                format!("{name}_{suffix}"),
+                Values::F64(cols[1 + 3 * s + what].clone()),
+            );
+        }
+    }
+    t.push("n_samples", Values::I64(n_samples));
     t.push("probe", Values::I64(probe));
     t.push("probe_x", Values::F64(px));
     t.push("probe_y", Values::F64(py));
     t.push("x", Values::F64(nx_));
     t.push("y", Values::F64(ny_));
-    t.push("frame", Values::I64(frame));
-    let mut it = cols.into_iter();
-    t.push(
-        "n_samples",
-        Values::I64(it.next().unwrap().into_iter().map(|n| n as i64).collect()),
-    );
-    for (name, _) in NAMES {
-        t.push(format!("{name}_mean"), Values::F64(it.next().unwrap()));
-        t.push(format!("{name}_std"), Values::F64(it.next().unwrap()));
-        t.push(format!("{name}_mean_unc"), Values::F64(it.next().unwrap()));
-    }
     t
 }
 

@@ -1,5 +1,5 @@
-//! Finishing: accumulated sums → the ensemble and phase tables, summary
-//! scalars and warnings.
+//! The node tables: accumulated moments → the ensemble or a phase bin's
+//! columns with their uncertainties.
 //!
 //! Columns, in order (NN = the coverage in percent, e.g. 95):
 //! CONTRACT: `n_valid, u_mean, v_mean, u_std, v_std, uv_cov, omega_mean,
@@ -45,9 +45,7 @@
 
 use super::gum::{self, Component};
 use super::moments::{Moments, Scalar};
-use super::phase;
-use super::probes::{self, ProbeInput};
-use super::{Params, PhaseBin, RunAccumulator, RunStats};
+use super::Params;
 use crate::field::{Grid, NodeTable};
 
 /// Column suffix of the expanded uncertainty: 0.95 → "p95", 0.9545 → "p95_45".
@@ -93,15 +91,15 @@ pub fn scale_exponents(unit: &str) -> Option<(i32, i32)> {
 }
 
 /// What the table builder needs besides the moments.
-struct Ctx<'a> {
-    grid: Grid,
-    p: &'a Params,
-    quantities: &'a [String],
+pub(super) struct Ctx<'a> {
+    pub grid: Grid,
+    pub p: &'a Params,
+    pub quantities: &'a [String],
     /// Relative scale uncertainty of each quantity (NaN-free; 0 when none).
-    q_rel: Vec<f64>,
-    vel_rel: f64,
-    omega: Option<usize>,
-    suffix: String,
+    pub q_rel: Vec<f64>,
+    pub vel_rel: f64,
+    pub omega: Option<usize>,
+    pub suffix: String,
 }
 
 /// Statistics of one scalar at one node.
@@ -142,137 +140,98 @@ fn stat(s: &Scalar, k: usize) -> Stat {
     }
 }
 
-/// (combined, expanded) standard uncertainty of a mean.
-fn mean_uncs(st: &Stat, n_eff: f64, rel: f64, coverage: f64) -> (f64, f64) {
-    if st.n < 2.0 {
-        return (f64::NAN, f64::NAN);
-    }
-    let mut c = vec![Component {
-        u: gum::mean_unc(st.std, n_eff),
-        dof: n_eff - 1.0,
-    }];
-    if st.bias.is_finite() {
-        c.push(Component {
-            u: st.bias,
-            dof: f64::INFINITY,
-        });
-    }
-    if rel > 0.0 {
-        c.push(Component {
-            u: rel * st.mean.abs(),
-            dof: f64::INFINITY,
-        });
-    }
-    (gum::combine(&c).0, gum::expanded(&c, coverage))
+/// A scalar's statistics at one node with its uncertainties.
+struct Full {
+    st: Stat,
+    /// Combined and expanded standard uncertainty of the mean.
+    mean_unc: f64,
+    mean_exp: f64,
+    std_unc: f64,
 }
 
-fn std_unc(st: &Stat, n_eff: f64, rel: f64) -> f64 {
-    let r = gum::std_unc(st.std, n_eff);
-    (r * r + (rel * st.std).powi(2)).sqrt()
+/// The statistics of `s` at every node, with N_eff `neff` and the relative
+/// scale uncertainty `rel` (see the module doc).
+fn full(s: &Scalar, neff: &[f64], rel: f64, coverage: f64) -> Vec<Full> {
+    (0..s.n.len())
+        .map(|k| {
+            let st = stat(s, k);
+            let ne = neff[k];
+            let (mut mean_unc, mut mean_exp) = (f64::NAN, f64::NAN);
+            if st.n >= 2.0 {
+                let mut c = vec![Component {
+                    u: gum::mean_unc(st.std, ne),
+                    dof: ne - 1.0,
+                }];
+                if st.bias.is_finite() {
+                    c.push(Component {
+                        u: st.bias,
+                        dof: f64::INFINITY,
+                    });
+                }
+                if rel > 0.0 {
+                    c.push(Component {
+                        u: rel * st.mean.abs(),
+                        dof: f64::INFINITY,
+                    });
+                }
+                let (uc, nu) = gum::combine(&c);
+                mean_unc = uc;
+                mean_exp = if uc == 0.0 {
+                    0.0
+                } else {
+                    gum::coverage_factor(coverage, nu) * uc
+                };
+            }
+            let r = gum::std_unc(st.std, ne);
+            let std_unc = (r * r + (rel * st.std).powi(2)).sqrt();
+            Full {
+                st,
+                mean_unc,
+                mean_exp,
+                std_unc,
+            }
+        })
+        .collect()
 }
 
 /// The columns of one set of moments (ensemble or bin). `neff` holds the
 /// per-node N_eff of (u, v, omega); `k_parts` the k_coherent and
 /// k_stochastic maps.
-fn node_table(
+pub(super) fn node_table(
     m: &Moments,
     neff: &[Vec<f64>; 3],
     k_parts: (Vec<f64>, Vec<f64>),
     c: &Ctx,
 ) -> NodeTable {
-    let nodes = c.grid.len();
-    let cols = |f: &dyn Fn(usize) -> f64| -> Vec<f64> { (0..nodes).map(f).collect() };
-    let empty = Scalar::new(nodes);
-    let om = c.omega.map_or(&empty, |o| &m.q[o]);
-    let su = |k| stat(&m.u, k);
-    let sv = |k| stat(&m.v, k);
-    let sw = |k| stat(om, k);
-    let cov = |k: usize| {
-        if m.u.n[k] >= 2.0 {
-            m.cuv[k] / (m.u.n[k] - 1.0)
-        } else {
-            f64::NAN
-        }
-    };
-    let w_rel = c.omega.map_or(0.0, |o| c.q_rel[o]);
     let cv = c.p.coverage;
-    let mut t = NodeTable::new(c.grid);
-    // CONTRACT columns, in order.
-    t.push("n_valid", m.n_valid.clone());
-    t.push("u_mean", cols(&|k| su(k).mean));
-    t.push("v_mean", cols(&|k| sv(k).mean));
-    t.push("u_std", cols(&|k| su(k).std));
-    t.push("v_std", cols(&|k| sv(k).std));
-    t.push("uv_cov", cols(&cov));
-    t.push("omega_mean", cols(&|k| sw(k).mean));
-    t.push("omega_std", cols(&|k| sw(k).std));
-    t.push(
-        "u_mean_unc",
-        cols(&|k| mean_uncs(&su(k), neff[0][k], c.vel_rel, cv).0),
-    );
-    t.push(
-        "v_mean_unc",
-        cols(&|k| mean_uncs(&sv(k), neff[1][k], c.vel_rel, cv).0),
-    );
-    t.push(
-        "omega_mean_unc",
-        cols(&|k| mean_uncs(&sw(k), neff[2][k], w_rel, cv).0),
-    );
-    t.push("omega_inst_unc", cols(&|k| sw(k).inst));
-    // Our own.
-    let sfx = &c.suffix;
-    t.push("n_samples", m.u.n.clone());
-    t.push(
-        "u_std_unc",
-        cols(&|k| std_unc(&su(k), neff[0][k], c.vel_rel)),
-    );
-    t.push(
-        "v_std_unc",
-        cols(&|k| std_unc(&sv(k), neff[1][k], c.vel_rel)),
-    );
-    t.push(
-        "uv_cov_unc",
-        cols(&|k| {
+    let empty = Scalar::new(c.grid.len());
+    let w_rel = c.omega.map_or(0.0, |o| c.q_rel[o]);
+    let fu = full(&m.u, &neff[0], c.vel_rel, cv);
+    let fv = full(&m.v, &neff[1], c.vel_rel, cv);
+    let fw = full(c.omega.map_or(&empty, |o| &m.q[o]), &neff[2], w_rel, cv);
+    let col = |f: &[Full], g: &dyn Fn(&Full) -> f64| -> Vec<f64> { f.iter().map(g).collect() };
+    let cov: Vec<f64> = (0..m.cuv.len())
+        .map(|k| {
+            if m.u.n[k] >= 2.0 {
+                m.cuv[k] / (m.u.n[k] - 1.0)
+            } else {
+                f64::NAN
+            }
+        })
+        .collect();
+    let cov_unc: Vec<f64> = (0..cov.len())
+        .map(|k| {
             let ne = neff[0][k].min(neff[1][k]);
-            let r = gum::cov_unc(su(k).std, sv(k).std, cov(k), ne);
-            (r * r + (2.0 * c.vel_rel * cov(k)).powi(2)).sqrt()
-        }),
-    );
-    t.push(
-        "omega_std_unc",
-        cols(&|k| std_unc(&sw(k), neff[2][k], w_rel)),
-    );
-    t.push(
-        format!("u_mean_unc_{sfx}"),
-        cols(&|k| mean_uncs(&su(k), neff[0][k], c.vel_rel, cv).1),
-    );
-    t.push(
-        format!("v_mean_unc_{sfx}"),
-        cols(&|k| mean_uncs(&sv(k), neff[1][k], c.vel_rel, cv).1),
-    );
-    t.push(
-        format!("omega_mean_unc_{sfx}"),
-        cols(&|k| mean_uncs(&sw(k), neff[2][k], w_rel, cv).1),
-    );
-    t.push("u_inst_unc", cols(&|k| su(k).inst));
-    t.push("v_inst_unc", cols(&|k| sv(k).inst));
-    t.push("omega_bias", cols(&|k| sw(k).bias));
-    t.push(
-        "k",
-        cols(&|k| 0.5 * (su(k).std.powi(2) + sv(k).std.powi(2))),
-    );
-    t.push("k_coherent", k_parts.0);
-    t.push("k_stochastic", k_parts.1);
-    t.push("u_skew", cols(&|k| su(k).skew));
-    t.push("u_flat", cols(&|k| su(k).flat));
-    t.push("v_skew", cols(&|k| sv(k).skew));
-    t.push("v_flat", cols(&|k| sv(k).flat));
-    t.push("omega_skew", cols(&|k| sw(k).skew));
-    t.push("omega_flat", cols(&|k| sw(k).flat));
-    t.push("u_n_eff", neff[0].clone());
-    t.push("v_n_eff", neff[1].clone());
-    t.push("omega_n_eff", neff[2].clone());
-    let frac = |x: &Vec<f64>| {
+            let r = gum::cov_unc(fu[k].st.std, fv[k].st.std, cov[k], ne);
+            (r * r + (2.0 * c.vel_rel * cov[k]).powi(2)).sqrt()
+        })
+        .collect();
+    let kk: Vec<f64> = fu
+        .iter()
+        .zip(&fv)
+        .map(|(a, b)| 0.5 * (a.st.std.powi(2) + b.st.std.powi(2)))
+        .collect();
+    let frac = |x: &Vec<f64>| -> Vec<f64> {
         x.iter()
             .map(|&a| {
                 if m.frames > 0.0 {
@@ -283,297 +242,67 @@ fn node_table(
             })
             .collect()
     };
+    let sfx = &c.suffix;
+    let mut t = NodeTable::new(c.grid);
+    // CONTRACT columns, in order.
+    t.push("n_valid", m.n_valid.clone());
+    t.push("u_mean", col(&fu, &|f| f.st.mean));
+    t.push("v_mean", col(&fv, &|f| f.st.mean));
+    t.push("u_std", col(&fu, &|f| f.st.std));
+    t.push("v_std", col(&fv, &|f| f.st.std));
+    t.push("uv_cov", cov);
+    t.push("omega_mean", col(&fw, &|f| f.st.mean));
+    t.push("omega_std", col(&fw, &|f| f.st.std));
+    t.push("u_mean_unc", col(&fu, &|f| f.mean_unc));
+    t.push("v_mean_unc", col(&fv, &|f| f.mean_unc));
+    t.push("omega_mean_unc", col(&fw, &|f| f.mean_unc));
+    t.push("omega_inst_unc", col(&fw, &|f| f.st.inst));
+    // Our own.
+    t.push("n_samples", m.u.n.clone());
+    t.push("u_std_unc", col(&fu, &|f| f.std_unc));
+    t.push("v_std_unc", col(&fv, &|f| f.std_unc));
+    t.push("uv_cov_unc", cov_unc);
+    t.push("omega_std_unc", col(&fw, &|f| f.std_unc));
+    t.push(format!("u_mean_unc_{sfx}"), col(&fu, &|f| f.mean_exp));
+    t.push(format!("v_mean_unc_{sfx}"), col(&fv, &|f| f.mean_exp));
+    t.push(format!("omega_mean_unc_{sfx}"), col(&fw, &|f| f.mean_exp));
+    t.push("u_inst_unc", col(&fu, &|f| f.st.inst));
+    t.push("v_inst_unc", col(&fv, &|f| f.st.inst));
+    t.push("omega_bias", col(&fw, &|f| f.st.bias));
+    t.push("k", kk);
+    t.push("k_coherent", k_parts.0);
+    t.push("k_stochastic", k_parts.1);
+    t.push("u_skew", col(&fu, &|f| f.st.skew));
+    t.push("u_flat", col(&fu, &|f| f.st.flat));
+    t.push("v_skew", col(&fv, &|f| f.st.skew));
+    t.push("v_flat", col(&fv, &|f| f.st.flat));
+    t.push("omega_skew", col(&fw, &|f| f.st.skew));
+    t.push("omega_flat", col(&fw, &|f| f.st.flat));
+    t.push("u_n_eff", neff[0].clone());
+    t.push("v_n_eff", neff[1].clone());
+    t.push("omega_n_eff", neff[2].clone());
     t.push("outlier_frac", frac(&m.n_replaced));
     t.push("filled_frac", frac(&m.n_filled));
     for (qi, name) in c.quantities.iter().enumerate() {
         if Some(qi) == c.omega {
             continue;
         }
-        let s = |k| stat(&m.q[qi], k);
-        let rel = c.q_rel[qi];
-        t.push(format!("{name}_mean"), cols(&|k| s(k).mean));
-        t.push(format!("{name}_std"), cols(&|k| s(k).std));
-        t.push(
-            format!("{name}_mean_unc"),
-            cols(&|k| mean_uncs(&s(k), neff[2][k], rel, cv).0),
-        );
-        t.push(
-            format!("{name}_std_unc"),
-            cols(&|k| std_unc(&s(k), neff[2][k], rel)),
-        );
-        t.push(
-            format!("{name}_mean_unc_{sfx}"),
-            cols(&|k| mean_uncs(&s(k), neff[2][k], rel, cv).1),
-        );
-        t.push(format!("{name}_inst_unc"), cols(&|k| s(k).inst));
-        t.push(format!("{name}_bias"), cols(&|k| s(k).bias));
+        let fq = full(&m.q[qi], &neff[2], c.q_rel[qi], cv);
+        t.push(format!("{name}_mean"), col(&fq, &|f| f.st.mean));
+        t.push(format!("{name}_std"), col(&fq, &|f| f.st.std));
+        t.push(format!("{name}_mean_unc"), col(&fq, &|f| f.mean_unc));
+        t.push(format!("{name}_std_unc"), col(&fq, &|f| f.std_unc));
+        t.push(format!("{name}_mean_unc_{sfx}"), col(&fq, &|f| f.mean_exp));
+        t.push(format!("{name}_inst_unc"), col(&fq, &|f| f.st.inst));
+        t.push(format!("{name}_bias"), col(&fq, &|f| f.st.bias));
     }
     t
 }
 
 /// N_eff = N for every series (independent samples).
-fn independent(m: &Moments, omega: Option<usize>) -> [Vec<f64>; 3] {
+pub(super) fn independent(m: &Moments, omega: Option<usize>) -> [Vec<f64>; 3] {
     let w = omega.map_or_else(|| m.u.n.clone(), |o| m.q[o].n.clone());
     [m.u.n.clone(), m.v.n.clone(), w]
-}
-
-pub(super) fn finish(acc: &RunAccumulator, p: &Params) -> RunStats {
-    let mut warnings = Vec::new();
-    let grid = acc.grid;
-    let nodes = grid.len();
-    let omega = acc.omega();
-    if omega.is_none() {
-        warnings.push("no omega among the derived quantities; the omega columns are empty".into());
-    }
-    let rel = |unit: &str, name: &str, warnings: &mut Vec<String>| -> f64 {
-        if p.calibration_unc == 0.0 && p.pulse_separation_unc == 0.0 {
-            return 0.0;
-        }
-        match scale_exponents(unit) {
-            Some((a, b)) => ((a as f64 * p.calibration_unc).powi(2)
-                + (b as f64 * p.pulse_separation_unc).powi(2))
-            .sqrt(),
-            None => {
-                warnings.push(format!(
-                    "unit '{unit}' of {name} is not of the form m^a/s^b; its calibration and pulse-separation uncertainty is left out"
-                ));
-                0.0
-            }
-        }
-    };
-    let q_rel = acc
-        .quantities
-        .iter()
-        .zip(&acc.units)
-        .map(|(q, u)| rel(u, q, &mut warnings))
-        .collect();
-    let ctx = Ctx {
-        grid,
-        p,
-        quantities: &acc.quantities,
-        q_rel,
-        vel_rel: rel("m/s", "velocity", &mut warnings),
-        omega,
-        suffix: coverage_suffix(p.coverage),
-    };
-
-    // Effective sample size.
-    let mut neff = independent(&acc.ens, omega);
-    let mut run_neff = None;
-    let step = acc.clock.uniform_step();
-    if acc.clock.timed > 0 && step.is_none() && acc.clock.frames >= 3 {
-        warnings.push(format!(
-            "{} of {} frames have time_s but the steps are not uniform; samples are treated as independent (N_eff = N)",
-            acc.clock.timed, acc.clock.frames
-        ));
-    }
-    if let (Some(_), Some(lags)) = (step, acc.lags.as_ref()) {
-        let cap = p.max_lag.min(acc.params.max_lag).max(1);
-        let mut capped = [0usize; 3];
-        let series: Vec<&Scalar> = match omega {
-            Some(o) => vec![&acc.ens.u, &acc.ens.v, &acc.ens.q[o]],
-            None => vec![&acc.ens.u, &acc.ens.v],
-        };
-        for (s, sc) in series.iter().enumerate() {
-            for (k, slot) in neff[s].iter_mut().enumerate() {
-                let (ne, _, hit) = lags.n_eff(s * nodes + k, sc.n[k], sc.mean[k], sc.m2[k], cap);
-                *slot = ne;
-                capped[s] += usize::from(hit);
-            }
-        }
-        if omega.is_none() {
-            neff[2] = (0..nodes).map(|k| neff[0][k].min(neff[1][k])).collect();
-        }
-        for (s, name) in ["u", "v", "omega"].iter().enumerate() {
-            if capped[s] > 0 {
-                warnings.push(format!(
-                    "at {} of {nodes} nodes the autocorrelation of {name} is still positive at the lag cap ({cap} frames); N_eff there is an upper bound (raise [statistics] max_lag)",
-                    capped[s]
-                ));
-            }
-        }
-        let vals: Vec<f64> = (0..nodes)
-            .filter(|&k| acc.ens.u.n[k] > 0.0)
-            .map(|k| 0.5 * (neff[0][k] + neff[1][k]))
-            .collect();
-        if !vals.is_empty() {
-            run_neff = Some(vals.iter().sum::<f64>() / vals.len() as f64);
-        }
-    }
-
-    // Phase bins and the energy split.
-    let has_phase = acc.bins.iter().any(|b| b.is_some()) || acc.outside > 0;
-    let empty = Moments::new(nodes, acc.quantities.len());
-    let bin_moments: Vec<&Moments> = acc
-        .bins
-        .iter()
-        .map(|b| b.as_ref().unwrap_or(&empty))
-        .collect();
-    let mut phase_tables = Vec::new();
-    let (k_coh, k_sto) = if has_phase {
-        phase::energy_split(&bin_moments, nodes)
-    } else {
-        (vec![f64::NAN; nodes], vec![f64::NAN; nodes])
-    };
-    let ensemble = node_table(&acc.ens, &neff, (k_coh.clone(), k_sto.clone()), &ctx);
-    let mut summary = Vec::new();
-    if has_phase {
-        let mean = |s: &Scalar, k: usize| if s.n[k] > 0.0 { s.mean[k] } else { f64::NAN };
-        for (b, m) in bin_moments.iter().enumerate() {
-            let coh: Vec<[f64; 3]> = (0..nodes)
-                .map(|k| {
-                    let w = omega.map_or(f64::NAN, |o| mean(&m.q[o], k) - mean(&acc.ens.q[o], k));
-                    [
-                        mean(&m.u, k) - mean(&acc.ens.u, k),
-                        mean(&m.v, k) - mean(&acc.ens.v, k),
-                        w,
-                    ]
-                })
-                .collect();
-            let kc = coh
-                .iter()
-                .map(|c| 0.5 * (c[0] * c[0] + c[1] * c[1]))
-                .collect();
-            let ks = (0..nodes)
-                .map(|k| {
-                    if m.u.n[k] >= 2.0 {
-                        0.5 * (m.u.m2[k] + m.v.m2[k]) / (m.u.n[k] - 1.0)
-                    } else {
-                        f64::NAN
-                    }
-                })
-                .collect();
-            let mut table = node_table(m, &independent(m, omega), (kc, ks), &ctx);
-            for (i, name) in ["u_coherent", "v_coherent", "omega_coherent"]
-                .iter()
-                .enumerate()
-            {
-                table.push(*name, coh.iter().map(|c| c[i]).collect());
-            }
-            phase_tables.push(PhaseBin {
-                bin: b,
-                centre_deg: phase::centre_deg(acc.params.phase_bins, b),
-                n_frames: m.frames as usize,
-                table,
-            });
-        }
-        let empty_bins: Vec<String> = phase_tables
-            .iter()
-            .filter(|b| b.n_frames == 0)
-            .map(|b| b.bin.to_string())
-            .collect();
-        if !empty_bins.is_empty() {
-            warnings.push(format!(
-                "phase bins {} hold no frames",
-                empty_bins.join(", ")
-            ));
-        }
-        if acc.unphased > 0 {
-            warnings.push(format!(
-                "{} of {} frames have no phase_deg; they are left out of the phase bins",
-                acc.unphased, acc.clock.frames
-            ));
-        }
-        if acc.outside > 0 {
-            warnings.push(format!(
-                "{} frames lie outside every phase window ({} degrees wide); they are left out of the phase bins",
-                acc.outside,
-                acc.params.phase_width_deg.unwrap_or(f64::NAN)
-            ));
-        }
-        let (sc, ss): (f64, f64) = k_coh
-            .iter()
-            .zip(&k_sto)
-            .filter(|(a, b)| a.is_finite() && b.is_finite())
-            .fold((0.0, 0.0), |(x, y), (a, b)| (x + a, y + b));
-        if sc + ss > 0.0 {
-            summary.push(("k_coherent_frac".to_string(), sc / (sc + ss)));
-            summary.push(("k_stochastic_frac".to_string(), ss / (sc + ss)));
-        }
-        summary.push((
-            "phase_frames".to_string(),
-            bin_moments.iter().map(|m| m.frames).sum(),
-        ));
-    }
-
-    // Summary scalars.
-    let col = |n: &str| ensemble.get(n).expect("column");
-    let (om, omu) = (col("omega_mean"), col("omega_mean_unc"));
-    if let Some(k) = (0..nodes)
-        .filter(|&k| om[k].is_finite())
-        .max_by(|&a, &b| om[a].abs().total_cmp(&om[b].abs()))
-    {
-        summary.push(("omega_mean_peak".into(), om[k]));
-        summary.push(("omega_mean_peak_unc".into(), omu[k]));
-        summary.push(("omega_mean_peak_x".into(), grid.x(k % grid.nx)));
-        summary.push(("omega_mean_peak_y".into(), grid.y(k / grid.nx)));
-    }
-    for name in ["u_mean_unc", "omega_mean_unc"] {
-        let mut v: Vec<f64> = col(name)
-            .iter()
-            .copied()
-            .filter(|x| x.is_finite())
-            .collect();
-        if !v.is_empty() {
-            v.sort_by(f64::total_cmp);
-            summary.push((format!("{name}_median"), v[v.len() / 2]));
-        }
-    }
-    if let Some(ne) = run_neff {
-        summary.push(("n_eff_mean".into(), ne));
-        let n = col("n_samples");
-        let r: Vec<f64> = (0..nodes)
-            .filter(|&k| n[k] > 0.0)
-            .map(|k| 0.5 * (neff[0][k] + neff[1][k]) / n[k])
-            .collect();
-        summary.push(("n_eff_ratio".into(), r.iter().sum::<f64>() / r.len() as f64));
-        summary.push(("time_step_s".into(), step.unwrap_or(f64::NAN)));
-    }
-    let samples = col("n_samples");
-    summary.push((
-        "samples_per_node_mean".into(),
-        samples.iter().sum::<f64>() / nodes.max(1) as f64,
-    ));
-
-    // Convergence at the probes.
-    let convergence = (!acc.traces.is_empty()).then(|| {
-        let inputs: Vec<ProbeInput> = acc
-            .traces
-            .iter()
-            .zip(&acc.params.probes)
-            .map(|(t, &point)| {
-                let k = t.node;
-                let ratio = |s: usize, n: f64| if n > 0.0 { neff[s][k] / n } else { 1.0 };
-                let nw = omega.map_or(0.0, |o| acc.ens.q[o].n[k]);
-                ProbeInput {
-                    point,
-                    node: k,
-                    rows: &t.rows,
-                    ratio: [
-                        ratio(0, acc.ens.u.n[k]),
-                        ratio(1, acc.ens.v.n[k]),
-                        ratio(2, nw),
-                    ],
-                }
-            })
-            .collect();
-        probes::convergence(
-            &grid,
-            &inputs,
-            p.convergence_tail,
-            p.coverage,
-            &mut warnings,
-        )
-    });
-
-    RunStats {
-        ensemble,
-        phase: phase_tables,
-        convergence,
-        n_eff: run_neff,
-        summary,
-        warnings,
-    }
 }
 
 #[cfg(test)]

@@ -1,0 +1,284 @@
+//! Finishing a run: N_eff from the lag sums, the ensemble and phase
+//! tables (`table`), the energy split (`phase`), summary scalars for
+//! campaign.csv, convergence at the probes (`probes`) and the warnings.
+//!
+//! Summary scalars (name, SI value): `omega_mean_peak` (signed omega_mean
+//! of largest magnitude over the nodes with at least half the best node's
+//! samples) with `_unc`, `_x`, `_y`; `u_mean_unc_median`,
+//! `omega_mean_unc_median`; for time-resolved runs `n_eff_mean` (mean over
+//! nodes of (u_n_eff + v_n_eff)/2), `n_eff_ratio` (its mean ratio to the
+//! samples) and `time_step_s`; with phases `k_coherent_frac`,
+//! `k_stochastic_frac` (sums over nodes) and `phase_frames`; always
+//! `samples_per_node_mean`.
+
+use super::moments::{Moments, Scalar};
+use super::phase;
+use super::probes::{self, ProbeInput};
+use super::table::{coverage_suffix, independent, node_table, scale_exponents, Ctx};
+use super::{Params, PhaseBin, RunAccumulator, RunStats};
+
+pub(super) fn finish(acc: &RunAccumulator, p: &Params) -> RunStats {
+    let mut warnings = Vec::new();
+    let grid = acc.grid;
+    let nodes = grid.len();
+    let omega = acc.omega();
+    if omega.is_none() {
+        warnings.push("no omega among the derived quantities; the omega columns are empty".into());
+    }
+    let rel = |unit: &str, name: &str, warnings: &mut Vec<String>| -> f64 {
+        if p.calibration_unc == 0.0 && p.pulse_separation_unc == 0.0 {
+            return 0.0;
+        }
+        match scale_exponents(unit) {
+            Some((a, b)) => ((a as f64 * p.calibration_unc).powi(2)
+                + (b as f64 * p.pulse_separation_unc).powi(2))
+            .sqrt(),
+            None => {
+                warnings.push(format!(
+                    "unit '{unit}' of {name} is not of the form m^a/s^b; its calibration and pulse-separation uncertainty is left out"
+                ));
+                0.0
+            }
+        }
+    };
+    let q_rel = acc
+        .quantities
+        .iter()
+        .zip(&acc.units)
+        .map(|(q, u)| rel(u, q, &mut warnings))
+        .collect();
+    let ctx = Ctx {
+        grid,
+        p,
+        quantities: &acc.quantities,
+        q_rel,
+        vel_rel: rel("m/s", "velocity", &mut warnings),
+        omega,
+        suffix: coverage_suffix(p.coverage),
+    };
+
+    // Effective sample size.
+    let mut neff = independent(&acc.ens, omega);
+    let mut run_neff = None;
+    let base = acc.clock.time_base();
+    let step = base.map(|b| b.step);
+    if acc.clock.timed > 0 && base.is_none() && acc.clock.frames >= 3 {
+        warnings.push(format!(
+            "{} of {} frames have time_s but the steps are not uniform; samples are treated as independent (N_eff = N)",
+            acc.clock.timed, acc.clock.frames
+        ));
+    }
+    if let Some(b) = base.filter(|b| b.gaps > 0) {
+        warnings.push(format!(
+            "time_s has {} gaps longer than the step of {:.4e} s (burst recording?); N_eff uses the autocorrelation over the frames, including the few lag pairs across a gap",
+            b.gaps, b.step
+        ));
+    }
+    if let (Some(_), Some(lags)) = (step, acc.lags.as_ref()) {
+        let cap = p.max_lag.min(acc.params.max_lag).max(1);
+        let mut capped = [0usize; 3];
+        let series: Vec<&Scalar> = match omega {
+            Some(o) => vec![&acc.ens.u, &acc.ens.v, &acc.ens.q[o]],
+            None => vec![&acc.ens.u, &acc.ens.v],
+        };
+        for (s, sc) in series.iter().enumerate() {
+            for (k, slot) in neff[s].iter_mut().enumerate() {
+                let (ne, _, hit) = lags.n_eff(s * nodes + k, sc.n[k], sc.mean[k], sc.m2[k], cap);
+                *slot = ne;
+                capped[s] += usize::from(hit);
+            }
+        }
+        if omega.is_none() {
+            neff[2] = (0..nodes).map(|k| neff[0][k].min(neff[1][k])).collect();
+        }
+        for (s, name) in ["u", "v", "omega"].iter().enumerate() {
+            if capped[s] > 0 {
+                warnings.push(format!(
+                    "at {} of {nodes} nodes the autocorrelation of {name} is still positive at the lag cap ({cap} frames); N_eff there is an upper bound (raise [statistics] max_lag)",
+                    capped[s]
+                ));
+            }
+        }
+        let vals: Vec<f64> = (0..nodes)
+            .filter(|&k| acc.ens.u.n[k] > 0.0)
+            .map(|k| 0.5 * (neff[0][k] + neff[1][k]))
+            .collect();
+        if !vals.is_empty() {
+            run_neff = Some(vals.iter().sum::<f64>() / vals.len() as f64);
+        }
+    }
+
+    // Phase bins and the energy split.
+    let has_phase = acc.bins.iter().any(|b| b.is_some()) || acc.outside > 0;
+    let empty = Moments::new(nodes, acc.quantities.len());
+    let bin_moments: Vec<&Moments> = acc
+        .bins
+        .iter()
+        .map(|b| b.as_ref().unwrap_or(&empty))
+        .collect();
+    let mut phase_tables = Vec::new();
+    let (k_coh, k_sto) = if has_phase {
+        phase::energy_split(&bin_moments, nodes)
+    } else {
+        (vec![f64::NAN; nodes], vec![f64::NAN; nodes])
+    };
+    let ensemble = node_table(&acc.ens, &neff, (k_coh.clone(), k_sto.clone()), &ctx);
+    let mut summary = Vec::new();
+    if has_phase {
+        let mean = |s: &Scalar, k: usize| if s.n[k] > 0.0 { s.mean[k] } else { f64::NAN };
+        for (b, m) in bin_moments.iter().enumerate() {
+            let coh: Vec<[f64; 3]> = (0..nodes)
+                .map(|k| {
+                    let w = omega.map_or(f64::NAN, |o| mean(&m.q[o], k) - mean(&acc.ens.q[o], k));
+                    [
+                        mean(&m.u, k) - mean(&acc.ens.u, k),
+                        mean(&m.v, k) - mean(&acc.ens.v, k),
+                        w,
+                    ]
+                })
+                .collect();
+            let kc = coh
+                .iter()
+                .map(|c| 0.5 * (c[0] * c[0] + c[1] * c[1]))
+                .collect();
+            let ks = (0..nodes)
+                .map(|k| {
+                    if m.u.n[k] >= 2.0 {
+                        0.5 * (m.u.m2[k] + m.v.m2[k]) / (m.u.n[k] - 1.0)
+                    } else {
+                        f64::NAN
+                    }
+                })
+                .collect();
+            let mut table = node_table(m, &independent(m, omega), (kc, ks), &ctx);
+            for (i, name) in ["u_coherent", "v_coherent", "omega_coherent"]
+                .iter()
+                .enumerate()
+            {
+                table.push(*name, coh.iter().map(|c| c[i]).collect());
+            }
+            phase_tables.push(PhaseBin {
+                bin: b,
+                centre_deg: phase::centre_deg(acc.params.phase_bins, b),
+                n_frames: m.frames as usize,
+                table,
+            });
+        }
+        let empty_bins: Vec<String> = phase_tables
+            .iter()
+            .filter(|b| b.n_frames == 0)
+            .map(|b| b.bin.to_string())
+            .collect();
+        if !empty_bins.is_empty() {
+            warnings.push(format!(
+                "phase bins {} hold no frames",
+                empty_bins.join(", ")
+            ));
+        }
+        if acc.unphased > 0 {
+            warnings.push(format!(
+                "{} of {} frames have no phase_deg; they are left out of the phase bins",
+                acc.unphased, acc.clock.frames
+            ));
+        }
+        if acc.outside > 0 {
+            warnings.push(format!(
+                "{} frames lie outside every phase window ({} degrees wide); they are left out of the phase bins",
+                acc.outside,
+                acc.params.phase_width_deg.unwrap_or(f64::NAN)
+            ));
+        }
+        let (sc, ss): (f64, f64) = k_coh
+            .iter()
+            .zip(&k_sto)
+            .filter(|(a, b)| a.is_finite() && b.is_finite())
+            .fold((0.0, 0.0), |(x, y), (a, b)| (x + a, y + b));
+        if sc + ss > 0.0 {
+            summary.push(("k_coherent_frac".to_string(), sc / (sc + ss)));
+            summary.push(("k_stochastic_frac".to_string(), ss / (sc + ss)));
+        }
+        summary.push((
+            "phase_frames".to_string(),
+            bin_moments.iter().map(|m| m.frames).sum(),
+        ));
+    }
+
+    // Summary scalars.
+    let col = |n: &str| ensemble.get(n).expect("column");
+    let (om, omu) = (col("omega_mean"), col("omega_mean_unc"));
+    if let Some(k) = (0..nodes)
+        .filter(|&k| om[k].is_finite())
+        .max_by(|&a, &b| om[a].abs().total_cmp(&om[b].abs()))
+    {
+        summary.push(("omega_mean_peak".into(), om[k]));
+        summary.push(("omega_mean_peak_unc".into(), omu[k]));
+        summary.push(("omega_mean_peak_x".into(), grid.x(k % grid.nx)));
+        summary.push(("omega_mean_peak_y".into(), grid.y(k / grid.nx)));
+    }
+    for name in ["u_mean_unc", "omega_mean_unc"] {
+        let mut v: Vec<f64> = col(name)
+            .iter()
+            .copied()
+            .filter(|x| x.is_finite())
+            .collect();
+        if !v.is_empty() {
+            v.sort_by(f64::total_cmp);
+            summary.push((format!("{name}_median"), v[v.len() / 2]));
+        }
+    }
+    if let Some(ne) = run_neff {
+        summary.push(("n_eff_mean".into(), ne));
+        let n = col("n_samples");
+        let r: Vec<f64> = (0..nodes)
+            .filter(|&k| n[k] > 0.0)
+            .map(|k| 0.5 * (neff[0][k] + neff[1][k]) / n[k])
+            .collect();
+        summary.push(("n_eff_ratio".into(), r.iter().sum::<f64>() / r.len() as f64));
+        summary.push(("time_step_s".into(), step.unwrap_or(f64::NAN)));
+    }
+    let samples = col("n_samples");
+    summary.push((
+        "samples_per_node_mean".into(),
+        samples.iter().sum::<f64>() / nodes.max(1) as f64,
+    ));
+
+    // Convergence at the probes.
+    let convergence = (!acc.traces.is_empty()).then(|| {
+        let inputs: Vec<ProbeInput> = acc
+            .traces
+            .iter()
+            .zip(&acc.params.probes)
+            .map(|(t, &point)| {
+                let k = t.node;
+                let ratio = |s: usize, n: f64| if n > 0.0 { neff[s][k] / n } else { 1.0 };
+                let nw = omega.map_or(0.0, |o| acc.ens.q[o].n[k]);
+                ProbeInput {
+                    point,
+                    node: k,
+                    rows: &t.rows,
+                    ratio: [
+                        ratio(0, acc.ens.u.n[k]),
+                        ratio(1, acc.ens.v.n[k]),
+                        ratio(2, nw),
+                    ],
+                }
+            })
+            .collect();
+        probes::convergence(
+            &grid,
+            &inputs,
+            p.convergence_tail,
+            p.coverage,
+            &mut warnings,
+        )
+    });
+
+    RunStats {
+        ensemble,
+        phase: phase_tables,
+        convergence,
+        n_eff: run_neff,
+        summary,
+        warnings,
+    }
+}
