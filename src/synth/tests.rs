@@ -267,7 +267,10 @@ fn truth_mean_and_phase_bins_are_the_means_of_the_noise_free_frames() {
     generate(&opts, &out).unwrap();
     let frames = rows(&out.join("u015/frames.csv"));
     assert_eq!(frames[0], ["frame", "time_s", "phase_deg"]);
-    assert_eq!(frames[1][0], "f00001", "keys are frame names without extension");
+    assert_eq!(
+        frames[1][0], "f00001",
+        "keys are frame names without extension"
+    );
     let nodes = 14 * 9;
     let mut sum = vec![[0.0f64; 3]; nodes];
     let mut bins = vec![vec![[0.0f64; 3]; nodes]; 12];
@@ -492,4 +495,34 @@ fn flag_and_sigma_columns_follow_the_bookkeeping_and_the_pipeline_maps_them() {
         .iter()
         .zip(f.measured.u.iter())
         .all(|(&k, u)| Kind::from_code(k).is_gap() == u.is_nan()));
+}
+
+#[test]
+fn pandas_reads_the_frames_as_the_bookkeeping_says() {
+    // reference: pandas' C CSV parser (the reader of the NumPy baseline in
+    // the benchmark) must see the same rows, empty cells and values
+    let tmp = tempfile::tempdir().unwrap();
+    let mut opts = small(Scenario::Wake);
+    opts.frames = 3;
+    opts.speeds = vec![0.3];
+    opts.gap_fraction = 0.2;
+    let out = tmp.path().join("c");
+    generate(&opts, &out).unwrap();
+    let f = frame_field(&opts, 0, 2).unwrap();
+    let missing = f.kind.iter().filter(|&&k| k == Kind::Missing as u8).count();
+    let empty = f.kind.iter().filter(|&&k| k == Kind::Empty as u8).count();
+    let sum_u: f64 = f.measured.u.iter().filter(|u| u.is_finite()).sum();
+    let path = out.join("u030/f00003.csv");
+    let got = crate::testutil::python(
+        "import sys, pandas as pd\nd = pd.read_csv(sys.stdin.read().strip())\n\
+         print(len(d), int(d.u.isna().sum()), d.u.sum(), d.x.min(), d.y.max())",
+        path.to_str().unwrap(),
+    );
+    let v = crate::testutil::floats(&got);
+    assert_eq!(v[0] as usize, 14 * 9 - missing);
+    assert_eq!(v[1] as usize, empty);
+    // five significant digits of 0.3 m/s: each value within 5e-6
+    assert!((v[2] - sum_u).abs() < 5e-6 * 126.0, "{} vs {sum_u}", v[2]);
+    assert_eq!(v[3], 20.0); // x0 = 2 D = 20 mm
+    assert_eq!(v[4], 8.0); // (ny - 1)/2 pitches of 2 mm
 }
