@@ -185,6 +185,9 @@ pub struct SynthOptions {
     pub phase_bins: usize,
     pub campaign: String,
     /// Replace an existing output folder (only once the new one is complete).
+    /// Not recorded in the truth, so that a forced regeneration writes the
+    /// same bytes.
+    #[serde(skip)]
     pub force: bool,
     /// The command line that made the campaign, for the pipeline comment and README.
     pub command: Option<String>,

@@ -415,6 +415,11 @@ fn an_existing_output_is_kept_unless_forced_and_failures_leave_nothing() {
     assert!(out.join("pipeline.toml").exists());
     let left: Vec<_> = std::fs::read_dir(tmp.path()).unwrap().collect();
     assert_eq!(left.len(), 1, "no temporary folder may remain");
+    // a forced regeneration writes the same bytes as a fresh one
+    let fresh = tmp.path().join("fresh");
+    opts.force = false;
+    generate(&opts, &fresh).unwrap();
+    assert_eq!(all_files(&out), all_files(&fresh));
 }
 
 #[test]
