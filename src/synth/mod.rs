@@ -38,7 +38,8 @@
 //!                            declared units (then sigma_u, sigma_v and flag when asked);
 //!                            missing rows, empty cells and flagged rows are gaps
 //!     vectors.parquet        format parquet instead: one long table, columns frame (i64,
-//!                            1-based), x, y, u, v (f64, null where a cell is empty)
+//!                            1-based), x, y, u, v (f64, unrounded, null where a cell is
+//!                            empty); missing rows are absent
 //!     frames.csv             frame table: frame (file name without extension, as in
 //!                            `FrameMeta::name`, or the parquet frame id), time_s,
 //!                            phase_deg (periodic scenarios only)

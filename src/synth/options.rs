@@ -311,10 +311,11 @@ impl SynthOptions {
                 self.phase_bins
             )));
         }
-        if self.campaign.trim().is_empty() || self.campaign.contains('"') {
-            return Err(Error::usage(
-                "the campaign name must not be empty nor contain '\"'",
-            ));
+        if self.campaign.trim().is_empty() || self.campaign.contains(['"', '\\', '\n']) {
+            return Err(Error::usage(format!(
+                "campaign name '{}' must not be empty nor contain quotes, backslashes or line breaks",
+                self.campaign
+            )));
         }
         Ok(())
     }
