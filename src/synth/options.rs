@@ -160,6 +160,9 @@ pub struct SynthOptions {
     pub frame_rate: f64,
     /// Standard deviation of the noise of each component, px.
     pub noise_px: f64,
+    /// Correlation coefficient of the noise of adjacent vectors (0 to
+    /// 1/sqrt 2; 0: independent).
+    pub noise_correlation: f64,
     /// Fraction of nodes per frame replaced by random vectors.
     pub outlier_fraction: f64,
     /// Outlier magnitude at most this many times the local speed.
@@ -212,6 +215,7 @@ impl Default for SynthOptions {
             displacement_px: 8.0,
             frame_rate: 15.0,
             noise_px: 0.1,
+            noise_correlation: 0.0,
             outlier_fraction: 0.03,
             outlier_scale: 3.0,
             gap_fraction: 0.02,
@@ -260,6 +264,12 @@ impl SynthOptions {
             return Err(Error::usage("give at least one speed"));
         }
         frac("outlier fraction", self.outlier_fraction)?;
+        if !(0.0..=super::corrupt::MAX_NOISE_CORRELATION).contains(&self.noise_correlation) {
+            return Err(Error::usage(format!(
+                "noise correlation = {} must lie between 0 and 0.7071 (1/sqrt 2)",
+                self.noise_correlation
+            )));
+        }
         frac("gap fraction", self.gap_fraction)?;
         if self.outlier_fraction + self.gap_fraction > 1.0 {
             return Err(Error::usage(

@@ -195,6 +195,7 @@ fn written_pipeline_parses_and_names_every_frame() {
     let tmp = tempfile::tempdir().unwrap();
     let mut opts = small(Scenario::Wake);
     opts.pipeline_copy = Some(tmp.path().join("pipelines/p.toml"));
+    opts.noise_correlation = 0.3;
     let out = tmp.path().join("data/camp");
     generate(&opts, &out).unwrap();
     for path in [
@@ -203,6 +204,7 @@ fn written_pipeline_parses_and_names_every_frame() {
     ] {
         let plan = Plan::load(&path).unwrap_or_else(|e| panic!("{e}"));
         assert_eq!(plan.campaign, "t");
+        assert_eq!(plan.raw.uncertainty.neighbour_correlation, Some(0.3));
         assert_eq!(plan.runs.len(), 2);
         let r = &plan.runs[1];
         assert_eq!(r.id, "u030");
@@ -530,4 +532,34 @@ fn pandas_reads_the_frames_as_the_bookkeeping_says() {
     assert!((v[2] - sum_u).abs() < 5e-6 * 126.0, "{} vs {sum_u}", v[2]);
     assert_eq!(v[3], 20.0); // x0 = 2 D = 20 mm
     assert_eq!(v[4], 8.0); // (ny - 1)/2 pitches of 2 mm
+}
+
+#[test]
+fn correlated_noise_reaches_the_measured_frames() {
+    let mut opts = small(Scenario::SolidBody);
+    opts.nx = Some(40);
+    opts.ny = Some(30);
+    opts.noise_correlation = 0.5;
+    opts.outlier_fraction = 0.0;
+    opts.gap_fraction = 0.0;
+    let sigma = setup_run(&opts, 0.2).unwrap().noise_sigma;
+    let (mut s0, mut s1, mut n0, mut n1) = (0.0, 0.0, 0.0, 0.0);
+    for k in 0..30 {
+        let f = frame_field(&opts, 0, k).unwrap();
+        let e = (&f.measured.v - &f.truth.v) / sigma;
+        for j in 0..30 {
+            for i in 0..40 {
+                s0 += e[[j, i]] * e[[j, i]];
+                n0 += 1.0;
+                if j + 1 < 30 {
+                    s1 += e[[j, i]] * e[[j + 1, i]];
+                    n1 += 1.0;
+                }
+            }
+        }
+    }
+    // 36 000 samples: sampling sd of the correlation about 0.005
+    let (var, r) = (s0 / n0, s1 / n1 / (s0 / n0));
+    assert!((var - 1.0).abs() < 0.03, "noise variance {var} sigma^2");
+    assert!((r - 0.5).abs() < 0.025, "neighbour correlation {r}");
 }
