@@ -1,6 +1,7 @@
 //! Synthetic campaigns with analytic ground truth (`curlew synth`).
 //!
-//! Owns: the scenarios (`scenario`), their analytic flows (`flows`), the
+//! Owns: the scenarios (`scenario`), their analytic flows (`flows`) and
+//! velocity gradients (`gradients`), the
 //! measurement errors (`corrupt`), and writing a whole campaign with its
 //! truth and a ready pipeline (`write`, `pipeline`). Does not own: reading
 //! frames back (that is `io`), and it never prints.
@@ -68,6 +69,7 @@
 
 pub mod corrupt;
 pub mod flows;
+pub mod gradients;
 pub mod numfmt;
 pub mod options;
 pub mod pipeline;
