@@ -48,6 +48,10 @@ pub struct Args {
     /// Random error of each component, pixels of displacement.
     #[arg(long, default_value_t = 0.1)]
     pub noise_px: f64,
+    /// Correlation coefficient of the noise of adjacent vectors (0 to 0.707),
+    /// as overlapping interrogation windows make it; written into the pipeline.
+    #[arg(long, default_value_t = 0.0)]
+    pub noise_correlation: f64,
     /// Fraction of vectors per frame replaced by random vectors.
     #[arg(long, default_value_t = 0.03)]
     pub outliers: f64,
@@ -162,6 +166,7 @@ pub fn run(args: Args) -> Result<()> {
         displacement_px: args.displacement_px,
         frame_rate: args.frame_rate,
         noise_px: args.noise_px,
+        noise_correlation: args.noise_correlation,
         outlier_fraction: args.outliers,
         outlier_scale: args.outlier_scale,
         gap_fraction: args.gaps,

@@ -9,7 +9,9 @@
 //! probability `outlier_fraction` an outlier, else a measurement with
 //! noise. Then:
 //! - noise: `u + N(0, sigma)`, `v + N(0, sigma)` with `sigma = noise_px`
-//!   pixels of displacement in m/s;
+//!   pixels of displacement in m/s; independent between nodes, or, with
+//!   `noise_correlation = rho > 0`, correlated between neighbours (see
+//!   `correlated_noise`; drawn from a second stream of the frame);
 //! - outlier: a vector of uniform random direction and magnitude uniform
 //!   in `[0.5, outlier_scale] * max(|u_true|, 0.1 speed)`; it is written
 //!   like any other vector (nothing in the file marks it);
@@ -113,6 +115,14 @@ pub fn corrupt(
     };
     let sigma = setup.noise_sigma;
     let floor = 0.1 * setup.speed;
+    let corr = (opts.noise_correlation > 0.0)
+        .then(|| correlated_noise(opts.seed, run, frame, ny, nx, opts.noise_correlation));
+    let noise = |rng: &mut ChaCha8Rng, j: usize, i: usize| -> (f64, f64) {
+        match &corr {
+            None => (StandardNormal.sample(rng), StandardNormal.sample(rng)),
+            Some((a, b)) => (a[[j, i]], b[[j, i]]),
+        }
+    };
     for j in 0..ny {
         for i in 0..nx {
             if truth.body[[j, i]] {
@@ -133,8 +143,7 @@ pub fn corrupt(
                 }
                 m.kind[[j, i]] = k as u8;
                 if k == Kind::Flagged {
-                    let nu: f64 = StandardNormal.sample(&mut rng);
-                    let nv: f64 = StandardNormal.sample(&mut rng);
+                    let (nu, nv) = noise(&mut rng, j, i);
                     m.u[[j, i]] += sigma * nu;
                     m.v[[j, i]] += sigma * nv;
                 } else {
@@ -149,12 +158,116 @@ pub fn corrupt(
                 m.v[[j, i]] = mag * ang.sin();
                 m.kind[[j, i]] = Kind::Outlier as u8;
             } else {
-                let nu: f64 = StandardNormal.sample(&mut rng);
-                let nv: f64 = StandardNormal.sample(&mut rng);
+                let (nu, nv) = noise(&mut rng, j, i);
                 m.u[[j, i]] += sigma * nu;
                 m.v[[j, i]] += sigma * nv;
             }
         }
     }
     m
+}
+
+/// The largest neighbour correlation `correlated_noise` can make.
+pub const MAX_NOISE_CORRELATION: f64 = std::f64::consts::FRAC_1_SQRT_2;
+
+/// Two unit-variance Gaussian fields `(ny, nx)` whose values at x- or
+/// y-adjacent nodes have correlation coefficient `rho` (0 < rho <= 1/sqrt 2).
+///
+/// Method: white N(0, 1) noise on a grid padded by one node on every side
+/// (so that edge nodes are like interior ones) is filtered with the
+/// separable kernel `[a, 1, a] x [a, 1, a]` and divided by `1 + 2a²` (the
+/// kernel's norm per axis). The lag-one autocorrelation per axis of
+/// `[a, 1, a]` is `2a / (1 + 2a²)` (sum of the kernel's overlapping
+/// products over their sum of squares; common practice), so
+/// `a = (1 - sqrt(1 - 2 rho²)) / (2 rho)`. Diagonal neighbours then have
+/// correlation `rho²`, and nodes two or more apart along an axis are
+/// uncorrelated (apart from `rho²`-order terms at lag two: `a² / (1+2a²)`
+/// per axis). Drawn from stream `frame_rng(..) | 1 << 63`.
+pub fn correlated_noise(
+    seed: u64,
+    run: usize,
+    frame: usize,
+    ny: usize,
+    nx: usize,
+    rho: f64,
+) -> (Array2<f64>, Array2<f64>) {
+    let mut rng = ChaCha8Rng::seed_from_u64(seed);
+    rng.set_stream((1u64 << 63) | ((run as u64) << 32) | frame as u64);
+    let rho = rho.min(MAX_NOISE_CORRELATION);
+    let a = (1.0 - (1.0 - 2.0 * rho * rho).max(0.0).sqrt()) / (2.0 * rho);
+    let norm = 1.0 + 2.0 * a * a;
+    let mut field = || {
+        let w: Array2<f64> =
+            Array2::from_shape_simple_fn((ny + 2, nx + 2), || StandardNormal.sample(&mut rng));
+        // along x, then along y
+        let mut hx = Array2::zeros((ny + 2, nx));
+        for j in 0..ny + 2 {
+            for i in 0..nx {
+                hx[[j, i]] = a * w[[j, i]] + w[[j, i + 1]] + a * w[[j, i + 2]];
+            }
+        }
+        let mut out = Array2::zeros((ny, nx));
+        for j in 0..ny {
+            for i in 0..nx {
+                out[[j, i]] = (a * hx[[j, i]] + hx[[j + 1, i]] + a * hx[[j + 2, i]]) / norm;
+            }
+        }
+        out
+    };
+    let fu = field();
+    let fv = field();
+    (fu, fv)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn correlated_noise_has_unit_variance_and_the_asked_neighbour_correlation() {
+        // statistics over 40 frames of 60 x 50 nodes: 120 000 samples;
+        // sampling standard deviation of a correlation ~ 1/sqrt(n) = 0.003
+        let rho = 0.45;
+        let (mut s0, mut sx, mut sy, mut sd, mut s2) = (0.0, 0.0, 0.0, 0.0, 0.0);
+        let (mut n0, mut nx_, mut ny_, mut nd, mut n2) = (0.0, 0.0, 0.0, 0.0, 0.0);
+        for f in 0..40 {
+            let (u, _) = correlated_noise(5, 0, f, 50, 60, rho);
+            for j in 0..50 {
+                for i in 0..60 {
+                    s0 += u[[j, i]] * u[[j, i]];
+                    n0 += 1.0;
+                    if i + 1 < 60 {
+                        sx += u[[j, i]] * u[[j, i + 1]];
+                        nx_ += 1.0;
+                    }
+                    if j + 1 < 50 {
+                        sy += u[[j, i]] * u[[j + 1, i]];
+                        ny_ += 1.0;
+                    }
+                    if i + 1 < 60 && j + 1 < 50 {
+                        sd += u[[j, i]] * u[[j + 1, i + 1]];
+                        nd += 1.0;
+                    }
+                    if i + 3 < 60 {
+                        s2 += u[[j, i]] * u[[j, i + 3]];
+                        n2 += 1.0;
+                    }
+                }
+            }
+        }
+        let var = s0 / n0;
+        assert!((var - 1.0).abs() < 0.02, "variance {var}");
+        for (name, got, want) in [
+            ("x", sx / nx_, rho),
+            ("y", sy / ny_, rho),
+            ("diagonal", sd / nd, rho * rho),
+            ("lag 3", s2 / n2, 0.0),
+        ] {
+            assert!(
+                (got / var - want).abs() < 0.015,
+                "{name}: {} vs {want}",
+                got / var
+            );
+        }
+    }
 }

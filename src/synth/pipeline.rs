@@ -103,12 +103,13 @@ pub fn pipeline_toml(opts: &SynthOptions, runs: &[RunSetup], prefix: &str) -> St
     ));
     t.push_str("\n[derivatives]\nscheme = \"least-squares\"\n");
     t.push_str(&format!(
-        "\n[uncertainty]\nvelocity_noise = \"{}\"\nneighbour_correlation = 0.0\n",
+        "\n[uncertainty]\nvelocity_noise = \"{}\"\nneighbour_correlation = {:?}   # as generated\n",
         if opts.sigma_columns {
             "columns"
         } else {
             "estimate"
-        }
+        },
+        opts.noise_correlation
     ));
     if opts.scenario.periodic() {
         t.push_str(&format!("\n[phase]\nbins = {}\n", opts.phase_bins));

@@ -195,6 +195,7 @@ fn written_pipeline_parses_and_names_every_frame() {
     let tmp = tempfile::tempdir().unwrap();
     let mut opts = small(Scenario::Wake);
     opts.pipeline_copy = Some(tmp.path().join("pipelines/p.toml"));
+    opts.noise_correlation = 0.3;
     let out = tmp.path().join("data/camp");
     generate(&opts, &out).unwrap();
     for path in [
@@ -203,6 +204,7 @@ fn written_pipeline_parses_and_names_every_frame() {
     ] {
         let plan = Plan::load(&path).unwrap_or_else(|e| panic!("{e}"));
         assert_eq!(plan.campaign, "t");
+        assert_eq!(plan.raw.uncertainty.neighbour_correlation, Some(0.3));
         assert_eq!(plan.runs.len(), 2);
         let r = &plan.runs[1];
         assert_eq!(r.id, "u030");
@@ -415,6 +417,11 @@ fn an_existing_output_is_kept_unless_forced_and_failures_leave_nothing() {
     assert!(out.join("pipeline.toml").exists());
     let left: Vec<_> = std::fs::read_dir(tmp.path()).unwrap().collect();
     assert_eq!(left.len(), 1, "no temporary folder may remain");
+    // a forced regeneration writes the same bytes as a fresh one
+    let fresh = tmp.path().join("fresh");
+    opts.force = false;
+    generate(&opts, &fresh).unwrap();
+    assert_eq!(all_files(&out), all_files(&fresh));
 }
 
 #[test]
@@ -495,4 +502,64 @@ fn flag_and_sigma_columns_follow_the_bookkeeping_and_the_pipeline_maps_them() {
         .iter()
         .zip(f.measured.u.iter())
         .all(|(&k, u)| Kind::from_code(k).is_gap() == u.is_nan()));
+}
+
+#[test]
+fn pandas_reads_the_frames_as_the_bookkeeping_says() {
+    // reference: pandas' C CSV parser (the reader of the NumPy baseline in
+    // the benchmark) must see the same rows, empty cells and values
+    let tmp = tempfile::tempdir().unwrap();
+    let mut opts = small(Scenario::Wake);
+    opts.frames = 3;
+    opts.speeds = vec![0.3];
+    opts.gap_fraction = 0.2;
+    let out = tmp.path().join("c");
+    generate(&opts, &out).unwrap();
+    let f = frame_field(&opts, 0, 2).unwrap();
+    let missing = f.kind.iter().filter(|&&k| k == Kind::Missing as u8).count();
+    let empty = f.kind.iter().filter(|&&k| k == Kind::Empty as u8).count();
+    let sum_u: f64 = f.measured.u.iter().filter(|u| u.is_finite()).sum();
+    let path = out.join("u030/f00003.csv");
+    let got = crate::testutil::python(
+        "import sys, pandas as pd\nd = pd.read_csv(sys.stdin.read().strip())\n\
+         print(len(d), int(d.u.isna().sum()), d.u.sum(), d.x.min(), d.y.max())",
+        path.to_str().unwrap(),
+    );
+    let v = crate::testutil::floats(&got);
+    assert_eq!(v[0] as usize, 14 * 9 - missing);
+    assert_eq!(v[1] as usize, empty);
+    // five significant digits of 0.3 m/s: each value within 5e-6
+    assert!((v[2] - sum_u).abs() < 5e-6 * 126.0, "{} vs {sum_u}", v[2]);
+    assert_eq!(v[3], 20.0); // x0 = 2 D = 20 mm
+    assert_eq!(v[4], 8.0); // (ny - 1)/2 pitches of 2 mm
+}
+
+#[test]
+fn correlated_noise_reaches_the_measured_frames() {
+    let mut opts = small(Scenario::SolidBody);
+    opts.nx = Some(40);
+    opts.ny = Some(30);
+    opts.noise_correlation = 0.5;
+    opts.outlier_fraction = 0.0;
+    opts.gap_fraction = 0.0;
+    let sigma = setup_run(&opts, 0.2).unwrap().noise_sigma;
+    let (mut s0, mut s1, mut n0, mut n1) = (0.0, 0.0, 0.0, 0.0);
+    for k in 0..30 {
+        let f = frame_field(&opts, 0, k).unwrap();
+        let e = (&f.measured.v - &f.truth.v) / sigma;
+        for j in 0..30 {
+            for i in 0..40 {
+                s0 += e[[j, i]] * e[[j, i]];
+                n0 += 1.0;
+                if j + 1 < 30 {
+                    s1 += e[[j, i]] * e[[j + 1, i]];
+                    n1 += 1.0;
+                }
+            }
+        }
+    }
+    // 36 000 samples: sampling sd of the correlation about 0.005
+    let (var, r) = (s0 / n0, s1 / n1 / (s0 / n0));
+    assert!((var - 1.0).abs() < 0.03, "noise variance {var} sigma^2");
+    assert!((r - 0.5).abs() < 0.025, "neighbour correlation {r}");
 }
