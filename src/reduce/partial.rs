@@ -233,7 +233,7 @@ pub fn merge(mut parts: Vec<Partial>) -> Result<(Partial, Vec<Reduced>)> {
                 ))
                 .with_path(&dir));
             }
-            into.acc.merge(r.acc);
+            into.acc.try_merge(r.acc).map_err(|e| e.with_path(&dir))?;
             into.range.1 = r.range.1;
             into.frames.extend(r.frames);
             into.inputs.extend(r.inputs);
