@@ -40,7 +40,7 @@ mod tests;
 #[cfg(test)]
 mod tests_coverage;
 
-use ndarray::Array2;
+use ndarray::{Array2, Zip};
 
 use crate::field::{Field, MASKED, VALID};
 use crate::stencil::correlation::Correlation;
@@ -192,6 +192,7 @@ pub fn quantity_names(p: &Params) -> Vec<&'static str> {
 fn per_vector_sigma(
     p: &Params,
     field: &Field,
+    ok: &Array2<bool>,
     estimate: Option<f64>,
 ) -> (Array2<f64>, Array2<f64>, f64, usize) {
     let est = estimate.unwrap_or(f64::NAN);
@@ -215,48 +216,51 @@ fn per_vector_sigma(
             }
         }
     };
-    let sh = field.status.dim();
-    let mut su = Array2::from_elem(sh, f64::NAN);
-    let mut sv = Array2::from_elem(sh, f64::NAN);
     let mut fallback = 0;
-    for ((j, i), &st) in field.status.indexed_iter() {
-        if !field.has_value(j, i) {
-            continue;
+    let columns = p.velocity_noise == VelocityNoise::Columns;
+    let one = |st: u8, has: bool, c: f64| -> f64 {
+        if !has || st == MASKED {
+            return f64::NAN;
         }
-        let (cu, cv) = (field.sigma_u[[j, i]], field.sigma_v[[j, i]]);
-        let (a, b) = match st {
-            VALID => match p.velocity_noise {
-                VelocityNoise::Columns => {
-                    if !(cu.is_finite() && cv.is_finite()) {
-                        fallback += 1;
-                    }
-                    (
-                        if cu.is_finite() { cu } else { level },
-                        if cv.is_finite() { cv } else { level },
-                    )
-                }
-                _ => (level, level),
-            },
-            MASKED => continue,
-            _ => {
-                let f = |c: f64| if c.is_finite() { c } else { 0.0 };
-                (level.hypot(f(cu)), level.hypot(f(cv)))
+        if st == VALID {
+            if columns {
+                return if c.is_finite() { c } else { level };
             }
-        };
-        su[[j, i]] = a;
-        sv[[j, i]] = b;
-    }
+            return level;
+        }
+        level.hypot(if c.is_finite() { c } else { 0.0 })
+    };
+    let mut su = Array2::from_elem(ok.dim(), f64::NAN);
+    let mut sv = Array2::from_elem(ok.dim(), f64::NAN);
+    Zip::from(&mut su)
+        .and(&mut sv)
+        .and(&field.status)
+        .and(ok)
+        .and(&field.sigma_u)
+        .and(&field.sigma_v)
+        .for_each(|a, b, &st, &has, &cu, &cv| {
+            let missing = columns && st == VALID && has && !(cu.is_finite() && cv.is_finite());
+            *a = one(st, has, cu);
+            *b = one(st, has, cv);
+            fallback += missing as usize;
+        });
     (su, sv, level, fallback)
 }
 
 /// Derives every quantity from a filled field.
 pub fn derive(p: &Params, field: &Field) -> Derived {
     let sh = field.status.dim();
-    let ok = Array2::from_shape_fn(sh, |(j, i)| field.has_value(j, i));
+    let ok = Zip::from(&field.status)
+        .and(&field.u)
+        .and(&field.v)
+        .map_collect(|&s, u, v| s != MASKED && u.is_finite() && v.is_finite());
     let noise_estimate = noise::estimate(field, &p.correlation);
-    let (sig_u, sig_v, level, sigma_fallback_nodes) = per_vector_sigma(p, field, noise_estimate);
+    let (sig_u, sig_v, level, sigma_fallback_nodes) =
+        per_vector_sigma(p, field, &ok, noise_estimate);
     let masked = |a: &Array2<f64>| {
-        Array2::from_shape_fn(sh, |(j, i)| if ok[[j, i]] { a[[j, i]] } else { f64::NAN })
+        Zip::from(a)
+            .and(&ok)
+            .map_collect(|&x, &o| if o { x } else { f64::NAN })
     };
     let (u, v) = (masked(&field.u), masked(&field.v));
 
@@ -302,9 +306,12 @@ pub fn derive(p: &Params, field: &Field) -> Derived {
         }
     };
 
-    let not_plain = summed_area(&Array2::from_shape_fn(sh, |(j, i)| {
-        !(ok[[j, i]] && sig_u[[j, i]] == level && sig_v[[j, i]] == level)
-    }));
+    let not_plain = summed_area(
+        &Zip::from(&ok)
+            .and(&sig_u)
+            .and(&sig_v)
+            .map_collect(|&o, &a, &b| !(o && a == level && b == level)),
+    );
     let inp = Inputs {
         ok: &ok,
         us: &us,
@@ -334,21 +341,49 @@ pub fn derive(p: &Params, field: &Field) -> Derived {
         }
     }
 
-    let mut out = Vec::new();
     let (gam1, gam2) = if p.quantities.iter().any(|q| q.starts_with("gamma")) {
         let (a, b) = quantities::gamma(&us, &vs, &ok, p.gamma_radius, field.grid.dx, field.grid.dy);
         (Some(a), Some(b))
     } else {
         (None, None)
     };
-    for name in quantity_names(p) {
+    // Tensor quantities in one pass over the nodes.
+    let names = quantity_names(p);
+    let kinds: Vec<(usize, quantities::Kind)> = names
+        .iter()
+        .enumerate()
+        .filter_map(|(k, n)| quantities::Kind::of(n).map(|q| (k, q)))
+        .collect();
+    let n = sh.0 * sh.1;
+    let mut cols: Vec<[Vec<f64>; 3]> = kinds
+        .iter()
+        .map(|_| [vec![f64::NAN; n], vec![f64::NAN; n], vec![f64::NAN; n]])
+        .collect();
+    let flat = quantities::Flat::new(&g);
+    for (k, &o) in ok.iter().enumerate() {
+        if !o {
+            continue;
+        }
+        let node = flat.node(k);
+        for (c, &(_, kind)) in cols.iter_mut().zip(&kinds) {
+            let (a, b, t) = quantities::at(kind, &node);
+            c[0][k] = a;
+            c[1][k] = b;
+            c[2][k] = t;
+        }
+    }
+    let mut cols = cols.into_iter();
+    let arr = |v: Vec<f64>| Array2::from_shape_vec(sh, v).expect("grid shape");
+    let mut out = Vec::with_capacity(names.len());
+    let (mut gam1, mut gam2) = (gam1, gam2);
+    for name in names {
         let unit = quantities::unit(name);
         match name {
             "gamma1" | "gamma2" => {
                 let value = if name == "gamma1" {
-                    gam1.clone()
+                    gam1.take()
                 } else {
-                    gam2.clone()
+                    gam2.take()
                 };
                 out.push(Quantity {
                     name,
@@ -359,24 +394,13 @@ pub fn derive(p: &Params, field: &Field) -> Derived {
                 });
             }
             _ => {
-                let kind = quantities::Kind::of(name).expect("a tensor quantity");
-                let mut val = Array2::from_elem(sh, f64::NAN);
-                let mut unc = Array2::from_elem(sh, f64::NAN);
-                let mut bias = Array2::from_elem(sh, f64::NAN);
-                for ((j, i), &o) in ok.indexed_iter() {
-                    if o {
-                        let (a, b, c) = quantities::at(kind, &g, j, i);
-                        val[[j, i]] = a;
-                        unc[[j, i]] = b;
-                        bias[[j, i]] = c;
-                    }
-                }
+                let [val, unc, bias] = cols.next().expect("one column set per tensor quantity");
                 out.push(Quantity {
                     name,
                     unit,
-                    value: val,
-                    unc: Some(unc),
-                    bias: p.truncation.then_some(bias),
+                    value: arr(val),
+                    unc: Some(arr(unc)),
+                    bias: p.truncation.then(|| arr(bias)),
                 });
             }
         }
@@ -401,7 +425,8 @@ pub fn derive(p: &Params, field: &Field) -> Derived {
 /// propagated variance plus the squared debiased truncation (the latter
 /// taken as 0 where it could not be estimated).
 fn omega_error2(g: &Grad, j: usize, i: usize) -> f64 {
-    let (_, var, b, vb) = quantities::linear(g, j, i, [0.0, -1.0, 1.0, 0.0]);
+    let n = quantities::Node::load(g, j, i);
+    let (_, var, b, vb) = quantities::linear(&n, [0.0, -1.0, 1.0, 0.0]);
     let t = quantities::debias(b, vb);
     var + if t.is_finite() { t * t } else { 0.0 }
 }
