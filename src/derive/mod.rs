@@ -276,8 +276,9 @@ pub fn derive(p: &Params, field: &Field) -> Derived {
             }
         }),
     };
-    let (us, vs, u_unc, v_unc) = match &smoother {
-        None => (u.clone(), v.clone(), sig_u.clone(), sig_v.clone()),
+    // Without a smoother the smoothed velocity is the velocity itself.
+    let smoothed: Option<[Array2<f64>; 4]> = match &smoother {
+        None => None,
         Some(s) => {
             let us = masked(&p.smoother.apply(&u, &ok).as_standard_layout().to_owned());
             let vs = masked(&p.smoother.apply(&v, &ok).as_standard_layout().to_owned());
@@ -302,8 +303,12 @@ pub fn derive(p: &Params, field: &Field) -> Derived {
                 uu[[j, i]] = p.correlation.variance_at(&st, g, &sig_u, j, i).sqrt();
                 vu[[j, i]] = p.correlation.variance_at(&st, g, &sig_v, j, i).sqrt();
             }
-            (us, vs, uu, vu)
+            Some([us, vs, uu, vu])
         }
+    };
+    let (us, vs) = match &smoothed {
+        Some([a, b, _, _]) => (a, b),
+        None => (&u, &v),
     };
 
     let not_plain = summed_area(
@@ -314,8 +319,8 @@ pub fn derive(p: &Params, field: &Field) -> Derived {
     );
     let inp = Inputs {
         ok: &ok,
-        us: &us,
-        vs: &vs,
+        us,
+        vs,
         u: &u,
         v: &v,
         sig_u: &sig_u,
@@ -342,7 +347,7 @@ pub fn derive(p: &Params, field: &Field) -> Derived {
     }
 
     let (gam1, gam2) = if p.quantities.iter().any(|q| q.starts_with("gamma")) {
-        let (a, b) = quantities::gamma(&us, &vs, &ok, p.gamma_radius, field.grid.dx, field.grid.dy);
+        let (a, b) = quantities::gamma(us, vs, &ok, p.gamma_radius, field.grid.dx, field.grid.dy);
         (Some(a), Some(b))
     } else {
         (None, None)
@@ -405,9 +410,12 @@ pub fn derive(p: &Params, field: &Field) -> Derived {
             }
         }
     }
+    let fallback_nodes = g.fallback;
+    g.recycle();
+    let [u, v, u_unc, v_unc] = smoothed.unwrap_or([u, v, sig_u, sig_v]);
     Derived {
-        u: us,
-        v: vs,
+        u,
+        v,
         u_unc,
         v_unc,
         quantities: out,
@@ -416,7 +424,7 @@ pub fn derive(p: &Params, field: &Field) -> Derived {
         scheme_map,
         scheme_names: schemes.iter().map(|s| s.name()).collect(),
         scheme_counts,
-        fallback_nodes: g.fallback,
+        fallback_nodes,
         sigma_fallback_nodes,
     }
 }
@@ -502,6 +510,9 @@ fn choose(mut grads: Vec<Grad>, ok: &Array2<bool>) -> (Grad, Array2<u8>) {
             out.bias[c][[j, i]] = src.bias[c][[j, i]];
             out.bvar[c][[j, i]] = src.bvar[c][[j, i]];
         }
+    }
+    for g in grads {
+        g.recycle();
     }
     (out, map)
 }
