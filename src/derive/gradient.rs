@@ -229,16 +229,19 @@ impl AxisOp {
                 })
             })
             .collect();
+        // The cached entries hold correlation gains: the model is part of
+        // every key.
         let ax = axis as u64;
+        let cf = corr_fingerprint(&inp.corr);
         let sm_fp = inp.smoother.map_or(0, |s| fingerprint(0, s, &[]));
         let fp_comp = chain
             .iter()
-            .map(|d| fingerprint(1, d, &[ax, sm_fp]))
+            .map(|d| fingerprint(1, d, &[ax, sm_fp, cf]))
             .collect();
         let fp_bias = comp
             .iter()
             .zip(&fit_half)
-            .map(|(c, fh)| fingerprint(2, c, &[ax, h.to_bits(), fh.0 as u64, fh.1 as u64]))
+            .map(|(c, fh)| fingerprint(2, c, &[ax, h.to_bits(), fh.0 as u64, fh.1 as u64, cf]))
             .collect();
         let flat_d = Flat::new(&chain[0], nx);
         let flat_b = bias[0].as_ref().map(|b| Flat::new(&b.0, nx));
@@ -467,6 +470,14 @@ fn axis_op(scheme: DiffScheme, axis: Axis, inp: &Inputs, nx: usize) -> Rc<AxisOp
         c.insert(key, op.clone());
         op
     })
+}
+
+fn corr_fingerprint(c: &Correlation) -> u64 {
+    match *c {
+        Correlation::Independent => 1,
+        Correlation::Window(x) => 2 ^ x.to_bits().rotate_left(3),
+        Correlation::Adjacent(x) => 3 ^ x.to_bits().rotate_left(7),
+    }
 }
 
 /// A fingerprint of a stencil and the context it is used in.

@@ -466,3 +466,35 @@ fn auto_prefers_wide_low_noise_stencils_in_calm_flow_and_narrow_ones_in_a_tight_
         e(&ls)
     );
 }
+
+#[test]
+fn edge_caches_do_not_mix_correlation_models() {
+    // The operator and slow-path caches hold correlation gains and key on the
+    // model, so runs with other models on the same thread stay apart. At
+    // the corner (one-sided 2nd order in both axes) with 50 % overlap,
+    // u(omega)^2 = 2 sigma^2 sum_ab w_a w_b rho(d_ab) / h^2 with weights
+    // (-1.5, 2, -0.5) and rho (1, 0.5, 0): 2 (6.5 - 2 * 1.5 * 2 * 0.5 - 2 * 2 * 0.5 * 0.5)
+    // = 2 * 2.5 (derived by hand).
+    let h = 1e-3;
+    let fld = Field::from_fn(grid(12, h), linear(1.0, 0.0, 0.0, 0.0));
+    let s = 0.01;
+    for (corr, want) in [
+        (Correlation::Independent, 6.5),
+        (Correlation::Window(0.5), 2.5),
+        (Correlation::Independent, 6.5),
+    ] {
+        let p = Params {
+            correlation: corr,
+            ..params(LS, s)
+        };
+        let d = derive(&p, &fld);
+        let u = d.get("omega").unwrap().unc.as_ref().unwrap()[[0, 0]];
+        assert_close(
+            u,
+            s * (2.0f64 * want).sqrt() / h,
+            0.0,
+            1e-12,
+            &format!("{corr:?}"),
+        );
+    }
+}
