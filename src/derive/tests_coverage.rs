@@ -246,18 +246,7 @@ fn coverage_of_two_standard_uncertainties_on_a_noisy_vortex() {
     // against noise).
     let start = std::time::Instant::now();
     let mut best = f64::INFINITY;
-    for (k, s) in [
-        DiffScheme::LeastSquares {
-            window: 5,
-            order: 1,
-        },
-        DiffScheme::Central,
-        DiffScheme::Richardson,
-        DiffScheme::Circulation,
-    ]
-    .into_iter()
-    .enumerate()
-    {
+    for (k, s) in Params::default().candidates.into_iter().enumerate() {
         let (cov, rms, _) = coverage(Scheme::Fixed(s), 200, 10 + k as u64);
         eprintln!(
             "{s:?}: coverage {:.2} %, rms error {rms:.2} 1/s",
