@@ -29,6 +29,21 @@
 //! 3 x 3 neighbourhood, is kept (ties: the first candidate). The choice is in `Derived.scheme_map` and its counts in
 //! `Derived.scheme_counts`.
 
+//!
+//! For the statistics stage: `Quantity.unc` is the random part of one
+//! instantaneous value (it averages down over frames); `Quantity.bias` is
+//! the standard uncertainty of the systematic truncation error (it does
+//! not). A mean over N frames combines them as
+//! `u(mean)^2 = s^2/N_eff + mean over frames of bias^2`.
+//!
+//! Cost (release, one thread, 200 x 200 grid, this 2-core machine shared
+//! with other jobs, CPU time): about 650 ns per vector with every quantity
+//! and the truncation estimate, 340 ns for omega alone with truncation,
+//! 200-260 ns for omega alone without; `auto` about 2 us (four schemes).
+//! Interior nodes take a fast path with fixed weights and no allocation;
+//! edge and mask nodes take the fallback path, whose stencils are cached
+//! per validity pattern on each thread.
+
 pub mod gradient;
 pub mod noise;
 pub mod quantities;
