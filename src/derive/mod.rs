@@ -44,6 +44,7 @@
 //! edge and mask nodes take the fallback path, whose stencils are cached
 //! per validity pattern on each thread.
 
+mod cache;
 pub mod gradient;
 pub mod noise;
 pub mod quantities;
