@@ -181,6 +181,7 @@ fn potential_flow_past_a_cylinder_has_no_vorticity_or_divergence_beyond_truncati
     };
     let (e1, r1) = run(40);
     let (e2, r2) = run(80);
+    eprintln!("cylinder: max |omega|,|div| {e1:.3e} (h = 1 mm), {e2:.3e} (0.5 mm); excess over 1.3 x estimate {r1:.2e}, {r2:.2e}");
     // Strain rate scale U/a = 50 1/s: errors are a small fraction of it.
     assert!(e1 < 0.5, "coarse grid: |omega|, |div| up to {e1:.3e} 1/s");
     assert_close(e1 / e2, 4.0, 0.0, 0.15, "second-order convergence");
@@ -223,8 +224,10 @@ fn lamb_oseen_least_squares_error_is_its_predicted_truncation() {
         }
     }
     let peak = gam / (PI * rc * rc);
-    // The error is a few percent of the peak, and the leading term explains
-    // it to within a fifth (the rest is O(h^4)).
+    eprintln!("lamb-oseen LS: peak {peak:.1}, max error {max_err:.3}, leading-term residual {max_dev:.3}, estimate off by {max_bdev:.3} (1/s)");
+    // The error is a few percent of the peak (measured 6.2 %); the leading
+    // term explains it to within a tenth (measured 5 %; the rest is O(h^4))
+    // and the quintic-fit estimate to within 5 % (measured 1.2 %).
     assert!(
         max_err > 0.01 * peak && max_err < 0.1 * peak,
         "max error {max_err:.3e} of peak {peak:.3e}"
