@@ -32,8 +32,10 @@
 use std::cell::RefCell;
 use std::collections::hash_map::DefaultHasher;
 use std::collections::HashMap;
-use std::hash::{BuildHasherDefault, Hash, Hasher};
+use std::hash::{Hash, Hasher};
 use std::rc::Rc;
+
+use super::cache::{cached, corr_fingerprint, fingerprint, pooled, Shared};
 
 use ndarray::Array2;
 
@@ -229,16 +231,19 @@ impl AxisOp {
                 })
             })
             .collect();
+        // The cached entries hold correlation gains: the model is part of
+        // every key.
         let ax = axis as u64;
+        let cf = corr_fingerprint(&inp.corr);
         let sm_fp = inp.smoother.map_or(0, |s| fingerprint(0, s, &[]));
         let fp_comp = chain
             .iter()
-            .map(|d| fingerprint(1, d, &[ax, sm_fp]))
+            .map(|d| fingerprint(1, d, &[ax, sm_fp, cf]))
             .collect();
         let fp_bias = comp
             .iter()
             .zip(&fit_half)
-            .map(|(c, fh)| fingerprint(2, c, &[ax, h.to_bits(), fh.0 as u64, fh.1 as u64]))
+            .map(|(c, fh)| fingerprint(2, c, &[ax, h.to_bits(), fh.0 as u64, fh.1 as u64, cf]))
             .collect();
         let flat_d = Flat::new(&chain[0], nx);
         let flat_b = bias[0].as_ref().map(|b| Flat::new(&b.0, nx));
@@ -348,64 +353,6 @@ pub fn restricted(s: &Stencil, ok: &Array2<bool>, j: usize, i: usize) -> Option<
     Some(Stencil::new(taps).scaled(1.0 / sum))
 }
 
-/// A stencil with its correlation gain, shared between nodes.
-type Shared = Rc<(Stencil, f64)>;
-
-thread_local! {
-    /// Slow-path stencils by (fingerprint of what they are made from,
-    /// validity pattern around the node). Edge and mask patterns repeat
-    /// from node to node and from frame to frame, so each fit is made once
-    /// per thread. Cleared when it grows past `CACHE_MAX` entries.
-    static CACHE: RefCell<HashMap<(u64, u128), Option<Shared>, BuildHasherDefault<KeyHasher>>> =
-        RefCell::new(HashMap::default());
-}
-
-/// A cheap hasher for the cache keys, which are already well-mixed
-/// fingerprints and bit patterns (SipHash would dominate the slow path).
-#[derive(Default)]
-struct KeyHasher(u64);
-
-impl Hasher for KeyHasher {
-    fn finish(&self) -> u64 {
-        self.0
-    }
-    fn write(&mut self, bytes: &[u8]) {
-        for chunk in bytes.chunks(8) {
-            let mut b = [0u8; 8];
-            b[..chunk.len()].copy_from_slice(chunk);
-            self.0 = (self.0.rotate_left(5) ^ u64::from_le_bytes(b))
-                .wrapping_mul(0x51_7c_c1_b7_27_22_0a_95);
-        }
-    }
-}
-const CACHE_MAX: usize = 200_000;
-
-fn cached(
-    key: Option<(u64, u128)>,
-    make: impl FnOnce() -> Option<Stencil>,
-    corr: &Correlation,
-) -> Option<Shared> {
-    let build = |s: Stencil| {
-        let g = corr.gain(&s);
-        Rc::new((s, g))
-    };
-    let Some(key) = key else {
-        return make().map(build);
-    };
-    CACHE.with(|c| {
-        if let Some(hit) = c.borrow().get(&key) {
-            return hit.clone();
-        }
-        let v = make().map(build);
-        let mut c = c.borrow_mut();
-        if c.len() >= CACHE_MAX {
-            c.clear();
-        }
-        c.insert(key, v.clone());
-        v
-    })
-}
-
 thread_local! {
     /// The axis operators made so far on this thread: building one fits a
     /// polynomial per fallback stencil, which frames of one run share.
@@ -434,28 +381,15 @@ fn axis_op(scheme: DiffScheme, axis: Axis, inp: &Inputs, nx: usize) -> Rc<AxisOp
     })
 }
 
-/// A fingerprint of a stencil and the context it is used in.
-fn fingerprint(tag: u8, s: &Stencil, extra: &[u64]) -> u64 {
-    let mut h = DefaultHasher::new();
-    tag.hash(&mut h);
-    for t in &s.taps {
-        (t.dj, t.di, t.w.to_bits()).hash(&mut h);
-    }
-    extra.hash(&mut h);
-    h.finish()
-}
-
 /// The gradient tensor of `scheme` at every node.
 pub fn gradient(scheme: DiffScheme, inp: &Inputs) -> Grad {
     let (ny, nx) = inp.ok.dim();
-    let nan = || Array2::from_elem((ny, nx), f64::NAN);
-    let mut g = Grad {
-        val: [nan(), nan(), nan(), nan()],
-        var: [nan(), nan(), nan(), nan()],
-        bias: [nan(), nan(), nan(), nan()],
-        bvar: [nan(), nan(), nan(), nan()],
-        fallback: 0,
-    };
+    let nan = || pooled(ny * nx);
+    let mut val = [nan(), nan(), nan(), nan()];
+    let mut var = [nan(), nan(), nan(), nan()];
+    let mut bias_ = [nan(), nan(), nan(), nan()];
+    let mut bvar = [nan(), nan(), nan(), nan()];
+    let mut fallback = 0usize;
     let ops = [
         axis_op(scheme, Axis::X, inp, nx),
         axis_op(scheme, Axis::Y, inp, nx),
@@ -477,17 +411,17 @@ pub fn gradient(scheme: DiffScheme, inp: &Inputs) -> Grad {
                 // Component slots: x -> (a, c), y -> (b, d).
                 let (su, sv) = if ax == 0 { (0, 2) } else { (1, 3) };
                 if box_plain(inp.not_plain, j, i, op.box_r) {
-                    g.val[su][[j, i]] = op.flat_d.apply(us, k);
-                    g.val[sv][[j, i]] = op.flat_d.apply(vs, k);
+                    val[su][k] = op.flat_d.apply(us, k);
+                    val[sv][k] = op.flat_d.apply(vs, k);
                     let g0 = op.comp[0].1;
-                    g.var[su][[j, i]] = g0 * ru2;
-                    g.var[sv][[j, i]] = g0 * rv2;
+                    var[su][k] = g0 * ru2;
+                    var[sv][k] = g0 * rv2;
                     if let (Some(fb), Some(b0)) = (&op.flat_b, &op.bias[0]) {
                         let bg = b0.1;
-                        g.bias[su][[j, i]] = fb.apply(u, k);
-                        g.bias[sv][[j, i]] = fb.apply(v, k);
-                        g.bvar[su][[j, i]] = bg * ru2;
-                        g.bvar[sv][[j, i]] = bg * rv2;
+                        bias_[su][k] = fb.apply(u, k);
+                        bias_[sv][k] = fb.apply(v, k);
+                        bvar[su][k] = bg * ru2;
+                        bvar[sv][k] = bg * rv2;
                     }
                     continue;
                 }
@@ -497,8 +431,8 @@ pub fn gradient(scheme: DiffScheme, inp: &Inputs) -> Grad {
                 };
                 fell_back |= c > 0;
                 let d = &op.chain[c];
-                g.val[su][[j, i]] = d.apply_at(inp.us, j, i);
-                g.val[sv][[j, i]] = d.apply_at(inp.vs, j, i);
+                val[su][k] = d.apply_at(inp.us, j, i);
+                val[sv][k] = d.apply_at(inp.vs, j, i);
                 // The stencil actually applied, composed with the smoother.
                 let comp: Option<Shared> = if op.comp[c].0.fits(j, i, inp.ok) {
                     Some(op.comp[c].clone())
@@ -508,8 +442,8 @@ pub fn gradient(scheme: DiffScheme, inp: &Inputs) -> Grad {
                 };
                 if let Some(cs) = &comp {
                     let (s, gain) = (&cs.0, cs.1);
-                    g.var[su][[j, i]] = inp.corr.variance_at(s, gain, inp.sig_u, j, i);
-                    g.var[sv][[j, i]] = inp.corr.variance_at(s, gain, inp.sig_v, j, i);
+                    var[su][k] = inp.corr.variance_at(s, gain, inp.sig_u, j, i);
+                    var[sv][k] = inp.corr.variance_at(s, gain, inp.sig_v, j, i);
                 }
                 if !inp.truncation {
                     continue;
@@ -532,16 +466,24 @@ pub fn gradient(scheme: DiffScheme, inp: &Inputs) -> Grad {
                 };
                 if let Some(bs) = &bias {
                     let (b, bg) = (&bs.0, &bs.1);
-                    g.bias[su][[j, i]] = b.apply_at(inp.u, j, i);
-                    g.bias[sv][[j, i]] = b.apply_at(inp.v, j, i);
-                    g.bvar[su][[j, i]] = inp.corr.variance_at(b, *bg, inp.sig_u, j, i);
-                    g.bvar[sv][[j, i]] = inp.corr.variance_at(b, *bg, inp.sig_v, j, i);
+                    bias_[su][k] = b.apply_at(inp.u, j, i);
+                    bias_[sv][k] = b.apply_at(inp.v, j, i);
+                    bvar[su][k] = inp.corr.variance_at(b, *bg, inp.sig_u, j, i);
+                    bvar[sv][k] = inp.corr.variance_at(b, *bg, inp.sig_v, j, i);
                 }
             }
-            g.fallback += fell_back as usize;
+            fallback += fell_back as usize;
         }
     }
-    g
+    let arr =
+        |v: [Vec<f64>; 4]| v.map(|x| Array2::from_shape_vec((ny, nx), x).expect("grid shape"));
+    Grad {
+        val: arr(val),
+        var: arr(var),
+        bias: arr(bias_),
+        bvar: arr(bvar),
+        fallback,
+    }
 }
 
 #[inline]

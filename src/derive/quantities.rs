@@ -66,17 +66,71 @@ pub fn debias(b: f64, vb: f64) -> f64 {
     (b * b - vb).max(0.0).sqrt()
 }
 
+/// The tensor components at one node: values, variances, signed
+/// truncation estimates and their noise variances.
+#[derive(Debug, Clone, Copy)]
+pub struct Node {
+    pub val: [f64; 4],
+    pub var: [f64; 4],
+    pub bias: [f64; 4],
+    pub bvar: [f64; 4],
+}
+
+impl Node {
+    #[inline]
+    pub fn load(g: &Grad, j: usize, i: usize) -> Node {
+        let get = |a: &[Array2<f64>; 4]| [a[0][[j, i]], a[1][[j, i]], a[2][[j, i]], a[3][[j, i]]];
+        Node {
+            val: get(&g.val),
+            var: get(&g.var),
+            bias: get(&g.bias),
+            bvar: get(&g.bvar),
+        }
+    }
+}
+
+/// The tensor's arrays as flat slices (row-major), for one pass over nodes.
+pub struct Flat<'a> {
+    val: [&'a [f64]; 4],
+    var: [&'a [f64]; 4],
+    bias: [&'a [f64]; 4],
+    bvar: [&'a [f64]; 4],
+}
+
+impl<'a> Flat<'a> {
+    pub fn new(g: &'a Grad) -> Flat<'a> {
+        let s =
+            |a: &'a [Array2<f64>; 4]| a.each_ref().map(|x| x.as_slice().expect("standard layout"));
+        Flat {
+            val: s(&g.val),
+            var: s(&g.var),
+            bias: s(&g.bias),
+            bvar: s(&g.bvar),
+        }
+    }
+    #[inline]
+    pub fn node(&self, k: usize) -> Node {
+        let get = |a: &[&[f64]; 4]| [a[0][k], a[1][k], a[2][k], a[3][k]];
+        Node {
+            val: get(&self.val),
+            var: get(&self.var),
+            bias: get(&self.bias),
+            bvar: get(&self.bvar),
+        }
+    }
+}
+
 /// Value, variance, signed bias and bias variance of a linear combination
 /// `sum_k c_k x_k` of the tensor components at one node.
 #[inline]
-pub fn linear(g: &Grad, j: usize, i: usize, c: [f64; 4]) -> (f64, f64, f64, f64) {
+pub fn linear(n: &Node, c: [f64; 4]) -> (f64, f64, f64, f64) {
     let (mut val, mut var, mut b, mut vb) = (0.0, 0.0, 0.0, 0.0);
     for (k, &ck) in c.iter().enumerate() {
         if ck != 0.0 {
-            val += ck * g.val[k][[j, i]];
-            var += ck * ck * g.var[k][[j, i]];
-            b += ck * g.bias[k][[j, i]];
-            vb += ck * ck * g.bvar[k][[j, i]];
+            val += ck * n.val[k];
+            var += ck * ck * n.var[k];
+            b += ck * n.bias[k];
+            vb += ck * ck * n.bvar[k];
         }
     }
     (val, var, b, vb)
@@ -114,10 +168,11 @@ impl Kind {
 
 /// Value, standard uncertainty and debiased truncation of a quantity at
 /// one node.
-pub fn at(kind: Kind, g: &Grad, j: usize, i: usize) -> (f64, f64, f64) {
-    let [a, b, c, d] = [0, 1, 2, 3].map(|k| g.val[k][[j, i]]);
+#[inline]
+pub fn at(kind: Kind, n: &Node) -> (f64, f64, f64) {
+    let [a, b, c, d] = n.val;
     let lin = |co: [f64; 4]| {
-        let (_, var, bb, vb) = linear(g, j, i, co);
+        let (_, var, bb, vb) = linear(n, co);
         (var.sqrt(), debias(bb, vb))
     };
     match kind {
@@ -226,13 +281,13 @@ pub fn gamma(
             // (rounding would otherwise give them an arbitrary direction).
             let (mut top1, mut top2) = (0.0f64, 0.0f64);
             for &(_, _, um, vm) in &nb {
-                top1 = top1.max(um.hypot(vm));
-                top2 = top2.max((um - mu).hypot(vm - mv));
+                top1 = top1.max(um * um + vm * vm);
+                top2 = top2.max((um - mu) * (um - mu) + (vm - mv) * (vm - mv));
             }
             let term = |ex: f64, ey: f64, a: f64, b: f64, top: f64| {
-                let n = (a * a + b * b).sqrt();
-                if n > 1e-9 * top {
-                    (ex * b - ey * a) / n
+                let n2 = a * a + b * b;
+                if n2 > 1e-18 * top {
+                    (ex * b - ey * a) / n2.sqrt()
                 } else {
                     0.0
                 }

@@ -181,6 +181,7 @@ fn potential_flow_past_a_cylinder_has_no_vorticity_or_divergence_beyond_truncati
     };
     let (e1, r1) = run(40);
     let (e2, r2) = run(80);
+    eprintln!("cylinder: max |omega|,|div| {e1:.3e} (h = 1 mm), {e2:.3e} (0.5 mm); excess over 1.3 x estimate {r1:.2e}, {r2:.2e}");
     // Strain rate scale U/a = 50 1/s: errors are a small fraction of it.
     assert!(e1 < 0.5, "coarse grid: |omega|, |div| up to {e1:.3e} 1/s");
     assert_close(e1 / e2, 4.0, 0.0, 0.15, "second-order convergence");
@@ -223,8 +224,10 @@ fn lamb_oseen_least_squares_error_is_its_predicted_truncation() {
         }
     }
     let peak = gam / (PI * rc * rc);
-    // The error is a few percent of the peak, and the leading term explains
-    // it to within a fifth (the rest is O(h^4)).
+    eprintln!("lamb-oseen LS: peak {peak:.1}, max error {max_err:.3}, leading-term residual {max_dev:.3}, estimate off by {max_bdev:.3} (1/s)");
+    // The error is a few percent of the peak (measured 6.2 %); the leading
+    // term explains it to within a tenth (measured 5 %; the rest is O(h^4))
+    // and the quintic-fit estimate to within 5 % (measured 1.2 %).
     assert!(
         max_err > 0.01 * peak && max_err < 0.1 * peak,
         "max error {max_err:.3e} of peak {peak:.3e}"
@@ -383,4 +386,118 @@ fn quantity_names_follow_the_selection_with_omega_first() {
     assert_eq!(d.get("gamma2").unwrap().unit, "1");
     assert!(d.get("gamma2").unwrap().unc.is_none());
     let _ = Array2::<f64>::zeros((1, 1));
+}
+
+#[test]
+fn unequal_pitch_and_degenerate_grids_are_handled() {
+    // Solid-body rotation on a grid with dy = 2.5 dx: still omega = 2 Omega
+    // (common practice: each stencil carries its own pitch).
+    let g = Grid {
+        nx: 14,
+        ny: 9,
+        x0: 0.0,
+        y0: 0.0,
+        dx: 1e-3,
+        dy: 2.5e-3,
+    };
+    let fld = Field::from_fn(g, linear(2.0, 0.0, 0.006, 0.01));
+    for s in FIXED {
+        let d = derive(&params(s, 0.01), &fld);
+        for &w in d.get("omega").unwrap().value.iter() {
+            assert_close(w, 4.0, 1e-9, 0.0, &format!("{s:?}"));
+        }
+    }
+    // One row: no y derivative exists, so no vorticity (NaN), never a guess.
+    let g = Grid {
+        nx: 10,
+        ny: 1,
+        x0: 0.0,
+        y0: 0.0,
+        dx: 1e-3,
+        dy: 1e-3,
+    };
+    let d = derive(
+        &params(LS, 0.01),
+        &Field::from_fn(g, linear(1.0, 0.0, 0.0, 0.0)),
+    );
+    assert!(d.get("omega").unwrap().value.iter().all(|x| x.is_nan()));
+    assert_eq!(d.fallback_nodes, 10);
+    // All masked: every value NaN, no noise estimate, nothing chosen.
+    let d = derive(&Params::default(), &Field::empty(grid(6, 1e-3)));
+    assert!(d.noise_estimate.is_none());
+    assert!(d
+        .quantities
+        .iter()
+        .all(|q| q.value.iter().all(|x| x.is_nan())));
+    assert!(d.scheme_map.iter().all(|&m| m == u8::MAX));
+    assert_eq!(d.scheme_counts, vec![0]);
+}
+
+#[test]
+fn auto_prefers_wide_low_noise_stencils_in_calm_flow_and_narrow_ones_in_a_tight_core() {
+    // Foucaut & Stanislas 2002: where truncation is negligible the lowest
+    // noise factor wins (4-point least squares); in a core a few pitches
+    // wide the truncation of the wide stencil dominates and a narrower or
+    // higher-order one is taken.
+    let h = 1e-3;
+    let g = grid(40, h);
+    let rc = 2.0 * h;
+    let gamma = 2.0 * PI * rc / 0.6381727;
+    let fld = Field::from_fn(g, lamb_oseen(gamma, rc, 0.0195, 0.0195, 0.0));
+    let p = Params {
+        scheme: Scheme::Auto,
+        ..params(LS, 0.005)
+    };
+    let d = derive(&p, &fld);
+    assert_eq!(
+        d.scheme_names,
+        vec!["least-squares", "central", "richardson", "circulation"]
+    );
+    assert_eq!(d.scheme_counts.iter().sum::<usize>(), 1600);
+    // Far from the core: least squares.
+    assert_eq!(d.scheme_map[[5, 5]], 0);
+    // At the core: not least squares.
+    assert_ne!(d.scheme_map[[19, 19]], 0);
+    // And auto's error at the core is below least squares' there.
+    let ls = derive(&params(LS, 0.005), &fld);
+    let wt = lamb_oseen_omega(gamma, rc, 0.0195, 0.0195);
+    let e = |d: &Derived| (d.get("omega").unwrap().value[[19, 19]] - wt(g.x(19), g.y(19))).abs();
+    assert!(
+        e(&d) < 0.5 * e(&ls),
+        "auto {:.3e} vs least squares {:.3e}",
+        e(&d),
+        e(&ls)
+    );
+}
+
+#[test]
+fn edge_caches_do_not_mix_correlation_models() {
+    // The operator and slow-path caches hold correlation gains and key on the
+    // model, so runs with other models on the same thread stay apart. At
+    // the corner (one-sided 2nd order in both axes) with 50 % overlap,
+    // u(omega)^2 = 2 sigma^2 sum_ab w_a w_b rho(d_ab) / h^2 with weights
+    // (-1.5, 2, -0.5) and rho (1, 0.5, 0): 2 (6.5 - 2 * 1.5 * 2 * 0.5 - 2 * 2 * 0.5 * 0.5)
+    // = 2 * 2.5 (derived by hand).
+    let h = 1e-3;
+    let fld = Field::from_fn(grid(12, h), linear(1.0, 0.0, 0.0, 0.0));
+    let s = 0.01;
+    for (corr, want) in [
+        (Correlation::Independent, 6.5),
+        (Correlation::Window(0.5), 2.5),
+        (Correlation::Independent, 6.5),
+    ] {
+        let p = Params {
+            correlation: corr,
+            ..params(LS, s)
+        };
+        let d = derive(&p, &fld);
+        let u = d.get("omega").unwrap().unc.as_ref().unwrap()[[0, 0]];
+        assert_close(
+            u,
+            s * (2.0f64 * want).sqrt() / h,
+            0.0,
+            1e-12,
+            &format!("{corr:?}"),
+        );
+    }
 }

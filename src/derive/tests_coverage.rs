@@ -246,18 +246,7 @@ fn coverage_of_two_standard_uncertainties_on_a_noisy_vortex() {
     // against noise).
     let start = std::time::Instant::now();
     let mut best = f64::INFINITY;
-    for (k, s) in [
-        DiffScheme::LeastSquares {
-            window: 5,
-            order: 1,
-        },
-        DiffScheme::Central,
-        DiffScheme::Richardson,
-        DiffScheme::Circulation,
-    ]
-    .into_iter()
-    .enumerate()
-    {
+    for (k, s) in Params::default().candidates.into_iter().enumerate() {
         let (cov, rms, _) = coverage(Scheme::Fixed(s), 200, 10 + k as u64);
         eprintln!(
             "{s:?}: coverage {:.2} %, rms error {rms:.2} 1/s",
@@ -280,71 +269,82 @@ fn coverage_of_two_standard_uncertainties_on_a_noisy_vortex() {
 }
 
 #[test]
-#[ignore]
-fn scratch_timing() {
-    let n = 22;
-    let g = Grid {
-        nx: n,
-        ny: n,
-        x0: 0.0,
-        y0: 0.0,
-        dx: 1e-3,
-        dy: 1e-3,
-    };
-    let clean = Field::from_fn(g, |_, y| (0.3 + 20.0 * y, 0.1));
-    let mut r = rng(1);
-    let t = std::time::Instant::now();
-    let fs: Vec<Field> = (0..2000)
-        .map(|_| noisy(&mut r, &clean, 0.02, false))
-        .collect();
-    eprintln!("noise gen {:.3}", t.elapsed().as_secs_f64());
-    let p = Params {
-        velocity_noise: VelocityNoise::Value(0.02),
-        quantities: vec!["div"],
-        truncation: false,
-        ..Params::default()
-    };
-    let t = std::time::Instant::now();
-    for f in &fs {
-        std::hint::black_box(derive(&p, f));
+fn smoothed_gradient_uncertainty_matches_monte_carlo_at_edges_and_inside() {
+    // The gradient stage with a smoother: values from the smoothed field
+    // (here smoothed in the test by the smoother restricted to the nodes
+    // with values and renormalised, the model `gradient` documents), the
+    // variance from the composite stencil, or at the edge from the
+    // effective composite. 4000 seeded realisations; at a corner, an edge
+    // node and an interior node the scatter of du/dx and du/dy agrees with
+    // the propagated variance within 4 % (sampling error 1.1 %).
+    use crate::derive::gradient::{gradient, restricted, summed_area, Inputs};
+    let n = 12;
+    let mut taps = Vec::new();
+    for (dj, a) in [(-1, 1.0), (0, 2.0), (1, 1.0)] {
+        for (di, b) in [(-1, 1.0), (0, 2.0), (1, 1.0)] {
+            taps.push(crate::stencil::Tap {
+                dj,
+                di,
+                w: a * b / 16.0,
+            });
+        }
     }
-    eprintln!("derive {:.3}", t.elapsed().as_secs_f64());
-    let t = std::time::Instant::now();
-    for f in &fs {
-        std::hint::black_box(noise::estimate(f, &Correlation::Independent));
-    }
-    eprintln!("estimate {:.3}", t.elapsed().as_secs_f64());
+    let s = Stencil::new(taps);
     let ok = Array2::from_elem((n, n), true);
-    let sa = gradient::summed_area(&Array2::from_elem((n, n), false));
-    let sig = Array2::from_elem((n, n), 0.02);
-    let inp = gradient::Inputs {
-        ok: &ok,
-        us: &fs[0].u,
-        vs: &fs[0].v,
-        u: &fs[0].u,
-        v: &fs[0].v,
-        sig_u: &sig,
-        sig_v: &sig,
-        corr: Correlation::Independent,
-        smoother: None,
-        not_plain: &sa,
-        sig_ref: (0.02, 0.02),
-        dx: 1e-3,
-        dy: 1e-3,
-        truncation: false,
-    };
-    let t = std::time::Instant::now();
-    for _ in &fs {
-        std::hint::black_box(gradient::gradient(DiffScheme::Central, &inp));
+    let sig = Array2::from_elem((n, n), 1.0);
+    // Not plain anywhere: every node takes the general path once, too.
+    for plain in [true, false] {
+        let sat = summed_area(&Array2::from_elem((n, n), !plain));
+        let smooth = |a: &Array2<f64>| {
+            Array2::from_shape_fn((n, n), |(j, i)| {
+                restricted(&s, &ok, j, i).unwrap().apply_at(a, j, i)
+            })
+        };
+        let mut rng = rng(31);
+        let nodes = [(0, 0), (0, 6), (6, 6)];
+        let mut acc = [[0.0f64; 2]; 3];
+        let reps = 4000;
+        let mut pred = [[0.0f64; 2]; 3];
+        for r in 0..reps {
+            let e = noise(&mut rng, (n, n), 1.0, false);
+            let es = smooth(&e);
+            let inp = Inputs {
+                ok: &ok,
+                us: &es,
+                vs: &es,
+                u: &e,
+                v: &e,
+                sig_u: &sig,
+                sig_v: &sig,
+                corr: Correlation::Independent,
+                smoother: Some(&s),
+                not_plain: &sat,
+                sig_ref: (1.0, 1.0),
+                dx: 1.0,
+                dy: 1.0,
+                truncation: false,
+            };
+            let g = gradient(
+                DiffScheme::LeastSquares {
+                    window: 5,
+                    order: 1,
+                },
+                &inp,
+            );
+            for (k, &ji) in nodes.iter().enumerate() {
+                acc[k][0] += g.val[0][ji] * g.val[0][ji];
+                acc[k][1] += g.val[1][ji] * g.val[1][ji];
+                if r == 0 {
+                    pred[k] = [g.var[0][ji], g.var[1][ji]];
+                }
+            }
+        }
+        for (k, node) in nodes.iter().enumerate() {
+            for c in 0..2 {
+                let mc = acc[k][c] / reps as f64;
+                let what = format!("plain {plain}, node {node:?}, component {c}");
+                assert_close(mc.sqrt(), pred[k][c].sqrt(), 0.0, 0.04, &what);
+            }
+        }
     }
-    eprintln!("gradient {:.3}", t.elapsed().as_secs_f64());
-    let inp = gradient::Inputs {
-        truncation: true,
-        ..inp
-    };
-    let t = std::time::Instant::now();
-    for _ in &fs {
-        std::hint::black_box(gradient::gradient(DiffScheme::Central, &inp));
-    }
-    eprintln!("gradient+trunc {:.3}", t.elapsed().as_secs_f64());
 }
