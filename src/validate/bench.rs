@@ -161,7 +161,7 @@ fn bench_validation_and_filling() {
         ..fill::Params::default()
     };
     let mut a3: Vec<Field> = a.iter().take(8).cloned().collect();
-    time("fill: inpaint (60 iterations)", N * N * 8, || {
+    time("fill: inpaint (30 iterations)", N * N * 8, || {
         a3.iter_mut()
             .map(|f| fill::fill(&fi, f).replaced)
             .sum::<usize>()
