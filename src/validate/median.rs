@@ -115,8 +115,9 @@ fn median_small(a: &mut [f64]) -> f64 {
         b[..n].copy_from_slice(a);
         for &(p, q) in &NET8 {
             let (x, y) = (b[p], b[q]);
-            b[p] = x.min(y);
-            b[q] = x.max(y);
+            // plain compares (values are finite or +inf): single minsd/maxsd
+            b[p] = if x < y { x } else { y };
+            b[q] = if x < y { y } else { x };
         }
         a.copy_from_slice(&b[..n]);
         return if n % 2 == 1 {
