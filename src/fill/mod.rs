@@ -59,7 +59,8 @@ pub struct Params {
     pub max_distance: Option<usize>,
     /// Fewest neighbours with values for a neighbour-mean fill (1..8).
     pub min_neighbours: usize,
-    /// Steps of the inpainting iteration.
+    /// Steps of the inpainting iteration (default 30; see the fill tests
+    /// for the accuracy at 20, 30 and 60).
     pub inpaint_iterations: usize,
 }
 
@@ -69,7 +70,7 @@ impl Default for Params {
             method: Method::NeighbourMean,
             max_distance: Some(3),
             min_neighbours: 2,
-            inpaint_iterations: 60,
+            inpaint_iterations: 30,
         }
     }
 }

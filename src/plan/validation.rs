@@ -101,7 +101,7 @@ pub struct RawFill {
     pub max_distance: Option<usize>,
     /// Fewest neighbours with values for a neighbour-mean fill, 1..8 (default 2).
     pub min_neighbours: Option<usize>,
-    /// Iterations of the inpainting (default 60).
+    /// Iterations of the inpainting (default 30).
     pub iterations: Option<usize>,
 }
 

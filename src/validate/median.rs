@@ -32,10 +32,11 @@
 //!
 //! # Cost
 //!
-//! No allocation per node: neighbours go into a stack array of 24 and the
-//! medians come from an insertion sort of at most 24 values (about as fast
-//! as a sorting network at n = 8 and branch-predictable on smooth data).
-//! One `Vec` of rejected node indices per frame.
+//! No allocation per node: neighbours go into a stack array of 24; the
+//! medians of up to 8 values (radius 1) come from a branch-free sorting
+//! network (Batcher's 19 comparators, padded with +inf), of more values
+//! (radius 2) from an in-place selection.
+//! Per frame: one validity mask and a `Vec` of rejected node indices.
 
 use crate::field::{Field, REPLACED, VALID};
 
@@ -78,28 +79,61 @@ impl Default for MedianParams {
 /// Most neighbours a node can have (radius 2).
 const MAX_NB: usize = 24;
 
-/// Sorts `a` in place (insertion sort; `a.len()` <= 24).
-#[inline]
-fn sort_small(a: &mut [f64]) {
-    for i in 1..a.len() {
-        let x = a[i];
-        let mut j = i;
-        while j > 0 && a[j - 1] > x {
-            a[j] = a[j - 1];
-            j -= 1;
-        }
-        a[j] = x;
-    }
-}
+/// Batcher's odd-even merge network for 8 inputs (19 comparators).
+const NET8: [(usize, usize); 19] = [
+    (0, 1),
+    (2, 3),
+    (4, 5),
+    (6, 7),
+    (0, 2),
+    (1, 3),
+    (4, 6),
+    (5, 7),
+    (1, 2),
+    (5, 6),
+    (0, 4),
+    (3, 7),
+    (1, 5),
+    (2, 6),
+    (1, 4),
+    (3, 6),
+    (2, 4),
+    (3, 5),
+    (3, 4),
+];
 
-/// Median of a sorted, non-empty slice.
+/// Median of `a` (finite values, 1 <= len <= 24), reordering `a`. Up to
+/// eight values (every radius-1 neighbourhood) are padded with +inf to
+/// eight and go through a branch-free sorting network of min/max; the
+/// median of the first n sorted values is then read off. Larger counts use
+/// an in-place selection. No allocation.
 #[inline]
-fn median_sorted(a: &[f64]) -> f64 {
+fn median_small(a: &mut [f64]) -> f64 {
     let n = a.len();
+    if n <= 8 {
+        let mut b = [f64::INFINITY; 8];
+        b[..n].copy_from_slice(a);
+        for &(p, q) in &NET8 {
+            let (x, y) = (b[p], b[q]);
+            // plain compares (values are finite or +inf): single minsd/maxsd
+            b[p] = if x < y { x } else { y };
+            b[q] = if x < y { y } else { x };
+        }
+        a.copy_from_slice(&b[..n]);
+        return if n % 2 == 1 {
+            b[n / 2]
+        } else {
+            0.5 * (b[n / 2 - 1] + b[n / 2])
+        };
+    }
+    let h = n / 2;
+    let (left, m, _) = a.select_nth_unstable_by(h, f64::total_cmp);
+    let m = *m;
     if n % 2 == 1 {
-        a[n / 2]
+        m
     } else {
-        0.5 * (a[n / 2 - 1] + a[n / 2])
+        let l = left.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+        0.5 * (l + m)
     }
 }
 
@@ -107,13 +141,11 @@ fn median_sorted(a: &[f64]) -> f64 {
 /// one value; `nb` is reordered). Allocation-free.
 #[inline]
 pub fn normalized_residual(u0: f64, nb: &mut [f64], eps: f64) -> f64 {
-    sort_small(nb);
-    let um = median_sorted(nb);
+    let um = median_small(nb);
     for x in nb.iter_mut() {
         *x = (*x - um).abs();
     }
-    sort_small(nb);
-    let rm = median_sorted(nb);
+    let rm = median_small(nb);
     (u0 - um).abs() / (rm + eps)
 }
 
@@ -126,7 +158,10 @@ pub(crate) fn apply(p: &MedianParams, field: &mut Field) -> usize {
     let st = field.status.as_slice().expect("standard layout");
     let us = field.u.as_slice().expect("standard layout");
     let vs = field.v.as_slice().expect("standard layout");
-    let ok = |k: usize| st[k] == VALID && us[k].is_finite() && vs[k].is_finite();
+    let mask: Vec<bool> = (0..st.len())
+        .map(|k| st[k] == VALID && us[k].is_finite() && vs[k].is_finite())
+        .collect();
+    let ok = |k: usize| mask[k];
     let mut rejected: Vec<usize> = Vec::new();
     let mut bu = [0.0f64; MAX_NB];
     let mut bv = [0.0f64; MAX_NB];
@@ -197,6 +232,36 @@ mod tests {
     /// METHODS.md check values (derived): neighbours 1..8, eps 0.1:
     /// Um = 4.5, rm = 2.0; U0 = 9.0 gives r0 = 2.142857, U0 = 8.5 gives
     /// 1.904762; eight equal neighbours 1.0 and U0 = 1.5 give r0 = 5.
+    /// The 0-1 principle (Knuth, TAOCP vol. 3, 5.3.4): a comparator network
+    /// sorts every input if it sorts all 2^8 inputs of zeros and ones.
+    #[test]
+    fn the_eight_input_network_sorts_and_selection_gives_medians() {
+        for bits in 0u32..256 {
+            let mut a: Vec<f64> = (0..8).map(|b| ((bits >> b) & 1) as f64).collect();
+            median_small(&mut a);
+            assert!(a.windows(2).all(|w| w[0] <= w[1]), "{bits:08b}: {a:?}");
+        }
+        // padded: fewer than 8 values come back sorted too
+        let mut a = [3.0, -1.0, 2.0, 0.5, 7.0];
+        assert_eq!(median_small(&mut a), 2.0);
+        assert_eq!(a, [-1.0, 0.5, 2.0, 3.0, 7.0]);
+        // other counts against a full sort (numbers from memory-free arithmetic)
+        let mut r = crate::testutil::rng(9);
+        for n in 1..=24 {
+            let v: Vec<f64> = (0..n)
+                .map(|_| rand::Rng::random_range(&mut r, -5.0..5.0))
+                .collect();
+            let mut s = v.clone();
+            s.sort_by(f64::total_cmp);
+            let want = if n % 2 == 1 {
+                s[n / 2]
+            } else {
+                0.5 * (s[n / 2 - 1] + s[n / 2])
+            };
+            assert_eq!(median_small(&mut v.clone()), want, "n {n}");
+        }
+    }
+
     #[test]
     fn methods_check_values_of_the_normalized_residual() {
         let mut nb = [8.0, 3.0, 1.0, 6.0, 2.0, 7.0, 5.0, 4.0];

@@ -33,6 +33,9 @@ pub mod limits;
 pub mod median;
 pub mod peaklock;
 
+#[cfg(test)]
+mod bench;
+
 use crate::field::{Field, FILLED, REPLACED, VALID};
 
 pub use ensemble::{EnsembleBuilder, EnsembleRef};
