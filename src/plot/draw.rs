@@ -175,7 +175,13 @@ impl MapLayout {
 /// A tick label: at most six decimals, trailing zeros dropped; scientific
 /// notation outside 1e-3..1e5.
 pub fn tick(v: f64) -> String {
-    if v == 0.0 || !v.is_finite() {
+    tick_in(v, 0.0)
+}
+
+/// `tick` on an axis spanning `span`: values below 1e-9·span print as 0
+/// (the floating-point residue of a tick at zero).
+pub fn tick_in(v: f64, span: f64) -> String {
+    if v == 0.0 || !v.is_finite() || v.abs() < 1e-9 * span.abs() {
         return "0".into();
     }
     if !(1e-3..1e5).contains(&v.abs()) {
@@ -206,6 +212,7 @@ pub fn draw_map<DB: DrawingBackend>(
     let s = axes.scale;
     let xr = (g.x0 - 0.5 * g.dx) / s..(g.x(g.nx - 1) + 0.5 * g.dx) / s;
     let yr = (g.y0 - 0.5 * g.dy) / s..(g.y(g.ny - 1) + 0.5 * g.dy) / s;
+    let (sx, sy) = (xr.end - xr.start, yr.end - yr.start);
     let mut chart = ChartBuilder::on(area)
         .caption(&p.title, (FAMILY, LABEL_PX + 1.0))
         .margin_right(layout.right)
@@ -219,8 +226,8 @@ pub fn draw_map<DB: DrawingBackend>(
         .disable_mesh()
         .x_desc(&axes.x_label)
         .y_desc(&axes.y_label)
-        .x_label_formatter(&|v| tick(*v))
-        .y_label_formatter(&|v| tick(*v))
+        .x_label_formatter(&|v| tick_in(*v, sx))
+        .y_label_formatter(&|v| tick_in(*v, sy))
         .label_style((FAMILY, TICK_PX))
         .axis_desc_style((FAMILY, LABEL_PX))
         .x_labels(6)
@@ -318,7 +325,7 @@ pub fn draw_colorbar<DB: DrawingBackend>(
         .disable_x_axis()
         .y_desc(label)
         .set_all_tick_mark_size(6)
-        .y_label_formatter(&|v| tick(*v))
+        .y_label_formatter(&|v| tick_in(*v, hi - lo))
         .label_style((FAMILY, TICK_PX))
         .axis_desc_style((FAMILY, LABEL_PX))
         .y_labels(7)
@@ -476,7 +483,16 @@ fn draw_lines<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, p: &LinePanel) 
                 .flat_map(|b| b.iter().flat_map(|q| [q.1, q.2])),
         )
     });
-    let (mut y0, y1) = finite_range(ys).unwrap_or((0.0, 1.0));
+    let (mut y0, mut y1) = finite_range(ys).unwrap_or((0.0, 1.0));
+    let (mut x0, mut x1) = (x0, x1);
+    if p.curves.iter().any(|c| c.markers) {
+        // Room for the markers at the ends and for the legend on top.
+        let (wx, wy) = (x1 - x0, y1 - y0);
+        x0 -= 0.12 * wx;
+        x1 += 0.12 * wx;
+        y1 += 0.3 * wy;
+        y0 -= 0.05 * wy;
+    }
     if p.log_y {
         y0 = y0.max(y1 * 1e-6).max(1e-300);
     }
@@ -493,8 +509,8 @@ fn draw_lines<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, p: &LinePanel) 
         .bold_line_style(RGBColor(215, 215, 215))
         .x_desc(&p.x_label)
         .y_desc(&p.y_label)
-        .x_label_formatter(&|v| tick(*v))
-        .y_label_formatter(&|v| tick(*v))
+        .x_label_formatter(&|v| tick_in(*v, x1 - x0))
+        .y_label_formatter(&|v| tick_in(*v, y1 - y0))
         .label_style((FAMILY, TICK_PX))
         .axis_desc_style((FAMILY, LABEL_PX))
         .x_labels(6)

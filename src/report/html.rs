@@ -103,7 +103,7 @@ pub fn num(x: f64, digits: usize) -> String {
 pub fn json(out: &mut String, v: &serde_json::Value, depth: usize) {
     use serde_json::Value as V;
     match v {
-        V::Null => out.push_str("–"),
+        V::Null => out.push('–'),
         V::Bool(b) => out.push_str(if *b { "yes" } else { "no" }),
         V::Number(n) => out.push_str(&esc(&n.to_string())),
         V::String(s) if s.contains('\n') => {
