@@ -193,7 +193,7 @@ pub fn profile_figure(
                 x_label: along.into(),
                 y_label: format!("{} ({unit})", p.profile),
                 curves,
-                log_y: false,
+                x_names: None,
             }
         })
         .collect();
@@ -272,7 +272,7 @@ pub fn scalar_figure(
                 },
                 y_label: format!("({})", rows[0].unit),
                 curves,
-                log_y: false,
+                x_names: None,
             })
         })
         .collect();

@@ -2,8 +2,10 @@
 //! vorticity, circulation of the strongest vortex, and the velocity deficit
 //! at a wake station, each with its standard uncertainty.
 //!
-//! - Peak vorticity: the node of largest |ω̄|; its signed value and its
-//!   `omega_mean_unc`.
+//! - Peak vorticity: the node of largest |ω̄| among the well-determined
+//!   nodes (u(ω̄) at most 3 × its median over the field, which keeps a
+//!   poorly sampled edge or corner node from posing as the peak); its
+//!   signed value and its `omega_mean_unc`.
 //! - Strongest vortex: the 4-connected region around that node where ω̄ has
 //!   the peak's sign and |ω̄| ≥ θ·|ω̄_peak| (θ = `vortex_threshold`, 0.2 by
 //!   default). Circulation Γ = Σ ω̄ dA over the region (Stokes' theorem,
@@ -36,17 +38,30 @@ pub struct Scalar {
     pub unit: String,
 }
 
+/// The node of largest |ω̄| among the well-determined nodes (module doc),
+/// and its value.
+pub fn peak_node(t: &NodeTable) -> Option<(usize, f64)> {
+    let w = t.get("omega_mean")?;
+    let lim = t
+        .get("omega_mean_unc")
+        .and_then(|u| crate::plot::quantile(u.iter().copied(), 0.5).map(|m| 3.0 * m));
+    let ok = |k: usize| match (lim, t.get("omega_mean_unc")) {
+        (Some(l), Some(u)) => u[k].is_finite() && u[k] <= l,
+        _ => true,
+    };
+    w.iter()
+        .enumerate()
+        .filter(|(k, x)| x.is_finite() && ok(*k))
+        .max_by(|a, b| a.1.abs().total_cmp(&b.1.abs()))
+        .map(|(k, x)| (k, *x))
+}
+
 /// The strongest vortex: (circulation, its uncertainty, area in m², nodes).
 pub fn strongest_vortex(t: &NodeTable, threshold: f64) -> Option<(f64, f64, f64, usize)> {
     let w = t.get("omega_mean")?;
     let u = t.get("omega_mean_unc");
     let g = t.grid;
-    let (k0, peak) = w
-        .iter()
-        .enumerate()
-        .filter(|(_, x)| x.is_finite())
-        .max_by(|a, b| a.1.abs().total_cmp(&b.1.abs()))?;
-    let peak = *peak;
+    let (k0, peak) = peak_node(t)?;
     if peak == 0.0 {
         return None;
     }
@@ -101,16 +116,9 @@ pub fn run_scalars(
         uncertainty,
         unit: unit.to_string(),
     };
-    if let Some(w) = t.get("omega_mean") {
-        if let Some((k, v)) = w
-            .iter()
-            .enumerate()
-            .filter(|(_, x)| x.is_finite())
-            .max_by(|a, b| a.1.abs().total_cmp(&b.1.abs()))
-        {
-            let u = t.get("omega_mean_unc").map_or(f64::NAN, |u| u[k]);
-            out.push(row("peak vorticity", *v, u, "1/s"));
-        }
+    if let Some((k, v)) = peak_node(t) {
+        let u = t.get("omega_mean_unc").map_or(f64::NAN, |u| u[k]);
+        out.push(row("peak vorticity", v, u, "1/s"));
     }
     if let Some((gam, ug, area, _)) = strongest_vortex(t, threshold) {
         out.push(row("circulation of the strongest vortex", gam, ug, "m²/s"));
@@ -186,6 +194,30 @@ mod tests {
                 "u(Γ)",
             );
         }
+    }
+
+    #[test]
+    fn a_poorly_determined_node_is_not_the_peak() {
+        let g = grid(10, 8);
+        let v = Vortex {
+            gamma: 0.004,
+            rc: 0.004,
+            xc: 0.005,
+            yc: 0.0,
+            u_inf: 0.0,
+        };
+        let mut t = ensemble(g, &v, 0.004, 2.0, 10);
+        let (k_true, w_true) = peak_node(&t).unwrap();
+        let k_bad = 0;
+        for (n, c) in t.columns.iter_mut() {
+            if n == "omega_mean" {
+                c[k_bad] = -10.0 * w_true;
+            }
+            if n == "omega_mean_unc" {
+                c[k_bad] = 50.0;
+            }
+        }
+        assert_eq!(peak_node(&t).unwrap().0, k_true);
     }
 
     #[test]

@@ -434,8 +434,9 @@ pub struct LinePanel {
     pub x_label: String,
     pub y_label: String,
     pub curves: Vec<Curve>,
-    /// Draw x vertically (profiles along y: value on x, position on y).
-    pub log_y: bool,
+    /// Categorical x axis: names of the positions 1, 2, … (ticks elsewhere
+    /// are left blank).
+    pub x_names: Option<Vec<String>>,
 }
 
 /// A figure of line panels side by side.
@@ -493,9 +494,6 @@ fn draw_lines<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, p: &LinePanel) 
         y1 += 0.3 * wy;
         y0 -= 0.05 * wy;
     }
-    if p.log_y {
-        y0 = y0.max(y1 * 1e-6).max(1e-300);
-    }
     let mut builder = ChartBuilder::on(area);
     builder
         .caption(&p.title, (FAMILY, LABEL_PX + 1.0))
@@ -509,7 +507,17 @@ fn draw_lines<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, p: &LinePanel) 
         .bold_line_style(RGBColor(215, 215, 215))
         .x_desc(&p.x_label)
         .y_desc(&p.y_label)
-        .x_label_formatter(&|v| tick_in(*v, x1 - x0))
+        .x_label_formatter(&|v| match &p.x_names {
+            Some(names) => {
+                let k = v.round();
+                if (v - k).abs() < 1e-6 && k >= 1.0 && (k as usize) <= names.len() {
+                    names[k as usize - 1].clone()
+                } else {
+                    String::new()
+                }
+            }
+            None => tick_in(*v, x1 - x0),
+        })
         .y_label_formatter(&|v| tick_in(*v, y1 - y0))
         .label_style((FAMILY, TICK_PX))
         .axis_desc_style((FAMILY, LABEL_PX))

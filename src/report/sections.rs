@@ -127,16 +127,7 @@ fn totals(r: &RunResult) -> Totals {
 }
 
 fn peak_vorticity(r: &RunResult) -> f64 {
-    r.stats
-        .ensemble
-        .get("omega_mean")
-        .and_then(|w| {
-            w.iter()
-                .copied()
-                .filter(|x| x.is_finite())
-                .max_by(|a, b| a.abs().total_cmp(&b.abs()))
-        })
-        .unwrap_or(f64::NAN)
+    crate::compare::scalars::peak_node(&r.stats.ensemble).map_or(f64::NAN, |(_, w)| w)
 }
 
 fn summary(out: &mut String, c: &CampaignResult) {
