@@ -236,6 +236,7 @@ pub fn scalar_figure(
     let names = [
         "peak vorticity",
         "circulation of the strongest vortex",
+        "circulation of the strongest phase-mean vortex",
         "velocity deficit",
     ];
     let panels: Vec<LinePanel> = names
@@ -265,14 +266,10 @@ pub fn scalar_figure(
                 .collect();
             Some(LinePanel {
                 title: name.to_string(),
-                x_label: if by_re {
-                    "Re".into()
-                } else {
-                    "run number".into()
-                },
+                x_label: if by_re { "Re".into() } else { "run".into() },
                 y_label: format!("({})", rows[0].unit),
                 curves,
-                x_names: None,
+                x_names: (!by_re).then(|| sel.iter().map(|r| r.id.clone()).collect()),
             })
         })
         .collect();
@@ -283,19 +280,14 @@ pub fn scalar_figure(
     let fig = LineFigure {
         heading: None,
         panels,
-        width: (480 * n).max(1000),
+        width: (420 * n).max(1000),
         height: 520,
     };
     let paths = write_figure(&fig, dir, "scalars")?;
-    let runs: Vec<String> = sel
-        .iter()
-        .enumerate()
-        .map(|(i, r)| format!("{} = {}", i + 1, r.id))
-        .collect();
     let axis = if by_re {
-        "against the Reynolds number".to_string()
+        "against the Reynolds number"
     } else {
-        format!("by run ({})", runs.join(", "))
+        "by run (give each run velocity, length and viscosity conditions to plot against Re)"
     };
     Ok(vec![figure_ref(
         out,
