@@ -264,8 +264,16 @@ pub fn scalar_figure(
                     })
                 })
                 .collect();
+            let title = match *name {
+                "peak vorticity" => "Peak vorticity",
+                "circulation of the strongest vortex" => "Γ, strongest vortex (mean field)",
+                "circulation of the strongest phase-mean vortex" => {
+                    "Γ, strongest vortex (phase means)"
+                }
+                _ => "Velocity deficit",
+            };
             Some(LinePanel {
-                title: name.to_string(),
+                title: title.to_string(),
                 x_label: if by_re { "Re".into() } else { "run".into() },
                 y_label: format!("({})", rows[0].unit),
                 curves,

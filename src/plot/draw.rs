@@ -594,10 +594,47 @@ fn draw_lines<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, p: &LinePanel) 
             .label_font((FAMILY, TICK_PX))
             .background_style(WHITE.mix(0.85))
             .border_style(RGBColor(160, 160, 160))
-            .position(SeriesLabelPosition::UpperRight)
+            .position(legend_corner(p, (x0, x1), (y0, y1)))
             .draw()?;
     }
     Ok(())
+}
+
+/// The corner of the plot whose box (the outer 35 % × 30 %) holds the
+/// fewest data points, for the legend.
+fn legend_corner(p: &LinePanel, (x0, x1): (f64, f64), (y0, y1): (f64, f64)) -> SeriesLabelPosition {
+    let pts: Vec<(f64, f64)> = p
+        .curves
+        .iter()
+        .flat_map(|c| {
+            c.xy.iter().copied().chain(
+                c.band
+                    .iter()
+                    .flat_map(|b| b.iter().flat_map(|q| [(q.0, q.1), (q.0, q.2)])),
+            )
+        })
+        .filter(|q| q.0.is_finite() && q.1.is_finite())
+        .map(|(x, y)| ((x - x0) / (x1 - x0), (y - y0) / (y1 - y0)))
+        .collect();
+    let count = |right: bool, upper: bool| {
+        pts.iter()
+            .filter(|(u, v)| {
+                (if right { *u > 0.65 } else { *u < 0.35 })
+                    && (if upper { *v > 0.7 } else { *v < 0.3 })
+            })
+            .count()
+    };
+    let options = [
+        (count(true, true), SeriesLabelPosition::UpperRight),
+        (count(false, true), SeriesLabelPosition::UpperLeft),
+        (count(true, false), SeriesLabelPosition::LowerRight),
+        (count(false, false), SeriesLabelPosition::LowerLeft),
+    ];
+    options
+        .into_iter()
+        .min_by_key(|o| o.0)
+        .map(|o| o.1)
+        .unwrap_or(SeriesLabelPosition::UpperRight)
 }
 
 impl Figure for LineFigure {
