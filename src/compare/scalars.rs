@@ -204,7 +204,7 @@ mod tests {
             let (gam, ug, area, n) = strongest_vortex(&t, theta).unwrap();
             assert_close(gam, 0.004 * (1.0 - theta), 0.0, 0.01, "circulation");
             // Area π rc² ln(1/θ).
-            let a = std::f64::consts::PI * v.rc * v.rc * (1.0 / theta as f64).ln();
+            let a = std::f64::consts::PI * v.rc * v.rc * (1.0 / theta).ln();
             assert_close(area, a, 0.0, 0.01, "area");
             // u(Γ) = dA · 2 · sqrt(n) with u(ω) = 2 1/s at every node.
             assert_close(

@@ -14,6 +14,7 @@ use crate::{fill, validate};
 
 /// The fixture's vortex: circulation (m²/s), core radius (m), centre (m),
 /// free stream (m/s).
+#[derive(Debug, Clone, Copy)]
 pub struct Vortex {
     pub gamma: f64,
     pub rc: f64,
@@ -197,13 +198,6 @@ pub fn run(id: &str, v: &Vortex, g: Grid) -> RunResult {
         description: Some("a test run".into()),
     }
 }
-
-impl Clone for Vortex {
-    fn clone(&self) -> Self {
-        *self
-    }
-}
-impl Copy for Vortex {}
 
 pub const VORTEX: Vortex = Vortex {
     gamma: 0.004,
