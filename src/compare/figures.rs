@@ -193,7 +193,7 @@ pub fn profile_figure(
                 x_label: along.into(),
                 y_label: format!("{} ({unit})", p.profile),
                 curves,
-                log_y: false,
+                x_names: None,
             }
         })
         .collect();
@@ -236,6 +236,7 @@ pub fn scalar_figure(
     let names = [
         "peak vorticity",
         "circulation of the strongest vortex",
+        "circulation of the strongest phase-mean vortex",
         "velocity deficit",
     ];
     let panels: Vec<LinePanel> = names
@@ -263,16 +264,20 @@ pub fn scalar_figure(
                     })
                 })
                 .collect();
+            let title = match *name {
+                "peak vorticity" => "Peak vorticity",
+                "circulation of the strongest vortex" => "Γ, strongest vortex (mean field)",
+                "circulation of the strongest phase-mean vortex" => {
+                    "Γ, strongest vortex (phase means)"
+                }
+                _ => "Velocity deficit",
+            };
             Some(LinePanel {
-                title: name.to_string(),
-                x_label: if by_re {
-                    "Re".into()
-                } else {
-                    "run number".into()
-                },
+                title: title.to_string(),
+                x_label: if by_re { "Re".into() } else { "run".into() },
                 y_label: format!("({})", rows[0].unit),
                 curves,
-                log_y: false,
+                x_names: (!by_re).then(|| sel.iter().map(|r| r.id.clone()).collect()),
             })
         })
         .collect();
@@ -283,19 +288,14 @@ pub fn scalar_figure(
     let fig = LineFigure {
         heading: None,
         panels,
-        width: (480 * n).max(1000),
+        width: (420 * n).max(1000),
         height: 520,
     };
     let paths = write_figure(&fig, dir, "scalars")?;
-    let runs: Vec<String> = sel
-        .iter()
-        .enumerate()
-        .map(|(i, r)| format!("{} = {}", i + 1, r.id))
-        .collect();
     let axis = if by_re {
-        "against the Reynolds number".to_string()
+        "against the Reynolds number"
     } else {
-        format!("by run ({})", runs.join(", "))
+        "by run (give each run velocity, length and viscosity conditions to plot against Re)"
     };
     Ok(vec![figure_ref(
         out,

@@ -108,6 +108,7 @@ fn run_one(p: &ComparePlan, runs: &[RunResult], out: &Path) -> Result<Comparison
         res.scalars.extend(scalars::run_scalars(
             &r.id,
             &r.stats.ensemble,
+            &r.stats.phase,
             &r.conditions,
             p.vortex_threshold,
             p.wake_x,

@@ -136,6 +136,16 @@ fn scalars_profiles_and_a_missing_run() {
     let ratio = get("b", "circulation of the strongest vortex")
         / get("a", "circulation of the strongest vortex");
     crate::testutil::assert_close(ratio, 2.0, 0.0, 1e-9, "circulation scales with Γ");
+    // Phase bins hold Lamb–Oseen vortices with Γ = 0.004 m²/s: the region
+    // above 0.2 of the peak holds (1 − 0.2) Γ (see scalars.rs); 3 % for the
+    // 1 mm grid against rc = 4 mm.
+    crate::testutil::assert_close(
+        get("a", "circulation of the strongest phase-mean vortex"),
+        0.8 * 0.004,
+        0.0,
+        0.03,
+        "phase Γ",
+    );
     assert!(c.figures.iter().any(|f| f.title == "Profiles"));
     let prof = std::fs::read_to_string(dir.path().join("compare/a-vs-b/profiles.csv")).unwrap();
     // 2 runs × 3 default stations × 48 nodes along y.

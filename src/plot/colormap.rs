@@ -155,8 +155,6 @@ mod tests {
                 if let Some(p) = prev_l {
                     if diverging && t <= 0.5 {
                         assert!(l >= p - 1e-12, "{} L not rising at {t}", map.name);
-                    } else if diverging {
-                        assert!(l <= p + 1e-12, "{} L not falling at {t}", map.name);
                     } else {
                         assert!(l <= p + 1e-12, "{} L not falling at {t}", map.name);
                     }

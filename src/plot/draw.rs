@@ -175,7 +175,13 @@ impl MapLayout {
 /// A tick label: at most six decimals, trailing zeros dropped; scientific
 /// notation outside 1e-3..1e5.
 pub fn tick(v: f64) -> String {
-    if v == 0.0 || !v.is_finite() {
+    tick_in(v, 0.0)
+}
+
+/// `tick` on an axis spanning `span`: values below 1e-9·span print as 0
+/// (the floating-point residue of a tick at zero).
+pub fn tick_in(v: f64, span: f64) -> String {
+    if v == 0.0 || !v.is_finite() || v.abs() < 1e-9 * span.abs() {
         return "0".into();
     }
     if !(1e-3..1e5).contains(&v.abs()) {
@@ -206,6 +212,7 @@ pub fn draw_map<DB: DrawingBackend>(
     let s = axes.scale;
     let xr = (g.x0 - 0.5 * g.dx) / s..(g.x(g.nx - 1) + 0.5 * g.dx) / s;
     let yr = (g.y0 - 0.5 * g.dy) / s..(g.y(g.ny - 1) + 0.5 * g.dy) / s;
+    let (sx, sy) = (xr.end - xr.start, yr.end - yr.start);
     let mut chart = ChartBuilder::on(area)
         .caption(&p.title, (FAMILY, LABEL_PX + 1.0))
         .margin_right(layout.right)
@@ -219,8 +226,8 @@ pub fn draw_map<DB: DrawingBackend>(
         .disable_mesh()
         .x_desc(&axes.x_label)
         .y_desc(&axes.y_label)
-        .x_label_formatter(&|v| tick(*v))
-        .y_label_formatter(&|v| tick(*v))
+        .x_label_formatter(&|v| tick_in(*v, sx))
+        .y_label_formatter(&|v| tick_in(*v, sy))
         .label_style((FAMILY, TICK_PX))
         .axis_desc_style((FAMILY, LABEL_PX))
         .x_labels(6)
@@ -318,7 +325,7 @@ pub fn draw_colorbar<DB: DrawingBackend>(
         .disable_x_axis()
         .y_desc(label)
         .set_all_tick_mark_size(6)
-        .y_label_formatter(&|v| tick(*v))
+        .y_label_formatter(&|v| tick_in(*v, hi - lo))
         .label_style((FAMILY, TICK_PX))
         .axis_desc_style((FAMILY, LABEL_PX))
         .y_labels(7)
@@ -410,189 +417,4 @@ impl Figure for MapFigure<'_> {
     }
 }
 
-/// One curve of a line chart, with an optional band (lower, upper).
-pub struct Curve {
-    pub label: String,
-    pub xy: Vec<(f64, f64)>,
-    pub band: Option<Vec<(f64, f64, f64)>>,
-    pub color: RGBColor,
-    /// Points with error bars (the band's lower and upper ends) instead of
-    /// a line with a shaded band.
-    pub markers: bool,
-}
-
-/// A line chart panel.
-pub struct LinePanel {
-    pub title: String,
-    pub x_label: String,
-    pub y_label: String,
-    pub curves: Vec<Curve>,
-    /// Draw x vertically (profiles along y: value on x, position on y).
-    pub log_y: bool,
-}
-
-/// A figure of line panels side by side.
-pub struct LineFigure {
-    pub heading: Option<String>,
-    pub panels: Vec<LinePanel>,
-    pub width: u32,
-    pub height: u32,
-}
-
-/// Categorical colours for runs (distinct in lightness and hue; our own).
-pub const RUN_COLORS: [RGBColor; 6] = [
-    RGBColor(31, 92, 153),
-    RGBColor(196, 78, 34),
-    RGBColor(46, 139, 87),
-    RGBColor(120, 60, 150),
-    RGBColor(160, 130, 20),
-    RGBColor(90, 90, 90),
-];
-
-fn finite_range(vals: impl Iterator<Item = f64>) -> Option<(f64, f64)> {
-    let (mut lo, mut hi) = (f64::INFINITY, f64::NEG_INFINITY);
-    for v in vals.filter(|v| v.is_finite()) {
-        lo = lo.min(v);
-        hi = hi.max(v);
-    }
-    if lo > hi {
-        return None;
-    }
-    if hi - lo <= 1e-12 * hi.abs().max(1e-300) {
-        let pad = if hi == 0.0 { 1.0 } else { 0.05 * hi.abs() };
-        return Some((lo - pad, hi + pad));
-    }
-    let pad = 0.05 * (hi - lo);
-    Some((lo - pad, hi + pad))
-}
-
-fn draw_lines<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, p: &LinePanel) -> DrawResult<DB> {
-    let xs = p.curves.iter().flat_map(|c| c.xy.iter().map(|q| q.0));
-    let (x0, x1) = finite_range(xs).unwrap_or((0.0, 1.0));
-    let ys = p.curves.iter().flat_map(|c| {
-        c.xy.iter().map(|q| q.1).chain(
-            c.band
-                .iter()
-                .flat_map(|b| b.iter().flat_map(|q| [q.1, q.2])),
-        )
-    });
-    let (mut y0, y1) = finite_range(ys).unwrap_or((0.0, 1.0));
-    if p.log_y {
-        y0 = y0.max(y1 * 1e-6).max(1e-300);
-    }
-    let mut builder = ChartBuilder::on(area);
-    builder
-        .caption(&p.title, (FAMILY, LABEL_PX + 1.0))
-        .margin(14)
-        .x_label_area_size(62)
-        .y_label_area_size(100);
-    let mut chart = builder.build_cartesian_2d(x0..x1, y0..y1)?;
-    chart
-        .configure_mesh()
-        .light_line_style(RGBColor(235, 235, 235))
-        .bold_line_style(RGBColor(215, 215, 215))
-        .x_desc(&p.x_label)
-        .y_desc(&p.y_label)
-        .x_label_formatter(&|v| tick(*v))
-        .y_label_formatter(&|v| tick(*v))
-        .label_style((FAMILY, TICK_PX))
-        .axis_desc_style((FAMILY, LABEL_PX))
-        .x_labels(6)
-        .y_labels(6)
-        .draw()?;
-    for c in &p.curves {
-        if c.markers {
-            let color = c.color;
-            if let Some(b) = &c.band {
-                chart.draw_series(b.iter().filter(|q| q.1.is_finite() && q.2.is_finite()).map(
-                    |q| PathElement::new(vec![(q.0, q.1), (q.0, q.2)], color.stroke_width(2)),
-                ))?;
-            }
-            let s = chart.draw_series(
-                c.xy.iter()
-                    .filter(|q| q.0.is_finite() && q.1.is_finite())
-                    .map(|q| Circle::new(*q, 6, color.filled())),
-            )?;
-            if !c.label.is_empty() {
-                s.label(c.label.clone())
-                    .legend(move |(x, y)| Circle::new((x + 12, y), 6, color.filled()));
-            }
-            continue;
-        }
-        if let Some(b) = &c.band {
-            let mut poly: Vec<(f64, f64)> = b
-                .iter()
-                .filter(|q| q.1.is_finite() && q.2.is_finite())
-                .map(|q| (q.0, q.2.min(y1).max(y0)))
-                .collect();
-            let lower: Vec<(f64, f64)> = b
-                .iter()
-                .rev()
-                .filter(|q| q.1.is_finite() && q.2.is_finite())
-                .map(|q| (q.0, q.1.min(y1).max(y0)))
-                .collect();
-            poly.extend(lower);
-            if poly.len() >= 3 {
-                chart.draw_series(std::iter::once(Polygon::new(
-                    poly,
-                    c.color.mix(0.2).filled(),
-                )))?;
-            }
-        }
-        // Break the line at missing values.
-        let mut seg: Vec<(f64, f64)> = Vec::new();
-        let mut segs = Vec::new();
-        for &q in &c.xy {
-            if q.0.is_finite() && q.1.is_finite() {
-                seg.push(q);
-            } else if !seg.is_empty() {
-                segs.push(std::mem::take(&mut seg));
-            }
-        }
-        if !seg.is_empty() {
-            segs.push(seg);
-        }
-        let color = c.color;
-        let mut first = true;
-        for s in segs {
-            let series = chart.draw_series(LineSeries::new(s, color.stroke_width(3)))?;
-            if first && !c.label.is_empty() {
-                series.label(c.label.clone()).legend(move |(x, y)| {
-                    PathElement::new(vec![(x, y), (x + 24, y)], color.stroke_width(3))
-                });
-                first = false;
-            }
-        }
-    }
-    if p.curves.iter().filter(|c| !c.label.is_empty()).count() > 0 {
-        chart
-            .configure_series_labels()
-            .label_font((FAMILY, TICK_PX))
-            .background_style(WHITE.mix(0.85))
-            .border_style(RGBColor(160, 160, 160))
-            .position(SeriesLabelPosition::UpperRight)
-            .draw()?;
-    }
-    Ok(())
-}
-
-impl Figure for LineFigure {
-    fn size(&self) -> (u32, u32) {
-        let h = if self.heading.is_some() { 44 } else { 0 };
-        (self.width, self.height + h)
-    }
-    fn draw<DB: DrawingBackend>(&self, root: &DrawingArea<DB, Shift>) -> DrawResult<DB> {
-        let mut body = root.clone();
-        if let Some(h) = &self.heading {
-            let (head, rest) = root.split_vertically(44);
-            head.draw_text(h, &(FAMILY, TITLE_PX).into_text_style(&head), (100, 10))?;
-            body = rest;
-        }
-        let n = self.panels.len().max(1);
-        let areas = body.split_evenly((1, n));
-        for (a, p) in areas.iter().zip(&self.panels) {
-            draw_lines(a, p)?;
-        }
-        Ok(())
-    }
-}
+pub use super::lines::{Curve, LineFigure, LinePanel, RUN_COLORS};

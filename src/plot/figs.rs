@@ -173,6 +173,9 @@ pub fn run_figures(p: &Params, run: &RunResult, out: &Path) -> Result<Vec<Figure
     }
     let nondim_note = match c.units.scales {
         Some((u, l)) => format!(" Scales: U = {u:.4} m/s, L = {:.4} mm.", l * 1e3),
+        None if p.nondimensional => {
+            " Nondimensional figures were asked for, but the run has no velocity and length conditions; shown in SI.".to_string()
+        }
         None => String::new(),
     };
     let (wf, wu) = c.units.vorticity();
@@ -370,7 +373,7 @@ fn validation_figures(c: &mut Ctx) -> Result<()> {
                 x_label: "frame".into(),
                 y_label: "fraction of vectors".into(),
                 curves,
-                log_y: false,
+                x_names: None,
             }],
             width: c.p.width,
             height: 520,
@@ -446,10 +449,14 @@ fn convergence_figure(c: &mut Ctx) -> Result<()> {
         heading: None,
         panels: vec![LinePanel {
             title: "Convergence of the running statistics".into(),
-            x_label: format!("{xname}"),
+            x_label: if xname == "n_frames" {
+                "frames averaged".to_string()
+            } else {
+                xname.to_string()
+            },
             y_label: "(s_n − s_N) / |s_N|".into(),
             curves,
-            log_y: false,
+            x_names: None,
         }],
         width: c.p.width,
         height: 560,

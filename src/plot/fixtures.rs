@@ -14,6 +14,7 @@ use crate::{fill, validate};
 
 /// The fixture's vortex: circulation (m²/s), core radius (m), centre (m),
 /// free stream (m/s).
+#[derive(Debug, Clone, Copy)]
 pub struct Vortex {
     pub gamma: f64,
     pub rc: f64,
@@ -103,6 +104,23 @@ pub fn ensemble(g: Grid, v: &Vortex, u_unc: f64, w_unc: f64, n: usize) -> NodeTa
     t
 }
 
+/// Adds the statistics helper's own columns: outliers concentrated in the
+/// vortex core, filled vectors along the upper edge.
+pub fn add_validation_columns(t: &mut NodeTable, v: &Vortex) {
+    let g = t.grid;
+    let (mut o, mut f) = (Vec::new(), Vec::new());
+    for j in 0..g.ny {
+        for i in 0..g.nx {
+            let (x, y) = (g.x(i), g.y(j));
+            let core = (-((x - v.xc).powi(2) + (y - v.yc).powi(2)) / (4.0 * v.rc * v.rc)).exp();
+            o.push(0.005 + 0.12 * core);
+            f.push(if j + 3 >= g.ny { 0.2 } else { 0.0 });
+        }
+    }
+    t.push("outlier_frac", o);
+    t.push("filled_frac", f);
+}
+
 pub fn frames(n: usize, nodes: usize) -> Vec<FrameRecord> {
     (0..n)
         .map(|k| FrameRecord {
@@ -131,7 +149,8 @@ pub fn frames(n: usize, nodes: usize) -> Vec<FrameRecord> {
 /// A run with the default vortex on a 64 × 48 grid.
 pub fn run(id: &str, v: &Vortex, g: Grid) -> RunResult {
     let n = 40;
-    let ens = ensemble(g, v, 0.004, 2.0, n);
+    let mut ens = ensemble(g, v, 0.004, 2.0, n);
+    add_validation_columns(&mut ens, v);
     let mut conv = Table::new();
     conv.push("n_frames", Values::I64((1..=n as i64).collect()));
     conv.push(
@@ -179,13 +198,6 @@ pub fn run(id: &str, v: &Vortex, g: Grid) -> RunResult {
         description: Some("a test run".into()),
     }
 }
-
-impl Clone for Vortex {
-    fn clone(&self) -> Self {
-        *self
-    }
-}
-impl Copy for Vortex {}
 
 pub const VORTEX: Vortex = Vortex {
     gamma: 0.004,

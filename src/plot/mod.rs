@@ -15,6 +15,7 @@
 pub mod colormap;
 pub mod draw;
 mod figs;
+pub mod lines;
 
 use std::path::Path;
 

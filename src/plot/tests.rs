@@ -104,3 +104,39 @@ fn quantile_nearest_rank() {
     assert_eq!(quantile(v.iter().copied(), 0.99), Some(10.0));
     assert_eq!(quantile([f64::NAN].into_iter(), 0.5), None);
 }
+
+#[test]
+fn nondimensional_units_against_hand_computed_factors() {
+    // Fixture: U = 0.3 m/s, L = 0.01 m. x/L: 30 mm -> 3; ωL/U: factor
+    // 0.01/0.3 = 1/30; u/U: 1/0.3; u'v'/U²: 1/0.09 (hand-computed).
+    let r = run("nd", &VORTEX, grid(16, 12));
+    let p = Params {
+        nondimensional: true,
+        ..Params::default()
+    };
+    let u = Units::new(&p, &r);
+    let ax = u.axes();
+    assert_eq!(ax.x_label, "x / L");
+    crate::testutil::assert_close(0.030 / ax.scale, 3.0, 1e-12, 0.0, "x/L");
+    crate::testutil::assert_close(u.vorticity().0, 1.0 / 30.0, 1e-15, 0.0, "ωL/U");
+    crate::testutil::assert_close(u.velocity().0, 1.0 / 0.3, 1e-12, 0.0, "u/U");
+    crate::testutil::assert_close(u.stress().0, 1.0 / 0.09, 1e-9, 0.0, "u'v'/U²");
+    // Without the switch, or without U and L: SI (mm axes).
+    assert_eq!(Units::new(&Params::default(), &r).axes().x_label, "x (mm)");
+    let mut bare = r.clone();
+    bare.conditions.velocity = None;
+    assert_eq!(Units::new(&p, &bare).axes().x_label, "x (mm)");
+    let dir = tempfile::tempdir().unwrap();
+    let figs = run_figures(&p, &bare, dir.path()).unwrap();
+    assert!(
+        figs[0].caption.contains("shown in SI"),
+        "{}",
+        figs[0].caption
+    );
+    let figs = run_figures(&p, &r, dir.path()).unwrap();
+    let svg = std::fs::read_to_string(dir.path().join(&figs[0].svg)).unwrap();
+    assert!(
+        svg.contains("x / L") && svg.contains("ω L / U"),
+        "nondimensional labels missing"
+    );
+}

@@ -90,6 +90,9 @@ pub fn num(x: f64, digits: usize) -> String {
     if x == 0.0 {
         return "0".into();
     }
+    if x.fract() == 0.0 && x.abs() < 1e6 {
+        return format!("{x:.0}");
+    }
     let e = x.abs().log10().floor() as i32;
     if !(-3..6).contains(&e) {
         return format!("{x:.prec$e}", prec = digits.saturating_sub(1));
@@ -103,7 +106,7 @@ pub fn num(x: f64, digits: usize) -> String {
 pub fn json(out: &mut String, v: &serde_json::Value, depth: usize) {
     use serde_json::Value as V;
     match v {
-        V::Null => out.push_str("–"),
+        V::Null => out.push('–'),
         V::Bool(b) => out.push_str(if *b { "yes" } else { "no" }),
         V::Number(n) => out.push_str(&esc(&n.to_string())),
         V::String(s) if s.contains('\n') => {
@@ -168,6 +171,7 @@ mod tests {
         );
         assert_eq!(num(0.0123456, 3), "0.0123");
         assert_eq!(num(1234.4, 3), "1234");
+        assert_eq!(num(100.0, 4), "100");
         assert_eq!(num(f64::NAN, 3), "–");
         assert_eq!(num(1.5e-7, 3), "1.50e-7");
     }

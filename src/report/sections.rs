@@ -127,16 +127,7 @@ fn totals(r: &RunResult) -> Totals {
 }
 
 fn peak_vorticity(r: &RunResult) -> f64 {
-    r.stats
-        .ensemble
-        .get("omega_mean")
-        .and_then(|w| {
-            w.iter()
-                .copied()
-                .filter(|x| x.is_finite())
-                .max_by(|a, b| a.abs().total_cmp(&b.abs()))
-        })
-        .unwrap_or(f64::NAN)
+    crate::compare::scalars::peak_node(&r.stats.ensemble).map_or(f64::NAN, |(_, w)| w)
 }
 
 fn summary(out: &mut String, c: &CampaignResult) {
@@ -194,7 +185,11 @@ fn run_section(out: &mut String, r: &RunResult) {
         let _ = writeln!(out, "<p>{}</p>", esc(d));
     }
     let mut all_w = r.warnings.clone();
-    all_w.extend(r.stats.warnings.iter().cloned());
+    for w in &r.stats.warnings {
+        if !all_w.contains(w) {
+            all_w.push(w.clone());
+        }
+    }
     warnings(out, &all_w);
 
     // Conditions.
@@ -365,13 +360,62 @@ fn comparison_section(out: &mut String, c: &ComparisonResult) {
 }
 
 fn provenance(out: &mut String, m: &serde_json::Value) {
+    use serde_json::Value as V;
     out.push_str("<section id=\"provenance\"><h2>Provenance</h2>\n");
     out.push_str("<p class=\"note\">From <a href=\"manifest.json\">manifest.json</a>: how every number on this page was made.</p>\n");
-    match m {
-        serde_json::Value::Null => {
-            out.push_str("<p class=\"note\">No manifest was recorded.</p>\n")
+    let V::Object(map) = m else {
+        out.push_str("<p class=\"note\">No manifest was recorded.</p>\n</section>\n");
+        return;
+    };
+    let mut rest = serde_json::Map::new();
+    for (k, v) in map {
+        match (k.as_str(), v) {
+            ("pipeline", V::Object(p)) => {
+                out.push_str("<h3>Pipeline</h3>\n");
+                for key in ["path", "sha256"] {
+                    if let Some(x) = p.get(key).and_then(|x| x.as_str()) {
+                        let _ =
+                            writeln!(out, "<p class=\"note\">{key}: <code>{}</code></p>", esc(x));
+                    }
+                }
+                if let Some(t) = p.get("text").and_then(|x| x.as_str()) {
+                    let _ = writeln!(out, "<pre>{}</pre>", esc(t));
+                }
+            }
+            ("pipeline", V::String(t)) => {
+                let _ = writeln!(out, "<h3>Pipeline</h3>\n<pre>{}</pre>", esc(t));
+            }
+            ("inputs", V::Array(a)) => {
+                // Thousands of frames: show the first files, count the rest.
+                let bytes: f64 = a
+                    .iter()
+                    .filter_map(|x| {
+                        x.get("bytes")
+                            .or_else(|| x.get("size"))
+                            .and_then(|b| b.as_f64())
+                    })
+                    .sum();
+                let _ =
+                    writeln!(
+                    out,
+                    "<h3>Input files</h3>\n<p>{} files{}, each with its hash in manifest.json.</p>",
+                    a.len(),
+                    if bytes > 0.0 { format!(", {:.1} MB", bytes / 1e6) } else { String::new() }
+                );
+                let shown: Vec<V> = a.iter().take(20).cloned().collect();
+                out.push_str("<details><summary>first files</summary>\n");
+                json(out, &V::Array(shown), 0);
+                out.push_str("</details>\n");
+            }
+            ("warnings", _) => {}
+            _ => {
+                rest.insert(k.clone(), v.clone());
+            }
         }
-        v => json(out, v, 0),
+    }
+    if !rest.is_empty() {
+        out.push_str("<h3>Run record</h3>\n");
+        json(out, &V::Object(rest), 0);
     }
     out.push_str("</section>\n");
 }
@@ -417,7 +461,21 @@ pub fn page(c: &CampaignResult) -> String {
     }
     o.push_str("<li><a href=\"#provenance\">Provenance</a></li>\n</ol></nav>\n");
     o.push_str("<section id=\"summary\"><h2>Summary</h2>\n");
-    warnings(&mut o, &c.warnings);
+    // Campaign warnings that no run section shows already.
+    let in_runs = |w: &String| {
+        c.runs
+            .iter()
+            .any(|r| r.warnings.contains(w) || r.stats.warnings.contains(w))
+    };
+    let own: Vec<String> = c.warnings.iter().filter(|w| !in_runs(w)).cloned().collect();
+    warnings(&mut o, &own);
+    let n_run_w: usize = c.runs.iter().map(|r| r.warnings.len()).sum();
+    if n_run_w > 0 {
+        let _ = writeln!(
+            o,
+            "<p class=\"note\">{n_run_w} warning(s) in the run sections below.</p>"
+        );
+    }
     summary(&mut o, c);
     o.push_str(
         "<p class=\"note\">Per-run table: <a href=\"campaign.csv\">campaign.csv</a>. All values SI; uncertainties are standard \

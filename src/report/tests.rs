@@ -55,7 +55,8 @@ fn campaign(out: &Path) -> CampaignResult {
         runs,
         manifest: serde_json::json!({
             "tool_version": "0.1.0",
-            "pipeline": "[campaign]\nname = \"x\"\n",
+            "version": "0.1.0",
+            "pipeline": {"path": "p.toml", "sha256": "ffee", "text": "[campaign]\nname = \"x\"\n"},
             "inputs": [{"path": "a/f0001.csv", "bytes": 1024, "sha256": "ab12"}],
             "timings_s": {"read": 1.5, "derive": 0.25},
         }),
