@@ -19,7 +19,8 @@
 //!   renormalised, which would not be a least-squares fit: such a node keeps
 //!   its input value (unsmoothed).
 //!
-//! Nodes without a value (`valid` false) come out NaN: smoothing does not fill.
+//! Nodes without a value (`valid` false) come out NaN: smoothing does not
+//! fill. `Smoother::None` returns its input unchanged, NaN or not.
 
 use ndarray::Array2;
 
@@ -56,10 +57,7 @@ impl Smoother {
     ) -> (Array2<f64>, Option<f64>) {
         let ok = |ix: (usize, usize)| valid[ix] && a[ix].is_finite();
         match self {
-            Smoother::None => (
-                Array2::from_shape_fn(a.dim(), |ix| if ok(ix) { a[ix] } else { f64::NAN }),
-                None,
-            ),
+            Smoother::None => (a.clone(), None),
             Smoother::Linear(st) => (apply_linear(st, a, valid), None),
             Smoother::Pls { s, robust } => {
                 let (ny, nx) = a.dim();
