@@ -412,7 +412,7 @@ impl Figure for MapFigure<'_> {
             p0.range,
             &self.bar_label,
             34,
-            bar_h - ch + self.layout.bottom,
+            self.layout.bottom,
         )
     }
 }

@@ -19,7 +19,14 @@ pub(crate) fn png_size(path: &Path) -> (u32, u32) {
 fn run_figures_write_every_figure_as_png_and_svg() {
     let dir = tempfile::tempdir().unwrap();
     let r = run("r1", &VORTEX, grid(64, 48));
+    let t0 = std::time::Instant::now();
     let figs = run_figures(&Params::default(), &r, dir.path()).unwrap();
+    // A record, not a timed assertion (shared machines are noisy).
+    eprintln!(
+        "{} figures for a 64 x 48 grid in {:.2} s",
+        figs.len(),
+        t0.elapsed().as_secs_f64()
+    );
     // Set CURLEW_FIGURE_PREVIEW=DIR to keep a copy for looking at.
     if let Ok(keep) = std::env::var("CURLEW_FIGURE_PREVIEW") {
         run_figures(&Params::default(), &r, Path::new(&keep)).unwrap();
