@@ -134,6 +134,7 @@ pub fn frames(n: usize, nodes: usize) -> Vec<FrameRecord> {
             validation: validate::Counts {
                 invalid_input: k % 3,
                 median: (k * 7) % 11,
+                ..Default::default()
             },
             fill: fill::Counts {
                 replaced: (k * 7) % 11,

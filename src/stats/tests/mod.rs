@@ -72,6 +72,12 @@ fn frame(
             quantity("div", &a[3], 0.05),
         ],
         noise_estimate: None,
+        noise_used: 0.02,
+        scheme_map: Array2::zeros(sh),
+        scheme_names: vec!["least-squares"],
+        scheme_counts: vec![sh.0 * sh.1],
+        fallback_nodes: 0,
+        sigma_fallback_nodes: 0,
     };
     Frame {
         meta: FrameMeta {
