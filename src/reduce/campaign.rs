@@ -90,6 +90,11 @@ pub fn finish_campaign(
                 "stats": format!("{:?}", rp.stats),
             },
             "warnings": rr.warnings,
+            "derivative_schemes": r.scheme_counts.iter().map(|(k, v)| (k.clone(), serde_json::json!(v))).collect::<serde_json::Map<_, _>>(),
+            "peak_locking": r.peak_lock.as_ref().map(|p| serde_json::json!({
+                "n": p.n, "R": p.r, "p_value": p.p_value, "inconclusive": p.inconclusive,
+                "warning": p.warning, "histogram": p.histogram,
+            })),
         }));
         inputs.extend(r.inputs);
         runs.push(rr);

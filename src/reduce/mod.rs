@@ -36,6 +36,7 @@ use crate::io::{self, FrameSource};
 use crate::plan::RunPlan;
 use crate::result::FrameRecord;
 use crate::stats::RunAccumulator;
+use crate::validate::peaklock::PeakLockAcc;
 use crate::validate::{self, EnsembleBuilder, EnsembleRef};
 use crate::{derive, fill};
 
@@ -140,6 +141,21 @@ pub struct Reduced {
     pub inputs: Vec<InputFile>,
     pub warnings: Vec<String>,
     pub timings: Vec<(String, f64)>,
+    /// Node-frames per derivative scheme (what `auto` chose, or the one fixed scheme).
+    pub scheme_counts: Vec<(String, usize)>,
+    /// The peak-locking diagnostic of the valid displacements, when the
+    /// calibration is known (single runs; a merge of shards does not carry it).
+    pub peak_lock: Option<validate::peaklock::PeakLock>,
+}
+
+/// Adds `names[k]` × `counts[k]` into `into`, keeping first-seen order.
+fn add_counts(into: &mut Vec<(String, usize)>, names: &[&str], counts: &[usize]) {
+    for (n, &c) in names.iter().zip(counts) {
+        match into.iter_mut().find(|(k, _)| k == n) {
+            Some(e) => e.1 += c,
+            None => into.push((n.to_string(), c)),
+        }
+    }
 }
 
 /// The frames of a run with their metadata, in natural order.
@@ -267,7 +283,11 @@ pub fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
         acc: RunAccumulator,
         records: Vec<FrameRecord>,
         inputs: Vec<InputFile>,
+        schemes: Vec<(String, usize)>,
+        peak: Option<PeakLockAcc>,
     }
+    let mut schemes: Vec<(String, usize)> = Vec::new();
+    let mut peak: Option<PeakLockAcc> = run.px_velocity.map(PeakLockAcc::new);
     let mut acc = RunAccumulator::new(&run.stats, grid, &names);
     let mut records = Vec::with_capacity(mine.len());
     let mut inputs = Vec::with_capacity(mine.len());
@@ -280,6 +300,8 @@ pub fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
                 acc: RunAccumulator::new(&run.stats, grid, &names),
                 records: Vec::with_capacity(chunk.len()),
                 inputs: Vec::new(),
+                schemes: Vec::new(),
+                peak: run.px_velocity.map(PeakLockAcc::new),
             };
             for (meta, src) in chunk {
                 let mut field = read_on_grid(run, src, &grid)?;
@@ -293,8 +315,17 @@ pub fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
                 }
                 let vcounts = validate::validate_frame(&run.validation, &mut field, ens.as_ref());
                 let rejected = validate::frame_rejected(&run.validation, &vcounts, grid.len());
+                if let (Some(p), false) = (out.peak.as_mut(), rejected) {
+                    // valid displacements only: after validation, before filling
+                    p.push(&field);
+                }
                 let fcounts = fill::fill(&run.fill, &mut field);
                 let derived = derive::derive(&run.derive, &field);
+                add_counts(
+                    &mut out.schemes,
+                    &derived.scheme_names,
+                    &derived.scheme_counts,
+                );
                 if !rejected {
                     out.acc.push(meta, &field, &derived);
                 }
@@ -323,6 +354,12 @@ pub fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
             acc.merge(c.acc);
             records.extend(c.records);
             inputs.extend(c.inputs);
+            let names: Vec<&str> = c.schemes.iter().map(|(n, _)| n.as_str()).collect();
+            let counts: Vec<usize> = c.schemes.iter().map(|(_, k)| *k).collect();
+            add_counts(&mut schemes, &names, &counts);
+            if let (Some(p), Some(q)) = (peak.as_mut(), c.peak) {
+                p.merge(q);
+            }
         },
     )?;
     for (_, src) in mine {
@@ -355,7 +392,13 @@ pub fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
             records.len()
         ));
     }
+    let peak_lock = peak.map(|p| p.finish());
+    if let Some(w) = peak_lock.as_ref().and_then(|p| p.warning.clone()) {
+        warnings.push(format!("run '{}': {w}", run.id));
+    }
     Ok(Reduced {
+        scheme_counts: schemes,
+        peak_lock,
         id: run.id.clone(),
         grid,
         n_frames_run: n,

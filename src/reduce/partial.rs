@@ -49,6 +49,7 @@ struct RunPart {
     inputs: Vec<InputFile>,
     warnings: Vec<String>,
     timings: Vec<(String, f64)>,
+    scheme_counts: Vec<(String, usize)>,
 }
 
 #[derive(Debug, Clone, Serialize, Deserialize)]
@@ -108,6 +109,7 @@ pub fn write(
             inputs: r.inputs.clone(),
             warnings: r.warnings.clone(),
             timings: r.timings.clone(),
+            scheme_counts: r.scheme_counts.clone(),
         });
     }
     let pf = PartialFile {
@@ -169,6 +171,8 @@ pub fn read(dir: &Path) -> Result<Partial> {
             inputs: r.inputs,
             warnings: r.warnings,
             timings: r.timings,
+            scheme_counts: r.scheme_counts,
+            peak_lock: None,
         });
     }
     Ok(Partial {
@@ -238,6 +242,12 @@ pub fn merge(mut parts: Vec<Partial>) -> Result<(Partial, Vec<Reduced>)> {
             into.frames.extend(r.frames);
             into.inputs.extend(r.inputs);
             into.warnings.extend(r.warnings);
+            for (k, c) in r.scheme_counts {
+                match into.scheme_counts.iter_mut().find(|(n, _)| *n == k) {
+                    Some(e) => e.1 += c,
+                    None => into.scheme_counts.push((k, c)),
+                }
+            }
             for (k, v) in r.timings {
                 match into.timings.iter_mut().find(|(n, _)| *n == k) {
                     Some(t) => t.1 += v,
