@@ -4,4 +4,5 @@
 mod util;
 
 mod bad_input;
+mod detection;
 mod run;
