@@ -5,4 +5,5 @@ mod util;
 
 mod bad_input;
 mod detection;
+mod reference;
 mod run;
