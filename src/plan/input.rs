@@ -75,7 +75,7 @@ impl RawInput {
     }
 
     /// Resolves units to SI factors. `what` names the section for errors
-    /// (e.g. "[input]" or "run 're2000' [run.input]").
+    /// (e.g. `[input]` or `run 're2000' [run.input]`).
     pub fn resolve(&self, what: &str) -> Result<InputSpec> {
         let format = match self.format.as_deref().unwrap_or("csv") {
             "csv" => Format::Csv,

@@ -122,7 +122,7 @@ pub fn frames_table(frames: &[FrameRecord]) -> Table {
     t
 }
 
-/// Writes every table of one run into `dir` (= OUT/<run id>).
+/// Writes every table of one run into `dir` (= `OUT/<run id>`).
 pub fn write_run_tables(dir: &Path, run: &RunResult) -> Result<()> {
     std::fs::create_dir_all(dir).map_err(|e| crate::Error::io(dir, e))?;
     write_node_table(dir, "ensemble", &run.stats.ensemble)?;
