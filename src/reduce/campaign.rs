@@ -76,8 +76,33 @@ pub fn finish_campaign(
         }
         rr.warnings = run_warnings.clone();
         warnings.extend(run_warnings);
+        // Per-test totals over the run's frames (each vector counted once, by
+        // the first test of the chain that rejected it), and the filling.
+        let mut tests = serde_json::Map::new();
+        for f in &rr.frames {
+            let counts = [
+                serde_json::to_value(f.validation),
+                serde_json::to_value(f.fill),
+            ];
+            for v in counts.into_iter().flatten() {
+                if let serde_json::Value::Object(m) = v {
+                    for (k, x) in m {
+                        let e = tests.entry(k).or_insert(serde_json::json!(0));
+                        *e = serde_json::json!(e.as_u64().unwrap_or(0) + x.as_u64().unwrap_or(0));
+                    }
+                }
+            }
+        }
+        let frames_rejected = rr
+            .frames
+            .iter()
+            .filter(|f| f.rejected)
+            .map(|f| f.meta.name.clone())
+            .collect::<Vec<_>>();
         manifest_runs.push(serde_json::json!({
             "id": rr.id,
+            "vector_counts": tests,
+            "frames_rejected": frames_rejected,
             "frames": rr.frames.len(),
             "frames_in_run": r.n_frames_run,
             "grid": rr.grid,
