@@ -20,10 +20,10 @@ python3 -c "import numpy, pandas" 2>/dev/null || python3 -m pip install --quiet 
 t() { /usr/bin/time -f "%e s wall, %M KB peak RSS" "$@"; }
 
 if [ ! -d "$DATA/csv-$FRAMES" ]; then
-  "$BIN" synth wake --out "$DATA/csv-$FRAMES" --frames "$FRAMES" --nx 128 --ny 96 --runs 1 --seed 7
+  "$BIN" synth wake --out "$DATA/csv-$FRAMES" --frames "$FRAMES" --nx 128 --ny 96 --pitch-mm 0.75 --speeds 0.15 --seed 7
 fi
 if [ ! -d "$DATA/pq-$FRAMES" ]; then
-  "$BIN" synth wake --out "$DATA/pq-$FRAMES" --frames "$FRAMES" --nx 128 --ny 96 --runs 1 --seed 7 --format parquet
+  "$BIN" synth wake --out "$DATA/pq-$FRAMES" --frames "$FRAMES" --nx 128 --ny 96 --pitch-mm 0.75 --speeds 0.15 --seed 7 --format parquet
 fi
 echo "machine: $(nproc) cores, $(grep -m1 'model name' /proc/cpuinfo | cut -d: -f2 | xargs)"
 echo "rustc: $(rustc --version); python: $(python3 --version 2>&1); numpy $(python3 -c 'import numpy; print(numpy.__version__)'); pandas $(python3 -c 'import pandas; print(pandas.__version__)')"
