@@ -95,7 +95,17 @@ pub fn run(args: Args) -> Result<()> {
         grid_tolerance: None,
     };
     let spec = raw.resolve("inspect")?;
-    let text = curlew::io::inspect::describe(&args.file, &spec)?;
+    let mut text = curlew::io::inspect::describe(&args.file, &spec)?;
+    if text.contains("kind       frame")
+        && (args.length_unit.is_none() || args.velocity_unit.is_none())
+    {
+        text.push_str(&format!(
+            "units      read as x, y in {} and u, v in {} (the defaults); give --length-unit and \
+             --velocity-unit if the file is in other units\n",
+            args.length_unit.as_deref().unwrap_or("m"),
+            args.velocity_unit.as_deref().unwrap_or("m/s"),
+        ));
+    }
     use std::io::Write;
     std::io::stdout()
         .write_all(text.as_bytes())
