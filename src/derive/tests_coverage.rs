@@ -131,17 +131,7 @@ fn smoothing_then_differencing_propagates_through_the_composite() {
     // taken as independent. A hand-made 3 x 3 smoother (1,2,1)x(1,2,1)/16,
     // then central and 4-point least squares in x; 4000 seeded 1-D-in-x
     // noise fields, correlated and not (Monte Carlo, within 3 %).
-    let mut sm = Vec::new();
-    for (dj, a) in [(-1, 1.0), (0, 2.0), (1, 1.0)] {
-        for (di, b) in [(-1, 1.0), (0, 2.0), (1, 1.0)] {
-            sm.push(crate::stencil::Tap {
-                dj,
-                di,
-                w: a * b / 16.0,
-            });
-        }
-    }
-    let s = Stencil::new(sm);
+    let s = binomial3();
     let mut rng = rng(99);
     let mut worst_pieces = 0.0f64;
     for d in [
@@ -279,17 +269,7 @@ fn smoothed_gradient_uncertainty_matches_monte_carlo_at_edges_and_inside() {
     // the propagated variance within 4 % (sampling error 1.1 %).
     use crate::derive::gradient::{gradient, restricted, summed_area, Inputs};
     let n = 12;
-    let mut taps = Vec::new();
-    for (dj, a) in [(-1, 1.0), (0, 2.0), (1, 1.0)] {
-        for (di, b) in [(-1, 1.0), (0, 2.0), (1, 1.0)] {
-            taps.push(crate::stencil::Tap {
-                dj,
-                di,
-                w: a * b / 16.0,
-            });
-        }
-    }
-    let s = Stencil::new(taps);
+    let s = binomial3();
     let ok = Array2::from_elem((n, n), true);
     let sig = Array2::from_elem((n, n), 1.0);
     // Not plain anywhere: every node takes the general path once, too.
@@ -347,4 +327,20 @@ fn smoothed_gradient_uncertainty_matches_monte_carlo_at_edges_and_inside() {
             }
         }
     }
+}
+
+/// The 3 x 3 binomial smoother (1,2,1) x (1,2,1) / 16, a hand-made linear
+/// smoother for the composition tests.
+fn binomial3() -> Stencil {
+    let mut taps = Vec::new();
+    for (dj, a) in [(-1, 1.0), (0, 2.0), (1, 1.0)] {
+        for (di, b) in [(-1, 1.0), (0, 2.0), (1, 1.0)] {
+            taps.push(crate::stencil::Tap {
+                dj,
+                di,
+                w: a * b / 16.0,
+            });
+        }
+    }
+    Stencil::new(taps)
 }

@@ -81,22 +81,11 @@ pub fn ensemble(g: Grid, v: &Vortex, u_unc: f64, w_unc: f64, n: usize) -> NodeTa
             }
         }
     }
-    let names = [
-        "x",
-        "y",
-        "n_valid",
-        "u_mean",
-        "v_mean",
-        "u_std",
-        "v_std",
-        "uv_cov",
-        "omega_mean",
-        "omega_std",
-        "u_mean_unc",
-        "v_mean_unc",
-        "omega_mean_unc",
-        "omega_inst_unc",
-    ];
+    // x, y, then the CONTRACT ensemble columns as the statistics stage names them.
+    let names: Vec<&str> = ["x", "y"]
+        .into_iter()
+        .chain(crate::stats::CONTRACT_COLUMNS)
+        .collect();
     let mut t = NodeTable::new(g);
     for (nm, c) in names.iter().zip(cols) {
         t.push(*nm, c);
