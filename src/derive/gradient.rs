@@ -77,6 +77,9 @@ pub struct Inputs<'a> {
     /// Counts of "not plain" nodes (no value, or an uncertainty other than
     /// `sig_ref`) as a summed-area table of shape (ny+1, nx+1).
     pub not_plain: &'a Array2<u32>,
+    /// Counts of nodes without a value, as a summed-area table like
+    /// `not_plain`.
+    pub not_ok: &'a Array2<u32>,
     /// The uncertainty of plain nodes (u, v).
     pub sig_ref: (f64, f64),
     pub dx: f64,
@@ -111,6 +114,67 @@ impl Flat {
     }
 }
 
+/// `Correlation::variance_at` of one stencil at nodes where it fits, with
+/// the flat offsets and the pairs of taps that correlate precomputed: the
+/// same sums in the same order (so bit-identical), without re-evaluating the
+/// correlation model or checking bounds per tap.
+struct FlatVar {
+    off: Vec<isize>,
+    w: Vec<f64>,
+    /// `(a, b, rho_ab)` for every ordered pair with `rho_ab != 0`.
+    pairs: Vec<(usize, usize, f64)>,
+    gain: f64,
+    independent: bool,
+}
+
+impl FlatVar {
+    fn new(s: &Stencil, gain: f64, corr: &Correlation, nx: usize) -> FlatVar {
+        let mut pairs = Vec::new();
+        for (ia, a) in s.taps.iter().enumerate() {
+            for (ib, b) in s.taps.iter().enumerate() {
+                let r = corr.rho(a.dj - b.dj, a.di - b.di);
+                if r != 0.0 {
+                    pairs.push((ia, ib, r));
+                }
+            }
+        }
+        FlatVar {
+            off: Flat::new(s, nx).off,
+            w: s.taps.iter().map(|t| t.w).collect(),
+            pairs,
+            gain,
+            independent: corr.is_independent(),
+        }
+    }
+
+    /// The variance at flat index `k` (every tap inside the grid).
+    #[inline]
+    fn at(&self, sig: &[f64], k: usize) -> f64 {
+        let at = |o: isize| sig[(k as isize + o) as usize];
+        let s0 = sig[k];
+        if self.off.iter().all(|&o| at(o) == s0) {
+            return self.gain * s0 * s0;
+        }
+        if self.independent {
+            return self
+                .off
+                .iter()
+                .zip(&self.w)
+                .map(|(&o, &w)| {
+                    let e = w * at(o);
+                    e * e
+                })
+                .sum();
+        }
+        let mut v = 0.0;
+        for &(a, b, r) in &self.pairs {
+            let ea = self.w[a] * at(self.off[a]);
+            v += ea * self.w[b] * at(self.off[b]) * r;
+        }
+        v
+    }
+}
+
 /// One axis of one scheme, with everything precomputed for the interior.
 struct AxisOp {
     axis: Axis,
@@ -130,6 +194,10 @@ struct AxisOp {
     fit_half: Vec<(i32, i32)>,
     flat_d: Flat,
     flat_b: Option<Flat>,
+    /// Variance of `comp[0]` and of `bias[0]` where every node has a value
+    /// (uncertainties not uniform).
+    var_d: FlatVar,
+    var_b: Option<FlatVar>,
     /// Half-widths of the box that must be plain for the fast path.
     box_r: (usize, usize),
 }
@@ -255,13 +323,17 @@ impl AxisOp {
             let q = s.reach();
             r = (r.0.max(q.0), r.1.max(q.1));
         }
-        let comp = comp
+        let comp: Vec<Shared> = comp
             .into_iter()
             .map(|c| {
                 let g = inp.corr.gain(&c);
                 Rc::new((c, g))
             })
             .collect();
+        let var_d = FlatVar::new(&comp[0].0, comp[0].1, &inp.corr, nx);
+        let var_b = bias[0]
+            .as_ref()
+            .map(|b| FlatVar::new(&b.0, b.1, &inp.corr, nx));
         AxisOp {
             axis,
             h,
@@ -274,6 +346,8 @@ impl AxisOp {
             fit_half,
             flat_d,
             flat_b,
+            var_d,
+            var_b,
             box_r: r,
         }
     }
@@ -399,6 +473,8 @@ pub fn gradient(scheme: DiffScheme, inp: &Inputs) -> Grad {
     let vs = inp.vs.as_slice().expect("standard layout");
     let u = inp.u.as_slice().expect("standard layout");
     let v = inp.v.as_slice().expect("standard layout");
+    let sig_u = inp.sig_u.as_slice().expect("standard layout");
+    let sig_v = inp.sig_v.as_slice().expect("standard layout");
     let (ru2, rv2) = (inp.sig_ref.0 * inp.sig_ref.0, inp.sig_ref.1 * inp.sig_ref.1);
     for j in 0..ny {
         for i in 0..nx {
@@ -422,6 +498,23 @@ pub fn gradient(scheme: DiffScheme, inp: &Inputs) -> Grad {
                         bias_[sv][k] = fb.apply(v, k);
                         bvar[su][k] = bg * ru2;
                         bvar[sv][k] = bg * rv2;
+                    }
+                    continue;
+                }
+                if box_plain(inp.not_ok, j, i, op.box_r) {
+                    // Every node of the box has a value, so the scheme's own
+                    // stencil, its composite and its truncation stencil all
+                    // fit (what the general path below would find), but the
+                    // uncertainties differ from node to node.
+                    val[su][k] = op.flat_d.apply(us, k);
+                    val[sv][k] = op.flat_d.apply(vs, k);
+                    var[su][k] = op.var_d.at(sig_u, k);
+                    var[sv][k] = op.var_d.at(sig_v, k);
+                    if let (Some(fb), Some(vb)) = (&op.flat_b, &op.var_b) {
+                        bias_[su][k] = fb.apply(u, k);
+                        bias_[sv][k] = fb.apply(v, k);
+                        bvar[su][k] = vb.at(sig_u, k);
+                        bvar[sv][k] = vb.at(sig_v, k);
                     }
                     continue;
                 }

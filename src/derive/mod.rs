@@ -333,6 +333,7 @@ pub fn derive(p: &Params, field: &Field) -> Derived {
             .and(&sig_v)
             .map_collect(|&o, &a, &b| !(o && a == level && b == level)),
     );
+    let not_ok = summed_area(&ok.mapv(|o| !o));
     let inp = Inputs {
         ok: &ok,
         us,
@@ -344,6 +345,7 @@ pub fn derive(p: &Params, field: &Field) -> Derived {
         corr: p.correlation,
         smoother: smoother.as_ref(),
         not_plain: &not_plain,
+        not_ok: &not_ok,
         sig_ref: (level, level),
         dx: field.grid.dx,
         dy: field.grid.dy,
@@ -381,16 +383,38 @@ pub fn derive(p: &Params, field: &Field) -> Derived {
         .map(|_| [vec![f64::NAN; n], vec![f64::NAN; n], vec![f64::NAN; n]])
         .collect();
     let flat = quantities::Flat::new(&g);
-    for (k, &o) in ok.iter().enumerate() {
-        if !o {
-            continue;
+    let ok_s = ok.as_slice().expect("standard layout");
+    for (c, &(_, kind)) in cols.iter_mut().zip(&kinds) {
+        // One pass per quantity with its kind a constant in the loop (each
+        // arm inlines `at` for one kind): evaluating the formula table per
+        // node made the compiler compute every formula and select.
+        #[inline(always)]
+        fn pass(
+            kind: quantities::Kind,
+            flat: &quantities::Flat,
+            ok: &[bool],
+            c: &mut [Vec<f64>; 3],
+        ) {
+            let [c0, c1, c2] = c;
+            for (k, &o) in ok.iter().enumerate() {
+                if o {
+                    let (a, b, t) = quantities::at(kind, &flat.node(k));
+                    c0[k] = a;
+                    c1[k] = b;
+                    c2[k] = t;
+                }
+            }
         }
-        let node = flat.node(k);
-        for (c, &(_, kind)) in cols.iter_mut().zip(&kinds) {
-            let (a, b, t) = quantities::at(kind, &node);
-            c[0][k] = a;
-            c[1][k] = b;
-            c[2][k] = t;
+        use quantities::Kind as K;
+        match kind {
+            K::Omega => pass(K::Omega, &flat, ok_s, c),
+            K::Div => pass(K::Div, &flat, ok_s, c),
+            K::Exx => pass(K::Exx, &flat, ok_s, c),
+            K::Eyy => pass(K::Eyy, &flat, ok_s, c),
+            K::Exy => pass(K::Exy, &flat, ok_s, c),
+            K::LambdaCi => pass(K::LambdaCi, &flat, ok_s, c),
+            K::Q => pass(K::Q, &flat, ok_s, c),
+            K::Stretching => pass(K::Stretching, &flat, ok_s, c),
         }
     }
     let mut cols = cols.into_iter();

@@ -272,9 +272,12 @@ fn smoothed_gradient_uncertainty_matches_monte_carlo_at_edges_and_inside() {
     let s = binomial3();
     let ok = Array2::from_elem((n, n), true);
     let sig = Array2::from_elem((n, n), 1.0);
-    // Not plain anywhere: every node takes the general path once, too.
-    for plain in [true, false] {
-        let sat = summed_area(&Array2::from_elem((n, n), !plain));
+    // Path 0: plain (the fast path); 1: every node has a value but none is
+    // plain (the precomputed-variance path); 2: as if no node had a value
+    // around (the general path). Each must predict the Monte Carlo spread.
+    for path in 0..3 {
+        let sat = summed_area(&Array2::from_elem((n, n), path != 0));
+        let sat_ok = summed_area(&Array2::from_elem((n, n), path == 2));
         let smooth = |a: &Array2<f64>| {
             Array2::from_shape_fn((n, n), |(j, i)| {
                 restricted(&s, &ok, j, i).unwrap().apply_at(a, j, i)
@@ -299,6 +302,7 @@ fn smoothed_gradient_uncertainty_matches_monte_carlo_at_edges_and_inside() {
                 corr: Correlation::Independent,
                 smoother: Some(&s),
                 not_plain: &sat,
+                not_ok: &sat_ok,
                 sig_ref: (1.0, 1.0),
                 dx: 1.0,
                 dy: 1.0,
@@ -322,7 +326,7 @@ fn smoothed_gradient_uncertainty_matches_monte_carlo_at_edges_and_inside() {
         for (k, node) in nodes.iter().enumerate() {
             for c in 0..2 {
                 let mc = acc[k][c] / reps as f64;
-                let what = format!("plain {plain}, node {node:?}, component {c}");
+                let what = format!("path {path}, node {node:?}, component {c}");
                 assert_close(mc.sqrt(), pred[k][c].sqrt(), 0.0, 0.04, &what);
             }
         }

@@ -78,19 +78,60 @@ fn gaps(c: &[f64]) -> Vec<f64> {
     c.windows(2).map(|w| w[1] - w[0]).collect()
 }
 
+/// The distinct values of `values`, ascending (before `dedup`, which the
+/// caller applies). Files list nodes row by row, so x comes as ascending
+/// runs over the same few values: the first run gives the set, and each
+/// later value is looked up by a pointer that only moves forward within a
+/// run (one linear pass). Values not found are collected and merged in by a
+/// sort. When the runs are not like that (descending files, say) and the
+/// lookups cost more than a few passes, it falls back to sorting everything.
+/// Either way the result is the same set.
+fn distinct_sorted(values: &[f64]) -> Vec<f64> {
+    // Runs of one value (y along a row of a row-ordered file) collapse first.
+    let mut v: Vec<f64> = Vec::with_capacity(values.len());
+    for &x in values {
+        if v.last() != Some(&x) {
+            v.push(x);
+        }
+    }
+    let first = v
+        .windows(2)
+        .position(|w| w[1] <= w[0])
+        .map_or(v.len(), |p| p + 1);
+    let mut d: Vec<f64> = v[..first].to_vec();
+    let mut extra: Vec<f64> = Vec::new();
+    let (mut ptr, mut prev, mut steps) = (0usize, f64::NEG_INFINITY, 0usize);
+    let budget = 4 * v.len() + 1024;
+    for &x in &v[first..] {
+        if x < prev {
+            ptr = 0;
+        }
+        prev = x;
+        while ptr < d.len() && d[ptr] < x {
+            ptr += 1;
+            steps += 1;
+        }
+        if steps > budget {
+            v.sort_unstable_by(f64::total_cmp);
+            return v;
+        }
+        if ptr < d.len() && d[ptr] == x {
+            continue;
+        }
+        extra.push(x);
+    }
+    if !extra.is_empty() {
+        d.extend(extra);
+        d.sort_unstable_by(f64::total_cmp);
+    }
+    d
+}
+
 /// Infers a regular axis from coordinate values (any order, repeats
 /// allowed). `tol` is the tolerance in pitches (0 < tol < 0.5). See the
 /// module documentation for the method.
 pub fn infer_axis(values: &[f64], tol: f64) -> std::result::Result<Axis, AxisError> {
-    // Runs of one value (y along a row of a row-ordered file) collapse first,
-    // which shortens the sort.
-    let mut d: Vec<f64> = Vec::with_capacity(values.len());
-    for &x in values {
-        if d.last() != Some(&x) {
-            d.push(x);
-        }
-    }
-    d.sort_unstable_by(f64::total_cmp);
+    let mut d = distinct_sorted(values);
     d.dedup();
     if d.len() < 2 {
         return Err(AxisError::TooFew(d.len()));
@@ -315,6 +356,41 @@ pub fn assemble(
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// The run-wise lookup gives the set a sort and dedup give, on
+    /// row-ordered files with missing rows, shuffled and descending ones.
+    #[test]
+    fn distinct_values_equal_sort_and_dedup() {
+        use rand::seq::SliceRandom;
+        use rand::Rng;
+        let mut r = crate::testutil::rng(3);
+        let reference = |v: &[f64]| {
+            let mut s = v.to_vec();
+            s.sort_unstable_by(f64::total_cmp);
+            s.dedup();
+            s
+        };
+        for trial in 0..200 {
+            let (nx, ny) = (r.random_range(1..40), r.random_range(1..30));
+            let mut xs = Vec::new();
+            for _ in 0..ny {
+                for i in 0..nx {
+                    if r.random::<f64>() > 0.1 {
+                        xs.push(0.75 * i as f64 + if trial % 7 == 0 { 0.3 } else { 0.0 });
+                    }
+                }
+            }
+            if trial % 5 == 1 {
+                xs.shuffle(&mut r);
+            }
+            if trial % 5 == 2 {
+                xs.reverse();
+            }
+            let mut got = distinct_sorted(&xs);
+            got.dedup();
+            assert_eq!(got, reference(&xs), "trial {trial}");
+        }
+    }
 
     #[test]
     fn exact_coordinates_give_the_exact_line() {

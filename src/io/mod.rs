@@ -25,7 +25,7 @@ use crate::error::{Error, Result};
 use crate::field::{Field, Grid, NodeTable};
 pub use parquet::write_frames_parquet;
 pub use table::{Table, Values};
-pub use write::{hash_file, write_csv, OutputDir};
+pub use write::{hash_bytes, hash_file, write_csv, OutputDir};
 
 /// The text formats and parquet.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
@@ -146,7 +146,22 @@ impl FrameSource {
     }
 }
 
-fn read_rows(spec: &InputSpec, source: &FrameSource, grid_only: bool) -> Result<grid::RawRows> {
+/// The size and SHA-256 of a frame file, when the frame came from one.
+pub type FileHash = Option<(u64, String)>;
+
+thread_local! {
+    /// The read buffer of text frames, reused from frame to frame on each
+    /// thread: one allocation instead of one fresh (and freshly
+    /// page-faulted) buffer per file.
+    static READ_BUF: std::cell::RefCell<Vec<u8>> = const { std::cell::RefCell::new(Vec::new()) };
+}
+
+fn read_rows(
+    spec: &InputSpec,
+    source: &FrameSource,
+    grid_only: bool,
+    hash: bool,
+) -> Result<(grid::RawRows, FileHash)> {
     match source {
         FrameSource::File(path) => {
             if spec.format == Format::Parquet {
@@ -155,19 +170,24 @@ fn read_rows(spec: &InputSpec, source: &FrameSource, grid_only: bool) -> Result<
                 )
                 .with_path(path));
             }
-            let bytes = text::read_bytes(path)?;
-            text::parse_frame(
-                &bytes,
-                path,
-                spec.format,
-                spec.skip_lines,
-                &spec.columns,
-                grid_only,
-            )
+            READ_BUF.with(|buf| {
+                let mut bytes = buf.borrow_mut();
+                text::read_into(path, &mut bytes)?;
+                let rows = text::parse_frame(
+                    &bytes,
+                    path,
+                    spec.format,
+                    spec.skip_lines,
+                    &spec.columns,
+                    grid_only,
+                )?;
+                Ok((rows, hash.then(|| hash_bytes(&bytes))))
+            })
         }
-        FrameSource::Parquet { path, frame } => {
-            parquet::read_rows(path, *frame, &spec.columns, grid_only)
-        }
+        FrameSource::Parquet { path, frame } => Ok((
+            parquet::read_rows(path, *frame, &spec.columns, grid_only)?,
+            None,
+        )),
     }
 }
 
@@ -177,25 +197,37 @@ fn read_rows(spec: &InputSpec, source: &FrameSource, grid_only: bool) -> Result<
 /// with NaN velocities; see `text` for the cell rules and `grid` for the
 /// inference.
 pub fn read_frame(spec: &InputSpec, source: &FrameSource) -> Result<Field> {
-    let rows = read_rows(spec, source, false)?;
+    Ok(read_frame_hashed(spec, source, false)?.0)
+}
+
+/// `read_frame`, and with `hash` the size and SHA-256 of the frame's file
+/// (text frames; parquet files are hashed once per file by the caller),
+/// taken from the very bytes that were parsed: each file is read once.
+pub fn read_frame_hashed(
+    spec: &InputSpec,
+    source: &FrameSource,
+    hash: bool,
+) -> Result<(Field, FileHash)> {
+    let (rows, h) = read_rows(spec, source, false, hash)?;
     let what = if matches!(source, FrameSource::Parquet { .. }) {
         "row"
     } else {
         "line"
     };
-    grid::assemble(
+    let f = grid::assemble(
         &rows,
         spec.grid_tolerance,
         spec.length_scale,
         spec.velocity_scale,
         what,
     )
-    .map_err(|e| e.with_path(source.path()))
+    .map_err(|e| e.with_path(source.path()))?;
+    Ok((f, h))
 }
 
 /// Reads only what `check` needs: the grid of one frame (header and x, y).
 pub fn read_grid(spec: &InputSpec, source: &FrameSource) -> Result<Grid> {
-    let rows = read_rows(spec, source, true)?;
+    let (rows, _) = read_rows(spec, source, true, false)?;
     let (ax, ay) =
         grid::infer_grid(&rows, spec.grid_tolerance).map_err(|e| e.with_path(source.path()))?;
     Ok(grid::grid_si(ax, ay, spec.length_scale))

@@ -140,6 +140,16 @@ pub fn hash_file(path: &Path) -> Result<(u64, String)> {
     Ok((size, hex))
 }
 
+/// The size and SHA-256 (lower-case hex) of bytes already in memory: the
+/// same as `hash_file` of the file they were read from.
+pub fn hash_bytes(bytes: &[u8]) -> (u64, String) {
+    let hex: String = Sha256::digest(bytes)
+        .iter()
+        .map(|b| format!("{b:02x}"))
+        .collect();
+    (bytes.len() as u64, hex)
+}
+
 /// An output folder that appears only when the work succeeded: everything
 /// is written into the temporary sibling `<parent>/.<name>.partial-<pid>`,
 /// and `commit` swaps it in place of the old folder. Dropped without

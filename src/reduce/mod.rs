@@ -199,14 +199,24 @@ fn source_path(src: &FrameSource) -> &std::path::Path {
 
 /// Reads a frame and checks it lies on the run's grid.
 fn read_on_grid(run: &RunPlan, src: &FrameSource, grid: &Grid) -> Result<crate::field::Field> {
-    let f = io::read_frame(&run.input, src)?;
+    Ok(read_on_grid_hashed(run, src, grid, false)?.0)
+}
+
+/// `read_on_grid`, with the file's size and SHA-256 when `hash`.
+fn read_on_grid_hashed(
+    run: &RunPlan,
+    src: &FrameSource,
+    grid: &Grid,
+    hash: bool,
+) -> Result<(crate::field::Field, io::FileHash)> {
+    let (f, h) = io::read_frame_hashed(&run.input, src, hash)?;
     if let Some(d) = grid.difference(&f.grid, run.input.grid_tolerance) {
         return Err(
             Error::data(format!("{d} (the run's first frame sets the grid)"))
                 .with_path(source_path(src)),
         );
     }
-    Ok(f)
+    Ok((f, h))
 }
 
 fn pool(jobs: usize) -> Result<rayon::ThreadPool> {
@@ -304,9 +314,8 @@ pub fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
                 peak: run.px_velocity.map(PeakLockAcc::new),
             };
             for (meta, src) in chunk {
-                let mut field = read_on_grid(run, src, &grid)?;
-                if let FrameSource::File(p) = src {
-                    let (bytes, sha256) = io::hash_file(p)?;
+                let (mut field, hash) = read_on_grid_hashed(run, src, &grid, true)?;
+                if let (FrameSource::File(p), Some((bytes, sha256))) = (src, hash) {
                     out.inputs.push(InputFile {
                         path: p.display().to_string(),
                         bytes,

@@ -88,7 +88,7 @@ impl PeakLockAcc {
     /// Adds one displacement in px.
     #[inline]
     pub fn add(&mut self, d: f64) {
-        let r = d.round();
+        let r = round_half_away(d);
         let f = d - r; // [-0.5, 0.5]
         let b = (((f + 0.5) * FINE as f64) as usize).min(FINE - 1);
         self.fine[b] += 1;
@@ -160,9 +160,53 @@ pub fn rayleigh_p(r: f64, n: f64) -> f64 {
     p.clamp(0.0, 1.0)
 }
 
+/// `x.round()` (half away from zero) for finite `x`, without the libm call
+/// that `round` is on the x86_64 base instruction set (no SSE4.1): the
+/// truncation to an integer is exact below 2^52, and above it every double
+/// is already an integer.
+#[inline]
+fn round_half_away(x: f64) -> f64 {
+    if x.abs() >= 4.0e15 {
+        return x;
+    }
+    let t = x as i64 as f64; // toward zero, exact
+    let f = x - t; // exact: |f| < 1 and x, t share the exponent range
+    if f >= 0.5 {
+        t + 1.0
+    } else if f <= -0.5 {
+        t - 1.0
+    } else {
+        t
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn rounding_equals_std_round() {
+        let mut r = crate::testutil::rng(5);
+        let mut xs = vec![
+            0.5,
+            -0.5,
+            1.5,
+            -2.5,
+            0.49999999999999994,
+            -0.49999999999999994,
+            4.5e15 + 1.0,
+            -0.0,
+            1e300,
+        ];
+        for _ in 0..100_000 {
+            let x: f64 = rand::Rng::random_range(&mut r, -40.0..40.0);
+            xs.push(x);
+            xs.push((x * 2.0).round() / 2.0);
+        }
+        for x in xs {
+            assert_eq!(round_half_away(x), x.round(), "{x}");
+        }
+    }
     use crate::testutil::{assert_close, rng};
     use rand::Rng;
 
