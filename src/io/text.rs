@@ -204,6 +204,60 @@ const POW10: [f64; 23] = [
     1e17, 1e18, 1e19, 1e20, 1e21, 1e22,
 ];
 
+/// Powers of ten as integers (10^0 ..= 10^19).
+const POW10_U64: [u64; 20] = {
+    let mut t = [1u64; 20];
+    let mut k = 1;
+    while k < 20 {
+        t[k] = t[k - 1] * 10;
+        k += 1;
+    }
+    t
+};
+
+/// The run of ASCII digits starting at `b[p]`: its value (wrapping when
+/// longer than 19 digits, which the caller rejects), its length and the
+/// index after it. Eight bytes at a time where eight are left (SWAR: the
+/// first non-digit byte is found from a mask, and the digits before it are
+/// combined by three multiplications, as in Lemire's "parse eight digits";
+/// common practice), byte by byte otherwise.
+#[inline(always)]
+fn digit_run(b: &[u8], mut p: usize) -> (u64, usize, usize) {
+    let start = p;
+    let mut m: u64 = 0;
+    while p + 8 <= b.len() {
+        let x = u64::from_le_bytes(b[p..p + 8].try_into().expect("eight bytes"));
+        let a = x ^ 0x3030_3030_3030_3030; // digits -> 0..9 in their byte
+                                           // high bit of a byte set iff that byte is not a digit; carries only
+                                           // leave bytes that are already non-digits, so the lowest flagged
+                                           // byte is exact
+        let non = (a.wrapping_add(0x7676_7676_7676_7676) | a) & 0x8080_8080_8080_8080;
+        let c = (non.trailing_zeros() / 8) as usize; // digits in this word
+        if c == 0 {
+            return (m, p - start, p);
+        }
+        // the c digits to the top bytes (low bytes become leading zeros)
+        let mut v = a << (8 * (8 - c));
+        v = (v & 0x0F0F_0F0F_0F0F_0F0F).wrapping_mul(2561) >> 8;
+        v = (v & 0x00FF_00FF_00FF_00FF).wrapping_mul(6_553_601) >> 16;
+        v = (v & 0x0000_FFFF_0000_FFFF).wrapping_mul(42_949_672_960_001) >> 32;
+        m = m.wrapping_mul(POW10_U64[c]).wrapping_add(v);
+        p += c;
+        if c < 8 {
+            return (m, p - start, p);
+        }
+    }
+    while p < b.len() {
+        let c = b[p].wrapping_sub(b'0');
+        if c >= 10 {
+            break;
+        }
+        m = m.wrapping_mul(10).wrapping_add(c as u64);
+        p += 1;
+    }
+    (m, p - start, p)
+}
+
 /// The number at the start of `b` and how many bytes it used, or `None`.
 ///
 /// Fast path for the plain decimals PIV exports are made of, `[+-]digits
@@ -232,31 +286,18 @@ fn parse_partial(b: &[u8]) -> Option<(f64, usize)> {
     };
     // Digits accumulate with wrapping arithmetic; more than 19 of them (where
     // it could wrap) leave the fast path below.
-    let mut m: u64 = 0;
-    let int_start = p;
-    while p < n {
-        let c = b[p].wrapping_sub(b'0');
-        if c >= 10 {
-            break;
-        }
-        m = m.wrapping_mul(10).wrapping_add(c as u64);
-        p += 1;
-    }
-    let mut digits = p - int_start;
+    let (int, int_digits, q) = digit_run(b, p);
+    let mut m = int;
+    let mut digits = int_digits;
+    p = q;
     let mut frac = 0usize;
     if p < n && b[p] == b'.' {
-        p += 1;
-        let frac_start = p;
-        while p < n {
-            let c = b[p].wrapping_sub(b'0');
-            if c >= 10 {
-                break;
-            }
-            m = m.wrapping_mul(10).wrapping_add(c as u64);
-            p += 1;
-        }
-        frac = p - frac_start;
-        digits += frac;
+        let (f, fd, q) = digit_run(b, p + 1);
+        // 10^fd fits u64 exactly for fd <= 19; more digits leave the fast path
+        m = m.wrapping_mul(POW10_U64[fd.min(19)]).wrapping_add(f);
+        frac = fd;
+        digits += fd;
+        p = q;
     }
     let simple = digits > 0
         && digits <= 19
@@ -559,6 +600,36 @@ mod tests {
             Ok(4)
         );
         assert_eq!((vals[0], vals[1]), (Some(4.0), Some(5.0)));
+    }
+
+    #[test]
+    fn digit_runs_of_every_length_and_position() {
+        let mut r = crate::testutil::rng(8);
+        for _ in 0..20_000 {
+            let len = rand::Rng::random_range(&mut r, 0..30usize);
+            let alphabet = b"0123456789.,-e /:";
+            let s: Vec<u8> = (0..len)
+                .map(|_| alphabet[rand::Rng::random_range(&mut r, 0..alphabet.len())])
+                .collect();
+            for p in 0..=len {
+                let mut q = p;
+                let mut want = 0u64;
+                while q < len && s[q].is_ascii_digit() {
+                    want = want.wrapping_mul(10).wrapping_add((s[q] - b'0') as u64);
+                    q += 1;
+                }
+                let (got, n, end) = digit_run(&s, p);
+                assert_eq!(
+                    (n, end),
+                    (q - p, q),
+                    "{:?} at {p}",
+                    String::from_utf8_lossy(&s)
+                );
+                if n <= 19 {
+                    assert_eq!(got, want, "{:?} at {p}", String::from_utf8_lossy(&s));
+                }
+            }
+        }
     }
 
     #[test]

@@ -409,8 +409,17 @@ fn omega_iter<'a>(
 
 /// Adds one frame's samples (where `counts`) to a set of moments.
 fn offer(m: &mut Moments, field: &Field, d: &Derived, counts: &[bool]) {
+    fn sl(a: &ndarray::Array2<f64>) -> &[f64] {
+        a.as_slice().expect("standard layout")
+    }
     m.frames += 1.0;
-    for (k, &s) in field.status.iter().enumerate() {
+    for (k, &s) in field
+        .status
+        .as_slice()
+        .expect("standard layout")
+        .iter()
+        .enumerate()
+    {
         match s {
             VALID => m.n_valid[k] += 1.0,
             REPLACED => m.n_replaced[k] += 1.0,
@@ -418,30 +427,24 @@ fn offer(m: &mut Moments, field: &Field, d: &Derived, counts: &[bool]) {
             _ => {}
         }
     }
-    for (k, (((&c, &uu), &vv), (&su, &sv))) in counts
-        .iter()
-        .zip(d.u.iter())
-        .zip(d.v.iter())
-        .zip(d.u_unc.iter().zip(d.v_unc.iter()))
-        .enumerate()
-    {
+    let (u, v, su, sv) = (sl(&d.u), sl(&d.v), sl(&d.u_unc), sl(&d.v_unc));
+    for (k, &c) in counts.iter().enumerate() {
         if c {
-            m.add_velocity(k, uu, vv);
-            m.u.add_unc(k, Some(su), None);
-            m.v.add_unc(k, Some(sv), None);
+            m.add_velocity(k, u[k], v[k]);
+            m.u.add_unc(k, Some(su[k]), None);
+            m.v.add_unc(k, Some(sv[k]), None);
         }
     }
     for (q, acc) in d.quantities.iter().zip(m.q.iter_mut()) {
-        let mut unc = q.unc.as_ref().map(|a| a.iter());
-        let mut bias = q.bias.as_ref().map(|a| a.iter());
-        for (k, (&x, &c)) in q.value.iter().zip(counts).enumerate() {
-            let (su, sb) = (
-                unc.as_mut().and_then(|i| i.next().copied()),
-                bias.as_mut().and_then(|i| i.next().copied()),
-            );
-            if c && x.is_finite() {
-                acc.add(k, x);
-                acc.add_unc(k, su, sb);
+        let (x, unc, bias) = (
+            sl(&q.value),
+            q.unc.as_ref().map(sl),
+            q.bias.as_ref().map(sl),
+        );
+        for (k, &c) in counts.iter().enumerate() {
+            if c && x[k].is_finite() {
+                acc.add(k, x[k]);
+                acc.add_unc(k, unc.map(|a| a[k]), bias.map(|a| a[k]));
             }
         }
     }

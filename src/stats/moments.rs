@@ -90,10 +90,31 @@ impl Scalar {
         ]
     }
 
-    /// Adds one sample `x` at node `k` (the merge formula with `n_b = 1`).
+    /// Adds one sample `x` at node `k`: the merge formula with `n_b = 1`,
+    /// `M2_b = M3_b = M4_b = 0`, with the terms that are exactly zero or
+    /// exactly one dropped and the rest evaluated in the same order, so the
+    /// result is bit for bit that of `merge_node(k, 1, x, 0, 0, 0)` (tested).
     #[inline]
     pub fn add(&mut self, k: usize, x: f64) {
-        self.merge_node(k, 1.0, x, 0.0, 0.0, 0.0);
+        let na = self.n[k];
+        if na == 0.0 {
+            self.n[k] = 1.0;
+            self.mean[k] = x;
+            self.m2[k] = 0.0;
+            self.m3[k] = 0.0;
+            self.m4[k] = 0.0;
+            return;
+        }
+        let (m2a, m3a) = (self.m2[k], self.m3[k]);
+        let n = na + 1.0;
+        let d = x - self.mean[k];
+        let dn = d / n;
+        self.mean[k] += dn;
+        self.m4[k] +=
+            d * dn * dn * dn * na * (na * na - na + 1.0) + 6.0 * dn * dn * m2a + 4.0 * dn * -m3a;
+        self.m3[k] += d * dn * dn * na * (na - 1.0) + 3.0 * dn * -m2a;
+        self.m2[k] += d * dn * na;
+        self.n[k] = n;
     }
 
     /// Adds the squared uncertainty and bias of a counted sample, when finite.
@@ -262,6 +283,20 @@ mod tests {
             m.add_velocity(0, x, 2.0 * x + x.sin());
         }
         assert_close(m.cuv[0], r[4], 0.0, 1e-12, "co-moment");
+    }
+
+    #[test]
+    fn adding_a_sample_is_bit_for_bit_the_merge_of_one() {
+        let mut r = rng(13);
+        let (mut a, mut b) = (Scalar::new(1), Scalar::new(1));
+        for _ in 0..10_000 {
+            let x = Exp::new(0.3).unwrap().sample(&mut r) - 2.0;
+            a.add(0, x);
+            b.merge_node(0, 1.0, x, 0.0, 0.0, 0.0);
+            for (p, q) in a.parts().iter().zip(b.parts().iter()) {
+                assert_eq!(p[0].to_bits(), q[0].to_bits());
+            }
+        }
     }
 
     #[test]

@@ -77,10 +77,15 @@ impl PeakLockAcc {
 
     /// Adds the valid vectors (status 0, finite) of one frame.
     pub fn push(&mut self, field: &crate::field::Field) {
-        for ((s, u), v) in field.status.iter().zip(&field.u).zip(&field.v) {
-            if *s == crate::field::VALID && u.is_finite() && v.is_finite() {
-                self.add(*u / self.px_velocity);
-                self.add(*v / self.px_velocity);
+        let (st, u, v) = (
+            field.status.as_slice().expect("standard layout"),
+            field.u.as_slice().expect("standard layout"),
+            field.v.as_slice().expect("standard layout"),
+        );
+        for ((&s, &u), &v) in st.iter().zip(u).zip(v) {
+            if s == crate::field::VALID && u.is_finite() && v.is_finite() {
+                self.add(u / self.px_velocity);
+                self.add(v / self.px_velocity);
             }
         }
     }
