@@ -104,13 +104,16 @@ impl Flat {
             w: s.taps.iter().map(|t| t.w).collect(),
         }
     }
+    /// `sum_t w_t a[k + off_t]` for two arrays at once, in tap order.
     #[inline]
-    fn apply(&self, a: &[f64], k: usize) -> f64 {
-        let mut s = 0.0;
+    fn apply2(&self, a: &[f64], b: &[f64], k: usize) -> (f64, f64) {
+        let (mut s, mut t) = (0.0, 0.0);
         for (o, w) in self.off.iter().zip(&self.w) {
-            s += w * a[(k as isize + o) as usize];
+            let q = (k as isize + o) as usize;
+            s += w * a[q];
+            t += w * b[q];
         }
-        s
+        (s, t)
     }
 }
 
@@ -476,26 +479,25 @@ pub fn gradient(scheme: DiffScheme, inp: &Inputs) -> Grad {
     let sig_u = inp.sig_u.as_slice().expect("standard layout");
     let sig_v = inp.sig_v.as_slice().expect("standard layout");
     let (ru2, rv2) = (inp.sig_ref.0 * inp.sig_ref.0, inp.sig_ref.1 * inp.sig_ref.1);
+    let ok_s = inp.ok.as_slice().expect("standard layout");
     for j in 0..ny {
         for i in 0..nx {
-            if !inp.ok[[j, i]] {
+            let k = j * nx + i;
+            if !ok_s[k] {
                 continue;
             }
-            let k = j * nx + i;
             let mut fell_back = false;
             for (ax, op) in ops.iter().enumerate() {
                 // Component slots: x -> (a, c), y -> (b, d).
                 let (su, sv) = if ax == 0 { (0, 2) } else { (1, 3) };
                 if box_plain(inp.not_plain, j, i, op.box_r) {
-                    val[su][k] = op.flat_d.apply(us, k);
-                    val[sv][k] = op.flat_d.apply(vs, k);
+                    (val[su][k], val[sv][k]) = op.flat_d.apply2(us, vs, k);
                     let g0 = op.comp[0].1;
                     var[su][k] = g0 * ru2;
                     var[sv][k] = g0 * rv2;
                     if let (Some(fb), Some(b0)) = (&op.flat_b, &op.bias[0]) {
                         let bg = b0.1;
-                        bias_[su][k] = fb.apply(u, k);
-                        bias_[sv][k] = fb.apply(v, k);
+                        (bias_[su][k], bias_[sv][k]) = fb.apply2(u, v, k);
                         bvar[su][k] = bg * ru2;
                         bvar[sv][k] = bg * rv2;
                     }
@@ -506,13 +508,11 @@ pub fn gradient(scheme: DiffScheme, inp: &Inputs) -> Grad {
                     // stencil, its composite and its truncation stencil all
                     // fit (what the general path below would find), but the
                     // uncertainties differ from node to node.
-                    val[su][k] = op.flat_d.apply(us, k);
-                    val[sv][k] = op.flat_d.apply(vs, k);
+                    (val[su][k], val[sv][k]) = op.flat_d.apply2(us, vs, k);
                     var[su][k] = op.var_d.at(sig_u, k);
                     var[sv][k] = op.var_d.at(sig_v, k);
                     if let (Some(fb), Some(vb)) = (&op.flat_b, &op.var_b) {
-                        bias_[su][k] = fb.apply(u, k);
-                        bias_[sv][k] = fb.apply(v, k);
+                        (bias_[su][k], bias_[sv][k]) = fb.apply2(u, v, k);
                         bvar[su][k] = vb.at(sig_u, k);
                         bvar[sv][k] = vb.at(sig_v, k);
                     }
