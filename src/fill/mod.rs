@@ -113,7 +113,7 @@ pub fn fill(p: &Params, field: &mut Field) -> Counts {
         return Counts::default();
     }
     // holes too far from data
-    let far = p.max_distance.map(|d| beyond(&field.status, d));
+    let far = p.max_distance.map(|d| beyond(&field.status, &holes, d));
     // has a value: valid, or filled already (tracked here)
     let mut has: Vec<bool> = field.status.iter().map(|&s| s == VALID).collect();
     let mut open: Vec<usize> = holes
@@ -146,42 +146,34 @@ pub fn fill(p: &Params, field: &mut Field) -> Counts {
     c
 }
 
-/// Marks nodes further than `d` (Chebyshev) from a valid node: two-pass
-/// raster distance transform, exact for the Chebyshev metric.
-fn beyond(status: &ndarray::Array2<u8>, d: usize) -> Vec<bool> {
+/// Which of the `holes` lie further than `d` (Chebyshev) from a valid node:
+/// for each hole, a search of the (2d+1)^2 window around it, ring by ring
+/// from the nearest, stopping at the first valid node. Exact for the
+/// Chebyshev metric (the window is the ball of radius d), and in the usual
+/// case of a few scattered holes far cheaper than a distance transform
+/// over every node.
+fn beyond(status: &ndarray::Array2<u8>, holes: &[usize], d: usize) -> Vec<bool> {
     let (ny, nx) = status.dim();
-    let big = u32::MAX / 2;
-    let mut dist: Vec<u32> = status
-        .iter()
-        .map(|&s| if s == VALID { 0 } else { big })
-        .collect();
-    for j in 0..ny {
-        for i in 0..nx {
-            let k = j * nx + i;
-            let mut m = dist[k];
-            for (dj, di) in [(-1isize, -1isize), (-1, 0), (-1, 1), (0, -1)] {
-                let (jj, ii) = (j as isize + dj, i as isize + di);
-                if jj >= 0 && ii >= 0 && (ii as usize) < nx {
-                    m = m.min(dist[jj as usize * nx + ii as usize] + 1);
+    let st = status.as_slice().expect("standard layout");
+    let mut far = vec![false; st.len()];
+    for &k in holes {
+        let (j, i) = (k / nx, k % nx);
+        let near = (1..=d).any(|r| {
+            let (j0, j1) = (j.saturating_sub(r), (j + r).min(ny - 1));
+            let (i0, i1) = (i.saturating_sub(r), (i + r).min(nx - 1));
+            (j0..=j1).any(|jj| {
+                let row = &st[jj * nx..jj * nx + nx];
+                if jj.abs_diff(j) == r {
+                    row[i0..=i1].contains(&VALID)
+                } else {
+                    // the ring's two side nodes on this row (when inside)
+                    (i >= r && row[i - r] == VALID) || (i + r < nx && row[i + r] == VALID)
                 }
-            }
-            dist[k] = m;
-        }
+            })
+        });
+        far[k] = !near;
     }
-    for j in (0..ny).rev() {
-        for i in (0..nx).rev() {
-            let k = j * nx + i;
-            let mut m = dist[k];
-            for (dj, di) in [(1isize, 1isize), (1, 0), (1, -1), (0, 1)] {
-                let (jj, ii) = (j as isize + dj, i as isize + di);
-                if (jj as usize) < ny && ii >= 0 && (ii as usize) < nx {
-                    m = m.min(dist[jj as usize * nx + ii as usize] + 1);
-                }
-            }
-            dist[k] = m;
-        }
-    }
-    dist.iter().map(|&x| x as usize > d).collect()
+    far
 }
 
 /// Rounds of neighbour-mean filling over the `open` holes.

@@ -191,3 +191,37 @@ fn inpainting_beats_the_neighbour_mean_on_a_smooth_field() {
         }
     }
 }
+
+/// The window search against the definition: the Chebyshev distance to the
+/// nearest valid node by brute force, on random masks from sparse holes to
+/// mostly holes.
+#[test]
+fn holes_beyond_the_distance_match_brute_force() {
+    let mut r = rng(23);
+    for trial in 0..60 {
+        let (nx, ny) = (r.random_range(1..25), r.random_range(1..20));
+        let p_hole = [0.05, 0.5, 0.9, 1.0][trial % 4];
+        let mut st = ndarray::Array2::from_elem((ny, nx), VALID);
+        for s in st.iter_mut() {
+            if r.random::<f64>() < p_hole {
+                *s = if r.random::<bool>() { FILLED } else { REPLACED };
+            }
+        }
+        let holes: Vec<usize> = (0..nx * ny)
+            .filter(|&k| st.as_slice().unwrap()[k] != VALID)
+            .collect();
+        for d in 0..5 {
+            let far = beyond(&st, &holes, d);
+            for &k in &holes {
+                let (j, i) = (k / nx, k % nx);
+                let nearest = st
+                    .indexed_iter()
+                    .filter(|(_, &s)| s == VALID)
+                    .map(|((jj, ii), _)| jj.abs_diff(j).max(ii.abs_diff(i)))
+                    .min()
+                    .unwrap_or(usize::MAX);
+                assert_eq!(far[k], nearest > d, "trial {trial}, d {d}, node {k}");
+            }
+        }
+    }
+}
