@@ -11,8 +11,8 @@
 //! accumulator and the chunk accumulators are merged in chunk order. The
 //! chunking does not depend on `--jobs`, so neither do the bytes written.
 //!
-//! Memory: at most `2 × jobs` chunks are in flight, each holding one frame at
-//! a time plus its accumulator; nothing grows with the number of frames
+//! Memory: at most `2 × jobs` chunks are taken and not yet merged, each
+//! holding one frame at a time plus its accumulator; nothing grows with the number of frames
 //! except the per-frame records (a few numbers each).
 //!
 //! Errors: a frame that cannot be read (bad cell, other grid) stops the run
@@ -27,8 +27,6 @@ pub mod partial;
 
 use std::path::PathBuf;
 use std::time::Instant;
-
-use rayon::prelude::*;
 
 use crate::error::{Error, Result, WithPath};
 use crate::field::{FrameMeta, Grid, NodeTable};
@@ -219,31 +217,103 @@ fn read_on_grid_hashed(
     Ok((f, h))
 }
 
-fn pool(jobs: usize) -> Result<rayon::ThreadPool> {
-    rayon::ThreadPoolBuilder::new()
-        .num_threads(jobs)
-        .build()
-        .map_err(|e| Error::usage(format!("cannot start {jobs} worker threads: {e}")))
-}
-
-/// Runs `per_chunk` over fixed chunks of `items` on the pool, `2 × threads`
-/// chunks at a time, and folds the results in chunk order with `merge`.
+/// Runs `per_chunk` over fixed chunks of `items` on `jobs` worker threads
+/// and folds the results with `merge` in chunk order, on the calling thread,
+/// as soon as each next result is there: workers never wait for a batch to
+/// finish, only when `2 × jobs` chunks are taken and not yet merged (the
+/// memory bound). The first error in chunk order is returned, as a
+/// sequential loop would return it: chunks are taken in order, so every
+/// chunk before a failing one has been taken and is reduced; after a
+/// failure no new chunk is started.
 fn fold_chunks<T: Sync, A: Send>(
-    pool: &rayon::ThreadPool,
+    jobs: usize,
     items: &[T],
     per_chunk: impl Fn(&[T]) -> Result<A> + Sync,
     mut merge: impl FnMut(A),
 ) -> Result<()> {
-    let chunks: Vec<&[T]> = items.chunks(CHUNK).collect();
-    let in_flight = (2 * pool.current_num_threads()).max(1);
-    for batch in chunks.chunks(in_flight) {
-        let results: Vec<Result<A>> =
-            pool.install(|| batch.par_iter().map(|c| per_chunk(c)).collect());
-        for r in results {
-            merge(r?);
+    use std::collections::BTreeMap;
+    use std::sync::{mpsc, Condvar, Mutex};
+    struct Taken {
+        next: usize,
+        merged: usize,
+        stop: bool,
+    }
+    /// Stops the other workers when a worker unwinds (a panic), so that
+    /// none waits for a result that will never be merged.
+    struct StopOnPanic<'a>(&'a Mutex<Taken>, &'a Condvar);
+    impl Drop for StopOnPanic<'_> {
+        fn drop(&mut self) {
+            if std::thread::panicking() {
+                if let Ok(mut t) = self.0.lock() {
+                    t.stop = true;
+                }
+                self.1.notify_all();
+            }
         }
     }
-    Ok(())
+    let chunks: Vec<&[T]> = items.chunks(CHUNK).collect();
+    let n = chunks.len();
+    let jobs = jobs.clamp(1, n.max(1));
+    let window = 2 * jobs;
+    let taken = Mutex::new(Taken {
+        next: 0,
+        merged: 0,
+        stop: false,
+    });
+    let wake = Condvar::new();
+    let lock = || taken.lock().unwrap_or_else(|e| e.into_inner());
+    let (tx, rx) = mpsc::channel::<(usize, Result<A>)>();
+    std::thread::scope(|s| {
+        for _ in 0..jobs {
+            let tx = tx.clone();
+            let (taken, wake, chunks, per_chunk) = (&taken, &wake, &chunks, &per_chunk);
+            s.spawn(move || {
+                let _guard = StopOnPanic(taken, wake);
+                loop {
+                    let c = {
+                        let mut t = taken.lock().unwrap_or_else(|e| e.into_inner());
+                        while !t.stop && t.next < n && t.next >= t.merged + window {
+                            t = wake.wait(t).unwrap_or_else(|e| e.into_inner());
+                        }
+                        if t.stop || t.next >= n {
+                            break;
+                        }
+                        t.next += 1;
+                        t.next - 1
+                    };
+                    let r = per_chunk(chunks[c]);
+                    let failed = r.is_err();
+                    if tx.send((c, r)).is_err() || failed {
+                        let mut t = taken.lock().unwrap_or_else(|e| e.into_inner());
+                        t.stop = true;
+                        wake.notify_all();
+                        break;
+                    }
+                }
+            });
+        }
+        drop(tx);
+        let mut pending: BTreeMap<usize, Result<A>> = BTreeMap::new();
+        let mut next = 0;
+        for (c, r) in rx.iter() {
+            pending.insert(c, r);
+            while let Some(r) = pending.remove(&next) {
+                match r {
+                    Ok(a) => merge(a),
+                    Err(e) => {
+                        lock().stop = true;
+                        wake.notify_all();
+                        return Err(e);
+                    }
+                }
+                next += 1;
+                lock().merged = next;
+                wake.notify_all();
+            }
+        }
+        // every chunk merged, or a worker panicked (the scope re-raises it)
+        Ok(())
+    })
 }
 
 /// Reduces one run (or one shard of it) up to merged accumulators.
@@ -255,7 +325,6 @@ pub fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
     let n = frames.len();
     let range = opts.shard.map_or((0, n), |s| s.range(n));
     let grid = io::read_frame(&run.input, &frames[0].1)?.grid;
-    let pool = pool(opts.jobs)?;
     timings.push(("list".to_string(), t0.elapsed().as_secs_f64()));
 
     // Pass 1 (only when the chain has an ensemble test): robust per-node
@@ -265,7 +334,7 @@ pub fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
         let t = Instant::now();
         let mut total: Option<EnsembleBuilder> = None;
         fold_chunks(
-            &pool,
+            opts.jobs,
             &frames,
             |chunk| {
                 let mut b = EnsembleBuilder::new(&run.validation, grid);
@@ -303,7 +372,7 @@ pub fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
     let mut inputs = Vec::with_capacity(mine.len());
     let mut seen_parquet: Vec<PathBuf> = Vec::new();
     fold_chunks(
-        &pool,
+        opts.jobs,
         mine,
         |chunk| {
             let mut out = ChunkOut {
