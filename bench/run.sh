@@ -7,7 +7,10 @@
 #   3. curlew run on the parquet table, and a decode-only pass over it
 #   4. curlew run on 4000 frames (peak memory must not grow with frames)
 # and checks that both implementations give the same ensemble.
+# Every timing is repeated REPEAT times (default 3; the machine is shared, so
+# single runs vary by 20 % and more) and summarised as min and median.
 # Usage: bench/run.sh [FRAMES]   (results printed; copy them into BENCHMARKS.md)
+#        REPEAT=5 MEM_FRAMES=4000 bench/run.sh
 set -euo pipefail
 cd "$(dirname "$0")/.."
 FRAMES=${1:-1000}
@@ -17,7 +20,17 @@ cargo build --release --quiet --bin curlew --example decode
 mkdir -p "$DATA"
 python3 -c "import numpy, pandas" 2>/dev/null || python3 -m pip install --quiet numpy pandas
 
-t() { /usr/bin/time -f "%e s wall, %M KB peak RSS" "$@"; }
+REPEAT=${REPEAT:-3}
+MEM_FRAMES=${MEM_FRAMES:-4000}
+LOG=$(mktemp)
+# t LABEL CMD...: runs CMD REPEAT times, logs "LABEL wall_s user_s sys_s peak_kb"
+t() {
+  local label=$1; shift
+  for _ in $(seq "$REPEAT"); do
+    /usr/bin/time -o "$LOG.one" -f "%e %U %S %M" "$@" > /dev/null
+    echo "$label $(cat "$LOG.one")" | tee -a "$LOG"
+  done
+}
 
 if [ ! -d "$DATA/csv-$FRAMES" ]; then
   "$BIN" synth wake --out "$DATA/csv-$FRAMES" --frames "$FRAMES" --nx 128 --ny 96 --pitch-mm 0.75 --speeds 0.15 --seed 7
@@ -38,13 +51,33 @@ BENCH_PQ="$DATA/pq-$FRAMES/bench.toml"
 python3 bench/bench_pipeline.py "$PIPE_CSV" > "$BENCH_CSV"
 python3 bench/bench_pipeline.py "$PIPE_PQ" > "$BENCH_PQ"
 
-echo "== curlew run (CSV)"
-t "$BIN" run "$BENCH_CSV" --out "$DATA/out-csv" --quiet
-echo "== numpy/pandas reduction (CSV)"
-t python3 bench/numpy_reduce.py "$BENCH_CSV" "$DATA/out-numpy.csv"
+echo "== label wall_s user_s sys_s peak_KB"
+# interleaved, so that a slow spell of the shared machine hits all alike
+for _ in $(seq "$REPEAT"); do
+  REPEAT=1 t curlew-csv "$BIN" run "$BENCH_CSV" --out "$DATA/out-csv" --quiet
+  REPEAT=1 t numpy-csv python3 bench/numpy_reduce.py "$BENCH_CSV" "$DATA/out-numpy.csv"
+  REPEAT=1 t curlew-parquet "$BIN" run "$BENCH_PQ" --out "$DATA/out-pq" --quiet
+  REPEAT=1 t decode-parquet target/release/examples/decode "$BENCH_PQ"
+done
 echo "== agreement"
 python3 bench/compare.py "$DATA/out-csv" "$DATA/out-numpy.csv"
-echo "== curlew run (parquet)"
-t "$BIN" run "$BENCH_PQ" --out "$DATA/out-pq" --quiet
-echo "== decode only (parquet)"
-t target/release/examples/decode "$BENCH_PQ"
+
+echo "== memory: curlew run on $MEM_FRAMES frames (CSV)"
+if [ ! -d "$DATA/csv-$MEM_FRAMES" ]; then
+  "$BIN" synth wake --out "$DATA/csv-$MEM_FRAMES" --frames "$MEM_FRAMES" --nx 128 --ny 96 --pitch-mm 0.75 --speeds 0.15 --seed 7
+fi
+python3 bench/bench_pipeline.py "$(ls "$DATA/csv-$MEM_FRAMES"/pipeline.toml)" > "$DATA/csv-$MEM_FRAMES/bench.toml"
+REPEAT=1 t "curlew-csv-$MEM_FRAMES" "$BIN" run "$DATA/csv-$MEM_FRAMES/bench.toml" --out "$DATA/out-$MEM_FRAMES" --quiet
+
+echo "== summary (min and median of wall s; peak RSS max)"
+awk '{w[$1]=w[$1]" "$2; if ($5>m[$1]) m[$1]=$5} END {for (k in w) print k, w[k], "|", m[k], "KB"}' "$LOG" |
+  while read -r label rest; do
+    walls=$(echo "$rest" | cut -d'|' -f1)
+    peak=$(echo "$rest" | cut -d'|' -f2)
+    sorted=$(echo $walls | tr ' ' '\n' | sort -n)
+    n=$(echo "$sorted" | wc -l)
+    min=$(echo "$sorted" | head -1)
+    med=$(echo "$sorted" | sed -n "$(( (n + 1) / 2 ))p")
+    echo "$label: min $min s, median $med s (of $n), peak$peak"
+  done | sort
+rm -f "$LOG" "$LOG.one"

@@ -45,10 +45,13 @@ pub fn estimate(field: &Field, corr: &Correlation) -> Option<f64> {
         .zip(u.iter().zip(v))
         .map(|(&s, (a, b))| s == VALID && a.is_finite() && b.is_finite())
         .collect();
-    let mut r: Vec<f64> = Vec::with_capacity(4 * ny * nx);
+    // |D4| as the bits of a non-negative double: they order as the values
+    // do, so the selection below compares integers (same median element).
+    let mut r: Vec<u64> = Vec::with_capacity(4 * ny * nx);
     let d4 = |a: &[f64], k: usize, step: usize| {
         (a[k] - 4.0 * a[k + step] + 6.0 * a[k + 2 * step] - 4.0 * a[k + 3 * step] + a[k + 4 * step])
             .abs()
+            .to_bits()
     };
     for j in 0..ny {
         for i in 0..nx {
@@ -67,8 +70,7 @@ pub fn estimate(field: &Field, corr: &Correlation) -> Option<f64> {
         return None;
     }
     let mid = r.len() / 2;
-    let (_, m, _) = r.select_nth_unstable_by(mid, |a, b| a.total_cmp(b));
-    let med = *m;
+    let med = f64::from_bits(*r.select_nth_unstable(mid).1);
     let d4 = Stencil::new(
         D4.iter()
             .enumerate()
