@@ -42,8 +42,8 @@ echo "machine: $(nproc) cores, $(grep -m1 'model name' /proc/cpuinfo | cut -d: -
 echo "rustc: $(rustc --version); python: $(python3 --version 2>&1); numpy $(python3 -c 'import numpy; print(numpy.__version__)'); pandas $(python3 -c 'import pandas; print(pandas.__version__)')"
 echo "data: $FRAMES frames of 128 x 96 = $((FRAMES * 128 * 96)) vectors; CSV $(du -sh "$DATA/csv-$FRAMES" | cut -f1), parquet $(du -sh "$DATA/pq-$FRAMES" | cut -f1)"
 
-PIPE_CSV=$(ls "$DATA/csv-$FRAMES"/*.toml | head -1)
-PIPE_PQ=$(ls "$DATA/pq-$FRAMES"/*.toml | head -1)
+PIPE_CSV="$DATA/csv-$FRAMES/pipeline.toml"
+PIPE_PQ="$DATA/pq-$FRAMES/pipeline.toml"
 BENCH_CSV="$DATA/csv-$FRAMES/bench.toml"
 BENCH_PQ="$DATA/pq-$FRAMES/bench.toml"
 # The reduction both implementations do: median test, neighbour-mean fill,
@@ -66,7 +66,7 @@ echo "== memory: curlew run on $MEM_FRAMES frames (CSV)"
 if [ ! -d "$DATA/csv-$MEM_FRAMES" ]; then
   "$BIN" synth wake --out "$DATA/csv-$MEM_FRAMES" --frames "$MEM_FRAMES" --nx 128 --ny 96 --pitch-mm 0.75 --speeds 0.15 --seed 7
 fi
-python3 bench/bench_pipeline.py "$(ls "$DATA/csv-$MEM_FRAMES"/pipeline.toml)" > "$DATA/csv-$MEM_FRAMES/bench.toml"
+python3 bench/bench_pipeline.py "$DATA/csv-$MEM_FRAMES/pipeline.toml" > "$DATA/csv-$MEM_FRAMES/bench.toml"
 REPEAT=1 t "curlew-csv-$MEM_FRAMES" "$BIN" run "$DATA/csv-$MEM_FRAMES/bench.toml" --out "$DATA/out-$MEM_FRAMES" --quiet
 
 echo "== summary (min and median of wall s; peak RSS max)"
