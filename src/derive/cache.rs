@@ -48,7 +48,7 @@ impl Grad {
                 .chain(self.bias)
                 .chain(self.bvar)
             {
-                if p.len() < 64 {
+                if p.len() < 64 && !a.is_empty() {
                     p.push(a.into_raw_vec_and_offset().0);
                 }
             }

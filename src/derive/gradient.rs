@@ -50,12 +50,20 @@ pub struct Grad {
     pub val: [Array2<f64>; 4],
     /// Propagated variance of each component.
     pub var: [Array2<f64>; 4],
-    /// Signed truncation estimate (NaN where none could be made).
+    /// Signed truncation estimate (NaN where none could be made); empty
+    /// arrays (shape (0, 0)) when truncation is not estimated.
     pub bias: [Array2<f64>; 4],
-    /// Noise variance of the truncation estimate.
+    /// Noise variance of the truncation estimate (empty likewise).
     pub bvar: [Array2<f64>; 4],
     /// Nodes where the x or the y stencil is a fallback, not the scheme's own.
     pub fallback: usize,
+}
+
+impl Grad {
+    /// Whether the truncation slots hold an estimate (else they are empty).
+    pub fn has_truncation(&self) -> bool {
+        !self.bias[0].is_empty()
+    }
 }
 
 /// What every scheme's pass reads.
@@ -77,6 +85,9 @@ pub struct Inputs<'a> {
     /// Counts of "not plain" nodes (no value, or an uncertainty other than
     /// `sig_ref`) as a summed-area table of shape (ny+1, nx+1).
     pub not_plain: &'a Array2<u32>,
+    /// Which components `[a, b, c, d]` the quantities need; the others are
+    /// left NaN (b and c, for the vorticity, always).
+    pub need: [bool; 4],
     /// Counts of nodes without a value, as a summed-area table like
     /// `not_plain`.
     pub not_ok: &'a Array2<u32>,
@@ -104,8 +115,28 @@ impl Flat {
             w: s.taps.iter().map(|t| t.w).collect(),
         }
     }
+    /// `sum_t w_t a[k + off_t]`, in tap order.
+    #[inline(always)]
+    fn apply1(&self, a: &[f64], k: usize) -> f64 {
+        let mut s = 0.0;
+        for (o, w) in self.off.iter().zip(&self.w) {
+            s += w * a[(k as isize + o) as usize];
+        }
+        s
+    }
+    /// `apply1` to the u and v arrays (`nu`, `nv`: which are wanted; the
+    /// other comes back NaN), both in one loop when both are.
+    #[inline(always)]
+    fn apply_uv(&self, a: &[f64], b: &[f64], k: usize, nu: bool, nv: bool) -> (f64, f64) {
+        match (nu, nv) {
+            (true, true) => self.apply2(a, b, k),
+            (true, false) => (self.apply1(a, k), f64::NAN),
+            (false, true) => (f64::NAN, self.apply1(b, k)),
+            (false, false) => (f64::NAN, f64::NAN),
+        }
+    }
     /// `sum_t w_t a[k + off_t]` for two arrays at once, in tap order.
-    #[inline]
+    #[inline(always)]
     fn apply2(&self, a: &[f64], b: &[f64], k: usize) -> (f64, f64) {
         let (mut s, mut t) = (0.0, 0.0);
         for (o, w) in self.off.iter().zip(&self.w) {
@@ -464,8 +495,11 @@ pub fn gradient(scheme: DiffScheme, inp: &Inputs) -> Grad {
     let nan = || pooled(ny * nx);
     let mut val = [nan(), nan(), nan(), nan()];
     let mut var = [nan(), nan(), nan(), nan()];
-    let mut bias_ = [nan(), nan(), nan(), nan()];
-    let mut bvar = [nan(), nan(), nan(), nan()];
+    // Without a truncation estimate the truncation slots are empty (shape
+    // (0, 0)): nothing reads them then (`Grad::has_truncation`).
+    let nb = || if inp.truncation { nan() } else { Vec::new() };
+    let mut bias_ = [nb(), nb(), nb(), nb()];
+    let mut bvar = [nb(), nb(), nb(), nb()];
     let mut fallback = 0usize;
     let ops = [
         axis_op(scheme, Axis::X, inp, nx),
@@ -490,16 +524,25 @@ pub fn gradient(scheme: DiffScheme, inp: &Inputs) -> Grad {
             for (ax, op) in ops.iter().enumerate() {
                 // Component slots: x -> (a, c), y -> (b, d).
                 let (su, sv) = if ax == 0 { (0, 2) } else { (1, 3) };
+                let (nu, nv) = (inp.need[su], inp.need[sv]);
                 if box_plain(inp.not_plain, j, i, op.box_r) {
-                    (val[su][k], val[sv][k]) = op.flat_d.apply2(us, vs, k);
+                    (val[su][k], val[sv][k]) = op.flat_d.apply_uv(us, vs, k, nu, nv);
                     let g0 = op.comp[0].1;
-                    var[su][k] = g0 * ru2;
-                    var[sv][k] = g0 * rv2;
+                    if nu {
+                        var[su][k] = g0 * ru2;
+                    }
+                    if nv {
+                        var[sv][k] = g0 * rv2;
+                    }
                     if let (Some(fb), Some(b0)) = (&op.flat_b, &op.bias[0]) {
                         let bg = b0.1;
-                        (bias_[su][k], bias_[sv][k]) = fb.apply2(u, v, k);
-                        bvar[su][k] = bg * ru2;
-                        bvar[sv][k] = bg * rv2;
+                        (bias_[su][k], bias_[sv][k]) = fb.apply_uv(u, v, k, nu, nv);
+                        if nu {
+                            bvar[su][k] = bg * ru2;
+                        }
+                        if nv {
+                            bvar[sv][k] = bg * rv2;
+                        }
                     }
                     continue;
                 }
@@ -508,13 +551,21 @@ pub fn gradient(scheme: DiffScheme, inp: &Inputs) -> Grad {
                     // stencil, its composite and its truncation stencil all
                     // fit (what the general path below would find), but the
                     // uncertainties differ from node to node.
-                    (val[su][k], val[sv][k]) = op.flat_d.apply2(us, vs, k);
-                    var[su][k] = op.var_d.at(sig_u, k);
-                    var[sv][k] = op.var_d.at(sig_v, k);
+                    (val[su][k], val[sv][k]) = op.flat_d.apply_uv(us, vs, k, nu, nv);
+                    if nu {
+                        var[su][k] = op.var_d.at(sig_u, k);
+                    }
+                    if nv {
+                        var[sv][k] = op.var_d.at(sig_v, k);
+                    }
                     if let (Some(fb), Some(vb)) = (&op.flat_b, &op.var_b) {
-                        (bias_[su][k], bias_[sv][k]) = fb.apply2(u, v, k);
-                        bvar[su][k] = vb.at(sig_u, k);
-                        bvar[sv][k] = vb.at(sig_v, k);
+                        (bias_[su][k], bias_[sv][k]) = fb.apply_uv(u, v, k, nu, nv);
+                        if nu {
+                            bvar[su][k] = vb.at(sig_u, k);
+                        }
+                        if nv {
+                            bvar[sv][k] = vb.at(sig_v, k);
+                        }
                     }
                     continue;
                 }
@@ -524,8 +575,12 @@ pub fn gradient(scheme: DiffScheme, inp: &Inputs) -> Grad {
                 };
                 fell_back |= c > 0;
                 let d = &op.chain[c];
-                val[su][k] = d.apply_at(inp.us, j, i);
-                val[sv][k] = d.apply_at(inp.vs, j, i);
+                if nu {
+                    val[su][k] = d.apply_at(inp.us, j, i);
+                }
+                if nv {
+                    val[sv][k] = d.apply_at(inp.vs, j, i);
+                }
                 // The stencil actually applied, composed with the smoother.
                 let comp: Option<Shared> = if op.comp[c].0.fits(j, i, inp.ok) {
                     Some(op.comp[c].clone())
@@ -535,8 +590,12 @@ pub fn gradient(scheme: DiffScheme, inp: &Inputs) -> Grad {
                 };
                 if let Some(cs) = &comp {
                     let (s, gain) = (&cs.0, cs.1);
-                    var[su][k] = inp.corr.variance_at(s, gain, inp.sig_u, j, i);
-                    var[sv][k] = inp.corr.variance_at(s, gain, inp.sig_v, j, i);
+                    if nu {
+                        var[su][k] = inp.corr.variance_at(s, gain, inp.sig_u, j, i);
+                    }
+                    if nv {
+                        var[sv][k] = inp.corr.variance_at(s, gain, inp.sig_v, j, i);
+                    }
                 }
                 if !inp.truncation {
                     continue;
@@ -559,17 +618,25 @@ pub fn gradient(scheme: DiffScheme, inp: &Inputs) -> Grad {
                 };
                 if let Some(bs) = &bias {
                     let (b, bg) = (&bs.0, &bs.1);
-                    bias_[su][k] = b.apply_at(inp.u, j, i);
-                    bias_[sv][k] = b.apply_at(inp.v, j, i);
-                    bvar[su][k] = inp.corr.variance_at(b, *bg, inp.sig_u, j, i);
-                    bvar[sv][k] = inp.corr.variance_at(b, *bg, inp.sig_v, j, i);
+                    if nu {
+                        bias_[su][k] = b.apply_at(inp.u, j, i);
+                        bvar[su][k] = inp.corr.variance_at(b, *bg, inp.sig_u, j, i);
+                    }
+                    if nv {
+                        bias_[sv][k] = b.apply_at(inp.v, j, i);
+                        bvar[sv][k] = inp.corr.variance_at(b, *bg, inp.sig_v, j, i);
+                    }
                 }
             }
             fallback += fell_back as usize;
         }
     }
-    let arr =
-        |v: [Vec<f64>; 4]| v.map(|x| Array2::from_shape_vec((ny, nx), x).expect("grid shape"));
+    let arr = |v: [Vec<f64>; 4]| {
+        v.map(|x| {
+            let sh = if x.is_empty() { (0, 0) } else { (ny, nx) };
+            Array2::from_shape_vec(sh, x).expect("grid shape")
+        })
+    };
     Grad {
         val: arr(val),
         var: arr(var),

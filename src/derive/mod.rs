@@ -334,6 +334,21 @@ pub fn derive(p: &Params, field: &Field) -> Derived {
             .map_collect(|&o, &a, &b| !(o && a == level && b == level)),
     );
     let not_ok = summed_area(&ok.mapv(|o| !o));
+    // The components the quantities need: b and c always (the vorticity,
+    // and the scheme choice of `auto`); a and d for the others.
+    let all = p.quantities.iter().any(|q| {
+        matches!(
+            quantities::Kind::of(q),
+            Some(quantities::Kind::LambdaCi | quantities::Kind::Q | quantities::Kind::Stretching)
+        )
+    });
+    let need = |k: quantities::Kind| {
+        p.quantities
+            .iter()
+            .any(|q| quantities::Kind::of(q) == Some(k))
+    };
+    let need_a = all || need(quantities::Kind::Div) || need(quantities::Kind::Exx);
+    let need_d = all || need(quantities::Kind::Div) || need(quantities::Kind::Eyy);
     let inp = Inputs {
         ok: &ok,
         us,
@@ -346,6 +361,7 @@ pub fn derive(p: &Params, field: &Field) -> Derived {
         smoother: smoother.as_ref(),
         not_plain: &not_plain,
         not_ok: &not_ok,
+        need: [need_a, true, true, need_d],
         sig_ref: (level, level),
         dx: field.grid.dx,
         dy: field.grid.dy,
@@ -382,7 +398,7 @@ pub fn derive(p: &Params, field: &Field) -> Derived {
         .iter()
         .map(|_| [vec![f64::NAN; n], vec![f64::NAN; n], vec![f64::NAN; n]])
         .collect();
-    let flat = quantities::Flat::new(&g);
+    let flat = quantities::Flat::new(&g, p.truncation);
     let ok_s = ok.as_slice().expect("standard layout");
     for (c, &(_, kind)) in cols.iter_mut().zip(&kinds) {
         // One pass per quantity with its kind a constant in the loop (each
@@ -547,8 +563,10 @@ fn choose(mut grads: Vec<Grad>, ok: &Array2<bool>) -> (Grad, Array2<u8>) {
         for c in 0..4 {
             out.val[c][[j, i]] = src.val[c][[j, i]];
             out.var[c][[j, i]] = src.var[c][[j, i]];
-            out.bias[c][[j, i]] = src.bias[c][[j, i]];
-            out.bvar[c][[j, i]] = src.bvar[c][[j, i]];
+            if out.has_truncation() {
+                out.bias[c][[j, i]] = src.bias[c][[j, i]];
+                out.bvar[c][[j, i]] = src.bvar[c][[j, i]];
+            }
         }
     }
     for g in grads {

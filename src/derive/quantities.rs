@@ -80,11 +80,16 @@ impl Node {
     #[inline]
     pub fn load(g: &Grad, j: usize, i: usize) -> Node {
         let get = |a: &[Array2<f64>; 4]| [a[0][[j, i]], a[1][[j, i]], a[2][[j, i]], a[3][[j, i]]];
+        let (bias, bvar) = if g.has_truncation() {
+            (get(&g.bias), get(&g.bvar))
+        } else {
+            ([f64::NAN; 4], [f64::NAN; 4])
+        };
         Node {
             val: get(&g.val),
             var: get(&g.var),
-            bias: get(&g.bias),
-            bvar: get(&g.bvar),
+            bias,
+            bvar,
         }
     }
 }
@@ -93,29 +98,33 @@ impl Node {
 pub struct Flat<'a> {
     val: [&'a [f64]; 4],
     var: [&'a [f64]; 4],
-    bias: [&'a [f64]; 4],
-    bvar: [&'a [f64]; 4],
+    /// The truncation slots, `None` when truncation is not estimated (they
+    /// hold only NaN then, and are not read).
+    bias: Option<([&'a [f64]; 4], [&'a [f64]; 4])>,
 }
 
 impl<'a> Flat<'a> {
-    pub fn new(g: &'a Grad) -> Flat<'a> {
+    pub fn new(g: &'a Grad, truncation: bool) -> Flat<'a> {
         let s =
             |a: &'a [Array2<f64>; 4]| a.each_ref().map(|x| x.as_slice().expect("standard layout"));
         Flat {
             val: s(&g.val),
             var: s(&g.var),
-            bias: s(&g.bias),
-            bvar: s(&g.bvar),
+            bias: (truncation && g.has_truncation()).then(|| (s(&g.bias), s(&g.bvar))),
         }
     }
     #[inline]
     pub fn node(&self, k: usize) -> Node {
         let get = |a: &[&[f64]; 4]| [a[0][k], a[1][k], a[2][k], a[3][k]];
+        let (bias, bvar) = match &self.bias {
+            Some((b, v)) => (get(b), get(v)),
+            None => ([f64::NAN; 4], [f64::NAN; 4]),
+        };
         Node {
             val: get(&self.val),
             var: get(&self.var),
-            bias: get(&self.bias),
-            bvar: get(&self.bvar),
+            bias,
+            bvar,
         }
     }
 }

@@ -303,6 +303,7 @@ fn smoothed_gradient_uncertainty_matches_monte_carlo_at_edges_and_inside() {
                 smoother: Some(&s),
                 not_plain: &sat,
                 not_ok: &sat_ok,
+                need: [true; 4],
                 sig_ref: (1.0, 1.0),
                 dx: 1.0,
                 dy: 1.0,

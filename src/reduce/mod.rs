@@ -142,8 +142,24 @@ pub struct Reduced {
     /// Node-frames per derivative scheme (what `auto` chose, or the one fixed scheme).
     pub scheme_counts: Vec<(String, usize)>,
     /// The peak-locking diagnostic of the valid displacements, when the
-    /// calibration is known (single runs; a merge of shards does not carry it).
+    /// calibration is known (of the whole run: a shard leaves it to `merge`).
     pub peak_lock: Option<validate::peaklock::PeakLock>,
+    /// Its accumulator, which shards carry to `merge`.
+    pub peak_acc: Option<PeakLockAcc>,
+}
+
+impl Reduced {
+    /// Finishes the peak-locking diagnostic from the accumulator and adds
+    /// its warning, if any.
+    pub fn finish_peak_lock(&mut self) {
+        if let Some(acc) = &self.peak_acc {
+            let p = acc.finish();
+            if let Some(w) = &p.warning {
+                self.warnings.push(format!("run '{}': {w}", self.id));
+            }
+            self.peak_lock = Some(p);
+        }
+    }
 }
 
 /// Adds `names[k]` × `counts[k]` into `into`, keeping first-seen order.
@@ -470,13 +486,10 @@ pub fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
             records.len()
         ));
     }
-    let peak_lock = peak.map(|p| p.finish());
-    if let Some(w) = peak_lock.as_ref().and_then(|p| p.warning.clone()) {
-        warnings.push(format!("run '{}': {w}", run.id));
-    }
-    Ok(Reduced {
+    let mut out = Reduced {
         scheme_counts: schemes,
-        peak_lock,
+        peak_lock: None,
+        peak_acc: peak,
         id: run.id.clone(),
         grid,
         n_frames_run: n,
@@ -486,7 +499,12 @@ pub fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
         inputs,
         warnings,
         timings,
-    })
+    };
+    // A shard's part of the run is finished by `merge`, over all shards.
+    if opts.shard.is_none() {
+        out.finish_peak_lock();
+    }
+    Ok(out)
 }
 
 /// The mean of the per-frame noise estimates, when the frames carry one.

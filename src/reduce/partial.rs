@@ -8,6 +8,8 @@
 //!                           SHA-256, the shard (index, count), and per run: id, grid,
 //!                           frames in the run, this shard's frame range, the frame
 //!                           records, input files, warnings, timings
+//!                           and the peak-locking accumulator (integer histograms),
+//!                           when the run has a calibration
 //!   <run id>/accumulator.bin   the statistics accumulator (stats' own versioned bytes)
 //! ```
 //!
@@ -50,6 +52,10 @@ struct RunPart {
     warnings: Vec<String>,
     timings: Vec<(String, f64)>,
     scheme_counts: Vec<(String, usize)>,
+    /// The peak-locking accumulator (absent in partials of runs without a
+    /// calibration, and in those written before it was carried).
+    #[serde(default)]
+    peak_acc: Option<validate::peaklock::PeakLockAcc>,
 }
 
 #[derive(Debug, Clone, Serialize, Deserialize)]
@@ -110,6 +116,7 @@ pub fn write(
             warnings: r.warnings.clone(),
             timings: r.timings.clone(),
             scheme_counts: r.scheme_counts.clone(),
+            peak_acc: r.peak_acc.clone(),
         });
     }
     let pf = PartialFile {
@@ -173,6 +180,7 @@ pub fn read(dir: &Path) -> Result<Partial> {
             timings: r.timings,
             scheme_counts: r.scheme_counts,
             peak_lock: None,
+            peak_acc: r.peak_acc,
         });
     }
     Ok(Partial {
@@ -238,6 +246,17 @@ pub fn merge(mut parts: Vec<Partial>) -> Result<(Partial, Vec<Reduced>)> {
                 .with_path(&dir));
             }
             into.acc.try_merge(r.acc).map_err(|e| e.with_path(&dir))?;
+            match (&mut into.peak_acc, r.peak_acc) {
+                (Some(a), Some(b)) => a.merge(b),
+                (None, None) => {}
+                _ => {
+                    return Err(Error::data(format!(
+                        "run '{}': some shards have a peak-locking accumulator and some not",
+                        r.id
+                    ))
+                    .with_path(&dir))
+                }
+            }
             into.range.1 = r.range.1;
             into.frames.extend(r.frames);
             into.inputs.extend(r.inputs);
@@ -263,6 +282,9 @@ pub fn merge(mut parts: Vec<Partial>) -> Result<(Partial, Vec<Reduced>)> {
                 r.id, r.range.0, r.range.1, r.n_frames_run
             )));
         }
+    }
+    for r in &mut runs {
+        r.finish_peak_lock();
     }
     Ok((first, runs))
 }

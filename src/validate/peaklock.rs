@@ -42,8 +42,9 @@ pub const WARN_R: f64 = 0.1;
 const FINE: usize = 1000;
 const INT_HALF: i64 = 256;
 
-/// Mergeable accumulator of sub-pixel displacement parts.
-#[derive(Debug, Clone, PartialEq)]
+/// Mergeable accumulator of sub-pixel displacement parts (integer counts:
+/// merging is exact, and the partial files of shards carry it).
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct PeakLockAcc {
     px_velocity: f64,
     fine: Vec<u64>,

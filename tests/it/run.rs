@@ -189,6 +189,20 @@ fn shards_merged_equal_one_run() {
         fa == fb,
         "frames.csv of the merge differs from the single run"
     );
+    // The peak-locking diagnostic (integer histograms) merges exactly.
+    let peak = |dir: &str| {
+        let m: serde_json::Value = serde_json::from_str(
+            &std::fs::read_to_string(w.path(&format!("{dir}/manifest.json"))).unwrap(),
+        )
+        .unwrap();
+        m["runs"][0]["peak_locking"].clone()
+    };
+    let (pa, pb) = (peak("whole"), peak("merged"));
+    assert!(pa["n"].as_u64().unwrap() > 0, "{pa}");
+    assert_eq!(
+        pa, pb,
+        "peak locking of the merge differs from the single run"
+    );
     // A missing shard is an error that says which shards it got.
     let err = w.fails(&["merge", "part1", "part3", "--out", "bad"], 1);
     assert!(err.contains("exactly once"), "{err}");
