@@ -163,12 +163,15 @@ fn scan_row(
             while q < n && line[q] == b' ' {
                 q += 1;
             }
-            if let Some((x, used)) = parse_partial(&line[q..]) {
+            if let Some((x, used, plain)) = parse_number(&line[q..]) {
                 let mut end = q + used;
                 while end < n && line[end] == b' ' && !at_end(end) {
                     end += 1;
                 }
-                if at_end(end) && x.is_finite() {
+                // `plain` values are finite by construction: deciding on
+                // the flag rather than on `x` lets the division behind `x`
+                // finish while the next cells are scanned
+                if at_end(end) && (plain || x.is_finite()) {
                     vals[r] = Some(x);
                     e = end;
                 }
@@ -271,6 +274,13 @@ fn digit_run(b: &[u8], mut p: usize) -> (u64, usize, usize) {
 /// inf, nan) goes to `fast-float2`.
 #[inline]
 fn parse_partial(b: &[u8]) -> Option<(f64, usize)> {
+    parse_number(b).map(|(x, used, _)| (x, used))
+}
+
+/// `parse_partial`, and whether the value came from the plain-decimal fast
+/// path (then it is finite).
+#[inline(always)]
+fn parse_number(b: &[u8]) -> Option<(f64, usize, bool)> {
     let n = b.len();
     let mut p = 0;
     let neg = match b.first() {
@@ -306,9 +316,11 @@ fn parse_partial(b: &[u8]) -> Option<(f64, usize)> {
         && (p == n || !matches!(b[p], b'e' | b'E' | b'.'));
     if simple {
         let x = m as f64 / POW10[frac];
-        return Some((if neg { -x } else { x }, p));
+        return Some((if neg { -x } else { x }, p, true));
     }
-    fast_float2::parse_partial::<f64, _>(b).ok()
+    fast_float2::parse_partial::<f64, _>(b)
+        .ok()
+        .map(|(x, used)| (x, used, false))
 }
 
 pub(super) fn show(cell: &[u8]) -> String {
