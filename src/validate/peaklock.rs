@@ -169,7 +169,8 @@ pub fn rayleigh_p(r: f64, n: f64) -> f64 {
 /// `x.round()` (half away from zero) for finite `x`, without the libm call
 /// that `round` is on the x86_64 base instruction set (no SSE4.1): the
 /// truncation to an integer is exact below 2^52, and above it every double
-/// is already an integer.
+/// is already an integer. No branch on the fraction: sub-pixel parts are
+/// random, so such a branch would be mispredicted about every other time.
 #[inline]
 fn round_half_away(x: f64) -> f64 {
     if x.abs() >= 4.0e15 {
@@ -177,13 +178,7 @@ fn round_half_away(x: f64) -> f64 {
     }
     let t = x as i64 as f64; // toward zero, exact
     let f = x - t; // exact: |f| < 1 and x, t share the exponent range
-    if f >= 0.5 {
-        t + 1.0
-    } else if f <= -0.5 {
-        t - 1.0
-    } else {
-        t
-    }
+    t + f64::from(u8::from(f >= 0.5)) - f64::from(u8::from(f <= -0.5))
 }
 
 #[cfg(test)]
