@@ -94,13 +94,16 @@ impl Node {
     }
 }
 
+/// Four component slices (a, b, c, d).
+type Slices4<'a> = [&'a [f64]; 4];
+
 /// The tensor's arrays as flat slices (row-major), for one pass over nodes.
 pub struct Flat<'a> {
     val: [&'a [f64]; 4],
     var: [&'a [f64]; 4],
     /// The truncation slots, `None` when truncation is not estimated (they
     /// hold only NaN then, and are not read).
-    bias: Option<([&'a [f64]; 4], [&'a [f64]; 4])>,
+    bias: Option<(Slices4<'a>, Slices4<'a>)>,
 }
 
 impl<'a> Flat<'a> {
