@@ -1,11 +1,15 @@
 //! Helpers for unit tests: tolerant comparison, seeded randomness, and the
-//! reference libraries (numpy/scipy) run through `python3`.
+//! committed reference values of general-purpose libraries (numpy, scipy,
+//! pandas, pyarrow).
 //!
-//! `.ci/run` installs numpy and scipy; a test that needs them fails (never
-//! skips) when they are missing, so a reference check cannot pass silently.
+//! A check against a reference library reads `tests/reference/<topic>.json`,
+//! written by the script `tests/reference/<topic>.py` beside it; the header
+//! fields `library`, `version` and `call` say what made the values. Tests
+//! never run Python: `cargo test` needs only a Rust toolchain.
+//! `.ci/check-references` reruns every script and fails when a value moved.
 
-use std::io::Write;
-use std::process::{Command, Stdio};
+use serde_json::Value;
+use std::path::PathBuf;
 
 /// Asserts `|a - b| <= abs + rel * |b|`, naming the values.
 #[track_caller]
@@ -25,45 +29,69 @@ pub fn rng(seed: u64) -> rand_chacha::ChaCha8Rng {
     rand_chacha::ChaCha8Rng::seed_from_u64(seed)
 }
 
-/// Runs a Python program (numpy/scipy available) with `stdin` as input and
-/// returns its standard output. Panics with the program's error output when
-/// it fails, so a missing reference library is a failure, not a skip.
-pub fn python(program: &str, stdin: &str) -> String {
-    let mut child = Command::new("python3")
-        .arg("-c")
-        .arg(program)
-        .stdin(Stdio::piped())
-        .stdout(Stdio::piped())
-        .stderr(Stdio::piped())
-        .spawn()
-        .expect("python3 must be on PATH for reference checks (.ci/run installs numpy and scipy)");
-    child
-        .stdin
-        .take()
-        .unwrap()
-        .write_all(stdin.as_bytes())
-        .unwrap();
-    let out = child.wait_with_output().unwrap();
-    assert!(
-        out.status.success(),
-        "reference python failed:\n{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
-    String::from_utf8(out.stdout).unwrap()
+/// The path of a committed reference file, `tests/reference/<name>`.
+pub fn reference_path(name: &str) -> PathBuf {
+    PathBuf::from(env!("CARGO_MANIFEST_DIR"))
+        .join("tests")
+        .join("reference")
+        .join(name)
 }
 
-/// Parses whitespace-separated floats (the usual output of a reference script).
-pub fn floats(text: &str) -> Vec<f64> {
-    text.split_whitespace()
-        .map(|t| t.parse().unwrap())
+/// The committed reference values of `topic` (`tests/reference/<topic>.json`),
+/// checked to carry the header that says which library, version and call
+/// made them.
+#[track_caller]
+pub fn reference(topic: &str) -> Value {
+    let path = reference_path(&format!("{topic}.json"));
+    let text = std::fs::read_to_string(&path)
+        .unwrap_or_else(|e| panic!("{}: {e} (run tests/reference/{topic}.py)", path.display()));
+    let v: Value =
+        serde_json::from_str(&text).unwrap_or_else(|e| panic!("{}: {e}", path.display()));
+    for key in ["library", "version", "call"] {
+        assert!(
+            v.get(key).and_then(Value::as_str).is_some(),
+            "{}: header field {key} missing",
+            path.display()
+        );
+    }
+    v
+}
+
+/// A JSON array of numbers as floats (panics naming the value otherwise).
+#[track_caller]
+pub fn floats(v: &Value) -> Vec<f64> {
+    v.as_array()
+        .unwrap_or_else(|| panic!("not an array: {v}"))
+        .iter()
+        .map(|x| x.as_f64().unwrap_or_else(|| panic!("not a number: {x}")))
         .collect()
+}
+
+/// A JSON number as a float (panics naming the value otherwise).
+#[track_caller]
+pub fn float(v: &Value) -> f64 {
+    v.as_f64().unwrap_or_else(|| panic!("not a number: {v}"))
 }
 
 #[cfg(test)]
 mod tests {
     #[test]
-    fn python_reference_runs() {
-        let out = super::python("import numpy as np, sys; print(np.median([float(t) for t in sys.stdin.read().split()]))", "1 2 3 4 5 6 7 8");
-        assert_eq!(super::floats(&out), vec![4.5]);
+    fn every_reference_file_has_its_script_and_header() {
+        let dir = super::reference_path("");
+        let mut n = 0;
+        for e in std::fs::read_dir(&dir).unwrap() {
+            let p = e.unwrap().path();
+            if p.extension().is_some_and(|x| x == "json") {
+                let topic = p.file_stem().unwrap().to_str().unwrap();
+                assert!(
+                    dir.join(format!("{topic}.py")).is_file(),
+                    "{} has no generating script",
+                    p.display()
+                );
+                super::reference(topic);
+                n += 1;
+            }
+        }
+        assert!(n >= 8, "only {n} reference files");
     }
 }

@@ -381,20 +381,14 @@ fn parquet_long_table_round_trip_frame_by_frame() {
 #[test]
 fn parquet_from_pyarrow_with_a_single_row_group() {
     // A long table written by pyarrow (the reference parquet library), rows
-    // shuffled within frames and frames interleaved in two blocks.
-    let d = tempfile::tempdir().unwrap();
-    let path = d.path().join("t.parquet");
-    let prog = format!(
-        "import pyarrow as pa, pyarrow.parquet as pq\n\
-         rows=[(f,x,y,f*100+x+10*y) for f in (2,1) for y in range(3) for x in range(4)]\n\
-         rows=rows[12:18]+rows[:12]+rows[18:]\n\
-         t=pa.table({{'id':[r[0] for r in rows],'X':[float(r[1]) for r in rows],'Y':[float(r[2]) for r in rows],'U':[float(r[3]) for r in rows],'V':[-float(r[3]) for r in rows]}})\n\
-         pq.write_table(t, r'{}')\n\
-         pq.write_table(t, r'{}', row_group_size=5)\n",
-        path.display(),
-        path.with_extension("rg5.parquet").display()
-    );
-    crate::testutil::python(&prog, "");
+    // shuffled within frames and frames interleaved in two blocks; the files
+    // and what pyarrow reads back are committed (tests/reference/pyarrow_long_table.py).
+    let r = crate::testutil::reference("pyarrow_long_table");
+    let path = crate::testutil::reference_path("pyarrow_long_table.parquet");
+    let p5 = crate::testutil::reference_path("pyarrow_long_table_rg5.parquet");
+    let files = &r["files"];
+    assert_eq!(files["pyarrow_long_table.parquet"]["row_groups"], 1);
+    assert_eq!(files["pyarrow_long_table_rg5.parquet"]["row_groups"], 5);
     let mut s = spec(Format::Parquet);
     s.columns = ColumnMap {
         x: "X".into(),
@@ -414,8 +408,36 @@ fn parquet_from_pyarrow_with_a_single_row_group() {
     assert_eq!((f.grid.nx, f.grid.ny), (4, 3));
     assert_eq!(f.u[[2, 3]], 200.0 + 3.0 + 20.0);
     assert_eq!(f.v[[1, 0]], -210.0);
+    // Every value pyarrow reads is where curlew puts it (x, y in mm; the
+    // frame's grid starts at 0).
+    let cols = &files["pyarrow_long_table.parquet"]["columns"];
+    for ((frame, src), k) in list.iter().zip(1..) {
+        let f = read_frame(&s, src).unwrap();
+        let mut n = 0;
+        for row in 0..24 {
+            if cols["id"][row] != k {
+                continue;
+            }
+            let (x, y) = (
+                cols["X"][row].as_f64().unwrap(),
+                cols["Y"][row].as_f64().unwrap(),
+            );
+            let (i, j) = (x as usize, y as usize);
+            assert_eq!(
+                f.u[[j, i]],
+                cols["U"][row].as_f64().unwrap(),
+                "frame {frame}"
+            );
+            assert_eq!(
+                f.v[[j, i]],
+                cols["V"][row].as_f64().unwrap(),
+                "frame {frame}"
+            );
+            n += 1;
+        }
+        assert_eq!(n, 12);
+    }
     // The same table in row groups of 5 rows: frames span row groups.
-    let p5 = path.with_extension("rg5.parquet");
     let list5 = list_frames(&s, p5.to_str().unwrap()).unwrap();
     for ((_, a), (_, b)) in list.iter().zip(&list5) {
         let (fa, fb) = (read_frame(&s, a).unwrap(), read_frame(&s, b).unwrap());
@@ -521,15 +543,30 @@ fn write_parquet_types_and_values() {
     t.push("id", Values::Str(vec!["a".into(), "b".into(), "c".into()]));
     let p = d.path().join("t.parquet");
     write_parquet(&p, &t).unwrap();
-    // Checked with pyarrow (reference library): parquet types and values.
-    let out = crate::testutil::python(
-        "import pyarrow.parquet as pq, sys\np=sys.stdin.read().strip()\ns=pq.ParquetFile(p).schema\nprint(s.column(0).physical_type, s.column(1).physical_type, s.column(2).logical_type)\nt=pq.read_table(p)\nprint(t.column('x').to_pylist()[0], t.column('x').to_pylist()[2], t.column('n').to_pylist()[2], t.column('id').to_pylist()[1])",
-        p.to_str().unwrap(),
+    // pyarrow (reference library) reads the parquet types and values of
+    // this exact file: tests/reference/pyarrow_reads_curlew.py. Set
+    // CURLEW_BLESS=1 to rewrite the committed file after a deliberate
+    // change of the writer, then rerun the script.
+    let written = fs::read(&p).unwrap();
+    let committed = crate::testutil::reference_path("curlew_written.parquet");
+    if std::env::var_os("CURLEW_BLESS").is_some() {
+        fs::write(&committed, &written).unwrap();
+    }
+    assert!(
+        fs::read(&committed).unwrap() == written,
+        "write_parquet no longer writes the bytes pyarrow was checked on"
     );
+    let r = crate::testutil::reference("pyarrow_reads_curlew");
+    assert_eq!(r["names"], serde_json::json!(["x", "n", "id"]));
     assert_eq!(
-        out.split_whitespace().collect::<Vec<_>>(),
-        ["DOUBLE", "INT64", "String", "0.25", "-1e-09", "3", "b"]
+        r["physical_types"],
+        serde_json::json!(["DOUBLE", "INT64", "BYTE_ARRAY"])
     );
+    assert_eq!(r["logical_types"][2], "String");
+    let c = &r["columns"];
+    assert_eq!(c["x"], serde_json::json!([0.25, null, -1e-9]));
+    assert_eq!(c["n"], serde_json::json!([1, 2, 3]));
+    assert_eq!(c["id"], serde_json::json!(["a", "b", "c"]));
 }
 
 #[test]

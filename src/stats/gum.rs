@@ -167,7 +167,7 @@ pub fn cov_unc(su: f64, sv: f64, cov: f64, n_eff: f64) -> f64 {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::testutil::{assert_close, floats, python, rng};
+    use crate::testutil::{assert_close, float, reference, rng};
     use rand_distr::{Distribution, StandardNormal};
 
     #[test]
@@ -194,46 +194,42 @@ mod tests {
             "t_0.975(19)",
         );
         assert_close(expanded(&c, 0.95), 2.155, 5e-4, 0.0, "U_95 (%)");
-        // Cross-check the t quantile against scipy.stats.t.ppf (reference library).
-        let r = floats(&python(
-            "from scipy.stats import t; print(t.ppf(0.975, 19), t.ppf(0.995, 7.3))",
-            "",
-        ));
-        assert_close(coverage_factor(0.95, 19.0), r[0], 1e-9, 0.0, "t vs scipy");
-        assert_close(
-            coverage_factor(0.99, 7.3),
-            r[1],
-            1e-8,
-            0.0,
-            "t vs scipy (fractional dof)",
-        );
     }
 
     #[test]
     fn t_quantiles_match_scipy_on_both_sides_of_the_switch() {
-        // Reference: scipy.stats.t.ppf (the statrs inversion drifts by ~1e-6
+        // Reference: scipy.stats.t.ppf (tests/reference/student_t.py), at
+        // integer and fractional nu (the statrs inversion drifts by ~1e-6
         // at very large nu, the series does not).
-        let ps = [0.68, 0.9, 0.95, 0.99, 0.9973];
-        let nus = [
-            1.0, 1.37, 2.5, 10.0, 19.0, 33.3, 39.9, 40.0, 41.7, 60.0, 100.0, 1e3, 1e5,
-        ];
-        let prog = format!(
-            "from scipy.stats import t\nfor p in {ps:?}:\n  for nu in {nus:?}:\n    print(repr(float(t.ppf(0.5*(1+p), nu))))"
-        );
-        let want = floats(&python(&prog, ""));
-        let mut it = want.iter();
-        for p in ps {
-            for nu in nus {
-                let w = *it.next().unwrap();
-                assert_close(
-                    coverage_factor(p, nu),
-                    w,
-                    0.0,
-                    1e-6,
-                    &format!("t({p}, {nu})"),
-                );
-            }
+        let r = reference("student_t");
+        let cases = r["cases"].as_array().unwrap();
+        assert_eq!(cases.len(), 5 * 13 + 2);
+        for c in cases {
+            let (p, nu, k) = (float(&c["p"]), float(&c["nu"]), float(&c["k"]));
+            assert_close(
+                coverage_factor(p, nu),
+                k,
+                0.0,
+                1e-6,
+                &format!("t({p}, {nu})"),
+            );
         }
+        // The two values of the worked example, tighter.
+        let (a, b) = (&cases[cases.len() - 2], &cases[cases.len() - 1]);
+        assert_close(
+            coverage_factor(0.95, 19.0),
+            float(&a["k"]),
+            1e-9,
+            0.0,
+            "t vs scipy",
+        );
+        assert_close(
+            coverage_factor(0.99, 7.3),
+            float(&b["k"]),
+            1e-8,
+            0.0,
+            "t vs scipy (fractional dof)",
+        );
     }
 
     #[test]

@@ -249,7 +249,7 @@ impl Moments {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::testutil::{assert_close, floats, python, rng};
+    use crate::testutil::{assert_close, float, floats, reference, rng};
     use rand_distr::{Distribution, Exp};
 
     fn moments_of(xs: &[f64]) -> Scalar {
@@ -262,27 +262,21 @@ mod tests {
 
     #[test]
     fn central_sums_match_numpy_for_a_skewed_sample() {
-        // Reference: numpy central moments of the same sample (m_p = mean((x-mean)^p)).
-        let mut r = rng(11);
-        let xs: Vec<f64> = (0..500)
-            .map(|_| Exp::new(2.0).unwrap().sample(&mut r) + 3.0)
-            .collect();
-        let text: Vec<String> = xs.iter().map(|x| format!("{x:.17e}")).collect();
-        let out = python(
-            "import numpy as np,sys\nx=np.array(sys.stdin.read().split(),float)\nd=x-x.mean()\nprint(x.mean(),(d**2).sum(),(d**3).sum(),(d**4).sum(),np.cov(x,2*x+np.sin(x))[0,1]*(len(x)-1))",
-            &text.join(" "),
-        );
-        let r = floats(&out);
+        // Reference: numpy central sums and numpy.cov of a skewed sample
+        // (tests/reference/moments.py).
+        let r = reference("moments");
+        let xs = floats(&r["x"]);
+        assert_eq!(xs.len(), 500);
         let s = moments_of(&xs);
-        assert_close(s.mean[0], r[0], 0.0, 1e-13, "mean");
-        assert_close(s.m2[0], r[1], 0.0, 1e-12, "M2");
-        assert_close(s.m3[0], r[2], 0.0, 1e-10, "M3");
-        assert_close(s.m4[0], r[3], 0.0, 1e-11, "M4");
+        assert_close(s.mean[0], float(&r["mean"]), 0.0, 1e-13, "mean");
+        assert_close(s.m2[0], float(&r["m2"]), 0.0, 1e-12, "M2");
+        assert_close(s.m3[0], float(&r["m3"]), 0.0, 1e-10, "M3");
+        assert_close(s.m4[0], float(&r["m4"]), 0.0, 1e-11, "M4");
         let mut m = Moments::new(1, 0);
         for &x in &xs {
             m.add_velocity(0, x, 2.0 * x + x.sin());
         }
-        assert_close(m.cuv[0], r[4], 0.0, 1e-12, "co-moment");
+        assert_close(m.cuv[0], float(&r["comoment"]), 0.0, 1e-12, "co-moment");
     }
 
     #[test]

@@ -214,19 +214,21 @@ pub fn savgol_derivative(window: usize, order: u32) -> Option<Stencil> {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::testutil::{assert_close, floats, python};
+    use crate::testutil::{assert_close, float, floats, reference};
 
     #[test]
     fn savgol_weights_equal_scipy_for_windows_5_and_7() {
-        // Reference library: scipy.signal.savgol_coeffs(window, order, deriv=1, use="dot").
-        let cases = [(5usize, 1u32), (5, 2), (7, 1), (7, 2), (7, 3), (7, 4)];
-        let prog = "import sys\nfrom scipy.signal import savgol_coeffs\n\
-                    for line in sys.stdin:\n    w,o=map(int,line.split())\n    \
-                    print(' '.join(repr(float(c)) for c in savgol_coeffs(w,o,deriv=1,use='dot')))";
-        let input: String = cases.iter().map(|(w, o)| format!("{w} {o}\n")).collect();
-        let out = python(prog, &input);
-        for ((w, o), line) in cases.iter().zip(out.lines()) {
-            let want = floats(line);
+        // Reference library: scipy.signal.savgol_coeffs(window, order,
+        // deriv=1, use="dot") (tests/reference/savitzky_golay.py).
+        let r = reference("savitzky_golay");
+        let cases = r["derivative"].as_array().unwrap();
+        assert_eq!(cases.len(), 6);
+        for case in cases {
+            let (w, o) = (
+                &(float(&case["window"]) as usize),
+                &(float(&case["order"]) as u32),
+            );
+            let want = floats(&case["weights"]);
             let st = savgol_derivative(*w, *o).unwrap();
             let m = (*w / 2) as i32;
             for (k, wk) in want.iter().enumerate() {

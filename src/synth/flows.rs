@@ -290,14 +290,12 @@ mod tests {
     fn lamb_oseen_peak_agrees_with_scipy_bounded_minimisation() {
         // reference library: scipy.optimize.minimize_scalar (bounded) on the
         // same profile written independently in numpy
-        let out = crate::testutil::python(
-            "import numpy as np\nfrom scipy.optimize import minimize_scalar\n\
-             f = lambda r: -(1 - np.exp(-r*r)) / r\n\
-             res = minimize_scalar(f, bounds=(0.5, 2.0), method='bounded', options={'xatol': 1e-12})\n\
-             print(res.x, -res.fun)",
-            "",
-        );
-        let v = crate::testutil::floats(&out);
+        // (tests/reference/lamb_oseen.py)
+        let v = crate::testutil::reference("lamb_oseen");
+        let v = [
+            crate::testutil::float(&v["radius"]),
+            crate::testutil::float(&v["swirl"]),
+        ];
         let r = v[0];
         // ours at scipy's radius (rc = 1, gamma = 2 pi: u_theta = (1-e^-r²)/r)
         let ours = lamb_oseen(r, 0.0, 0.0, 0.0, 2.0 * PI, 1.0).v;

@@ -1,22 +1,17 @@
 use super::*;
-use crate::testutil::{assert_close, floats, python, rng};
+use crate::testutil::{assert_close, floats, reference, rng};
 use rand::Rng;
 use rand_distr::{Distribution, Normal};
 
-/// Reference library: scipy.fft.dctn(type=2, norm="ortho") and idctn.
+/// Reference library: scipy.fft.dctn(type=2, norm="ortho")
+/// (tests/reference/dct.py), and the inverse as a round trip.
 #[test]
 fn orthonormal_dct_matches_scipy() {
+    let r = reference("dct");
     let (ny, nx) = (5, 7);
-    let mut r = rng(41);
-    let a: Vec<f64> = (0..ny * nx).map(|_| r.random_range(-1.0..1.0)).collect();
-    let text: String = a.iter().map(|x| format!("{x:.17e} ")).collect();
-    let out = python(
-        "import sys, numpy as np, scipy.fft as f\n\
-         a = np.array(sys.stdin.read().split(), float).reshape(5, 7)\n\
-         print(' '.join('%.17e' % x for x in f.dctn(a, type=2, norm='ortho').ravel()))",
-        &text,
-    );
-    let want = floats(&out);
+    assert_eq!(floats(&r["shape"]), [ny as f64, nx as f64]);
+    let a = floats(&r["input"]);
+    let want = floats(&r["output"]);
     let d = Dct2d::new(ny, nx);
     let mut b = a.clone();
     d.forward(&mut b);

@@ -1,5 +1,5 @@
 use super::*;
-use crate::testutil::{assert_close, floats, python, rng};
+use crate::testutil::{assert_close, float, floats, reference, rng};
 use rand::Rng;
 
 fn random(ny: usize, nx: usize, seed: u64) -> Array2<f64> {
@@ -41,20 +41,18 @@ fn smoothing_a_constant_changes_nothing_with_edges_and_gaps() {
 }
 
 /// Reference library: scipy.ndimage.gaussian_filter (truncate = 4.0, its
-/// default) at interior nodes, where the boundary mode does not enter.
+/// default; tests/reference/gaussian_filter.py) at interior nodes, where
+/// the boundary mode does not enter.
 #[test]
 fn gaussian_matches_scipy_gaussian_filter_at_interior_nodes() {
+    let r = reference("gaussian_filter");
     let (ny, nx) = (30, 34);
-    let a = random(ny, nx, 61);
-    let text: String = a.iter().map(|x| format!("{x:.17e} ")).collect();
-    let prog = format!(
-        "import sys, numpy as np\nfrom scipy.ndimage import gaussian_filter\n\
-         a = np.array(sys.stdin.read().split(), float).reshape({ny}, {nx})\n\
-         for s in (0.8, 1.3, 2.0):\n    print(' '.join('%.17e' % x for x in gaussian_filter(a, s).ravel()))"
-    );
-    let out = python(&prog, &text);
-    for (sigma, line) in [0.8, 1.3, 2.0].into_iter().zip(out.lines()) {
-        let want = floats(line);
+    assert_eq!(floats(&r["shape"]), [ny as f64, nx as f64]);
+    let a = Array2::from_shape_vec((ny, nx), floats(&r["input"])).unwrap();
+    let cases = r["filtered"].as_array().unwrap();
+    assert_eq!(cases.len(), 3);
+    for case in cases {
+        let (sigma, want) = (float(&case["sigma"]), floats(&case["output"]));
         let st = gaussian(sigma);
         let r = (4.0 * sigma + 0.5) as usize;
         assert_eq!(st.reach(), (r, r));
@@ -74,18 +72,16 @@ fn gaussian_matches_scipy_gaussian_filter_at_interior_nodes() {
 }
 
 /// Reference library: numpy.linalg.pinv of the monomial matrix (first row
-/// of the pseudo-inverse gives the centre value of the fit).
+/// of the pseudo-inverse gives the centre value of the fit;
+/// tests/reference/savitzky_golay.py).
 #[test]
 fn savitzky_golay_weights_match_numpy_least_squares() {
-    for (m, p) in [(1usize, 1usize), (2, 2), (2, 3), (3, 4)] {
-        let prog = format!(
-            "import numpy as np\nm, p = {m}, {p}\n\
-             pts = [(j, i) for j in range(-m, m + 1) for i in range(-m, m + 1)]\n\
-             terms = [(d - b, b) for d in range(p + 1) for b in range(d + 1)]\n\
-             A = np.array([[i**a * j**b for (a, b) in terms] for (j, i) in pts], float)\n\
-             print(' '.join('%.17e' % x for x in np.linalg.pinv(A)[0]))"
-        );
-        let want = floats(&python(&prog, ""));
+    let r = reference("savitzky_golay");
+    let cases = r["smoothing"].as_array().unwrap();
+    assert_eq!(cases.len(), 4);
+    for case in cases {
+        let (m, p) = (float(&case["m"]) as usize, float(&case["p"]) as usize);
+        let want = floats(&case["weights"]);
         let st = savitzky_golay(m, p);
         let side = 2 * m + 1;
         let mut got = vec![0.0; side * side];
