@@ -18,6 +18,7 @@ pub mod plot;
 pub mod reduce;
 pub mod report;
 pub mod result;
+pub mod robust;
 pub mod stats;
 pub mod stencil;
 pub mod synth;

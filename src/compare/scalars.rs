@@ -49,7 +49,8 @@ pub fn peak_node(t: &NodeTable) -> Option<(usize, f64)> {
     let w = t.get("omega_mean")?;
     let lim = t
         .get("omega_mean_unc")
-        .and_then(|u| crate::plot::quantile(u.iter().copied(), 0.5).map(|m| 3.0 * m));
+        .map(|u| 3.0 * crate::robust::median_of(u.iter().copied()))
+        .filter(|m| m.is_finite());
     let ok = |k: usize| match (lim, t.get("omega_mean_unc")) {
         (Some(l), Some(u)) => u[k].is_finite() && u[k] <= l,
         _ => true,

@@ -227,8 +227,7 @@ fn per_vector_sigma(
             if s.is_empty() {
                 est
             } else {
-                let m = s.len() / 2;
-                *s.select_nth_unstable_by(m, |a, b| a.total_cmp(b)).1
+                crate::robust::median(&mut s)
             }
         }
     };

@@ -46,7 +46,7 @@ pub fn estimate(field: &Field, corr: &Correlation) -> Option<f64> {
         .map(|(&s, (a, b))| s == VALID && a.is_finite() && b.is_finite())
         .collect();
     // |D4| as the bits of a non-negative double: they order as the values
-    // do, so the selection below compares integers (same median element).
+    // do, so the median selection compares integers (crate::robust).
     let mut r: Vec<u64> = Vec::with_capacity(4 * ny * nx);
     let d4 = |a: &[f64], k: usize, step: usize| {
         (a[k] - 4.0 * a[k + step] + 6.0 * a[k + 2 * step] - 4.0 * a[k + 3 * step] + a[k + 4 * step])
@@ -69,8 +69,7 @@ pub fn estimate(field: &Field, corr: &Correlation) -> Option<f64> {
     if r.len() < MIN_SAMPLES {
         return None;
     }
-    let mid = r.len() / 2;
-    let med = f64::from_bits(*r.select_nth_unstable(mid).1);
+    let med = crate::robust::median_of_nonnegative_bits(&mut r);
     let d4 = Stencil::new(
         D4.iter()
             .enumerate()
@@ -81,7 +80,7 @@ pub fn estimate(field: &Field, corr: &Correlation) -> Option<f64> {
             })
             .collect(),
     );
-    Some(1.482_602_218_505_602 * med / corr.gain(&d4).sqrt())
+    Some(crate::robust::MAD_TO_SIGMA * med / corr.gain(&d4).sqrt())
 }
 
 #[cfg(test)]

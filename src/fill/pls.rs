@@ -331,12 +331,10 @@ fn bisquare(y: &[f64], z: &[f64], w0: &[f64], s: f64) -> Vec<f64> {
         .filter(|&k| w0[k] > 0.0)
         .map(|k| y[k] - z[k])
         .collect();
-    let med = median(&mut r.clone());
-    r.iter_mut().for_each(|x| *x = (*x - med).abs());
-    let mad = median(&mut r);
+    let (_, mad) = crate::robust::median_mad(&mut r);
     let h = (1.0 + 16.0 * s).sqrt();
     let h = ((1.0 + h).sqrt() / std::f64::consts::SQRT_2 / h).powi(2);
-    let scale = 1.4826 * mad * (1.0 - h).max(1e-12).sqrt();
+    let scale = crate::robust::MAD_TO_SIGMA * mad * (1.0 - h).max(1e-12).sqrt();
     (0..y.len())
         .map(|k| {
             if w0[k] == 0.0 {
@@ -353,19 +351,6 @@ fn bisquare(y: &[f64], z: &[f64], w0: &[f64], s: f64) -> Vec<f64> {
             }
         })
         .collect()
-}
-
-fn median(a: &mut [f64]) -> f64 {
-    if a.is_empty() {
-        return 0.0;
-    }
-    a.sort_by(f64::total_cmp);
-    let n = a.len();
-    if n % 2 == 1 {
-        a[n / 2]
-    } else {
-        0.5 * (a[n / 2 - 1] + a[n / 2])
-    }
 }
 
 #[cfg(test)]

@@ -64,16 +64,6 @@ pub enum AxisError {
     },
 }
 
-fn median_sorted(v: &mut [f64]) -> f64 {
-    v.sort_unstable_by(f64::total_cmp);
-    let n = v.len();
-    if n % 2 == 1 {
-        v[n / 2]
-    } else {
-        0.5 * (v[n / 2 - 1] + v[n / 2])
-    }
-}
-
 fn gaps(c: &[f64]) -> Vec<f64> {
     c.windows(2).map(|w| w[1] - w[0]).collect()
 }
@@ -150,7 +140,7 @@ pub fn infer_axis(values: &[f64], tol: f64) -> std::result::Result<Axis, AxisErr
         // Two populations: copies of a node (small gaps) and pitches.
         (gs[k_jump] * gs[k_jump + 1]).sqrt()
     } else {
-        tol * median_sorted(&mut gs)
+        tol * crate::robust::median(&mut gs)
     };
     let mut centres: Vec<f64> = Vec::with_capacity(d.len());
     let (mut sum, mut count) = (d[0], 1usize);
@@ -168,7 +158,7 @@ pub fn infer_axis(values: &[f64], tol: f64) -> std::result::Result<Axis, AxisErr
     if centres.len() < 2 {
         return Err(AxisError::TooFew(centres.len()));
     }
-    let h = median_sorted(&mut gaps(&centres));
+    let h = crate::robust::median(&mut gaps(&centres));
     // Step 3: indices from the gaps.
     let mut idx = Vec::with_capacity(centres.len());
     idx.push(0usize);

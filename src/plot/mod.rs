@@ -71,16 +71,11 @@ pub(crate) fn figure_ref(
     }
 }
 
-/// The `q` quantile (0..1) of the finite values of `v` by the
-/// nearest-rank method (common practice); None when none is finite.
+/// The `q` quantile (0..1) of the finite values of `v`, with the one
+/// convention of `crate::robust` (linear between order statistics, as
+/// numpy.quantile); None when none is finite.
 pub fn quantile(v: impl Iterator<Item = f64>, q: f64) -> Option<f64> {
-    let mut s: Vec<f64> = v.filter(|x| x.is_finite()).collect();
-    if s.is_empty() {
-        return None;
-    }
-    s.sort_by(|a, b| a.total_cmp(b));
-    let k = ((q.clamp(0.0, 1.0) * s.len() as f64).ceil() as usize).clamp(1, s.len()) - 1;
-    Some(s[k])
+    Some(crate::robust::quantile_of(v, q)).filter(|x| !x.is_nan())
 }
 
 /// A symmetric limit for a signed quantity: the 99.8th percentile of |v|

@@ -104,11 +104,18 @@ fn map_layout_keeps_equal_aspect() {
 }
 
 #[test]
-fn quantile_nearest_rank() {
-    // Nearest-rank definition (common practice): q = 0.5 of 1..=10 is 5.
+fn quantile_follows_numpy() {
+    // numpy.quantile(np.arange(1, 11), [0.5, 0.99]) = 5.5, 9.91 (numpy's
+    // default "linear" method; the convention of crate::robust).
     let v: Vec<f64> = (1..=10).map(f64::from).collect();
-    assert_eq!(quantile(v.iter().copied(), 0.5), Some(5.0));
-    assert_eq!(quantile(v.iter().copied(), 0.99), Some(10.0));
+    assert_eq!(quantile(v.iter().copied(), 0.5), Some(5.5));
+    crate::testutil::assert_close(
+        quantile(v.iter().copied(), 0.99).unwrap(),
+        9.91,
+        1e-12,
+        0.0,
+        "q 0.99",
+    );
     assert_eq!(quantile([f64::NAN].into_iter(), 0.5), None);
 }
 

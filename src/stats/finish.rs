@@ -222,8 +222,7 @@ pub(super) fn finish(acc: &RunAccumulator, p: &Params) -> RunStats {
             .filter(|x| x.is_finite())
             .collect();
         if !v.is_empty() {
-            v.sort_by(f64::total_cmp);
-            summary.push((format!("{name}_median"), v[v.len() / 2]));
+            summary.push((format!("{name}_median"), crate::robust::median(&mut v)));
         }
     }
     if let Some(ne) = run_neff {

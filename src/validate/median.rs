@@ -374,19 +374,14 @@ mod tests {
         let mut a = [3.0, -1.0, 2.0, 0.5, 7.0];
         assert_eq!(median_small(&mut a), 2.0);
         assert_eq!(a, [-1.0, 0.5, 2.0, 3.0, 7.0]);
-        // other counts against a full sort (numbers from memory-free arithmetic)
+        // other counts against the one median of the crate (crate::robust),
+        // bit for bit
         let mut r = crate::testutil::rng(9);
         for n in 1..=24 {
             let v: Vec<f64> = (0..n)
                 .map(|_| rand::Rng::random_range(&mut r, -5.0..5.0))
                 .collect();
-            let mut s = v.clone();
-            s.sort_by(f64::total_cmp);
-            let want = if n % 2 == 1 {
-                s[n / 2]
-            } else {
-                0.5 * (s[n / 2 - 1] + s[n / 2])
-            };
+            let want = crate::robust::median(&mut v.clone());
             assert_eq!(median_small(&mut v.clone()), want, "n {n}");
         }
     }
@@ -457,18 +452,13 @@ mod tests {
         f.status[[1, 1]] == REPLACED
     }
 
-    /// The paired kernel against a full sort of each component (numpy's
-    /// definition of the median: mean of the two middle values when even).
+    /// The paired kernel against the crate's one median of each component
+    /// (crate::robust, numpy's convention: mean of the two middle values
+    /// when even), bit for bit.
     #[test]
     fn the_paired_network_equals_a_sort_per_component() {
         fn med(mut v: Vec<f64>) -> f64 {
-            v.sort_by(f64::total_cmp);
-            let n = v.len();
-            if n % 2 == 1 {
-                v[n / 2]
-            } else {
-                0.5 * (v[n / 2 - 1] + v[n / 2])
-            }
+            crate::robust::median(&mut v)
         }
         fn r0(c: f64, nb: &[f64], eps: f64) -> f64 {
             let m = med(nb.to_vec());
