@@ -2,7 +2,7 @@
 //!
 //! Owns: `Error` (a kind plus a plain lower-case message) and the context
 //! wrappers that add the file, line and column where the problem is. Does not
-//! own: printing or exit codes (the binary maps `ErrorKind` to CONTRACT.md's
+//! own: printing or exit codes (the binary maps `ErrorKind` to docs/interface.md's
 //! exit status: `Data` -> 1, `Usage` -> 2, `Io` -> 1).
 //!
 //! Invariant: every error that comes from a file names that file; every error
@@ -78,7 +78,7 @@ impl Error {
         }
         self
     }
-    /// The exit status CONTRACT.md gives this kind of error.
+    /// The exit status docs/interface.md gives this kind of error.
     pub fn exit_code(&self) -> i32 {
         match self.kind {
             ErrorKind::Usage => 2,

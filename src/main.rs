@@ -1,5 +1,5 @@
 //! The curlew binary: parses the command line, runs one command, prints
-//! errors with their whole context and maps them to CONTRACT.md's exit
+//! errors with their whole context and maps them to docs/interface.md's exit
 //! status (0 done, 1 the data could not be reduced, 2 the command line or the
 //! pipeline file is wrong).
 

@@ -1,4 +1,4 @@
-//! Analytic flows for the tests of the gradient stage (METHODS.md, derived).
+//! Analytic flows for the tests of the gradient stage (docs/methods.md, derived).
 
 use std::f64::consts::PI;
 

@@ -97,7 +97,7 @@ mod tests {
         // A Lamb-Oseen vortex, peak u_theta = 0.638 Gamma/(2 pi rc)
         // (Saffman 1992) = 0.51 m/s, core radius 4 pitches, in a 0.3 m/s
         // stream; noise 2 % and 5 % of the peak, independent and 50 %-overlap
-        // correlated (top-hat average of white noise, METHODS.md).
+        // correlated (top-hat average of white noise, docs/methods.md).
         let g = Grid {
             nx: 64,
             ny: 48,

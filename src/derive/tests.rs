@@ -47,7 +47,7 @@ const FIXED: [DiffScheme; 5] = [
 
 #[test]
 fn solid_body_rotation_gives_two_omega_everywhere() {
-    // METHODS.md (fact of the trade): omega = 2 Omega, lambda_ci = Omega,
+    // docs/methods.md (fact of the trade): omega = 2 Omega, lambda_ci = Omega,
     // Q = Omega^2, Gamma2 = 1. Every stencil of every chain is exact for a
     // linear field, so this holds at edge nodes too.
     let om = 3.5;
@@ -83,7 +83,7 @@ fn solid_body_rotation_gives_two_omega_everywhere() {
 
 #[test]
 fn gamma2_of_rotation_against_strain_matches_the_angle_average() {
-    // METHODS.md (derived for a linear field, uniform angles): Gamma2 = 2/pi
+    // docs/methods.md (derived for a linear field, uniform angles): Gamma2 = 2/pi
     // at Omega = mu, 0.93422 at Omega = 2 mu. On a disc of nodes the angles
     // are nearly uniform: radius 2 is within 0.3 % and 0.5 %, radius 6
     // within 0.7 % and 0.2 % (derived by summing the disc's nodes).
@@ -112,7 +112,7 @@ fn gamma2_of_rotation_against_strain_matches_the_angle_average() {
 
 #[test]
 fn taylor_green_transfer_functions_at_quarter_pi() {
-    // METHODS.md (derived): at kh = pi/4 the discrete vorticity over the
+    // docs/methods.md (derived): at kh = pi/4 the discrete vorticity over the
     // exact one is sin(kh)/kh = 0.90032 (central), (sin kh + 2 sin 2kh)/(5kh)
     // = 0.68936 (least squares), (8 sin kh - sin 2kh)/(6kh) = 0.98822
     // (Richardson); circulation adds the (1 + cos kh)/2 = 0.85355 of its
@@ -147,7 +147,7 @@ fn taylor_green_transfer_functions_at_quarter_pi() {
 
 #[test]
 fn potential_flow_past_a_cylinder_has_no_vorticity_or_divergence_beyond_truncation() {
-    // Curl and divergence of a potential flow vanish (METHODS.md); the
+    // Curl and divergence of a potential flow vanish (docs/methods.md); the
     // discrete ones are truncation errors: second order (halving h divides
     // them by about 4) and within the stage's own truncation estimate.
     let a = 0.01;
@@ -194,7 +194,7 @@ fn potential_flow_past_a_cylinder_has_no_vorticity_or_divergence_beyond_truncati
 fn lamb_oseen_least_squares_error_is_its_predicted_truncation() {
     // Lamb-Oseen (Saffman 1992), core radius rc = 5 h. The 4-point
     // least-squares stencil's error is (17/30) h^2 (v_xxx - u_yyy) to
-    // leading order (METHODS.md, Raffel et al. 2018 from memory; derived);
+    // leading order (docs/methods.md, Raffel et al. 2018 from memory; derived);
     // the third derivatives come from the analytic field by a fine central
     // difference. The stage's truncation estimate tracks the same error.
     let h = 1e-3;

@@ -16,7 +16,7 @@ type Rng = rand_chacha::ChaCha8Rng;
 /// White noise of standard deviation `sigma` on `(ny, nx)`, or, with
 /// `overlap`, the average of a 2 x 2 top-hat window over white noise scaled
 /// back to `sigma`: adjacent correlation 0.5, two steps 0, diagonal 0.25
-/// (METHODS.md, top-hat model, derived).
+/// (docs/methods.md, top-hat model, derived).
 fn noise(rng: &mut Rng, sh: (usize, usize), sigma: f64, overlap: bool) -> Array2<f64> {
     let n = Normal::new(0.0, 1.0).unwrap();
     let e = Array2::from_shape_fn((sh.0 + 1, sh.1 + 1), |_| n.sample(rng));
@@ -126,7 +126,7 @@ fn propagated_uncertainty_matches_monte_carlo_scatter() {
 
 #[test]
 fn smoothing_then_differencing_propagates_through_the_composite() {
-    // METHODS.md: smoothing followed by differencing is one linear stencil;
+    // docs/methods.md: smoothing followed by differencing is one linear stencil;
     // its variance is the composite's (Stencil::after), not the pieces'
     // taken as independent. A hand-made 3 x 3 smoother (1,2,1)x(1,2,1)/16,
     // then central and 4-point least squares in x; 4000 seeded 1-D-in-x

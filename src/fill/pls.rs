@@ -1,6 +1,6 @@
 //! Penalized least squares on a grid, solved in the DCT basis (Garcia 2010,
 //! Comput. Stat. Data Anal. 54:1167; steps from memory, eigenvalues derived,
-//! as in METHODS.md). One solver serves smoothing (`Smoother::Pls`) and gap
+//! as in docs/methods.md). One solver serves smoothing (`Smoother::Pls`) and gap
 //! filling (`fill::Method::Inpaint`).
 //!
 //! # Method

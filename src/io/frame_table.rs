@@ -1,5 +1,5 @@
 //! The frame table: time and phase of each frame, from a CSV with the
-//! columns `frame` and `time_s` and/or `phase_deg` (CONTRACT.md).
+//! columns `frame` and `time_s` and/or `phase_deg` (docs/interface.md).
 //!
 //! Owns: its column rules: a present column needs a number in every row
 //! (no empty cells: a frame without its phase would silently leave the

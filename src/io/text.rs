@@ -2,7 +2,7 @@
 //! table.
 //!
 //! Owns: splitting lines and cells without allocating per cell, the cell
-//! rules of CONTRACT.md, and the errors that name file, line, column and
+//! rules of docs/interface.md, and the errors that name file, line, column and
 //! value. Does not own: the grid (`grid`), the frame table's columns
 //! (`frame_table`, which uses the same line and cell rules).
 //!

@@ -1,4 +1,4 @@
-//! `[input]` (and `[run.input]`): the CONTRACT keys for formats, column
+//! `[input]` (and `[run.input]`): the docs/interface.md keys for formats, column
 //! names and units, resolved into an `io::InputSpec` with SI factors.
 
 use serde::{Deserialize, Serialize};

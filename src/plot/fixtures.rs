@@ -51,7 +51,7 @@ pub fn grid(nx: usize, ny: usize) -> Grid {
     }
 }
 
-/// An ensemble table of every CONTRACT column for `v` on `g`, with
+/// An ensemble table of every docs/interface.md column for `v` on `g`, with
 /// constant uncertainties `u_unc` (m/s) and `w_unc` (1/s), n samples.
 pub fn ensemble(g: Grid, v: &Vortex, u_unc: f64, w_unc: f64, n: usize) -> NodeTable {
     let mut cols: Vec<Vec<f64>> = vec![Vec::new(); 14];
@@ -81,7 +81,7 @@ pub fn ensemble(g: Grid, v: &Vortex, u_unc: f64, w_unc: f64, n: usize) -> NodeTa
             }
         }
     }
-    // x, y, then the CONTRACT ensemble columns as the statistics stage names them.
+    // x, y, then the docs/interface.md ensemble columns as the statistics stage names them.
     let names: Vec<&str> = ["x", "y"]
         .into_iter()
         .chain(crate::stats::CONTRACT_COLUMNS)

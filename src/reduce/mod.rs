@@ -517,7 +517,7 @@ pub fn mean_noise(frames: &[FrameRecord]) -> Option<f64> {
     (!v.is_empty()).then(|| v.iter().sum::<f64>() / v.len() as f64)
 }
 
-/// Keeps a NodeTable's column order stable for writing: CONTRACT columns
+/// Keeps a NodeTable's column order stable for writing: docs/interface.md columns
 /// first in their order, then the rest as the statistics gave them.
 pub fn node_columns(nt: &NodeTable) -> Vec<&str> {
     nt.columns.iter().map(|(n, _)| n.as_str()).collect()

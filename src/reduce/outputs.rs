@@ -1,6 +1,6 @@
 //! The tables a run writes: ensemble, phase, frames, convergence, the
 //! per-frame fields, and campaign.csv. Column names and order follow
-//! CONTRACT.md; our own columns come after the contract's.
+//! docs/interface.md; our own columns come after the contract's.
 //!
 //! Counting conventions (frames.csv): `n_vectors` is the number of grid
 //! nodes; `n_invalid_input` the vectors missing, empty, NaN or flagged in the
@@ -138,7 +138,7 @@ pub fn write_run_tables(dir: &Path, run: &RunResult) -> Result<()> {
     Ok(())
 }
 
-/// One frame's filled field (CONTRACT per-frame fields): `x, y, u, v,
+/// One frame's filled field (docs/interface.md per-frame fields): `x, y, u, v,
 /// status, omega, omega_unc`; masked nodes have empty u, v, omega.
 pub fn write_frame_field(path: &Path, field: &Field, derived: &Derived) -> Result<()> {
     let g = field.grid;

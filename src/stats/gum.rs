@@ -172,7 +172,7 @@ mod tests {
 
     #[test]
     fn gum_annex_g_worked_example() {
-        // JCGM 100:2008 Annex G, G.4.1 (from memory, values per METHODS.md):
+        // JCGM 100:2008 Annex G, G.4.1 (from memory, values per docs/methods.md):
         // relative uncertainties 0.25 %, 0.57 %, 0.82 % from 10, 5, 15
         // observations (nu = n - 1): u_c = 1.0295 %, nu_eff = 19.0,
         // t_0.975(19) = 2.0930, U_95 = 2.155 %.
@@ -248,7 +248,7 @@ mod tests {
 
     #[test]
     fn monte_carlo_checks_the_statistics_uncertainty_formulas() {
-        // Sciacchitano & Wieneke 2016 (from memory, METHODS.md): N = 100,
+        // Sciacchitano & Wieneke 2016 (from memory, docs/methods.md): N = 100,
         // sigma = 1, rho_uv = 0.5 give u(mean) = 0.1000, u(std) = 0.07107,
         // u(cov) = 0.11237. The formulas must give those values, and the
         // scatter of the statistics over seeded trials must match within 3 %.

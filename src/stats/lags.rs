@@ -4,7 +4,7 @@
 //! Owns: `Lags` (per series, node and lag the sums that give the
 //! autocovariance), `Clock` (is `time_s` uniform?) and `n_eff`.
 //!
-//! Method (common practice; the formula as in METHODS.md, Sciacchitano &
+//! Method (common practice; the formula as in docs/methods.md, Sciacchitano &
 //! Wieneke 2016): with the autocorrelation rho(k) of a node's series,
 //! `N_eff = N / (1 + 2 sum_{k=1..K} (1 - k/N) rho(k))`, where K is the last
 //! lag before the first lag with rho(k) <= 0 (the first zero crossing), and
@@ -398,7 +398,7 @@ mod tests {
 
     #[test]
     fn ar1_with_coefficient_one_half_gives_a_third_of_the_samples() {
-        // Derived (METHODS.md): rho(k) = 0.5^k, 1 + 2 sum rho = 3, so N_eff ~ N/3.
+        // Derived (docs/methods.md): rho(k) = 0.5^k, 1 + 2 sum rho = 3, so N_eff ~ N/3.
         let n = 20_000;
         let xs = ar1(n, 0.5, 21);
         let mut l = Lags::new(50, 1);

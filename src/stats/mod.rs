@@ -12,7 +12,7 @@
 //! fixed chunking, whatever the number of threads). `finish` turns the
 //! accumulated sums into tables.
 //!
-//! What counts as a sample (the rule behind CONTRACT `n_valid`): a node's
+//! What counts as a sample (the rule behind docs/interface.md `n_valid`): a node's
 //! velocity counts in a frame when its status is VALID and u, v are finite;
 //! a derived quantity counts where the node's velocity counts and its value
 //! is finite. With `include_filled` replaced and filled vectors count too
@@ -45,7 +45,7 @@ use moments::Moments;
 
 pub use codec::{FORMAT_MAGIC, FORMAT_VERSION};
 
-/// The CONTRACT `ensemble` columns after x, y, in order; every table of
+/// The docs/interface.md `ensemble` columns after x, y, in order; every table of
 /// `RunStats` (ensemble and each phase bin) starts with them.
 pub const CONTRACT_COLUMNS: [&str; 12] = [
     "n_valid",
@@ -68,7 +68,7 @@ pub const CONTRACT_COLUMNS: [&str; 12] = [
 #[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 #[serde(default)]
 pub struct Params {
-    /// Phase bins (CONTRACT `[phase] bins`), used when frames have phases.
+    /// Phase bins (docs/interface.md `[phase] bins`), used when frames have phases.
     pub phase_bins: usize,
     /// Width of each phase window in degrees, centred on the bin centre;
     /// `None`: the whole bin (360 / bins). Never wider than the spacing.
@@ -463,7 +463,7 @@ pub struct PhaseBin {
 /// The finished statistics of a run.
 #[derive(Debug, Clone)]
 pub struct RunStats {
-    /// Every CONTRACT `ensemble` column (after x, y), then our own.
+    /// Every docs/interface.md `ensemble` column (after x, y), then our own.
     pub ensemble: NodeTable,
     /// Empty when the run has no phases.
     pub phase: Vec<PhaseBin>,

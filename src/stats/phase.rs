@@ -4,7 +4,7 @@
 //! the velocity fluctuation into a coherent (phase-locked) and a stochastic
 //! part. Does not own: the per-bin moments (`moments`), the tables (`table`).
 //!
-//! Binning (CONTRACT): with K bins, bin k holds the frames whose phase,
+//! Binning (docs/interface.md): with K bins, bin k holds the frames whose phase,
 //! taken modulo 360, lies in [k 360/K, (k+1) 360/K); its centre is
 //! (k + 1/2) 360/K. With a window width w < 360/K, a frame is kept only when
 //! its phase lies in [centre - w/2, centre + w/2); the others are counted
@@ -95,7 +95,7 @@ mod tests {
             Binned::NoPhase => -1,
             Binned::Outside => -2,
         };
-        // [0,90) -> 0, [90,180) -> 1 ... ; phases taken modulo 360 (CONTRACT).
+        // [0,90) -> 0, [90,180) -> 1 ... ; phases taken modulo 360 (docs/interface.md).
         assert_eq!(bin(&p, 0.0), 0);
         assert_eq!(bin(&p, 89.999), 0);
         assert_eq!(bin(&p, 90.0), 1);

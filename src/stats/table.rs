@@ -2,7 +2,7 @@
 //! columns with their uncertainties.
 //!
 //! Columns, in order (NN = the coverage in percent, e.g. 95):
-//! CONTRACT: `n_valid, u_mean, v_mean, u_std, v_std, uv_cov, omega_mean,
+//! docs/interface.md: `n_valid, u_mean, v_mean, u_std, v_std, uv_cov, omega_mean,
 //! omega_std, u_mean_unc, v_mean_unc, omega_mean_unc, omega_inst_unc`;
 //! then `n_samples, u_std_unc, v_std_unc, uv_cov_unc, omega_std_unc,
 //! u_mean_unc_pNN, v_mean_unc_pNN, omega_mean_unc_pNN, u_inst_unc,
@@ -37,7 +37,7 @@
 //! - `*_mean_unc_pNN`: expanded uncertainty at coverage NN %, k from
 //!   Student t at the Welch-Satterthwaite nu_eff.
 //! - `*_inst_unc`: RMS over the counted samples of the per-frame standard
-//!   uncertainty (CONTRACT `omega_inst_unc`); `*_bias`: RMS truncation bias.
+//!   uncertainty (docs/interface.md `omega_inst_unc`); `*_bias`: RMS truncation bias.
 //! - N_eff: per node and series (u, v, omega) for time-resolved runs (see
 //!   `lags`); the other derived quantities use omega's, `uv_cov` the smaller
 //!   of u's and v's. Otherwise, and always inside phase bins (one frame per
@@ -244,7 +244,7 @@ pub(super) fn node_table(
     };
     let sfx = &c.suffix;
     let mut t = NodeTable::new(c.grid);
-    // CONTRACT columns, in order.
+    // docs/interface.md columns, in order.
     t.push("n_valid", m.n_valid.clone());
     t.push("u_mean", col(&fu, &|f| f.st.mean));
     t.push("v_mean", col(&fv, &|f| f.st.mean));

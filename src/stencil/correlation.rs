@@ -4,7 +4,7 @@
 //! Owns: `Correlation` (the error-correlation model) and `variance_at`.
 //! Does not own: where the per-vector uncertainties come from (`derive`).
 //!
-//! Model (METHODS.md; Sciacchitano & Wieneke 2016, from memory): PIV vectors
+//! Model (docs/methods.md; Sciacchitano & Wieneke 2016, from memory): PIV vectors
 //! come from overlapping interrogation windows, so neighbouring errors are
 //! correlated. A top-hat window of width `W` grid steps averaging white
 //! noise gives, per axis, `rho(d) = max(0, 1 - d/W)` (derived), and for a
@@ -133,7 +133,7 @@ mod tests {
 
     #[test]
     fn top_hat_overlap_gives_the_methods_correlations() {
-        // METHODS.md (derived): 50 % overlap -> 0.5 and 0 at two steps;
+        // docs/methods.md (derived): 50 % overlap -> 0.5 and 0 at two steps;
         // 75 % overlap -> 0.75 and 0.5.
         let h = Correlation::Window(0.5);
         assert_close(h.rho(0, 1), 0.5, 1e-15, 0.0, "50% one step");
@@ -147,7 +147,7 @@ mod tests {
 
     #[test]
     fn central_vorticity_with_overlap_matches_the_closed_form() {
-        // METHODS.md (derived): central-difference vorticity, uniform U,
+        // docs/methods.md (derived): central-difference vorticity, uniform U,
         // Dx = Dy: U_omega = (U/Dx) sqrt(1 - rho(2 Dx)).
         for c in [0.0, 0.5, 0.75] {
             let corr = Correlation::Window(c);

@@ -7,7 +7,7 @@
 //! of `auto` (`derive`).
 //!
 //! Schemes along one axis, pitch h (Raffel et al. 2018, from memory;
-//! truncation and noise factors derived, METHODS.md):
+//! truncation and noise factors derived, docs/methods.md):
 //!
 //! | scheme | weights (x h) | truncation | noise factor |
 //! |---|---|---|---|
@@ -23,7 +23,7 @@
 //! with the trapezoidal rule is, term by term, the central difference of v
 //! in x weighted (1, 2, 1)/4 over the three rows, minus the same for u in
 //! y; so it is a pair of derivative stencils like every other scheme, and
-//! its vorticity noise factor sqrt(2 * 3/16) = 0.612 (METHODS.md).
+//! its vorticity noise factor sqrt(2 * 3/16) = 0.612 (docs/methods.md).
 //!
 //! Edge and mask treatment: a node uses the first stencil of its scheme's
 //! chain whose taps all land on nodes that carry a value. Chains narrow
@@ -200,7 +200,7 @@ mod tests {
     fn noise_factors_equal_the_methods_table() {
         // Raffel et al. 2018, textbook table (from memory); the derived
         // values are exact: sqrt(1/2), sqrt(130)/12, sqrt(10)/10, and for
-        // vorticity x sqrt(2); circulation sqrt(3/8) (METHODS.md).
+        // vorticity x sqrt(2); circulation sqrt(3/8) (docs/methods.md).
         let h = 1.0;
         let c = central(Axis::X, h).noise_factor();
         let r = richardson(Axis::X, h).noise_factor();
@@ -258,7 +258,7 @@ mod tests {
     #[test]
     fn truncation_coefficients_equal_the_taylor_moments() {
         // Leading truncation = moment(3)/3! h^2 f''' (common practice):
-        // central 1/6, 4-point least squares 17/30 (METHODS.md), one-sided
+        // central 1/6, 4-point least squares 17/30 (docs/methods.md), one-sided
         // 2nd order -1/3 (derived); Richardson's moment 3 vanishes and its
         // moment 5 / 5! = -1/30 (derived).
         let m3 = |s: Stencil| s.moment(3, 0) / 6.0;

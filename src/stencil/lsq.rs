@@ -241,7 +241,7 @@ mod tests {
 
     #[test]
     fn window_5_order_1_is_the_four_point_least_squares_stencil() {
-        // Raffel et al. 2018 (from memory; METHODS.md): (2f2 + f1 - f-1 - 2f-2)/(10h).
+        // Raffel et al. 2018 (from memory; docs/methods.md): (2f2 + f1 - f-1 - 2f-2)/(10h).
         let st = savgol_derivative(5, 1).unwrap();
         let w: Vec<(i32, f64)> = st.taps.iter().map(|t| (t.di, t.w)).collect();
         for ((o, got), want) in w.iter().zip([(-2, -0.2), (-1, -0.1), (1, 0.1), (2, 0.2)]) {

@@ -102,7 +102,7 @@ impl Stencil {
 
     /// The noise factor `sqrt(sum w_k^2)`: the standard deviation of the
     /// stencil's output for independent unit-variance errors at its taps
-    /// (GUM eq. 13 with rho = 0; METHODS.md). 0 for an empty stencil.
+    /// (GUM eq. 13 with rho = 0; docs/methods.md). 0 for an empty stencil.
     pub fn noise_factor(&self) -> f64 {
         self.taps.iter().map(|t| t.w * t.w).sum::<f64>().sqrt()
     }

@@ -28,7 +28,7 @@ impl std::ops::Add for Sample {
 
 /// Radius of the peak swirl of a Lamb–Oseen vortex, in core radii, and the
 /// peak swirl in units of `gamma / (2 pi rc)` (Saffman, *Vortex Dynamics*,
-/// 1992, §1.3; also METHODS.md).
+/// 1992, §1.3; also docs/methods.md).
 pub const LAMB_OSEEN_PEAK_RADIUS: f64 = 1.120_906_4;
 pub const LAMB_OSEEN_PEAK_SWIRL: f64 = 0.638_172_7;
 
@@ -105,7 +105,7 @@ pub fn cylinder(x: f64, y: f64, xc: f64, yc: f64, radius: f64, u_inf: f64) -> Op
 }
 
 /// The decaying Taylor–Green vortex array (Taylor & Green 1937, Proc. R.
-/// Soc. A 158:499; an exact Navier–Stokes solution), in METHODS.md's
+/// Soc. A 158:499; an exact Navier–Stokes solution), in docs/methods.md's
 /// convention: `u = U sin(kx) cos(ky) F`, `v = -U cos(kx) sin(ky) F`,
 /// `omega = 2 U k sin(kx) sin(ky) F`, with `F = exp(-2 nu k² t)`.
 /// `nu = 0` or `t = 0` gives the steady array.

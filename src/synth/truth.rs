@@ -193,7 +193,7 @@ impl TruthStats {
 }
 
 /// The bin of a phase in degrees: bin k holds [k 360/K, (k+1) 360/K)
-/// (CONTRACT.md), after taking the phase modulo 360.
+/// (docs/interface.md), after taking the phase modulo 360.
 pub fn phase_bin(phase_deg: f64, bins: usize) -> usize {
     let p = phase_deg.rem_euclid(360.0);
     ((p / 360.0 * bins as f64).floor() as usize).min(bins - 1)

@@ -1,5 +1,5 @@
 //! The normalized median test (Westerweel & Scarano 2005, Exp. Fluids
-//! 39:1096; formula as in METHODS.md).
+//! 39:1096; formula as in docs/methods.md).
 //!
 //! # Method
 //!
@@ -15,7 +15,7 @@
 //! With an even count the median is the mean of the two middle values.
 //! The components combine by `Combine`: `Either` (the default) rejects when
 //! r0 of u or of v exceeds the threshold, the per-component reading of the
-//! test as written in METHODS.md (from memory, the paper applies it per
+//! test as written in docs/methods.md (from memory, the paper applies it per
 //! component); `Magnitude` rejects when sqrt(r0u^2 + r0v^2) exceeds it.
 //! Since sqrt(r0u^2 + r0v^2) >= max(r0u, r0v), `Magnitude` rejects every
 //! vector `Either` rejects and more (a vector moderately off in both
@@ -358,7 +358,7 @@ mod tests {
         }
     }
 
-    /// METHODS.md check values (derived): neighbours 1..8, eps 0.1:
+    /// docs/methods.md check values (derived): neighbours 1..8, eps 0.1:
     /// Um = 4.5, rm = 2.0; U0 = 9.0 gives r0 = 2.142857, U0 = 8.5 gives
     /// 1.904762; eight equal neighbours 1.0 and U0 = 1.5 give r0 = 5.
     /// The 0-1 principle (Knuth, TAOCP vol. 3, 5.3.4): a comparator network
@@ -422,7 +422,7 @@ mod tests {
         );
     }
 
-    /// A 3x3 field whose centre has the METHODS.md neighbourhood in u (and
+    /// A 3x3 field whose centre has the docs/methods.md neighbourhood in u (and
     /// a constant v), judged with both combination rules.
     fn centre_case(u0: f64, v_nb: [f64; 8], v0: f64, combine: Combine) -> bool {
         let mut f = Field::from_fn(grid(3, 3), |_, _| (0.0, 0.0));

@@ -1,4 +1,4 @@
-//! Bad input: each case exits as CONTRACT.md says, names the file (and line
+//! Bad input: each case exits as docs/interface.md says, names the file (and line
 //! where there is one), and leaves an earlier good output folder untouched.
 
 use crate::util::*;

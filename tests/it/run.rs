@@ -71,7 +71,7 @@ fn every_contract_output_is_written_and_solid_body_vorticity_is_two_omega() {
     assert_eq!(
         &e.header[..14],
         &CONTRACT_ENSEMBLE,
-        "CONTRACT ensemble columns first, in order"
+        "the interface's ensemble columns first, in order (docs/interface.md)"
     );
     assert_eq!(e.rows.len(), G1.nx * G1.ny);
     // Every node valid in every frame of a clean analytic field.

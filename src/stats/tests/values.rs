@@ -236,7 +236,7 @@ fn phase_bins_reproduce_the_analytic_bin_means_and_the_parts_add_back() {
 #[test]
 fn time_resolved_runs_get_n_eff_from_the_autocorrelation() {
     // AR(1) with coefficient 0.5 at every node: N_eff ~ N/3 (derived,
-    // METHODS.md); the uncertainty of the mean uses it.
+    // docs/methods.md); the uncertainty of the mean uses it.
     let g = grid(2, 1);
     let n = 3000;
     let mut r = rng(47);
