@@ -96,7 +96,12 @@ pub struct Params {
     /// The schemes `auto` chooses from, in tie-breaking order.
     pub candidates: Vec<DiffScheme>,
     pub velocity_noise: VelocityNoise,
+    /// The error-correlation model when given; see `correlation_from_data`.
     pub correlation: Correlation,
+    /// Estimate the correlation from each frame (`noise::estimate_overlap`,
+    /// the default) instead of using `correlation`; the plan clears it when
+    /// the user gives a correlation (a user setting wins).
+    pub correlation_from_data: bool,
     /// The smoother (resolved by the smoothing section).
     #[serde(skip)]
     pub smoother: Smoother,
@@ -136,6 +141,7 @@ impl Default for Params {
             ],
             velocity_noise: VelocityNoise::Estimate,
             correlation: Correlation::Independent,
+            correlation_from_data: true,
             smoother: Smoother::None,
             quantities: quantities::ALL[1..].iter().map(|(n, _)| *n).collect(),
             gamma_radius: 2,
@@ -175,6 +181,9 @@ pub struct Derived {
     pub noise_estimate: Option<f64>,
     /// The noise level used for valid vectors (m/s; NaN when unknown).
     pub noise_used: f64,
+    /// The error-correlation model used (given, or estimated from this
+    /// frame; the given one when the estimate could not be made).
+    pub correlation: Correlation,
     /// The scheme at each node as an index into `scheme_names`
     /// (`u8::MAX` where no derivative was taken).
     pub scheme_map: Array2<u8>,
@@ -269,7 +278,12 @@ pub fn derive(p: &Params, field: &Field) -> Derived {
         .and(&field.u)
         .and(&field.v)
         .map_collect(|&s, u, v| s != MASKED && u.is_finite() && v.is_finite());
-    let noise_estimate = noise::estimate(field, &p.correlation);
+    let corr = if p.correlation_from_data {
+        noise::estimate_overlap(field).map_or(p.correlation, noise::overlap_model)
+    } else {
+        p.correlation
+    };
+    let noise_estimate = noise::estimate(field, &corr);
     let (sig_u, sig_v, level, sigma_fallback_nodes) =
         per_vector_sigma(p, field, &ok, noise_estimate);
     let masked = |a: &Array2<f64>| {
@@ -297,7 +311,7 @@ pub fn derive(p: &Params, field: &Field) -> Derived {
         Some(s) => {
             let us = masked(&p.smoother.apply(&u, &ok).as_standard_layout().to_owned());
             let vs = masked(&p.smoother.apply(&v, &ok).as_standard_layout().to_owned());
-            let gain = p.correlation.gain(s);
+            let gain = corr.gain(s);
             let mut uu = Array2::from_elem(sh, f64::NAN);
             let mut vu = Array2::from_elem(sh, f64::NAN);
             for ((j, i), &o) in ok.indexed_iter() {
@@ -309,14 +323,14 @@ pub fn derive(p: &Params, field: &Field) -> Derived {
                 } else {
                     match restricted(s, &ok, j, i) {
                         Some(r) => {
-                            let g = p.correlation.gain(&r);
+                            let g = corr.gain(&r);
                             (r, g)
                         }
                         None => continue,
                     }
                 };
-                uu[[j, i]] = p.correlation.variance_at(&st, g, &sig_u, j, i).sqrt();
-                vu[[j, i]] = p.correlation.variance_at(&st, g, &sig_v, j, i).sqrt();
+                uu[[j, i]] = corr.variance_at(&st, g, &sig_u, j, i).sqrt();
+                vu[[j, i]] = corr.variance_at(&st, g, &sig_v, j, i).sqrt();
             }
             Some([us, vs, uu, vu])
         }
@@ -356,7 +370,7 @@ pub fn derive(p: &Params, field: &Field) -> Derived {
         v: &v,
         sig_u: &sig_u,
         sig_v: &sig_v,
-        corr: p.correlation,
+        corr,
         smoother: smoother.as_ref(),
         not_plain: &not_plain,
         not_ok: &not_ok,
@@ -476,6 +490,7 @@ pub fn derive(p: &Params, field: &Field) -> Derived {
         quantities: out,
         noise_estimate,
         noise_used: level,
+        correlation: corr,
         scheme_map,
         scheme_names: schemes.iter().map(|s| s.name()).collect(),
         scheme_counts,

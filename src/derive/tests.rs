@@ -488,6 +488,7 @@ fn edge_caches_do_not_mix_correlation_models() {
     ] {
         let p = Params {
             correlation: corr,
+            correlation_from_data: false,
             ..params(LS, s)
         };
         let d = derive(&p, &fld);

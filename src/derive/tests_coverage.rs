@@ -94,6 +94,7 @@ fn propagated_uncertainty_matches_monte_carlo_scatter() {
             } else {
                 Correlation::Independent
             },
+            correlation_from_data: false,
             quantities: vec!["div"],
             truncation: false,
             ..Params::default()

@@ -46,7 +46,8 @@ pub struct RawUncertainty {
     /// (sigma_u, sigma_v of the input) | a number in m/s.
     pub velocity_noise: Option<toml::Value>,
     /// Correlation coefficient of the errors of adjacent vectors, 0 to
-    /// below 1 (default 0). Farther vectors follow the model below.
+    /// below 1 (default: estimated from each frame's data under the window
+    /// model). Farther vectors follow the model below.
     pub neighbour_correlation: Option<f64>,
     /// The overlap of the interrogation windows as a fraction (0.5 for
     /// 50 %); under the top-hat window model it equals the adjacent
@@ -169,6 +170,9 @@ pub fn resolve_derive(
             )))
         }
     };
+    // Without either key the correlation is estimated from each frame
+    // (`derive::noise::estimate_overlap`); a given value wins.
+    p.correlation_from_data = u.neighbour_correlation.is_none() && u.window_overlap.is_none();
     let c = match (u.neighbour_correlation, u.window_overlap) {
         (Some(_), Some(_)) => {
             return Err(Error::usage(
@@ -239,6 +243,9 @@ mod tests {
         );
         assert_eq!(p.velocity_noise, VelocityNoise::Estimate);
         assert_eq!(p.correlation, Correlation::Independent);
+        assert!(p.correlation_from_data);
+        let given = parse("", "neighbour_correlation = 0.0").unwrap();
+        assert!(!given.correlation_from_data, "a given correlation wins");
     }
 
     #[test]
