@@ -7,6 +7,7 @@
 //! truth. The binary (`src/main.rs`, `src/cli/`) only parses arguments and
 //! maps errors to exit codes.
 
+pub mod budget;
 pub mod compare;
 pub mod derive;
 pub mod error;

@@ -476,3 +476,12 @@ pub struct RunStats {
     pub summary: Vec<(String, f64)>,
     pub warnings: Vec<String>,
 }
+
+/// The phase bin a frame of phase `phase_deg` falls in under `p`'s binning
+/// (`None`: no phase, or outside every window).
+pub fn phase_bin(p: &Params, phase_deg: Option<f64>) -> Option<usize> {
+    match phase::bin_of(p, phase_deg) {
+        phase::Binned::Bin(b) => Some(b),
+        _ => None,
+    }
+}

@@ -11,6 +11,7 @@
 pub mod correlation;
 pub mod derivatives;
 pub mod lsq;
+pub mod second;
 pub mod smooth;
 
 use ndarray::Array2;

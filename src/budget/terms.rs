@@ -1,0 +1,318 @@
+//! The terms of the budget per slice (phase bin or kept frame) and node,
+//! with propagated standard uncertainties.
+//!
+//! Owns: turning `BudgetAcc` into `Budget`. Does not own: accumulation
+//! (`acc`), stencils (`ops`), files (`reduce::outputs`).
+//!
+//! Terms (`TERMS`, as they appear in the equation; docs/budget.md):
+//! `unsteady + advection = stretching + diffusion + turbulent + (what the
+//! plane cannot see)`, so `residual = unsteady + advection - stretching -
+//! diffusion - turbulent`.
+//! - unsteady: phase runs, the periodic central difference of the bin means
+//!   over phase, `(W[k+1] - W[k-1]) K f / 2` (K bins, f in Hz); time-resolved
+//!   runs, `(w[n+1] - w[n-1]) / (t[n+1] - t[n-1])`.
+//! - advection `U dW/dx + V dW/dy`; stretching `W dw/dz = -W (dU/dx + dV/dy)`;
+//!   diffusion `nu lap(W)`; all from the same bin means (or frame values).
+//! - turbulent `-(d/dx <u''w''> + d/dy <v''w''>)`, the co-moments of the
+//!   bin (sample covariances), differentiated with the first-derivative
+//!   stencil. Time-resolved slices have no such term (NaN).
+//!
+//! Uncertainty (GUM, JCGM 100:2008 §5.2, first-order propagation):
+//! - phase runs: the covariance of the seven bin means is `C / (n (n-1))`
+//!   (type A, from the scatter over the bin's frames: measurement noise,
+//!   turbulence and the spatial correlation of both are in it, exactly, at
+//!   one node); advection, stretching, diffusion and their sum in the
+//!   residual use the full 7 x 7 covariance (their correlation is carried).
+//!   The unsteady term uses other bins (other frames): independent. The
+//!   turbulent term's co-moment has variance `(s_u² s_w² + c²) / (n - 1)`
+//!   (normal fluctuations; Bendat & Piersol 2010, *Random Data*, §4.6, from
+//!   memory), and the covariance of the co-moments at neighbouring nodes,
+//!   and of the turbulent term with the others, is neglected.
+//! - time-resolved slices: `sigma_u² G_u + sigma_v² G_v`, the noise Gram
+//!   matrices of the composite stencils (`ops`) times the node's velocity
+//!   variances (taken as uniform over the stencil's reach).
+//!
+//! Nodes without two samples in the bin, or without every tap, get NaN.
+
+use super::acc::{BinSums, BudgetAcc, Slice};
+use super::ops::{apply, tri, F_DIV, F_LAP, F_U, F_V, F_W, F_WX, F_WY, NF, NT};
+use crate::field::Grid;
+use ndarray::Array2;
+
+/// Term names, in column order.
+pub const TERMS: [&str; 5] = [
+    "unsteady",
+    "advection",
+    "stretching",
+    "diffusion",
+    "turbulent",
+];
+/// Signs of the terms in the residual.
+pub const SIGNS: [f64; 5] = [1.0, 1.0, -1.0, -1.0, -1.0];
+
+/// What a slice is.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum SliceKind {
+    /// Phase bin `bin` centred on `centre_deg`.
+    Bin { bin: usize, centre_deg: f64 },
+    /// Frame `index` at `time_s`.
+    Frame { index: u64, time_s: f64 },
+}
+
+/// The budget of one slice, per node (row-major).
+#[derive(Debug, Clone)]
+pub struct SliceBudget {
+    pub kind: SliceKind,
+    /// Samples per node (1 for a frame).
+    pub n: Vec<f64>,
+    pub u: Vec<f64>,
+    pub v: Vec<f64>,
+    pub omega: Vec<f64>,
+    /// Per term (`TERMS` order): value and standard uncertainty.
+    pub value: [Vec<f64>; 5],
+    pub unc: [Vec<f64>; 5],
+    pub residual: Vec<f64>,
+    pub residual_unc: Vec<f64>,
+}
+
+/// The budget of a run.
+#[derive(Debug, Clone)]
+pub struct Budget {
+    pub grid: Grid,
+    pub slices: Vec<SliceBudget>,
+    /// Coverage factor of the significance test.
+    pub k: f64,
+    pub warnings: Vec<String>,
+}
+
+impl SliceBudget {
+    fn empty(kind: SliceKind, nodes: usize) -> Self {
+        let nan = || vec![f64::NAN; nodes];
+        SliceBudget {
+            kind,
+            n: vec![0.0; nodes],
+            u: nan(),
+            v: nan(),
+            omega: nan(),
+            value: std::array::from_fn(|_| nan()),
+            unc: std::array::from_fn(|_| nan()),
+            residual: nan(),
+            residual_unc: nan(),
+        }
+    }
+
+    /// Is the residual larger than `k` times its uncertainty at node `i`?
+    pub fn significant(&self, i: usize, k: f64) -> bool {
+        self.residual[i].abs() > k * self.residual_unc[i]
+    }
+}
+
+/// `J^T S J` for a packed symmetric `S`.
+fn quad(j: &[f64; NF], s: &[f64]) -> f64 {
+    let mut q = 0.0;
+    for a in 0..NF {
+        for b in 0..NF {
+            q += j[a] * j[b] * s[tri(a, b)];
+        }
+    }
+    q
+}
+
+/// Advection, stretching, diffusion at a node from the field means `m` and
+/// their covariance `s`: values, variances, and the variance of their
+/// signed sum in the residual.
+fn local(m: &[f64], s: &[f64], nu: f64) -> ([f64; 3], [f64; 3], f64) {
+    let mut ja = [0.0; NF];
+    ja[F_U] = m[F_WX];
+    ja[F_V] = m[F_WY];
+    ja[F_WX] = m[F_U];
+    ja[F_WY] = m[F_V];
+    let mut js = [0.0; NF];
+    js[F_W] = -m[F_DIV];
+    js[F_DIV] = -m[F_W];
+    let mut jd = [0.0; NF];
+    jd[F_LAP] = nu;
+    let jr: [f64; NF] = std::array::from_fn(|f| ja[f] - js[f] - jd[f]);
+    (
+        [
+            m[F_U] * m[F_WX] + m[F_V] * m[F_WY],
+            -m[F_W] * m[F_DIV],
+            nu * m[F_LAP],
+        ],
+        [quad(&ja, s), quad(&js, s), quad(&jd, s)],
+        quad(&jr, s),
+    )
+}
+
+/// Fills advection, stretching, diffusion and the residual of node `k`,
+/// given the unsteady and turbulent values and variances already there.
+fn close(out: &mut SliceBudget, k: usize, m: &[f64], s: &[f64], nu: f64, var: [f64; 2]) {
+    let (val, vars, var_r) = local(m, s, nu);
+    out.u[k] = m[F_U];
+    out.v[k] = m[F_V];
+    out.omega[k] = m[F_W];
+    for t in 0..3 {
+        out.value[t + 1][k] = val[t];
+        out.unc[t + 1][k] = vars[t].max(0.0).sqrt();
+    }
+    let turb = out.value[4][k];
+    let turb = if turb.is_nan() && var[1] == 0.0 {
+        0.0
+    } else {
+        turb
+    };
+    out.residual[k] = out.value[0][k] + val[0] - val[1] - val[2] - turb;
+    out.residual_unc[k] = (var[0] + var_r + var[1]).max(0.0).sqrt();
+}
+
+/// The finished budget. `nu` (m²/s) and `freq` (Hz) may be missing: the
+/// terms that need them, and the residual, are then NaN.
+pub fn finish(acc: &BudgetAcc, nu: Option<f64>, freq: Option<f64>) -> Budget {
+    let nodes = acc.grid.len();
+    let nu = nu.unwrap_or(f64::NAN);
+    let mut slices = Vec::new();
+    let kb = acc.bins.len();
+    for (b, bin) in acc.bins.iter().enumerate() {
+        let Some(bin) = bin else { continue };
+        let kind = SliceKind::Bin {
+            bin: b,
+            centre_deg: (b as f64 + 0.5) * 360.0 / kb as f64,
+        };
+        let prev = acc.bins[(b + kb - 1) % kb].as_ref().filter(|_| kb >= 3);
+        let next = acc.bins[(b + 1) % kb].as_ref().filter(|_| kb >= 3);
+        let rate = freq.map_or(f64::NAN, |f| kb as f64 * f / 2.0);
+        slices.push(phase_slice(acc, kind, bin, prev.zip(next), rate, nu));
+    }
+    for (i, s) in acc.slices.iter().enumerate() {
+        if !acc.params.frames.contains(&s.index) {
+            continue;
+        }
+        let prev = i.checked_sub(1).map(|p| &acc.slices[p]);
+        let next = acc.slices.get(i + 1);
+        let pair = prev
+            .zip(next)
+            .filter(|(p, q)| p.index + 1 == s.index && q.index == s.index + 1);
+        slices.push(frame_slice(acc, s, pair, nu));
+    }
+    let mut warnings = Vec::new();
+    for &f in &acc.params.frames {
+        if !acc.slices.iter().any(|s| s.index == f) {
+            warnings.push(format!(
+                "budget: frame {f} was not reduced (rejected or beyond the run); no budget for it"
+            ));
+        }
+    }
+    debug_assert!(slices.iter().all(|s| s.n.len() == nodes));
+    Budget {
+        grid: acc.grid,
+        slices,
+        k: acc.params.k,
+        warnings,
+    }
+}
+
+/// A phase bin's budget; `nb` the neighbouring bins, `rate` = K f / 2.
+fn phase_slice(
+    acc: &BudgetAcc,
+    kind: SliceKind,
+    s: &BinSums,
+    nb: Option<(&BinSums, &BinSums)>,
+    rate: f64,
+    nu: f64,
+) -> SliceBudget {
+    let g = acc.grid;
+    let nodes = g.len();
+    let mut out = SliceBudget::empty(kind, nodes);
+    out.n.clone_from(&s.n);
+    // co-moments <u''w''>, <v''w''> and their variances
+    let mut cu = Array2::from_elem(g.shape(), f64::NAN);
+    let mut cv = cu.clone();
+    let (mut vu, mut vv) = (cu.clone(), cu.clone());
+    for k in 0..nodes {
+        let n = s.n[k];
+        if n < 2.0 {
+            continue;
+        }
+        let c = &s.cm[k * NT..(k + 1) * NT];
+        let (j, i) = (k / g.nx, k % g.nx);
+        let var = |a: usize| c[tri(a, a)] / (n - 1.0);
+        cu[[j, i]] = c[tri(F_U, F_W)] / (n - 1.0);
+        cv[[j, i]] = c[tri(F_V, F_W)] / (n - 1.0);
+        vu[[j, i]] = (var(F_U) * var(F_W) + cu[[j, i]].powi(2)) / (n - 1.0);
+        vv[[j, i]] = (var(F_V) * var(F_W) + cv[[j, i]].powi(2)) / (n - 1.0);
+    }
+    let dx2 = squared(&acc.ops.dx);
+    let dy2 = squared(&acc.ops.dy);
+    for k in 0..nodes {
+        let n = s.n[k];
+        if n < 2.0 {
+            continue;
+        }
+        let (j, i) = (k / g.nx, k % g.nx);
+        let m = &s.mean[k * NF..(k + 1) * NF];
+        let cov: Vec<f64> = s.cm[k * NT..(k + 1) * NT]
+            .iter()
+            .map(|c| c / (n * (n - 1.0)))
+            .collect();
+        let mut var_unst = f64::NAN;
+        if let Some((p, q)) = nb {
+            if p.n[k] >= 2.0 && q.n[k] >= 2.0 {
+                let vw = |b: &BinSums| b.cm[k * NT + tri(F_W, F_W)] / (b.n[k] * (b.n[k] - 1.0));
+                out.value[0][k] = (q.mean[k * NF + F_W] - p.mean[k * NF + F_W]) * rate;
+                var_unst = rate * rate * (vw(p) + vw(q));
+                out.unc[0][k] = var_unst.sqrt();
+            }
+        }
+        let t = -(apply(&acc.ops.dx, &cu, j, i) + apply(&acc.ops.dy, &cv, j, i));
+        let var_t = apply(&dx2, &vu, j, i) + apply(&dy2, &vv, j, i);
+        out.value[4][k] = t;
+        out.unc[4][k] = var_t.sqrt();
+        close(&mut out, k, m, &cov, nu, [var_unst, var_t]);
+    }
+    out
+}
+
+/// The stencil with squared weights (the variance of its output for
+/// independent inputs of given variances).
+fn squared(s: &crate::stencil::Stencil) -> crate::stencil::Stencil {
+    crate::stencil::Stencil {
+        taps: s
+            .taps
+            .iter()
+            .map(|t| crate::stencil::Tap { w: t.w * t.w, ..*t })
+            .collect(),
+    }
+}
+
+/// A kept frame's budget; `pair` its neighbouring frames.
+fn frame_slice(acc: &BudgetAcc, s: &Slice, pair: Option<(&Slice, &Slice)>, nu: f64) -> SliceBudget {
+    let nodes = acc.grid.len();
+    let kind = SliceKind::Frame {
+        index: s.index,
+        time_s: s.time_s,
+    };
+    let mut out = SliceBudget::empty(kind, nodes);
+    let (gu, gv) = (&acc.ops.gram_u, &acc.ops.gram_v);
+    let var_w =
+        |x: &Slice, k: usize| x.var_u[k] * gu[tri(F_W, F_W)] + x.var_v[k] * gv[tri(F_W, F_W)];
+    for k in 0..nodes {
+        let m: [f64; NF] = std::array::from_fn(|f| s.fields[f * nodes + k]);
+        if m.iter().any(|x| !x.is_finite()) {
+            continue;
+        }
+        out.n[k] = 1.0;
+        let cov: Vec<f64> = (0..NT)
+            .map(|t| s.var_u[k] * gu[t] + s.var_v[k] * gv[t])
+            .collect();
+        let mut var_unst = f64::NAN;
+        if let Some((p, q)) = pair {
+            let dt = q.time_s - p.time_s;
+            let (wp, wq) = (p.fields[F_W * nodes + k], q.fields[F_W * nodes + k]);
+            out.value[0][k] = (wq - wp) / dt;
+            var_unst = (var_w(p, k) + var_w(q, k)) / (dt * dt);
+            out.unc[0][k] = var_unst.sqrt();
+        }
+        close(&mut out, k, &m, &cov, nu, [var_unst, 0.0]);
+    }
+    out
+}
