@@ -52,6 +52,19 @@ pub struct Args {
     /// as overlapping interrogation windows make it; written into the pipeline.
     #[arg(long, default_value_t = 0.0)]
     pub noise_correlation: f64,
+    /// Overlap of the interrogation windows whose averaging correlates the noise
+    /// (0, 0.5 or 0.75: each error is the mean over a window of 1/(1-overlap)
+    /// sub-cells per axis). Not with --noise-correlation.
+    #[arg(long, default_value_t = 0.0)]
+    pub noise_overlap: f64,
+    /// AR(1) coefficient of the noise from frame to frame (0 to below 1), as a
+    /// time-resolved camera sees it.
+    #[arg(long, default_value_t = 0.0)]
+    pub noise_memory: f64,
+    /// Core radius of the vortex scenario in grid pitches (default: an eighth
+    /// of the domain height).
+    #[arg(long)]
+    pub core_pitches: Option<f64>,
     /// Fraction of vectors per frame replaced by random vectors.
     #[arg(long, default_value_t = 0.03)]
     pub outliers: f64,
@@ -167,6 +180,10 @@ pub fn run(args: Args) -> Result<()> {
         frame_rate: args.frame_rate,
         noise_px: args.noise_px,
         noise_correlation: args.noise_correlation,
+        noise_window: curlew::synth::noise::window_of_overlap(args.noise_overlap)?,
+        noise_memory: args.noise_memory,
+        core_pitches: args.core_pitches,
+        pulse: None,
         outlier_fraction: args.outliers,
         outlier_scale: args.outlier_scale,
         gap_fraction: args.gaps,

@@ -11,7 +11,9 @@
 //! - noise: `u + N(0, sigma)`, `v + N(0, sigma)` with `sigma = noise_px`
 //!   pixels of displacement in m/s; independent between nodes, or, with
 //!   `noise_correlation = rho > 0`, correlated between neighbours (see
-//!   `correlated_noise`; drawn from a second stream of the frame);
+//!   `correlated_noise`; drawn from a second stream of the frame), or
+//!   with `noise_window` or `noise_memory` made by `noise::noise_fields`
+//!   (window-averaged in space, AR(1) in time);
 //! - outlier: a vector of uniform random direction and magnitude uniform
 //!   in `[0.5, outlier_scale] * max(|u_true|, 0.1 speed)`; it is written
 //!   like any other vector (nothing in the file marks it);
@@ -115,8 +117,12 @@ pub fn corrupt(
     };
     let sigma = setup.noise_sigma;
     let floor = 0.1 * setup.speed;
-    let corr = (opts.noise_correlation > 0.0)
-        .then(|| correlated_noise(opts.seed, run, frame, ny, nx, opts.noise_correlation));
+    let corr = if super::noise::structured(opts) {
+        Some(super::noise::noise_fields(opts, run, frame, ny, nx))
+    } else {
+        (opts.noise_correlation > 0.0)
+            .then(|| correlated_noise(opts.seed, run, frame, ny, nx, opts.noise_correlation))
+    };
     let noise = |rng: &mut ChaCha8Rng, j: usize, i: usize| -> (f64, f64) {
         match &corr {
             None => (StandardNormal.sample(rng), StandardNormal.sample(rng)),

@@ -19,6 +19,14 @@
 //! - `cylinder`: potential flow past a cylinder of diameter `D` at the
 //!   domain centre; nodes inside the body are absent from the files.
 //! - `taylor-green`: the decaying Taylor–Green array in water.
+//! - `uniform`: a uniform stream at 20 degrees to x (no gradients: any
+//!   derived value is pure error).
+//!
+//! Options for the coverage study (`coverage`): the vortex's core radius in
+//! grid pitches (`core_pitches`), a pulsing vortex with phases (`pulse`),
+//! window-averaged noise of overlapping interrogation windows
+//! (`noise_window`) and noise correlated in time (`noise_memory`); see
+//! `noise`.
 //!
 //! # Acquisition
 //!
@@ -70,6 +78,7 @@
 pub mod corrupt;
 pub mod flows;
 pub mod gradients;
+pub mod noise;
 pub mod numfmt;
 pub mod options;
 pub mod pipeline;

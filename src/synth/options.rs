@@ -16,11 +16,19 @@ pub enum Scenario {
     SolidBody,
     Cylinder,
     TaylorGreen,
+    /// A uniform stream (no gradients at all): the speed at 20 degrees to x.
+    Uniform,
 }
 
 impl Scenario {
-    pub const NAMES: [&'static str; 5] =
-        ["wake", "vortex", "solid-body", "cylinder", "taylor-green"];
+    pub const NAMES: [&'static str; 6] = [
+        "wake",
+        "vortex",
+        "solid-body",
+        "cylinder",
+        "taylor-green",
+        "uniform",
+    ];
 
     pub fn name(self) -> &'static str {
         match self {
@@ -29,6 +37,7 @@ impl Scenario {
             Scenario::SolidBody => "solid-body",
             Scenario::Cylinder => "cylinder",
             Scenario::TaylorGreen => "taylor-green",
+            Scenario::Uniform => "uniform",
         }
     }
 
@@ -47,6 +56,7 @@ impl FromStr for Scenario {
             "solid-body" => Scenario::SolidBody,
             "cylinder" => Scenario::Cylinder,
             "taylor-green" => Scenario::TaylorGreen,
+            "uniform" => Scenario::Uniform,
             other => {
                 return Err(Error::usage(format!(
                     "scenario '{other}' is not known; expected one of {}",
@@ -163,6 +173,23 @@ pub struct SynthOptions {
     /// Correlation coefficient of the noise of adjacent vectors (0 to
     /// 1/sqrt 2; 0: independent).
     pub noise_correlation: f64,
+    /// Window noise: each vector's error is the average over an `m x m`
+    /// box of sub-cell errors (`m = 1/(1 - overlap)`: 2 at 50 %, 4 at 75 %
+    /// overlap; 0 or 1: off). See `noise`.
+    #[serde(default)]
+    pub noise_window: usize,
+    /// AR(1) coefficient of the noise from frame to frame (0: independent
+    /// frames; below 1). See `noise`.
+    #[serde(default)]
+    pub noise_memory: f64,
+    /// Core radius of the `vortex` scenario in grid pitches (default: an
+    /// eighth of the domain height).
+    #[serde(default)]
+    pub core_pitches: Option<f64>,
+    /// `vortex` scenario: the circulation pulses as `1 + A sin(2 pi f t)`
+    /// with `pulse = Some((A, f in Hz))`; frames then carry a phase.
+    #[serde(default)]
+    pub pulse: Option<(f64, f64)>,
     /// Fraction of nodes per frame replaced by random vectors.
     pub outlier_fraction: f64,
     /// Outlier magnitude at most this many times the local speed.
@@ -216,6 +243,10 @@ impl Default for SynthOptions {
             frame_rate: 15.0,
             noise_px: 0.1,
             noise_correlation: 0.0,
+            noise_window: 0,
+            noise_memory: 0.0,
+            core_pitches: None,
+            pulse: None,
             outlier_fraction: 0.03,
             outlier_scale: 3.0,
             gap_fraction: 0.02,
@@ -237,6 +268,11 @@ impl Default for SynthOptions {
 }
 
 impl SynthOptions {
+    /// True when frames have a phase: a periodic scenario, or a pulsing vortex.
+    pub fn periodic(&self) -> bool {
+        self.scenario.periodic() || (self.scenario == Scenario::Vortex && self.pulse.is_some())
+    }
+
     /// Checks the options; errors are usage errors naming the option.
     pub fn validate(&self) -> Result<()> {
         let frac = |name: &str, v: f64| {
@@ -271,6 +307,30 @@ impl SynthOptions {
             )));
         }
         frac("gap fraction", self.gap_fraction)?;
+        if self.noise_window > 16 {
+            return Err(Error::usage(format!(
+                "noise window = {} sub-cells must lie between 0 and 16 (overlap at most 94 %)",
+                self.noise_window
+            )));
+        }
+        if !(0.0..1.0).contains(&self.noise_memory) {
+            return Err(Error::usage(format!(
+                "noise memory = {} must lie in [0, 1)",
+                self.noise_memory
+            )));
+        }
+        if self.noise_correlation > 0.0 && super::noise::structured(self) {
+            return Err(Error::usage(
+                "noise correlation cannot be combined with window noise or noise memory",
+            ));
+        }
+        if let Some(c) = self.core_pitches {
+            pos("core radius", c)?;
+        }
+        if let Some((a, f)) = self.pulse {
+            frac("pulse amplitude", a)?;
+            pos("pulse frequency", f)?;
+        }
         if self.outlier_fraction + self.gap_fraction > 1.0 {
             return Err(Error::usage(
                 "outlier fraction plus gap fraction must not exceed 1",

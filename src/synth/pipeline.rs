@@ -48,6 +48,16 @@ pub fn describe(setup: &RunSetup) -> String {
             rc * 1e3,
             setup.speed
         ),
+        Flow::Pulsing {
+            gamma,
+            rc,
+            amplitude,
+            frequency,
+        } => format!(
+            "Lamb-Oseen vortex pulsing at {frequency} Hz (circulation {gamma:.4e} m^2/s x (1 + {amplitude} sin)), core radius {:.3} mm",
+            rc * 1e3
+        ),
+        Flow::Uniform { u, v } => format!("uniform stream u = {u:.5} m/s, v = {v:.5} m/s"),
         Flow::SolidBody { rate } => format!("solid-body rotation at {rate:.5} rad/s"),
         Flow::Cylinder { radius, u_inf } => format!(
             "potential flow at {u_inf} m/s past a cylinder of {} mm diameter",
@@ -111,7 +121,7 @@ pub fn pipeline_toml(opts: &SynthOptions, runs: &[RunSetup], prefix: &str) -> St
         },
         opts.noise_correlation
     ));
-    if opts.scenario.periodic() {
+    if opts.periodic() {
         t.push_str(&format!("\n[phase]\nbins = {}\n", opts.phase_bins));
     }
     t.push_str("\n[output]\nframe_fields = false\n");
@@ -214,12 +224,8 @@ pub fn readme(opts: &SynthOptions, runs: &[RunSetup], sums: &[RunSummary]) -> St
         },
         opts.length_unit.name(),
         opts.velocity_unit.name(),
-        if opts.scenario.periodic() {
-            ", phase_deg"
-        } else {
-            ""
-        },
-        if opts.scenario.periodic() {
+        if opts.periodic() { ", phase_deg" } else { "" },
+        if opts.periodic() {
             ", `phase.csv` (per phase bin and node means)"
         } else {
             ""

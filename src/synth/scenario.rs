@@ -12,6 +12,10 @@ use super::{Scenario, SynthOptions};
 use crate::error::{Error, Result};
 use crate::field::Grid;
 
+/// Direction of the `uniform` scenario's stream, degrees from +x (so that
+/// both components are nonzero).
+pub const UNIFORM_ANGLE_DEG: f64 = 20.0;
+
 /// Kinematic viscosity of water at 20 °C, m²/s (1.0e-6, from memory).
 pub const NU_WATER: f64 = 1.0e-6;
 
@@ -28,6 +32,16 @@ pub enum Flow {
     },
     /// One steady Lamb–Oseen vortex at the origin.
     Vortex { gamma: f64, rc: f64 },
+    /// A Lamb–Oseen vortex at the origin whose circulation pulses as
+    /// `gamma (1 + amplitude sin(2 pi frequency t))` (core radius fixed).
+    Pulsing {
+        gamma: f64,
+        rc: f64,
+        amplitude: f64,
+        frequency: f64,
+    },
+    /// A uniform stream `(u, v)`.
+    Uniform { u: f64, v: f64 },
     /// Solid-body rotation about the origin.
     SolidBody { rate: f64 },
     /// Potential flow past a cylinder at the origin.
@@ -62,7 +76,7 @@ impl RunSetup {
     /// Phase of frame `k` in degrees in [0, 360), for periodic flows.
     pub fn phase_deg(&self, opts: &SynthOptions, k: usize) -> Option<f64> {
         match self.flow {
-            Flow::Wake { frequency, .. } => {
+            Flow::Wake { frequency, .. } | Flow::Pulsing { frequency, .. } => {
                 let cycles = frequency * self.time(opts, k);
                 Some((360.0 * cycles.fract()).rem_euclid(360.0))
             }
@@ -99,6 +113,16 @@ impl RunSetup {
                     Flow::Vortex { gamma, rc } => {
                         Some(flows::lamb_oseen(x, y, 0.0, 0.0, gamma, rc))
                     }
+                    Flow::Pulsing {
+                        gamma,
+                        rc,
+                        amplitude,
+                        frequency,
+                    } => {
+                        let f = 1.0 + amplitude * (std::f64::consts::TAU * frequency * t).sin();
+                        Some(flows::lamb_oseen(x, y, 0.0, 0.0, gamma * f, rc))
+                    }
+                    Flow::Uniform { u, v } => Some(Sample { u, v, omega: 0.0 }),
                     Flow::SolidBody { rate } => Some(flows::solid_body(x, y, 0.0, 0.0, rate)),
                     Flow::Cylinder { radius, u_inf } => {
                         flows::cylinder(x, y, 0.0, 0.0, radius, u_inf)
@@ -213,10 +237,30 @@ pub fn setup_run(opts: &SynthOptions, speed: f64) -> Result<RunSetup> {
             )
         }
         Scenario::Vortex => {
-            // core radius an eighth of the domain height; peak swirl = speed
-            let rc = half_h / 4.0;
+            // core radius an eighth of the domain height (or as asked); peak swirl = speed
+            let rc = opts.core_pitches.map_or(half_h / 4.0, |c| c * pitch);
             let gamma = 2.0 * std::f64::consts::PI * rc * speed / flows::LAMB_OSEEN_PEAK_SWIRL;
-            (Flow::Vortex { gamma, rc }, speed)
+            let flow = match opts.pulse {
+                Some((amplitude, frequency)) => Flow::Pulsing {
+                    gamma,
+                    rc,
+                    amplitude,
+                    frequency,
+                },
+                None => Flow::Vortex { gamma, rc },
+            };
+            // the pulse's peak circulation sets the peak speed
+            (flow, speed * (1.0 + opts.pulse.map_or(0.0, |p| p.0)))
+        }
+        Scenario::Uniform => {
+            let a = UNIFORM_ANGLE_DEG.to_radians();
+            (
+                Flow::Uniform {
+                    u: speed * a.cos(),
+                    v: speed * a.sin(),
+                },
+                speed,
+            )
         }
         Scenario::SolidBody => (
             Flow::SolidBody {

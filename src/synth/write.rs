@@ -174,7 +174,7 @@ fn write_run(opts: &SynthOptions, run: usize, setup: &RunSetup, dir: &Path) -> R
     let mut events = Vec::with_capacity(1 << 16);
     events.extend_from_slice(b"frame,i,j,kind\n");
     let mut frame_table = Vec::with_capacity(opts.frames * 32);
-    frame_table.extend_from_slice(if opts.scenario.periodic() {
+    frame_table.extend_from_slice(if opts.periodic() {
         b"frame,time_s,phase_deg\n".as_slice()
     } else {
         b"frame,time_s\n".as_slice()
@@ -278,7 +278,7 @@ fn write_run(opts: &SynthOptions, run: usize, setup: &RunSetup, dir: &Path) -> R
         let td = opts.digits.max(8);
         let p = truth_dir.join("mean.csv");
         fs::write(&p, stats.mean_csv(setup.speed, td)).with_path(&p)?;
-        if opts.scenario.periodic() {
+        if opts.periodic() {
             let p = truth_dir.join("phase.csv");
             fs::write(&p, stats.phase_csv(setup.speed, td)).with_path(&p)?;
         }
