@@ -23,9 +23,10 @@ fn path_of(src: &FrameSource) -> &std::path::Path {
     }
 }
 
-fn check_run(r: &RunPlan) -> Result<()> {
+fn check_run(plan: &Plan, r: &RunPlan) -> Result<()> {
     let frames = reduce::list_run_frames(r)?;
     let first = io::read_grid(&r.input, &frames[0].1)?;
+    curlew::plan::bounds::check_grid(r, &first).map_err(|e| plan.pipeline_error(e))?;
     // Every frame's header and grid, in parallel; the first that differs is named.
     let files: Vec<&FrameSource> = {
         let mut seen: Vec<&std::path::Path> = Vec::new();
@@ -94,7 +95,7 @@ pub fn run(args: Args) -> Result<()> {
     let plan = Plan::load(&args.pipeline)?;
     println!("campaign '{}' ({})", plan.campaign, plan.path.display());
     for r in &plan.runs {
-        check_run(r)?;
+        check_run(&plan, r)?;
     }
     println!(
         "ok: {} run(s) ready; outputs go to out/{} unless --out is given",

@@ -30,9 +30,10 @@ pub fn run(args: Args) -> Result<()> {
         .map(|p| partial::read(p))
         .collect::<Result<Vec<_>>>()?;
     let n = parts.len();
-    let (first, reduced) = partial::merge(parts)?;
+    let (first, mut reduced) = partial::merge(parts)?;
+    super::run::nothing_valid(&mut reduced)?;
     let plan = Plan::from_str(&first.pipeline_text, &first.pipeline_path)?;
-    let dir = OutputDir::begin(&args.out)?;
+    let dir = OutputDir::begin_over(&args.out, &args.partials)?;
     let prov = campaign::Provenance {
         command: std::env::args().collect(),
         jobs: 1,

@@ -5,10 +5,10 @@ use std::io::IsTerminal;
 use std::path::PathBuf;
 use std::time::Instant;
 
-use curlew::io::OutputDir;
+use curlew::io::{FrameSource, OutputDir};
 use curlew::plan::Plan;
-use curlew::reduce::{self, campaign, partial, Options, Shard};
-use curlew::{Error, Result};
+use curlew::reduce::{self, campaign, partial, Options, Reduced, Shard};
+use curlew::{Error, ErrorKind, Result};
 
 #[derive(clap::Args, Debug)]
 pub struct Args {
@@ -62,9 +62,19 @@ pub fn run(args: Args) -> Result<()> {
     });
 
     // List every run's frames first: a glob that matches nothing fails before any work.
+    // Every file read is an input the output folder must not be or hold.
     let mut total = 0u64;
+    let mut inputs = vec![plan.path.clone()];
     for r in &runs {
-        let n = reduce::list_run_frames(r)?.len();
+        let listed = reduce::list_run_frames(r)?;
+        let n = listed.len();
+        for (_, src) in &listed {
+            match src {
+                FrameSource::File(p) => inputs.push(p.clone()),
+                FrameSource::Parquet { path, .. } => inputs.push(path.clone()),
+            }
+        }
+        inputs.extend(r.frame_table.iter().cloned());
         total += shard.map_or(n, |s| {
             let (a, b) = s.range(n);
             b - a
@@ -86,7 +96,8 @@ pub fn run(args: Args) -> Result<()> {
     };
     let tick = |k: u64| bar.inc(k);
 
-    let dir = OutputDir::begin(&out)?;
+    inputs.dedup();
+    let dir = OutputDir::begin_over(&out, &inputs)?;
     let mut reduced = Vec::with_capacity(runs.len());
     for r in &runs {
         bar.set_prefix(r.id.clone());
@@ -103,12 +114,12 @@ pub fn run(args: Args) -> Result<()> {
             progress: Some(&tick),
             frame_fields_dir: fields,
         };
-        reduced.push(reduce::reduce_run(r, &opts)?);
+        reduced.push(reduce::reduce_run(r, &opts).map_err(|e| at_pipeline(&plan, e))?);
     }
     bar.finish_and_clear();
 
     if let Some(s) = shard {
-        partial::write(dir.path(), &plan.path, &plan.text, s, &reduced)?;
+        partial::write(dir.path(), &plan, s, &reduced)?;
         dir.commit()?;
         if !args.quiet {
             println!(
@@ -123,6 +134,7 @@ pub fn run(args: Args) -> Result<()> {
         }
         return Ok(());
     }
+    nothing_valid(&mut reduced)?;
     let prov = campaign::Provenance {
         command: std::env::args().collect(),
         jobs,
@@ -135,6 +147,45 @@ pub fn run(args: Args) -> Result<()> {
     dir.commit()?;
     if !args.quiet {
         super::summary::print(&result, &out, started.elapsed().as_secs_f64());
+    }
+    Ok(())
+}
+
+/// A pipeline error raised during the reduction (a bound by the grid, say)
+/// names the pipeline file and the key's line.
+fn at_pipeline(plan: &Plan, e: Error) -> Error {
+    if e.kind == ErrorKind::Usage && e.path.is_none() {
+        plan.pipeline_error(e)
+    } else {
+        e
+    }
+}
+
+/// A run whose every vector is empty, NaN or flagged in the input gets a
+/// warning; a campaign with no valid vector at all is an error (nothing
+/// was measured, or the wrong columns were read).
+pub(crate) fn nothing_valid(reduced: &mut [Reduced]) -> Result<()> {
+    let mut empty = 0;
+    for r in reduced.iter_mut() {
+        let valid: usize = r
+            .frames
+            .iter()
+            .map(|f| f.n_vectors.saturating_sub(f.validation.invalid_input))
+            .sum();
+        if valid == 0 {
+            empty += 1;
+            r.warnings.push(format!(
+                "run '{}': every vector of every frame is empty, NaN or flagged invalid in the input",
+                r.id
+            ));
+        }
+    }
+    if empty == reduced.len() {
+        return Err(Error::data(format!(
+            "every vector of every frame of the {} run(s) is empty, NaN or flagged invalid in the \
+             input: there is nothing to reduce (are the velocity columns the right ones?)",
+            reduced.len()
+        )));
     }
     Ok(())
 }

@@ -285,20 +285,9 @@ fn num(x: f64) -> String {
     }
 }
 
-/// Writes a CSV to a temporary name and renames it into place.
+/// Writes a CSV through the one CSV writer (`io::write_csv_rows`).
 fn write_rows(path: &Path, header: &[&str], rows: impl Iterator<Item = Vec<String>>) -> Result<()> {
-    let tmp = path.with_extension("csv.partial");
-    let io = |e: std::io::Error| Error::io(path, e);
-    {
-        let mut w = csv::Writer::from_path(&tmp).map_err(|e| Error::io(&tmp, e.into()))?;
-        let csv_err = |e: csv::Error| Error::io(path, e.into());
-        w.write_record(header).map_err(csv_err)?;
-        for r in rows {
-            w.write_record(&r).map_err(csv_err)?;
-        }
-        w.flush().map_err(io)?;
-    }
-    std::fs::rename(&tmp, path).map_err(io)
+    crate::io::write_csv_rows(path, header, rows)
 }
 
 #[cfg(test)]

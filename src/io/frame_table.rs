@@ -11,7 +11,7 @@ use std::path::Path;
 
 use crate::error::{Error, Result};
 
-use super::text::{for_cells, header, is_comment_or_blank, lines, number, show};
+use super::text::{clip, for_cells, header, is_comment_or_blank, lines, number, show};
 use super::{Format, FrameTable};
 
 /// Reads a frame table: CSV with `frame` and `time_s` and/or `phase_deg`.
@@ -69,7 +69,10 @@ pub(crate) fn parse_frame_table(bytes: &[u8], path: &Path) -> Result<FrameTable>
             }
             match number(cell) {
                 Ok(Some(x)) => Ok(Some(x)),
-                Ok(None) => Err(Error::data(format!("'{}' is not a number", show(cell)))),
+                Ok(None) => Err(Error::data(format!(
+                    "'{}' is not a number",
+                    clip(&show(cell))
+                ))),
                 Err(m) => Err(Error::data(m)),
             }
             .map_err(|e| e.with_path(path).with_line(no).with_column(name))
@@ -79,7 +82,8 @@ pub(crate) fn parse_frame_table(bytes: &[u8], path: &Path) -> Result<FrameTable>
         let phase = value(p, pcol, "phase_deg")?;
         if let Some(first) = seen.insert(name.clone(), no) {
             return Err(Error::data(format!(
-                "frame '{name}' is listed twice, on lines {first} and {no}"
+                "frame '{}' is listed twice, on lines {first} and {no}",
+                clip(&name)
             ))
             .with_path(path)
             .with_line(no)

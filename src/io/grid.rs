@@ -62,6 +62,12 @@ pub enum AxisError {
         nearest: f64,
         pitch: f64,
     },
+    /// `value` lies `nodes` pitches from the first node, far more than the
+    /// values could fill (a stray coordinate).
+    Stray { value: f64, pitch: f64, nodes: f64 },
+    /// The pitch is too small for the coordinates to resolve (subnormal,
+    /// or below 1e-12 of the largest coordinate).
+    Unresolved { pitch: f64, largest: f64 },
 }
 
 fn gaps(c: &[f64]) -> Vec<f64> {
@@ -159,11 +165,25 @@ pub fn infer_axis(values: &[f64], tol: f64) -> std::result::Result<Axis, AxisErr
         return Err(AxisError::TooFew(centres.len()));
     }
     let h = crate::robust::median(&mut gaps(&centres));
-    // Step 3: indices from the gaps.
+    let largest = d[0].abs().max(d[d.len() - 1].abs());
+    if !h.is_normal() {
+        return Err(AxisError::Unresolved { pitch: h, largest });
+    }
+    // Step 3: indices from the gaps. A grid of more nodes than 8 per value
+    // (+ 64) is a stray coordinate, refused before any index can overflow.
+    let most = 8.0 * values.len() as f64 + 64.0;
     let mut idx = Vec::with_capacity(centres.len());
     idx.push(0usize);
     for w in centres.windows(2) {
         let ratio = (w[1] - w[0]) / h;
+        let reach = *idx.last().unwrap() as f64 + ratio;
+        if !(reach <= most) {
+            return Err(AxisError::Stray {
+                value: w[1],
+                pitch: h,
+                nodes: reach,
+            });
+        }
         let steps = ratio.round().max(1.0);
         if (ratio - steps).abs() > 2.0 * tol {
             return Err(AxisError::Irregular {
@@ -196,6 +216,9 @@ pub fn infer_axis(values: &[f64], tol: f64) -> std::result::Result<Axis, AxisErr
         let b = sxy / sxx;
         (cm - b * im, b)
     };
+    if !(pitch.is_normal() && pitch > 1e-12 * largest) {
+        return Err(AxisError::Unresolved { pitch, largest });
+    }
     // Step 5: every value on a node.
     for &x in &d {
         let i = ((x - origin) / pitch).round();
@@ -236,26 +259,92 @@ impl RawRows {
     }
 }
 
-/// Word used for row numbers in messages: "line" (text) or "row" (parquet).
+/// `x` to 6 significant digits, in exponent form outside 1e-4 .. 1e7 (a
+/// message never prints a 300-digit number).
+pub(crate) fn sig6(x: f64) -> String {
+    let a = x.abs();
+    let e = format!("{x:.5e}");
+    if a == 0.0 || !a.is_finite() || (1e-4..1e7).contains(&a) {
+        let r: f64 = e.parse().unwrap_or(x);
+        format!("{r}")
+    } else {
+        let (m, p) = e.split_once('e').unwrap_or((&e, "0"));
+        let m = if m.contains('.') {
+            m.trim_end_matches('0').trim_end_matches('.')
+        } else {
+            m
+        };
+        format!("{m}e{p}")
+    }
+}
+
+/// An axis error as a data error naming the row whose value is nearest the
+/// offending one (a cluster centre need not equal any row's value).
 fn axis_error(e: AxisError, axis: &str, values: &[f64], rows: &RawRows, tol: f64) -> Error {
-    match e {
-        AxisError::TooFew(n) => Error::data(format!(
-            "a grid needs at least 2 distinct {axis} values, found {n}"
-        )),
+    let row_of = |value: f64| {
+        let k = (0..values.len())
+            .min_by(|&a, &b| {
+                (values[a] - value)
+                    .abs()
+                    .total_cmp(&(values[b] - value).abs())
+            })
+            .unwrap_or(0);
+        (
+            values.get(k).copied().unwrap_or(value),
+            rows.line.get(k).copied().unwrap_or(0),
+        )
+    };
+    let (message, value) = match e {
+        AxisError::TooFew(n) => {
+            return Error::data(format!(
+                "a grid needs at least 2 distinct {axis} values, found {n}"
+            ))
+        }
         AxisError::Irregular {
             value,
             nearest,
             pitch,
-        } => {
-            let k = values.iter().position(|&x| x == value).unwrap_or(0);
-            Error::data(format!(
-                "irregular grid: {axis} = {value} is not on a regular grid (pitch {pitch:.6}, \
-                 nearest node {nearest:.6}, tolerance {tol} pitch)"
-            ))
-            .with_line(rows.line[k])
-            .with_column(axis)
-        }
+        } => (
+            format!(
+                "is not on a regular grid (pitch {}, nearest node {}, tolerance {tol} pitch)",
+                sig6(pitch),
+                sig6(nearest)
+            ),
+            value,
+        ),
+        AxisError::Stray {
+            value,
+            pitch,
+            nodes,
+        } => (
+            format!(
+                "lies {} pitches ({}) from the first node, far outside the other rows; \
+                 is this coordinate stray?",
+                sig6(nodes),
+                sig6(pitch)
+            ),
+            value,
+        ),
+        AxisError::Unresolved { pitch, largest } => (
+            format!(
+                "gives a pitch of {} that the coordinates (up to {}) cannot resolve",
+                sig6(pitch),
+                sig6(largest)
+            ),
+            largest,
+        ),
+    };
+    let (v, line) = row_of(value);
+    let kind = if message.starts_with("is not on") {
+        "irregular grid: "
+    } else {
+        ""
+    };
+    let mut err = Error::data(format!("{kind}{axis} = {} {message}", sig6(v))).with_column(axis);
+    if line > 0 {
+        err = err.with_line(line);
     }
+    err
 }
 
 /// Infers the grid of `rows` in the file's units (x, y pitches positive).
@@ -319,6 +408,16 @@ pub fn assemble(
         // (without a libm call: `round` was 3 % of a frame read in a profile).
         let i = ((rows.x[k] - ax.origin) * rx + 0.5) as usize;
         let j = ((rows.y[k] - ay.origin) * ry + 0.5) as usize;
+        if i >= ax.n || j >= ay.n {
+            return Err(Error::data(format!(
+                "x = {}, y = {} falls outside the inferred {} x {} grid",
+                sig6(rows.x[k]),
+                sig6(rows.y[k]),
+                ax.n,
+                ay.n
+            ))
+            .with_line(rows.line[k]));
+        }
         let o = &mut owner[[j, i]];
         if *o != 0 {
             return Err(Error::data(format!(
@@ -461,8 +560,37 @@ mod tests {
         rows.x.push(1e9);
         rows.y.push(0.0);
         rows.line.push(99);
+        let e = infer_grid(&rows, 0.05).unwrap_err();
+        assert_eq!(e.line, Some(99), "{e}");
+        assert!(e.message.contains("x = 1e9 lies 1e9 pitches (1)"), "{e}");
+        // A stray just inside the per-axis bound still makes too big a grid.
+        *rows.x.last_mut().unwrap() = 150.0;
         let e = infer_grid(&rows, 0.05).unwrap_err().to_string();
-        assert!(e.contains("1000000001 x 4 grid but only 17 nodes"), "{e}");
+        assert!(e.contains("151 x 4 grid but only 17 nodes"), "{e}");
+    }
+
+    #[test]
+    fn huge_and_subnormal_coordinates_are_errors_not_panics() {
+        for stray in [1e20, 1e300, f64::MAX] {
+            let xs = [0.0, 1.0, 2.0, stray];
+            assert!(
+                matches!(infer_axis(&xs, 0.05), Err(AxisError::Stray { .. })),
+                "{stray}"
+            );
+        }
+        let tiny: Vec<f64> = (0..4).map(|i| i as f64 * 5e-324).collect();
+        assert!(matches!(
+            infer_axis(&tiny, 0.05),
+            Err(AxisError::Unresolved { .. })
+        ));
+        let big: Vec<f64> = (0..4).map(|i| 1e20 + i as f64 * 1e6).collect();
+        assert!(matches!(
+            infer_axis(&big, 0.05),
+            Err(AxisError::Unresolved { .. })
+        ));
+        assert_eq!(sig6(1e300), "1e300");
+        assert_eq!(sig6(-2.5e-9), "-2.5e-9");
+        assert_eq!(sig6(0.123456789), "0.123457");
     }
 
     #[test]

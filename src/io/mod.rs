@@ -6,14 +6,15 @@
 //!
 //! Rooms: `text` (csv, tsv, whitespace text and the frame table, parsed
 //! from bytes), `parquet` (long tables and parquet outputs), `grid` (grid
-//! inference and placing rows on nodes), `write` (CSV output, atomic files
-//! and folders, hashes), `inspect` (summaries for `curlew inspect`), `natural` (natural sort order of frame files), `frame_table` (time and
+//! inference and placing rows on nodes), `write` (CSV output, atomic files,
+//! hashes), `outdir` (output folders: safety, leftovers, signals), `inspect` (summaries for `curlew inspect`), `natural` (natural sort order of frame files), `frame_table` (time and
 //! phase per frame).
 
 mod frame_table;
 pub mod grid;
 pub mod inspect;
 mod natural;
+pub mod outdir;
 pub mod parquet;
 pub mod table;
 mod text;
@@ -23,9 +24,13 @@ use std::path::{Path, PathBuf};
 
 use crate::error::{Error, Result};
 use crate::field::{Field, Grid, NodeTable};
+pub use outdir::OutputDir;
 pub use parquet::write_frames_parquet;
 pub use table::{Table, Values};
-pub use write::{hash_bytes, hash_file, write_csv, OutputDir};
+pub use text::clip as clip_text;
+pub use write::{
+    atomic_bytes, atomic_file, atomic_path, hash_bytes, hash_file, write_csv, write_csv_rows,
+};
 
 /// The text formats and parquet.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]

@@ -33,6 +33,15 @@ fn perr(path: &Path, e: PolarsError) -> Error {
     Error::data(format!("cannot read parquet: {e}")).with_path(path)
 }
 
+/// A failure while writing (a full disk, say): an I/O error that says so.
+fn werr(path: &Path, e: PolarsError) -> Error {
+    Error::new(
+        crate::error::ErrorKind::Io,
+        format!("cannot write parquet: {e}"),
+    )
+    .with_path(path)
+}
+
 /// Where each frame's rows are, and the file's metadata.
 pub(crate) struct FrameIndex {
     metadata: polars::io::parquet::metadata::FileMetadataRef,
@@ -317,18 +326,18 @@ pub fn write_frames_parquet(path: &Path, frames: &[(i64, &Field)]) -> Result<()>
     let Some(&(id0, f0)) = frames.first() else {
         return Err(Error::data("no frames to write").with_path(path));
     };
-    let first = frame_df(id0, f0).map_err(|e| perr(path, e))?;
+    let first = frame_df(id0, f0).map_err(|e| werr(path, e))?;
     super::write::atomic_file(path, |file| {
         let mut w = ParquetWriter::new(file)
             .set_parallel(false)
             .batched(first.schema())
-            .map_err(|e| perr(path, e))?;
-        w.write_batch(&first).map_err(|e| perr(path, e))?;
+            .map_err(|e| werr(path, e))?;
+        w.write_batch(&first).map_err(|e| werr(path, e))?;
         for &(id, f) in &frames[1..] {
-            let df = frame_df(id, f).map_err(|e| perr(path, e))?;
-            w.write_batch(&df).map_err(|e| perr(path, e))?;
+            let df = frame_df(id, f).map_err(|e| werr(path, e))?;
+            w.write_batch(&df).map_err(|e| werr(path, e))?;
         }
-        w.finish().map_err(|e| perr(path, e))?;
+        w.finish().map_err(|e| werr(path, e))?;
         Ok(())
     })
 }
@@ -348,11 +357,11 @@ pub(crate) fn write_table(path: &Path, table: &Table) -> Result<()> {
             ),
         })
         .collect();
-    let mut df = DataFrame::new(n, columns).map_err(|e| perr(path, e))?;
+    let mut df = DataFrame::new(n, columns).map_err(|e| werr(path, e))?;
     super::write::atomic_file(path, |file| {
         ParquetWriter::new(file)
             .finish(&mut df)
-            .map_err(|e| perr(path, e))?;
+            .map_err(|e| werr(path, e))?;
         Ok(())
     })
 }

@@ -595,6 +595,7 @@ fn output_dir_replaces_only_on_commit() {
     // A first good output.
     let o = OutputDir::begin(&fin).unwrap();
     fs::write(o.path().join("a.csv"), "old").unwrap();
+    fs::write(o.path().join("manifest.json"), "{}").unwrap();
     o.commit().unwrap();
     assert_eq!(fs::read_to_string(fin.join("a.csv")).unwrap(), "old");
     // A failed run: dropped without commit, the old folder is untouched.
@@ -616,4 +617,28 @@ fn output_dir_replaces_only_on_commit() {
         .map(|e| e.unwrap().file_name())
         .collect();
     assert_eq!(names, ["campaign"]);
+    // A folder that is not a curlew output is never replaced.
+    fs::remove_file(fin.join("manifest.json")).ok();
+    let e = OutputDir::begin(&fin).err().expect("refused");
+    assert!(e.to_string().contains("not a curlew output"), "{e}");
+    // Nor one that holds an input.
+    let input = fin.join("b.csv");
+    let e = OutputDir::begin_over(&d.path().join("out"), &[input])
+        .err()
+        .expect("refused");
+    assert!(e.to_string().contains("holds the input"), "{e}");
+}
+
+#[test]
+fn write_failures_say_cannot_write() {
+    let e = super::write::write_error(
+        std::path::Path::new("out/a.csv"),
+        std::io::Error::from_raw_os_error(28),
+    );
+    assert_eq!(e.exit_code(), 1);
+    assert!(
+        e.to_string()
+            .starts_with("out/a.csv: cannot write: no space left on device"),
+        "{e}"
+    );
 }

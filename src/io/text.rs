@@ -33,6 +33,8 @@ use super::{ColumnMap, Format};
 pub(super) struct Lines<'a> {
     rest: &'a [u8],
     number: usize,
+    /// `\n`, or `\r` for a file with classic Mac line endings (CR only).
+    end: u8,
 }
 
 impl<'a> Iterator for Lines<'a> {
@@ -42,7 +44,7 @@ impl<'a> Iterator for Lines<'a> {
             return None;
         }
         self.number += 1;
-        let (line, rest) = match memchr::memchr(b'\n', self.rest) {
+        let (line, rest) = match memchr::memchr(self.end, self.rest) {
             Some(p) => (&self.rest[..p], &self.rest[p + 1..]),
             None => (self.rest, &self.rest[self.rest.len()..]),
         };
@@ -54,9 +56,11 @@ impl<'a> Iterator for Lines<'a> {
 
 pub(super) fn lines(bytes: &[u8]) -> Lines<'_> {
     let bytes = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(bytes); // UTF-8 BOM
+    let cr_only = memchr::memchr(b'\n', bytes).is_none() && memchr::memchr(b'\r', bytes).is_some();
     Lines {
         rest: bytes,
         number: 0,
+        end: if cr_only { b'\r' } else { b'\n' },
     }
 }
 
@@ -327,6 +331,31 @@ pub(super) fn show(cell: &[u8]) -> String {
     String::from_utf8_lossy(cell).into_owned()
 }
 
+/// Longest piece of a file echoed in a message, in characters.
+const CLIP: usize = 60;
+
+/// Text from a file as a message shows it: control characters escaped
+/// (a stray CR prints as `\r`), clipped to `CLIP` characters with the
+/// length of the rest.
+pub fn clip(text: &str) -> String {
+    let mut out = String::new();
+    let mut n = 0;
+    for c in text.chars() {
+        if n == CLIP {
+            let rest = text.chars().count() - n;
+            out.push_str(&format!("... ({rest} more characters)"));
+            return out;
+        }
+        if c.is_control() {
+            out.extend(c.escape_debug());
+        } else {
+            out.push(c);
+        }
+        n += 1;
+    }
+    out
+}
+
 /// A cell as a number: `Ok(None)` for empty or NaN (any case), an error for
 /// anything else that is not a finite number.
 #[inline]
@@ -342,8 +371,8 @@ pub(crate) fn number(cell: &[u8]) -> std::result::Result<Option<f64>, String> {
     match fast_float2::parse::<f64, _>(cell) {
         Ok(x) if x.is_finite() => Ok(Some(x)),
         Ok(x) if x.is_nan() => Ok(None),
-        Ok(_) => Err(format!("'{}' is not a finite number", show(cell))),
-        Err(_) => Err(format!("'{}' is not a number", show(cell))),
+        Ok(_) => Err(format!("'{}' is not a finite number", clip(&show(cell)))),
+        Err(_) => Err(format!("'{}' is not a number", clip(&show(cell)))),
     }
 }
 
@@ -402,9 +431,16 @@ pub(super) fn find(names: &[String], name: &str, path: &Path, line: usize) -> Re
         } else {
             ""
         };
+        let shown: Vec<String> = names.iter().take(20).map(|n| clip(n)).collect();
+        let more = if names.len() > 20 {
+            format!(" and {} more", names.len() - 20)
+        } else {
+            String::new()
+        };
         Error::data(format!(
-            "missing column '{name}'; the header has: {}{hint}",
-            names.join(", ")
+            "missing column '{}'; the header has: {}{more}{hint}",
+            clip(name),
+            shown.join(", ")
         ))
         .with_path(path)
         .with_line(line)
@@ -447,7 +483,19 @@ pub(crate) fn parse_frame(
     let mut role_of = vec![NONE; names.len()];
     let mut role_name = [""; 7];
     for &(role, name) in &wanted {
-        role_of[find(&names, name, path, hline)?] = role as u8;
+        let k = find(&names, name, path, hline)?;
+        if let Some(k2) = names[k + 1..].iter().position(|n| n == name) {
+            return Err(Error::data(format!(
+                "the header names column '{}' twice (cells {} and {}); which one is meant?",
+                clip(name),
+                k + 1,
+                k + k2 + 2
+            ))
+            .with_path(path)
+            .with_line(hline)
+            .with_column(name));
+        }
+        role_of[k] = role as u8;
         role_name[role] = name;
     }
     let mut present = [false; 7];

@@ -1,10 +1,14 @@
-//! Writing: CSV tables, atomic files and folders, file hashes.
+//! Writing: CSV tables, atomic files, file hashes.
 //!
-//! Owns: the rule that no output ever appears half-written. A file is
-//! written to a temporary sibling `.<name>.partial-<pid>-<n>` and renamed
-//! over the target only when complete; a folder (`OutputDir`) is built as a
-//! temporary sibling and swapped in on `commit`. Does not own: what goes
-//! into the tables (stages).
+//! Owns: the rule that no output file ever appears half-written, for every
+//! command (`run`, `merge`, `synth`, the comparisons, figures and report
+//! alike). A file is written to a temporary sibling
+//! `.partial-<pid>-<n>.<name>` and renamed over the target only when
+//! complete (`atomic_file`, `atomic_path` for writers that want a path,
+//! `atomic_bytes`); folders are `outdir::OutputDir`'s. One CSV writer
+//! (`write_csv` for typed tables, `write_csv_rows` for rows of text) quotes
+//! and formats every table the same way. Does not own: what goes into the
+//! tables (stages).
 //!
 //! The guarantee is against failures of the process (an error, a crash,
 //! Ctrl-C): files are not fsynced, so after a power loss a just-written file
@@ -23,43 +27,70 @@ use std::sync::atomic::{AtomicUsize, Ordering};
 
 use sha2::{Digest, Sha256};
 
-use crate::error::{Error, Result, WithPath};
+use crate::error::{Error, ErrorKind, Result, WithPath};
 
 use super::table::{Table, Values};
 
-fn sibling(path: &Path, tag: &str) -> PathBuf {
+pub(crate) fn sibling(path: &Path, tag: &str) -> PathBuf {
     static COUNTER: AtomicUsize = AtomicUsize::new(0);
     let n = COUNTER.fetch_add(1, Ordering::Relaxed);
     let name = path
         .file_name()
         .map(|s| s.to_string_lossy().into_owned())
         .unwrap_or_else(|| "output".into());
-    path.with_file_name(format!(".{name}.{tag}-{}-{n}", std::process::id()))
+    // The tag goes first so the name keeps its extension (image writers
+    // choose the format by it).
+    path.with_file_name(format!(".{tag}-{}-{n}.{name}", std::process::id()))
 }
 
-fn parent_of(path: &Path) -> &Path {
+pub(crate) fn parent_of(path: &Path) -> &Path {
     match path.parent() {
         Some(p) if !p.as_os_str().is_empty() => p,
         _ => Path::new("."),
     }
 }
 
-/// Writes a file through `write` into a temporary sibling, then renames it
-/// onto `path`. On any error the temporary is removed and `path` untouched.
-pub(crate) fn atomic_file(path: &Path, write: impl FnOnce(&mut File) -> Result<()>) -> Result<()> {
+/// An operating-system error while writing `path` (a full disk, say),
+/// worded as a write so nobody looks for a reading problem.
+pub(crate) fn write_error(path: &Path, e: std::io::Error) -> Error {
+    Error::new(
+        ErrorKind::Io,
+        format!("cannot write: {}", e.to_string().to_lowercase()),
+    )
+    .with_path(path)
+}
+
+/// Calls `write` with a temporary sibling path of `path`, then renames the
+/// temporary onto `path`. On any error the temporary is removed and `path`
+/// untouched. For writers that open the file themselves (figures).
+pub fn atomic_path(path: &Path, write: impl FnOnce(&Path) -> Result<()>) -> Result<()> {
     let parent = parent_of(path);
-    fs::create_dir_all(parent).with_path(parent)?;
+    fs::create_dir_all(parent).map_err(|e| write_error(parent, e))?;
     let tmp = sibling(path, "partial");
-    let result = (|| {
-        let mut f = File::create(&tmp).with_path(&tmp)?;
-        write(&mut f).map_err(|e| e.with_path(path))?;
-        drop(f);
-        fs::rename(&tmp, path).with_path(path)
-    })();
+    let result = write(&tmp)
+        .map_err(|e| e.with_path(path))
+        .and_then(|()| fs::rename(&tmp, path).map_err(|e| write_error(path, e)));
     if result.is_err() {
         let _ = fs::remove_file(&tmp);
     }
     result
+}
+
+/// Writes a file through `write` into a temporary sibling, then renames it
+/// onto `path` (see `atomic_path`).
+pub fn atomic_file(path: &Path, write: impl FnOnce(&mut File) -> Result<()>) -> Result<()> {
+    atomic_path(path, |tmp| {
+        let mut f = File::create(tmp).map_err(|e| write_error(tmp, e))?;
+        write(&mut f)?;
+        f.flush().map_err(|e| write_error(path, e))
+    })
+}
+
+/// Writes `bytes` to `path` atomically.
+pub fn atomic_bytes(path: &Path, bytes: &[u8]) -> Result<()> {
+    atomic_file(path, |f| {
+        f.write_all(bytes).map_err(|e| write_error(path, e))
+    })
 }
 
 /// Appends the shortest text that parses back to exactly `x`.
@@ -85,19 +116,56 @@ fn push_str(out: &mut Vec<u8>, s: &str) {
     }
 }
 
-/// Writes `table` as CSV with a header line; atomic (see module docs).
-pub fn write_csv(path: &Path, table: &Table) -> Result<()> {
+/// Writes `header` and `rows` (cells as text, quoted where needed) as CSV;
+/// atomic (see module docs).
+pub fn write_csv_rows<S: AsRef<str>>(
+    path: &Path,
+    header: &[&str],
+    rows: impl IntoIterator<Item = Vec<S>>,
+) -> Result<()> {
+    csv_lines(path, header.iter().copied(), |line, w| {
+        for row in rows {
+            line.clear();
+            for (k, cell) in row.iter().enumerate() {
+                if k > 0 {
+                    line.push(b',');
+                }
+                push_str(line, cell.as_ref());
+            }
+            line.push(b'\n');
+            w.write_all(line).map_err(|e| write_error(path, e))?;
+        }
+        Ok(())
+    })
+}
+
+/// The CSV frame shared by both writers: the header line, then `body`
+/// writing the rows through a reusable line buffer.
+fn csv_lines<'h>(
+    path: &Path,
+    header: impl Iterator<Item = &'h str>,
+    body: impl FnOnce(&mut Vec<u8>, &mut BufWriter<&mut File>) -> Result<()>,
+) -> Result<()> {
     atomic_file(path, |file| {
         let mut w = BufWriter::with_capacity(1 << 16, file);
         let mut line: Vec<u8> = Vec::with_capacity(256);
-        for (k, (name, _)) in table.columns.iter().enumerate() {
+        for (k, name) in header.enumerate() {
             if k > 0 {
                 line.push(b',');
             }
             push_str(&mut line, name);
         }
         line.push(b'\n');
-        w.write_all(&line).with_path(path)?;
+        w.write_all(&line).map_err(|e| write_error(path, e))?;
+        body(&mut line, &mut w)?;
+        w.flush().map_err(|e| write_error(path, e))
+    })
+}
+
+/// Writes `table` as CSV with a header line; atomic (see module docs).
+pub fn write_csv(path: &Path, table: &Table) -> Result<()> {
+    let names = table.columns.iter().map(|(n, _)| n.as_str());
+    csv_lines(path, names, |line, w| {
         for r in 0..table.n_rows() {
             line.clear();
             for (k, (_, vals)) in table.columns.iter().enumerate() {
@@ -105,17 +173,17 @@ pub fn write_csv(path: &Path, table: &Table) -> Result<()> {
                     line.push(b',');
                 }
                 match vals {
-                    Values::F64(v) => push_f64(&mut line, v[r]),
+                    Values::F64(v) => push_f64(line, v[r]),
                     Values::I64(v) => {
                         let _ = write!(line, "{}", v[r]);
                     }
-                    Values::Str(v) => push_str(&mut line, &v[r]),
+                    Values::Str(v) => push_str(line, &v[r]),
                 }
             }
             line.push(b'\n');
-            w.write_all(&line).with_path(path)?;
+            w.write_all(line).map_err(|e| write_error(path, e))?;
         }
-        w.flush().with_path(path)
+        Ok(())
     })
 }
 
@@ -148,82 +216,4 @@ pub fn hash_bytes(bytes: &[u8]) -> (u64, String) {
         .map(|b| format!("{b:02x}"))
         .collect();
     (bytes.len() as u64, hex)
-}
-
-/// An output folder that appears only when the work succeeded: everything
-/// is written into the temporary sibling `<parent>/.<name>.partial-<pid>`,
-/// and `commit` swaps it in place of the old folder. Dropped without
-/// `commit`, the temporary folder is removed and the old one is untouched.
-pub struct OutputDir {
-    pub final_path: PathBuf,
-    pub temp_path: PathBuf,
-    done: bool,
-}
-
-impl OutputDir {
-    /// Creates a fresh temporary folder beside `final_path` (and the parent
-    /// folder if needed). An existing `final_path` that is not a folder is an
-    /// error: it is never replaced.
-    pub fn begin(final_path: &Path) -> Result<OutputDir> {
-        let parent = parent_of(final_path);
-        fs::create_dir_all(parent).with_path(parent)?;
-        if final_path.exists() && !final_path.is_dir() {
-            return Err(Error::data(
-                "the output path exists and is not a folder; it will not be replaced",
-            )
-            .with_path(final_path));
-        }
-        let name = final_path
-            .file_name()
-            .ok_or_else(|| Error::usage("the output folder needs a name").with_path(final_path))?
-            .to_string_lossy()
-            .into_owned();
-        let temp_path = parent.join(format!(".{name}.partial-{}", std::process::id()));
-        if temp_path.exists() {
-            fs::remove_dir_all(&temp_path).with_path(&temp_path)?;
-        }
-        fs::create_dir(&temp_path).with_path(&temp_path)?;
-        Ok(OutputDir {
-            final_path: final_path.to_path_buf(),
-            temp_path,
-            done: false,
-        })
-    }
-
-    /// The folder to write into (the temporary one).
-    pub fn path(&self) -> &Path {
-        &self.temp_path
-    }
-
-    /// Moves an existing final folder aside, renames the temporary folder to
-    /// the final name, then removes the old one. If the swap fails the old
-    /// folder is put back.
-    pub fn commit(mut self) -> Result<()> {
-        let old = if self.final_path.exists() {
-            let old = sibling(&self.final_path, "old");
-            fs::rename(&self.final_path, &old).with_path(&self.final_path)?;
-            Some(old)
-        } else {
-            None
-        };
-        if let Err(e) = fs::rename(&self.temp_path, &self.final_path) {
-            if let Some(old) = &old {
-                let _ = fs::rename(old, &self.final_path);
-            }
-            return Err(Error::io(&self.final_path, e));
-        }
-        self.done = true;
-        if let Some(old) = old {
-            fs::remove_dir_all(&old).with_path(&old)?;
-        }
-        Ok(())
-    }
-}
-
-impl Drop for OutputDir {
-    fn drop(&mut self) {
-        if !self.done {
-            let _ = fs::remove_dir_all(&self.temp_path);
-        }
-    }
 }

@@ -8,8 +8,10 @@
 //! Each section has its own file (`input`, `validation`, `derivatives`,
 //! `statistics`, `report`) with its raw struct and its `resolve`.
 
+pub mod bounds;
 pub mod derivatives;
 pub mod input;
+mod locate;
 pub mod report;
 pub mod statistics;
 pub mod validation;
@@ -18,7 +20,7 @@ use std::path::{Path, PathBuf};
 
 use serde::{Deserialize, Serialize};
 
-use crate::error::{Error, Result, WithPath};
+use crate::error::{Error, Result};
 use crate::io::InputSpec;
 use crate::stencil::smooth::Smoother;
 use crate::{derive, fill, plot, stats, validate};
@@ -132,9 +134,30 @@ pub struct Plan {
 
 impl Plan {
     /// Reads and resolves a pipeline file.
+    /// A missing, unreadable or non-UTF-8 file is a usage error (exit 2):
+    /// the command line names a pipeline that is not one.
     pub fn load(path: &Path) -> Result<Plan> {
-        let text = std::fs::read_to_string(path).with_path(path)?;
+        let bytes = std::fs::read(path).map_err(|e| {
+            Error::usage(format!(
+                "cannot read the pipeline file: {}",
+                e.to_string().to_lowercase()
+            ))
+            .with_path(path)
+        })?;
+        let text = String::from_utf8(bytes).map_err(|e| {
+            let at = e.utf8_error().valid_up_to();
+            let line = e.as_bytes()[..at].iter().filter(|&&b| b == b'\n').count() + 1;
+            Error::usage("the pipeline file is not UTF-8 text (TOML must be UTF-8)")
+                .with_path(path)
+                .with_line(line)
+        })?;
         Plan::from_str(&text, path)
+    }
+
+    /// `e` with this pipeline's path and, when the message names a key
+    /// (`[section] key`), the line it is written on.
+    pub fn pipeline_error(&self, e: Error) -> Error {
+        with_place(e, &self.text, &self.path)
     }
 
     /// Resolves pipeline text as if read from `path`.
@@ -151,10 +174,11 @@ impl Plan {
             })
             .unwrap_or(Path::new("."))
             .to_path_buf();
-        Plan::resolve(raw, text.to_string(), path, &base_dir).with_path(path)
+        Plan::resolve(raw, text.to_string(), path, &base_dir).map_err(|e| with_place(e, text, path))
     }
 
     fn resolve(raw: RawPipeline, text: String, path: &Path, base_dir: &Path) -> Result<Plan> {
+        bounds::check_raw(&raw)?;
         if raw.campaign.name.trim().is_empty() {
             return Err(Error::usage("[campaign] name must not be empty"));
         }
@@ -165,12 +189,7 @@ impl Plan {
         }
         let mut runs: Vec<RunPlan> = Vec::with_capacity(raw.run.len());
         for r in &raw.run {
-            if r.id.is_empty() || r.id.contains(['/', '\\']) || r.id.starts_with('.') {
-                return Err(Error::usage(format!(
-                    "[[run]] id = '{}' must be a plain folder name (no slashes, not starting with '.')",
-                    r.id
-                )));
-            }
+            check_run_id(&r.id)?;
             if runs.iter().any(|p| p.id == r.id) {
                 return Err(Error::usage(format!(
                     "[[run]] id = '{}' appears twice",
@@ -237,6 +256,16 @@ impl Plan {
         if ids.is_empty() {
             return Ok(self.runs.iter().collect());
         }
+        if let Some((k, id)) = ids
+            .iter()
+            .enumerate()
+            .find(|(k, id)| ids[..*k].contains(*id))
+        {
+            return Err(Error::usage(format!(
+                "--runs names '{id}' twice (item {}); each run is reduced once",
+                k + 1
+            )));
+        }
         ids.iter()
             .map(|id| {
                 self.runs.iter().find(|r| &r.id == id).ok_or_else(|| {
@@ -248,6 +277,52 @@ impl Plan {
                 })
             })
             .collect()
+    }
+}
+
+/// Names at the top of an output folder that a run's folder must not take.
+const RESERVED: [&str; 5] = [
+    "campaign.csv",
+    "manifest.json",
+    "index.html",
+    "compare",
+    "partial.json",
+];
+
+/// A run id becomes a folder name of the outputs: letters, digits, `-`,
+/// `_` and `.`, not starting with `.`, at most 64 characters, not a name
+/// the outputs already use.
+fn check_run_id(id: &str) -> Result<()> {
+    let shown = crate::io::clip_text(id);
+    let plain = id
+        .chars()
+        .all(|c| c.is_ascii_alphanumeric() || matches!(c, '-' | '_' | '.'));
+    if id.is_empty() || !plain || id.starts_with('.') || id.chars().count() > 64 {
+        return Err(Error::usage(format!(
+            "[[run]] id = '{shown}' must be a plain folder name: 1 to 64 letters, digits, \
+             '-', '_' or '.', not starting with '.'"
+        )));
+    }
+    if RESERVED.iter().any(|r| r.eq_ignore_ascii_case(id)) {
+        return Err(Error::usage(format!(
+            "[[run]] id = '{id}' is the name of a campaign output ({}); choose another",
+            RESERVED.join(", ")
+        )));
+    }
+    Ok(())
+}
+
+/// `e` with `path` and, when found, the line of the key its message names.
+fn with_place(e: Error, text: &str, path: &Path) -> Error {
+    let line = if e.path.is_none() && e.line.is_none() {
+        locate::line_of(text, &e.message)
+    } else {
+        None
+    };
+    let e = e.with_path(path);
+    match line {
+        Some(l) => e.with_line(l),
+        None => e,
     }
 }
 

@@ -61,20 +61,19 @@ fn draw_error(path: &Path, e: impl std::fmt::Display) -> Error {
     Error::new(ErrorKind::Io, format!("drawing the figure failed: {e}")).with_path(path)
 }
 
-/// Writes `dir/<stem>.png` and `dir/<stem>.svg`. Each is drawn to a
-/// temporary name first and renamed, so no half-written figure is left.
+/// Writes `dir/<stem>.png` and `dir/<stem>.svg`, each through
+/// `io::atomic_path`, so no half-written figure is left.
 pub fn write_figure(fig: &impl Figure, dir: &Path, stem: &str) -> Result<(PathBuf, PathBuf)> {
     register_fonts();
     std::fs::create_dir_all(dir).map_err(|e| Error::io(dir, e))?;
     let png = dir.join(format!("{stem}.png"));
     let svg = dir.join(format!("{stem}.svg"));
-    let tmp_png = dir.join(format!(".{stem}.partial.png"));
-    {
-        let root = BitMapBackend::new(&tmp_png, fig.size()).into_drawing_area();
+    crate::io::atomic_path(&png, |tmp| {
+        let root = BitMapBackend::new(tmp, fig.size()).into_drawing_area();
         root.fill(&WHITE).map_err(|e| draw_error(&png, e))?;
         fig.draw(&root).map_err(|e| draw_error(&png, e))?;
-        root.present().map_err(|e| draw_error(&png, e))?;
-    }
+        root.present().map_err(|e| draw_error(&png, e))
+    })?;
     let mut text = String::new();
     {
         let root = SVGBackend::with_string(&mut text, fig.size()).into_drawing_area();
@@ -82,10 +81,7 @@ pub fn write_figure(fig: &impl Figure, dir: &Path, stem: &str) -> Result<(PathBu
         fig.draw(&root).map_err(|e| draw_error(&svg, e))?;
         root.present().map_err(|e| draw_error(&svg, e))?;
     }
-    let tmp_svg = dir.join(format!(".{stem}.partial.svg"));
-    std::fs::write(&tmp_svg, text).map_err(|e| Error::io(&tmp_svg, e))?;
-    std::fs::rename(&tmp_png, &png).map_err(|e| Error::io(&png, e))?;
-    std::fs::rename(&tmp_svg, &svg).map_err(|e| Error::io(&svg, e))?;
+    crate::io::atomic_bytes(&svg, text.as_bytes())?;
     Ok((png, svg))
 }
 

@@ -24,6 +24,7 @@
 pub mod campaign;
 pub mod outputs;
 pub mod partial;
+pub mod seal;
 
 use std::path::PathBuf;
 use std::time::Instant;
@@ -50,6 +51,9 @@ pub struct Shard {
     pub count: usize,
 }
 
+/// The most shards `--shard I/N` accepts.
+pub const MAX_SHARDS: usize = 1_000_000;
+
 impl Shard {
     /// Parses `I/N` (1 ≤ I ≤ N).
     pub fn parse(s: &str) -> Result<Shard> {
@@ -63,6 +67,12 @@ impl Shard {
         let count: usize = b.trim().parse().map_err(|_| bad())?;
         if index == 0 || count == 0 || index > count {
             return Err(bad());
+        }
+        if count > MAX_SHARDS {
+            return Err(Error::usage(format!(
+                "--shard '{s}': at most {MAX_SHARDS} shards (a shard per frame is already finer \
+                 than useful)"
+            )));
         }
         Ok(Shard { index, count })
     }
@@ -102,8 +112,9 @@ impl Shard {
     /// The frames `[start, end)` of `n` that this shard reduces: contiguous
     /// ranges, as equal as possible, earlier shards first.
     pub fn range(&self, n: usize) -> (usize, usize) {
-        let k = self.index - 1;
-        (k * n / self.count, (k + 1) * n / self.count)
+        // In u128: k n cannot overflow for any usize k and n.
+        let (k, n, c) = ((self.index - 1) as u128, n as u128, self.count as u128);
+        ((k * n / c) as usize, ((k + 1) * n / c) as usize)
     }
 }
 
@@ -341,6 +352,7 @@ pub fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
     let n = frames.len();
     let range = opts.shard.map_or((0, n), |s| s.range(n));
     let grid = io::read_frame(&run.input, &frames[0].1)?.grid;
+    crate::plan::bounds::check_grid(run, &grid)?;
     timings.push(("list".to_string(), t0.elapsed().as_secs_f64()));
 
     // Pass 1 (only when the chain has an ensemble test): robust per-node

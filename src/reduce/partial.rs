@@ -11,40 +11,70 @@
 //!                           and the peak-locking accumulator (integer histograms),
 //!                           when the run has a calibration
 //!   <run id>/accumulator.bin   the statistics accumulator (stats' own versioned bytes)
+//!   partial.sha256          SHA-256 of partial.json and of every accumulator.bin
 //! ```
 //!
+//! Version 2: floats of frame records and grids are exact strings, and
+//! every run carries its `seal::Fingerprint` (see `seal`).
+//!
 //! `merge` accepts any set of partial folders of one pipeline (same SHA-256)
-//! that holds every shard `1..=N` exactly once, and merges the accumulators
-//! in shard order, which is frame order: the result equals a single run.
+//! that holds every shard `1..=N` exactly once, whose checksums hold and
+//! whose fingerprints say they read the same frames, and merges the
+//! accumulators in shard order, which is frame order: the result equals a
+//! single run, byte for byte.
 
 use std::path::{Path, PathBuf};
 
 use serde::{Deserialize, Serialize};
 
+use super::seal::{self, exact, exact_opt, Fingerprint};
 use super::{InputFile, Reduced, Shard};
 use crate::error::{Error, Result, WithPath};
 use crate::field::{FrameMeta, Grid};
+use crate::plan::Plan;
 use crate::result::FrameRecord;
 use crate::stats::RunAccumulator;
 use crate::{fill, validate};
 
 pub const FORMAT: &str = "curlew-partial";
-pub const VERSION: u32 = 1;
+pub const VERSION: u32 = 2;
 
 #[derive(Debug, Clone, Serialize, Deserialize)]
 struct FrameRow {
-    meta: FrameMeta,
+    index: usize,
+    name: String,
+    #[serde(with = "exact_opt")]
+    time_s: Option<f64>,
+    #[serde(with = "exact_opt")]
+    phase_deg: Option<f64>,
     n_vectors: usize,
     validation: validate::Counts,
     fill: fill::Counts,
     rejected: bool,
+    #[serde(with = "exact_opt")]
     noise: Option<f64>,
+}
+
+/// `Grid` with exact floats.
+#[derive(Debug, Clone, Serialize, Deserialize)]
+struct GridRow {
+    nx: usize,
+    ny: usize,
+    #[serde(with = "exact")]
+    x0: f64,
+    #[serde(with = "exact")]
+    y0: f64,
+    #[serde(with = "exact")]
+    dx: f64,
+    #[serde(with = "exact")]
+    dy: f64,
 }
 
 #[derive(Debug, Clone, Serialize, Deserialize)]
 struct RunPart {
     id: String,
-    grid: Grid,
+    grid: GridRow,
+    fingerprint: Fingerprint,
     n_frames_run: usize,
     range: (usize, usize),
     frames: Vec<FrameRow>,
@@ -78,33 +108,47 @@ pub struct Partial {
     pub pipeline_text: String,
     pub pipeline_sha256: String,
     pub runs: Vec<Reduced>,
+    /// Per run (same order): the frames it belongs to.
+    pub fingerprints: Vec<Fingerprint>,
 }
 
 /// Writes the partial result of one shard into `dir` (a fresh folder).
-pub fn write(
-    dir: &Path,
-    pipeline_path: &Path,
-    pipeline_text: &str,
-    shard: Shard,
-    runs: &[Reduced],
-) -> Result<()> {
+pub fn write(dir: &Path, plan: &Plan, shard: Shard, runs: &[Reduced]) -> Result<()> {
     use sha2::{Digest, Sha256};
+    let (pipeline_path, pipeline_text) = (&plan.path, &plan.text);
     let mut parts = Vec::with_capacity(runs.len());
     for r in runs {
         let rd = dir.join(&r.id);
         std::fs::create_dir_all(&rd).with_path(&rd)?;
         let p = rd.join("accumulator.bin");
         std::fs::write(&p, r.acc.to_bytes()).with_path(&p)?;
+        let run_plan = plan
+            .runs
+            .iter()
+            .find(|p| p.id == r.id)
+            .ok_or_else(|| Error::data(format!("run '{}' is not in the pipeline", r.id)))?;
+        let g = r.grid;
         parts.push(RunPart {
             id: r.id.clone(),
-            grid: r.grid,
+            grid: GridRow {
+                nx: g.nx,
+                ny: g.ny,
+                x0: g.x0,
+                y0: g.y0,
+                dx: g.dx,
+                dy: g.dy,
+            },
+            fingerprint: seal::fingerprint(run_plan, r.range)?,
             n_frames_run: r.n_frames_run,
             range: r.range,
             frames: r
                 .frames
                 .iter()
                 .map(|f| FrameRow {
-                    meta: f.meta.clone(),
+                    index: f.meta.index,
+                    name: f.meta.name.clone(),
+                    time_s: f.meta.time_s,
+                    phase_deg: f.meta.phase_deg,
                     n_vectors: f.n_vectors,
                     validation: f.validation,
                     fill: f.fill,
@@ -131,7 +175,8 @@ pub fn write(
     };
     let p = dir.join("partial.json");
     let text = serde_json::to_string(&pf).map_err(|e| Error::data(format!("partial: {e}")))?;
-    std::fs::write(&p, text).with_path(&p)
+    std::fs::write(&p, text).with_path(&p)?;
+    seal::write_checksums(dir, runs)
 }
 
 /// Reads a partial folder.
@@ -143,30 +188,54 @@ pub fn read(dir: &Path) -> Result<Partial> {
         ))
         .with_path(&p)
     })?;
-    let pf: PartialFile = serde_json::from_str(&text)
+    #[derive(Deserialize)]
+    struct Head {
+        format: String,
+        version: u32,
+    }
+    let head: Head = serde_json::from_str(&text)
         .map_err(|e| Error::data(format!("partial.json cannot be read: {e}")).with_path(&p))?;
-    if pf.format != FORMAT || pf.version != VERSION {
+    if head.format != FORMAT || head.version != VERSION {
         return Err(Error::data(format!(
-            "partial format '{}' version {} is not '{FORMAT}' version {VERSION}",
-            pf.format, pf.version
+            "partial format '{}' version {} is not '{FORMAT}' version {VERSION}; \
+             rerun the shards with this curlew",
+            head.format, head.version
         ))
         .with_path(&p));
     }
+    seal::verify_checksums(dir)?;
+    let pf: PartialFile = serde_json::from_str(&text)
+        .map_err(|e| Error::data(format!("partial.json cannot be read: {e}")).with_path(&p))?;
     let mut runs = Vec::with_capacity(pf.runs.len());
+    let mut fingerprints = Vec::with_capacity(pf.runs.len());
     for r in pf.runs {
+        fingerprints.push(r.fingerprint);
+        let g = r.grid;
         let ap = dir.join(&r.id).join("accumulator.bin");
         let bytes = std::fs::read(&ap).with_path(&ap)?;
         let acc = RunAccumulator::from_bytes(&bytes).with_path(&ap)?;
         runs.push(Reduced {
             id: r.id,
-            grid: r.grid,
+            grid: Grid {
+                nx: g.nx,
+                ny: g.ny,
+                x0: g.x0,
+                y0: g.y0,
+                dx: g.dx,
+                dy: g.dy,
+            },
             n_frames_run: r.n_frames_run,
             range: r.range,
             frames: r
                 .frames
                 .into_iter()
                 .map(|f| FrameRecord {
-                    meta: f.meta,
+                    meta: FrameMeta {
+                        index: f.index,
+                        name: f.name,
+                        time_s: f.time_s,
+                        phase_deg: f.phase_deg,
+                    },
                     n_vectors: f.n_vectors,
                     validation: f.validation,
                     fill: f.fill,
@@ -190,6 +259,7 @@ pub fn read(dir: &Path) -> Result<Partial> {
         pipeline_text: pf.pipeline_text,
         pipeline_sha256: pf.pipeline_sha256,
         runs,
+        fingerprints,
     })
 }
 
@@ -232,12 +302,23 @@ pub fn merge(mut parts: Vec<Partial>) -> Result<(Partial, Vec<Reduced>)> {
     let mut iter = parts.into_iter();
     let mut first = iter.next().unwrap();
     let mut runs = std::mem::take(&mut first.runs);
+    // Per run: the fingerprint and inputs of the shard merged last.
+    let mut last: Vec<(Fingerprint, Vec<InputFile>)> = first
+        .fingerprints
+        .iter()
+        .cloned()
+        .zip(runs.iter().map(|r| r.inputs.clone()))
+        .collect();
     for p in iter {
         let dir = p.dir.clone();
-        for r in p.runs {
-            let into = runs.iter_mut().find(|x| x.id == r.id).ok_or_else(|| {
+        for (r, fp) in p.runs.into_iter().zip(p.fingerprints) {
+            let at = runs.iter().position(|x| x.id == r.id).ok_or_else(|| {
                 Error::data(format!("run '{}' is not in the first partial", r.id)).with_path(&dir)
             })?;
+            let prev = &last[at];
+            seal::check_follows(&r.id, (&prev.0, &prev.1), (&fp, &r.inputs), &dir)?;
+            last[at] = (fp, r.inputs.clone());
+            let into = &mut runs[at];
             if into.range.1 != r.range.0 || into.grid != r.grid {
                 return Err(Error::data(format!(
                     "run '{}': frames {}..{} do not follow frames ..{} of the earlier shards",

@@ -6,8 +6,8 @@
 //! `campaign.csv` (`conditions`). Does not own: the numbers (stats,
 //! compare) or the figures (plot).
 //!
-//! The page is written to `index.html.partial` and renamed, so a failed
-//! write never leaves a half page in place of a good one.
+//! The page is written through `io::atomic_bytes`, so a failed write never
+//! leaves a half page in place of a good one.
 
 pub mod conditions;
 mod html;
@@ -15,7 +15,7 @@ mod sections;
 
 use std::path::Path;
 
-use crate::error::{Error, Result};
+use crate::error::Result;
 use crate::result::CampaignResult;
 
 pub use conditions::{campaign_columns, run_frequency, FrequencySource};
@@ -23,10 +23,7 @@ pub use conditions::{campaign_columns, run_frequency, FrequencySource};
 /// Writes `out/index.html`.
 pub fn write_report(c: &CampaignResult, out: &Path) -> Result<()> {
     let page = sections::page(c);
-    let path = out.join("index.html");
-    let tmp = out.join("index.html.partial");
-    std::fs::write(&tmp, page).map_err(|e| Error::io(&tmp, e))?;
-    std::fs::rename(&tmp, &path).map_err(|e| Error::io(&path, e))
+    crate::io::atomic_bytes(&out.join("index.html"), page.as_bytes())
 }
 
 #[cfg(test)]

@@ -412,8 +412,14 @@ fn an_existing_output_is_kept_unless_forced_and_failures_leave_nothing() {
     assert!(e.message.contains("outlier fraction"), "{e}");
     assert!(out.join("keep.txt").exists());
     opts.outlier_fraction = 0.0;
+    // Even forced, a folder that is not a curlew output is never replaced.
+    let e = generate(&opts, &out).unwrap_err();
+    assert!(e.message.contains("not a curlew output"), "{e}");
+    assert!(out.join("keep.txt").exists());
+    // An empty folder is written, and a previous synthetic campaign replaced.
+    std::fs::remove_file(out.join("keep.txt")).unwrap();
     generate(&opts, &out).unwrap();
-    assert!(!out.join("keep.txt").exists());
+    generate(&opts, &out).unwrap();
     assert!(out.join("pipeline.toml").exists());
     let left: Vec<_> = std::fs::read_dir(tmp.path()).unwrap().collect();
     assert_eq!(left.len(), 1, "no temporary folder may remain");

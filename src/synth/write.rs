@@ -1,8 +1,9 @@
 //! Writing a synthetic campaign: frames, frame tables, truth, the pipeline.
 //!
 //! Owns: the bytes of a synthetic campaign (layout in `synth`'s module doc)
-//! and its atomic appearance: everything goes into a hidden sibling folder
-//! `.<name>.partial-<pid>` that is renamed into place only when complete.
+//! and its atomic appearance: everything goes into an `io::OutputDir` (a
+//! hidden sibling folder swapped into place only when complete; the same
+//! rules as `run`'s output folder).
 //!
 //! Speed: frames are made and written in parallel (rayon) in chunks of a
 //! fixed size; the coordinate text of every node is formatted once per run;
@@ -25,6 +26,7 @@ use super::{
     frame_name, LengthUnit, OutFormat, RunSummary, SynthOptions, SynthSummary, VelocityUnit,
 };
 use crate::error::{Error, Result, WithPath};
+use crate::io::{atomic_bytes, OutputDir};
 
 /// Frames made in parallel before their truth is gathered.
 const CHUNK: usize = 64;
@@ -37,53 +39,18 @@ pub fn write_campaign(opts: &SynthOptions, runs: &[RunSetup], out: &Path) -> Res
             out.display()
         )));
     }
-    let name = out
-        .file_name()
-        .ok_or_else(|| Error::usage(format!("output folder {} has no name", out.display())))?
-        .to_string_lossy()
-        .into_owned();
-    let parent = match out.parent() {
-        Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
-        _ => PathBuf::from("."),
-    };
-    fs::create_dir_all(&parent).with_path(&parent)?;
-    let pid = std::process::id();
-    let temp = parent.join(format!(".{name}.partial-{pid}"));
-    if temp.exists() {
-        fs::remove_dir_all(&temp).with_path(&temp)?;
+    let dir = OutputDir::begin(out)?;
+    let temp = dir.path().to_path_buf();
+    let mut summaries = Vec::new();
+    for (r, setup) in runs.iter().enumerate() {
+        summaries.push(write_run(opts, r, setup, &temp.join(&setup.id))?);
     }
-    fs::create_dir(&temp).with_path(&temp)?;
-    let result = (|| -> Result<Vec<RunSummary>> {
-        let mut summaries = Vec::new();
-        for (r, setup) in runs.iter().enumerate() {
-            summaries.push(write_run(opts, r, setup, &temp.join(&setup.id))?);
-        }
-        let text = pipeline::pipeline_toml(opts, runs, "");
-        let p = temp.join("pipeline.toml");
-        fs::write(&p, text).with_path(&p)?;
-        let p = temp.join("README.md");
-        fs::write(&p, pipeline::readme(opts, runs, &summaries)).with_path(&p)?;
-        Ok(summaries)
-    })();
-    let summaries = match result {
-        Ok(s) => s,
-        Err(e) => {
-            let _ = fs::remove_dir_all(&temp);
-            return Err(e);
-        }
-    };
-    // swap in: old out aside, new in place, old removed
-    if out.exists() {
-        let old = parent.join(format!(".{name}.old-{pid}"));
-        fs::rename(out, &old).with_path(out)?;
-        if let Err(e) = fs::rename(&temp, out) {
-            let _ = fs::rename(&old, out);
-            return Err(Error::io(out, e));
-        }
-        fs::remove_dir_all(&old).with_path(&old)?;
-    } else {
-        fs::rename(&temp, out).with_path(out)?;
-    }
+    let text = pipeline::pipeline_toml(opts, runs, "");
+    let p = temp.join("pipeline.toml");
+    fs::write(&p, text).with_path(&p)?;
+    let p = temp.join("README.md");
+    fs::write(&p, pipeline::readme(opts, runs, &summaries)).with_path(&p)?;
+    dir.commit()?;
     if let Some(copy) = &opts.pipeline_copy {
         let dir = match copy.parent() {
             Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
@@ -92,9 +59,7 @@ pub fn write_campaign(opts: &SynthOptions, runs: &[RunSetup], out: &Path) -> Res
         fs::create_dir_all(&dir).with_path(&dir)?;
         let prefix = pipeline::relative_path(&dir, out)?;
         let text = pipeline::pipeline_toml(opts, runs, &prefix);
-        let tmp = copy.with_extension("toml.partial");
-        fs::write(&tmp, text).with_path(&tmp)?;
-        fs::rename(&tmp, copy).with_path(copy)?;
+        atomic_bytes(copy, text.as_bytes())?;
     }
     Ok(SynthSummary {
         out: out.to_path_buf(),

@@ -5,5 +5,7 @@ mod util;
 
 mod bad_input;
 mod detection;
+mod fuzz;
 mod reference;
+mod reliability;
 mod run;
