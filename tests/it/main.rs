@@ -7,3 +7,4 @@ mod bad_input;
 mod detection;
 mod reference;
 mod run;
+mod truth;
