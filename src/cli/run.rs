@@ -5,10 +5,8 @@ use std::io::IsTerminal;
 use std::path::PathBuf;
 use std::time::Instant;
 
-use curlew::io::{FrameSource, OutputDir};
-use curlew::plan::Plan;
-use curlew::reduce::{self, campaign, partial, Options, Reduced, Shard};
-use curlew::{Error, ErrorKind, Result};
+use curlew::reduce::Shard;
+use curlew::{Campaign, Progress, Result, RunOptions};
 
 #[derive(clap::Args, Debug)]
 pub struct Args {
@@ -34,55 +32,31 @@ pub struct Args {
     pub quiet: bool,
 }
 
+/// The progress bar on a terminal (hidden otherwise).
+struct Bar(indicatif::ProgressBar);
+
+impl Progress for Bar {
+    fn begin(&self, total: u64) {
+        self.0.set_length(total);
+    }
+    fn run(&self, id: &str) {
+        self.0.set_prefix(id.to_string());
+    }
+    fn advance(&self, frames: u64) {
+        self.0.inc(frames);
+    }
+}
+
 pub fn run(args: Args) -> Result<()> {
     let started = Instant::now();
-    let plan = Plan::load(&args.pipeline)?;
-    let runs = plan.select_runs(&args.runs)?;
+    let campaign = Campaign::load(&args.pipeline)?;
     let shard = match args.shard.as_deref() {
         None => None,
         Some("slurm") => Some(Shard::from_slurm(|k| std::env::var(k).ok())?),
         Some(s) => Some(Shard::parse(s)?),
     };
-    let jobs = if args.jobs == 0 {
-        std::thread::available_parallelism().map_or(1, |n| n.get())
-    } else {
-        args.jobs
-    };
-    let out = args.out.clone().unwrap_or_else(|| {
-        let base = PathBuf::from("out").join(&plan.campaign);
-        match shard {
-            Some(s) => PathBuf::from(format!(
-                "{}.shard-{}-of-{}",
-                base.display(),
-                s.index,
-                s.count
-            )),
-            None => base,
-        }
-    });
-
-    // List every run's frames first: a glob that matches nothing fails before any work.
-    // Every file read is an input the output folder must not be or hold.
-    let mut total = 0u64;
-    let mut inputs = vec![plan.path.clone()];
-    for r in &runs {
-        let listed = reduce::list_run_frames(r)?;
-        let n = listed.len();
-        for (_, src) in &listed {
-            match src {
-                FrameSource::File(p) => inputs.push(p.clone()),
-                FrameSource::Parquet { path, .. } => inputs.push(path.clone()),
-            }
-        }
-        inputs.extend(r.frame_table.iter().cloned());
-        total += shard.map_or(n, |s| {
-            let (a, b) = s.range(n);
-            b - a
-        }) as u64;
-    }
-    let show = !args.quiet && std::io::stderr().is_terminal();
-    let bar = if show {
-        let b = indicatif::ProgressBar::new(total);
+    let bar = Bar(if !args.quiet && std::io::stderr().is_terminal() {
+        let b = indicatif::ProgressBar::new(0);
         b.set_style(
             indicatif::ProgressStyle::with_template(
                 "{prefix:>10} [{bar:36}] {pos}/{len} frames  {per_sec}  eta {eta}",
@@ -93,99 +67,35 @@ pub fn run(args: Args) -> Result<()> {
         b
     } else {
         indicatif::ProgressBar::hidden()
+    });
+    let opts = RunOptions {
+        out: args.out.clone(),
+        runs: args.runs.clone(),
+        jobs: args.jobs,
+        progress: Some(&bar),
+        command: std::env::args().collect(),
     };
-    let tick = |k: u64| bar.inc(k);
-
-    inputs.dedup();
-    let dir = OutputDir::begin_over(&out, &inputs)?;
-    let mut reduced = Vec::with_capacity(runs.len());
-    for r in &runs {
-        bar.set_prefix(r.id.clone());
-        let fields = if plan.frame_fields && shard.is_none() {
-            let d = dir.path().join(&r.id).join("fields");
-            std::fs::create_dir_all(&d).map_err(|e| Error::io(&d, e))?;
-            Some(d)
-        } else {
-            None
-        };
-        let opts = Options {
-            jobs,
-            shard,
-            progress: Some(&tick),
-            frame_fields_dir: fields,
-        };
-        reduced.push(reduce::reduce_run(r, &opts).map_err(|e| at_pipeline(&plan, e))?);
-    }
-    bar.finish_and_clear();
-
-    if let Some(s) = shard {
-        partial::write(dir.path(), &plan, s, &reduced)?;
-        dir.commit()?;
+    let out = campaign.output_dir(&opts, shard);
+    let Some(s) = shard else {
+        let result = campaign.run(&opts)?;
+        bar.0.finish_and_clear();
         if !args.quiet {
-            println!(
-                "curlew: shard {}/{} of '{}' ({} frames) written to {}",
-                s.index,
-                s.count,
-                plan.campaign,
-                total,
-                out.display()
-            );
-            println!("        combine all shards with: curlew merge <shard folders...> --out DIR");
+            super::summary::print(&result, &out, started.elapsed().as_secs_f64());
         }
         return Ok(());
-    }
-    nothing_valid(&mut reduced)?;
-    let prov = campaign::Provenance {
-        command: std::env::args().collect(),
-        jobs,
-        started_unix: std::time::SystemTime::now()
-            .duration_since(std::time::UNIX_EPOCH)
-            .map_or(0.0, |d| d.as_secs_f64()),
-        merged_shards: None,
     };
-    let result = campaign::finish_campaign(&plan, reduced, dir.path(), &prov)?;
-    dir.commit()?;
+    let total = campaign.run_shard(s, &opts)?;
+    bar.0.finish_and_clear();
     if !args.quiet {
-        super::summary::print(&result, &out, started.elapsed().as_secs_f64());
-    }
-    Ok(())
-}
-
-/// A pipeline error raised during the reduction (a bound by the grid, say)
-/// names the pipeline file and the key's line.
-fn at_pipeline(plan: &Plan, e: Error) -> Error {
-    if e.kind == ErrorKind::Usage && e.path.is_none() {
-        plan.pipeline_error(e)
-    } else {
-        e
-    }
-}
-
-/// A run whose every vector is empty, NaN or flagged in the input gets a
-/// warning; a campaign with no valid vector at all is an error (nothing
-/// was measured, or the wrong columns were read).
-pub(crate) fn nothing_valid(reduced: &mut [Reduced]) -> Result<()> {
-    let mut empty = 0;
-    for r in reduced.iter_mut() {
-        let valid: usize = r
-            .frames
-            .iter()
-            .map(|f| f.n_vectors.saturating_sub(f.validation.invalid_input))
-            .sum();
-        if valid == 0 {
-            empty += 1;
-            r.warnings.push(format!(
-                "run '{}': every vector of every frame is empty, NaN or flagged invalid in the input",
-                r.id
-            ));
-        }
-    }
-    if empty == reduced.len() {
-        return Err(Error::data(format!(
-            "every vector of every frame of the {} run(s) is empty, NaN or flagged invalid in the \
-             input: there is nothing to reduce (are the velocity columns the right ones?)",
-            reduced.len()
-        )));
+        println!(
+            "curlew: shard {}/{} of '{}' ({} frames) written to {}",
+            s.index,
+            s.count,
+            campaign.plan().campaign,
+            total,
+            out.display()
+        );
+        println!("        combine all shards with: curlew merge <shard folders...> --out DIR");
     }
     Ok(())
 }

@@ -143,6 +143,30 @@ impl Field {
         fld
     }
 
+    /// A field from measured velocity arrays (m/s, shape `(ny, nx)` of
+    /// `grid`): finite pairs are valid measurements, any other node is
+    /// marked missing in the input (status `FILLED`, NaN) for the fill
+    /// stage. Errors when a shape does not match the grid.
+    pub fn from_velocity(grid: Grid, u: Array2<f64>, v: Array2<f64>) -> crate::Result<Self> {
+        for (name, a) in [("u", &u), ("v", &v)] {
+            if a.dim() != grid.shape() {
+                return Err(crate::Error::usage(format!(
+                    "{name} has shape {:?}, the grid {:?} (ny, nx)",
+                    a.dim(),
+                    grid.shape()
+                )));
+            }
+        }
+        let mut f = Field::empty(grid);
+        for (((j, i), &a), &b) in u.indexed_iter().zip(v.iter()) {
+            let ok = a.is_finite() && b.is_finite();
+            f.u[[j, i]] = if ok { a } else { f64::NAN };
+            f.v[[j, i]] = if ok { b } else { f64::NAN };
+            f.status[[j, i]] = if ok { VALID } else { FILLED };
+        }
+        Ok(f)
+    }
+
     /// Number of nodes whose status is `code`.
     pub fn count(&self, code: u8) -> usize {
         self.status.iter().filter(|&&s| s == code).count()

@@ -9,3 +9,4 @@ mod fuzz;
 mod reference;
 mod reliability;
 mod run;
+mod truth;

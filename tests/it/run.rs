@@ -187,7 +187,9 @@ fn shards_merged_equal_one_run() {
     let fb = std::fs::read(w.path("merged/a/frames.csv")).unwrap();
     assert!(
         fa == fb,
-        "frames.csv of the merge differs from the single run"
+        "frames.csv of the merge differs from the single run:\n{}\n{}",
+        String::from_utf8_lossy(&fa),
+        String::from_utf8_lossy(&fb)
     );
     // The peak-locking diagnostic (integer histograms) merges exactly.
     let peak = |dir: &str| {
