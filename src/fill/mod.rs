@@ -106,6 +106,9 @@ pub struct Counts {
     pub unfilled: usize,
 }
 
+/// Weights of a linear combination of nodes: (node number, weight).
+type Weights = Vec<(usize, f64)>;
+
 /// The 8-neighbourhood offsets.
 const NB: [(isize, isize); 8] = [
     (-1, -1),
@@ -211,7 +214,7 @@ fn neighbour_mean(
     let mut weights: HashMap<usize, Vec<(usize, f64)>> = HashMap::new();
     let mut order: Vec<usize> = Vec::new();
     let mut counts: Vec<u8> = vec![0; open.len()];
-    let mut batch: Vec<(usize, [f64; 2], Vec<(usize, f64)>)> = Vec::new();
+    let mut batch: Vec<(usize, [f64; 2], Weights)> = Vec::new();
     loop {
         let mut cmax = 0u8;
         for (c, &k) in counts.iter_mut().zip(open.iter()) {
