@@ -14,9 +14,9 @@
 //! Uncertainty: the derivative stencil composed with the smoother's
 //! equivalent stencil (`Stencil::after`), propagated with GUM eq. 13 and the
 //! error-correlation model; never through the two pieces separately. Near
-//! an edge or mask, where the smoother's stencil is cut, the model is the
-//! smoother restricted to the nodes with values and renormalised to unit
-//! sum at each node the derivative uses.
+//! an edge or mask, where the smoother's stencil is cut, the smoother at
+//! each node the derivative uses is the operator `stencil::cut` returns,
+//! the same one that made the smoothed values there.
 //!
 //! Truncation (bias) estimate: a local polynomial of degree 5 is fitted by
 //! least squares around the node (9 nodes along the axis for a 1-D stencil,
@@ -40,6 +40,7 @@ use super::cache::{cached, corr_fingerprint, fingerprint, pooled, Shared};
 use ndarray::Array2;
 
 use crate::stencil::correlation::Correlation;
+use crate::stencil::cut::{cut, Cut};
 use crate::stencil::derivatives::{chain, Axis, DiffScheme};
 use crate::stencil::lsq::PolyFit;
 use crate::stencil::{Stencil, Tap};
@@ -82,6 +83,8 @@ pub struct Inputs<'a> {
     pub corr: Correlation,
     /// The smoother's equivalent stencil (normalised to unit sum), if any.
     pub smoother: Option<&'a Stencil>,
+    /// How the smoother is cut at edges and masks (`stencil::cut`).
+    pub smoother_cut: Cut,
     /// Counts of "not plain" nodes (no value, or an uncertainty other than
     /// `sig_ref`) as a summed-area table of shape (ny+1, nx+1).
     pub not_plain: &'a Array2<u32>,
@@ -441,26 +444,6 @@ fn pattern(ok: &Array2<bool>, j: usize, i: usize, r: (i32, i32)) -> Option<u128>
     Some(m)
 }
 
-/// The smoother restricted to the nodes with values around `(j, i)`,
-/// renormalised to unit sum; `None` when no tap has a value.
-pub fn restricted(s: &Stencil, ok: &Array2<bool>, j: usize, i: usize) -> Option<Stencil> {
-    let (ny, nx) = ok.dim();
-    let inside = |t: &Tap| {
-        let (jj, ii) = (j as i64 + t.dj as i64, i as i64 + t.di as i64);
-        jj >= 0
-            && ii >= 0
-            && (jj as usize) < ny
-            && (ii as usize) < nx
-            && ok[[jj as usize, ii as usize]]
-    };
-    let taps: Vec<Tap> = s.taps.iter().filter(|t| inside(t)).copied().collect();
-    let sum: f64 = taps.iter().map(|t| t.w).sum();
-    if taps.is_empty() || sum.abs() < 1e-12 {
-        return None;
-    }
-    Some(Stencil::new(taps).scaled(1.0 / sum))
-}
-
 thread_local! {
     /// The axis operators made so far on this thread: building one fits a
     /// polynomial per fallback stencil, which frames of one run share.
@@ -664,7 +647,7 @@ fn effective_composite(d: &Stencil, inp: &Inputs, j: usize, i: usize) -> Option<
             (j as i64 + t.dj as i64) as usize,
             (i as i64 + t.di as i64) as usize,
         );
-        let r = restricted(s, inp.ok, jj, ii)?;
+        let r = cut(s, inp.smoother_cut, inp.ok, jj, ii)?;
         taps.extend(r.shifted(t.dj, t.di).scaled(t.w).taps);
     }
     Some(Stencil::new(taps))

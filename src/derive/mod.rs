@@ -13,9 +13,11 @@
 //!   frame's noise level below (counted in `Derived.sigma_fallback_nodes`).
 //!   Otherwise the noise level: the number given, or the frame's estimate
 //!   (`noise::estimate`).
-//! - replaced and filled vectors (1, 2): `sqrt(noise^2 + fill^2)`, with
-//!   `fill` the filling's own uncertainty (the field's sigma at that node,
-//!   set by the fill stage; 0 when it set none). For `"columns"` the noise
+//! - replaced and filled vectors (1, 2): the noise of the valid vectors
+//!   propagated through the fill's weights plus the fill's model error in
+//!   quadrature (`noise::through_fill`, `fill` module docs). A field
+//!   without fill weights: `sqrt(noise^2 + fill^2)`, with `fill` the
+//!   field's sigma at that node (0 when none). For `"columns"` the noise
 //!   level is the median of the valid vectors' sigma columns.
 //! - masked (3): no value, NaN.
 //!
@@ -64,7 +66,8 @@ use crate::stencil::derivatives::DiffScheme;
 use crate::stencil::smooth::Smoother;
 use crate::stencil::Stencil;
 
-use gradient::{gradient, restricted, summed_area, Grad, Inputs};
+use crate::stencil::cut::cut;
+use gradient::{gradient, summed_area, Grad, Inputs};
 
 /// How the derivatives are taken.
 #[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
@@ -184,6 +187,9 @@ pub struct Derived {
     /// The error-correlation model used (given, or estimated from this
     /// frame; the given one when the estimate could not be made).
     pub correlation: Correlation,
+    /// The PLS smoothing parameter applied to this frame (given, or its
+    /// GCV choice); `None` for other smoothers.
+    pub smoothing_s: Option<f64>,
     /// The scheme at each node as an index into `scheme_names`
     /// (`u8::MAX` where no derivative was taken).
     pub scheme_map: Array2<u8>,
@@ -284,8 +290,9 @@ pub fn derive(p: &Params, field: &Field) -> Derived {
         p.correlation
     };
     let noise_estimate = noise::estimate(field, &corr);
-    let (sig_u, sig_v, level, sigma_fallback_nodes) =
+    let (mut sig_u, mut sig_v, level, sigma_fallback_nodes) =
         per_vector_sigma(p, field, &ok, noise_estimate);
+    noise::through_fill(field, &ok, &corr, [&mut sig_u, &mut sig_v]);
     let masked = |a: &Array2<f64>| {
         Zip::from(a)
             .and(&ok)
@@ -293,10 +300,20 @@ pub fn derive(p: &Params, field: &Field) -> Derived {
     };
     let (u, v) = (masked(&field.u), masked(&field.v));
 
-    // Smoothing: values from the smoother, uncertainty through its stencil.
-    let smoother: Option<Stencil> = match p.smoother {
+    // Smoothing: values from the smoother, uncertainty through its stencil,
+    // both cut by one rule (`stencil::cut`) at edges and masks. A PLS
+    // smoother without s gets this frame's GCV choice first; a requested
+    // smoother is never skipped.
+    let frame_smoother = p.smoother.for_frame(&u, &v, &ok);
+    let cut_rule = frame_smoother.cut_rule();
+    let smoother: Option<Stencil> = match frame_smoother {
         Smoother::None => None,
-        _ => p.smoother.equivalent_stencil().map(|s| {
+        _ => Some(
+            frame_smoother
+                .equivalent_stencil()
+                .expect("smoother resolved for the frame"),
+        )
+        .map(|s| {
             let sum: f64 = s.taps.iter().map(|t| t.w).sum();
             if sum.abs() > 1e-12 {
                 s.scaled(1.0 / sum)
@@ -309,8 +326,18 @@ pub fn derive(p: &Params, field: &Field) -> Derived {
     let smoothed: Option<[Array2<f64>; 4]> = match &smoother {
         None => None,
         Some(s) => {
-            let us = masked(&p.smoother.apply(&u, &ok).as_standard_layout().to_owned());
-            let vs = masked(&p.smoother.apply(&v, &ok).as_standard_layout().to_owned());
+            let us = masked(
+                &frame_smoother
+                    .apply(&u, &ok)
+                    .as_standard_layout()
+                    .to_owned(),
+            );
+            let vs = masked(
+                &frame_smoother
+                    .apply(&v, &ok)
+                    .as_standard_layout()
+                    .to_owned(),
+            );
             let gain = corr.gain(s);
             let mut uu = Array2::from_elem(sh, f64::NAN);
             let mut vu = Array2::from_elem(sh, f64::NAN);
@@ -321,7 +348,7 @@ pub fn derive(p: &Params, field: &Field) -> Derived {
                 let (st, g) = if s.fits(j, i, &ok) {
                     (s.clone(), gain)
                 } else {
-                    match restricted(s, &ok, j, i) {
+                    match cut(s, cut_rule, &ok, j, i) {
                         Some(r) => {
                             let g = corr.gain(&r);
                             (r, g)
@@ -372,6 +399,7 @@ pub fn derive(p: &Params, field: &Field) -> Derived {
         sig_v: &sig_v,
         corr,
         smoother: smoother.as_ref(),
+        smoother_cut: cut_rule,
         not_plain: &not_plain,
         not_ok: &not_ok,
         need: [need_a, true, true, need_d],
@@ -491,6 +519,10 @@ pub fn derive(p: &Params, field: &Field) -> Derived {
         noise_estimate,
         noise_used: level,
         correlation: corr,
+        smoothing_s: match frame_smoother {
+            Smoother::Pls { s, .. } => s,
+            _ => None,
+        },
         scheme_map,
         scheme_names: schemes.iter().map(|s| s.name()).collect(),
         scheme_counts,

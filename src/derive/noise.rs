@@ -278,6 +278,97 @@ pub fn estimate_overlap(field: &Field) -> Option<f64> {
     Some(k as f64 * C_STEP)
 }
 
+/// A cruder level for fields too small for `estimate`: `1.4826
+/// median(|f_k+1 - f_k|) / sqrt(2)` over pairs of adjacent valid vectors
+/// along rows and columns, both components (white errors and a flow that
+/// changes little from node to node assumed; the flow's own differences
+/// make it an overestimate). `None` without any such pair.
+pub fn estimate_pairs(field: &Field) -> Option<f64> {
+    let (ny, nx) = field.status.dim();
+    let ok = |j: usize, i: usize| {
+        field.status[[j, i]] == VALID && field.u[[j, i]].is_finite() && field.v[[j, i]].is_finite()
+    };
+    let mut d = Vec::new();
+    for j in 0..ny {
+        for i in 0..nx {
+            if !ok(j, i) {
+                continue;
+            }
+            for (jj, ii) in [(j, i + 1), (j + 1, i)] {
+                if jj < ny && ii < nx && ok(jj, ii) {
+                    d.push((field.u[[jj, ii]] - field.u[[j, i]]).abs());
+                    d.push((field.v[[jj, ii]] - field.v[[j, i]]).abs());
+                }
+            }
+        }
+    }
+    if d.is_empty() {
+        return None;
+    }
+    let m = d.len() / 2;
+    let med = *d.select_nth_unstable_by(m, f64::total_cmp).1;
+    Some(1.482_602_218_505_602 * med / std::f64::consts::SQRT_2)
+}
+
+/// Sets the per-vector uncertainty of every filled vector from the fill's
+/// weights (`fill` module docs; GUM, JCGM 100:2008, eq. 13):
+/// `sig^2 = sum_a sum_b W_a W_b rho(d_ab) sig_a sig_b + max(0, delta^2 -
+/// u(delta)^2)`, with `sig_a` the uncertainty of valid vector `a` (already
+/// in `sig`), `rho` the frame's correlation model, `delta` the fill's
+/// model-error estimate (the field's sigma at the node, set by `fill`) and
+/// `u(delta)^2` its noise variance through its own stencil (the same
+/// double sum); the floored difference is the usual debiasing of a squared
+/// estimate. Unknown stays unknown: a filled node without a model-error
+/// estimate gets NaN. Nodes without a value (`ok` false) and fields
+/// without fill weights are left alone.
+pub fn through_fill(
+    field: &Field,
+    ok: &Array2<bool>,
+    corr: &Correlation,
+    sig: [&mut Array2<f64>; 2],
+) {
+    let nx = field.status.dim().1;
+    let [su, sv] = sig;
+    let var = |w: &[(usize, f64)], s: &Array2<f64>| {
+        let mut v = 0.0;
+        for &(a, wa) in w {
+            let ea = wa * s[[a / nx, a % nx]];
+            for &(b, wb) in w {
+                let r = corr.rho(
+                    (b / nx) as i32 - (a / nx) as i32,
+                    (b % nx) as i32 - (a % nx) as i32,
+                );
+                if r != 0.0 {
+                    v += ea * wb * s[[b / nx, b % nx]] * r;
+                }
+            }
+        }
+        v
+    };
+    for rec in &field.fill_weights {
+        let (j, i) = (rec.node / nx, rec.node % nx);
+        if !ok[[j, i]] || field.status[[j, i]] == VALID {
+            continue;
+        }
+        for (s, delta) in [
+            (&mut *su, field.sigma_u[[j, i]]),
+            (&mut *sv, field.sigma_v[[j, i]]),
+        ] {
+            let model = if rec.model.is_empty() || delta.is_nan() {
+                f64::NAN
+            } else {
+                (delta * delta - var(&rec.model, s)).max(0.0)
+            };
+            let noise = var(&rec.weights, s);
+            s[[j, i]] = if model.is_nan() {
+                f64::NAN
+            } else {
+                (noise + model).sqrt()
+            };
+        }
+    }
+}
+
 /// The correlation model of an overlap fraction: `Independent` for 0.
 pub fn overlap_model(c: f64) -> Correlation {
     if c > 0.0 {
@@ -288,7 +379,7 @@ pub fn overlap_model(c: f64) -> Correlation {
 }
 
 #[cfg(test)]
-mod tests {
+pub(crate) mod tests {
     use super::*;
     use crate::derive::flows::lamb_oseen;
     use crate::field::Grid;

@@ -262,13 +262,14 @@ fn coverage_of_two_standard_uncertainties_on_a_noisy_vortex() {
 #[test]
 fn smoothed_gradient_uncertainty_matches_monte_carlo_at_edges_and_inside() {
     // The gradient stage with a smoother: values from the smoothed field
-    // (here smoothed in the test by the smoother restricted to the nodes
-    // with values and renormalised, the model `gradient` documents), the
+    // (here smoothed in the test by the smoother cut by `stencil::cut`,
+    // the operator `gradient` documents), the
     // variance from the composite stencil, or at the edge from the
     // effective composite. 4000 seeded realisations; at a corner, an edge
     // node and an interior node the scatter of du/dx and du/dy agrees with
     // the propagated variance within 4 % (sampling error 1.1 %).
-    use crate::derive::gradient::{gradient, restricted, summed_area, Inputs};
+    use crate::derive::gradient::{gradient, summed_area, Inputs};
+    use crate::stencil::cut::{cut, Cut};
     let n = 12;
     let s = binomial3();
     let ok = Array2::from_elem((n, n), true);
@@ -281,7 +282,9 @@ fn smoothed_gradient_uncertainty_matches_monte_carlo_at_edges_and_inside() {
         let sat_ok = summed_area(&Array2::from_elem((n, n), path == 2));
         let smooth = |a: &Array2<f64>| {
             Array2::from_shape_fn((n, n), |(j, i)| {
-                restricted(&s, &ok, j, i).unwrap().apply_at(a, j, i)
+                cut(&s, Cut::Renormalise, &ok, j, i)
+                    .unwrap()
+                    .apply_at(a, j, i)
             })
         };
         let mut rng = rng(31);
@@ -302,6 +305,7 @@ fn smoothed_gradient_uncertainty_matches_monte_carlo_at_edges_and_inside() {
                 sig_v: &sig,
                 corr: Correlation::Independent,
                 smoother: Some(&s),
+                smoother_cut: Cut::Renormalise,
                 not_plain: &sat,
                 not_ok: &sat_ok,
                 need: [true; 4],

@@ -112,6 +112,21 @@ pub struct Field {
     pub sigma_u: Array2<f64>,
     pub sigma_v: Array2<f64>,
     pub status: Array2<u8>,
+    /// One record per vector the fill stage gave a value (`fill`, `derive`);
+    /// empty before filling.
+    pub fill_weights: Vec<FillWeights>,
+}
+
+/// A filled vector as a linear combination of valid vectors (node numbers
+/// `k = j*nx + i` with weights), so that its noise and its correlation with
+/// those vectors follow from the weights, and the stencil of valid vectors
+/// that estimates its model error (see `fill`).
+#[derive(Debug, Clone, PartialEq)]
+pub struct FillWeights {
+    pub node: usize,
+    pub weights: Vec<(usize, f64)>,
+    /// Empty when the model error could not be estimated.
+    pub model: Vec<(usize, f64)>,
 }
 
 impl Field {
@@ -125,6 +140,7 @@ impl Field {
             sigma_u: Array2::from_elem(sh, f64::NAN),
             sigma_v: Array2::from_elem(sh, f64::NAN),
             status: Array2::from_elem(sh, MASKED),
+            fill_weights: Vec::new(),
         }
     }
 

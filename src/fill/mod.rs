@@ -25,16 +25,34 @@
 //!
 //! # Uncertainty of a filled vector
 //!
-//! `sigma_u` (and likewise `sigma_v`) at a filled node is
-//! `sqrt(s^2 + mean(sigma_nb^2))`: `s` the sample standard deviation (n - 1)
-//! of the values of its 8-neighbours that carry values after filling (the
-//! local spread: noise plus the variation of the flow across the gap), and
-//! `mean(sigma_nb^2)` over those neighbours whose own sigma is finite (input
-//! columns, or nodes filled in an earlier round: so uncertainty grows
-//! towards a gap's centre). Both are taken over the neighbours used by the
-//! neighbour-mean round that filled the node (for inpainting too, which
-//! starts from that fill). With fewer than 2 neighbours sigma is NaN (only
-//! possible with `min_neighbours = 1`). Valid nodes' sigma is not touched.
+//! A neighbour-mean value is a linear combination of measured vectors:
+//! `f = sum_m W_m f_m` over valid nodes `m`, with `W` the mean's weights
+//! `1/n` over the neighbours used, a neighbour filled in an earlier round
+//! replaced by its own weights (so `W` always reaches back to valid
+//! vectors and sums to 1). `Field::fill_weights` records `W` for every
+//! filled node; `derive` propagates the measured vectors' noise through it,
+//! `u_noise^2 = sum_a sum_b W_a W_b rho_ab u_a u_b` (GUM, JCGM 100:2008,
+//! eq. 13), which counts the noise once, reduced by the averaging (1/sqrt 8
+//! for eight independent neighbours) and in step with the correlation model.
+//! Before (issue 11 item 4) the spread of the neighbours plus their sigma
+//! plus the noise level again gave filled vectors 4-5 x the uncertainty
+//! they had.
+//!
+//! The fill's own (model) error, `sum_m W_m f(x_m) - f(x_0)` for the true
+//! flow f, is estimated with the local least-squares quadratic `p` fitted
+//! to the valid vectors within 2 nodes of the hole (3 when fewer than 6
+//! there; a plane when the quadratic is not determined):
+//! `delta = sum_m W_m p(x_m) - p(x_0)` (exact for quadratic flows: the
+//! curvature term `(3/8) h^2 laplacian f` of a full 8-neighbour mean, and
+//! the gradient term of a one-sided rim). `sigma_u` (`sigma_v`) of a filled
+//! node is `|delta|` of that component, and `Field::fill_weights` keeps
+//! the stencil of `delta`, so that `derive` can remove the noise of
+//! `delta` itself: `delta^2 - u(delta)^2`, floored at 0 (the usual
+//! debiasing of a squared estimate).
+//! Inpainting starts from the neighbour-mean fill and is given its weights
+//! and model error (an approximation: its own operator is not formed).
+//! Valid nodes' sigma is not touched. Without a fit (no valid vector
+//! within 3 nodes) sigma is NaN.
 //!
 //! Cost: no allocation per node; per frame, lists of holes and a distance
 //! map. Inpainting costs about 2 x `inpaint_iterations` 2-D DCTs per
@@ -42,7 +60,10 @@
 
 pub mod pls;
 
-use crate::field::{Field, FILLED, MASKED, REPLACED, VALID};
+use std::collections::HashMap;
+
+use crate::field::{Field, FillWeights, FILLED, MASKED, REPLACED, VALID};
+use crate::stencil::lsq::PolyFit;
 
 /// How holes are filled.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
@@ -85,6 +106,9 @@ pub struct Counts {
     pub unfilled: usize,
 }
 
+/// Weights of a linear combination of nodes: (node number, weight).
+type Weights = Vec<(usize, f64)>;
+
 /// The 8-neighbourhood offsets.
 const NB: [(isize, isize); 8] = [
     (-1, -1),
@@ -121,10 +145,11 @@ pub fn fill(p: &Params, field: &mut Field) -> Counts {
         .copied()
         .filter(|&k| far.as_ref().is_none_or(|f| !f[k]))
         .collect();
-    neighbour_mean(p, field, &mut has, &mut open, ny, nx);
+    let weights = neighbour_mean(p, field, &mut has, &mut open, ny, nx);
     if p.method == Method::Inpaint {
         inpaint(p, field, &has, ny, nx);
     }
+    model_error(field, &weights, nx);
     // uncertainty, counts, masking
     let mut c = Counts::default();
     let status = field.status.as_slice().unwrap().to_vec();
@@ -184,10 +209,12 @@ fn neighbour_mean(
     open: &mut Vec<usize>,
     ny: usize,
     nx: usize,
-) {
+) -> Vec<(usize, Vec<(usize, f64)>)> {
     let need = p.min_neighbours.clamp(1, 8);
+    let mut weights: HashMap<usize, Vec<(usize, f64)>> = HashMap::new();
+    let mut order: Vec<usize> = Vec::new();
     let mut counts: Vec<u8> = vec![0; open.len()];
-    let mut batch: Vec<(usize, [f64; 4])> = Vec::new();
+    let mut batch: Vec<(usize, [f64; 2], Weights)> = Vec::new();
     loop {
         let mut cmax = 0u8;
         for (c, &k) in counts.iter_mut().zip(open.iter()) {
@@ -213,25 +240,22 @@ fn neighbour_mean(
         batch.clear();
         for (c, &k) in counts.iter().zip(open.iter()) {
             if *c == cmax {
-                batch.push((k, neighbour_stats(field, has, k, ny, nx)));
+                let (mean, w) = neighbour_mean_at(field, has, &weights, k, ny, nx);
+                batch.push((k, mean, w));
             }
         }
         let (us, vs) = (
             field.u.as_slice_mut().unwrap(),
             field.v.as_slice_mut().unwrap(),
         );
-        for &(k, st) in &batch {
-            us[k] = st[0];
-            vs[k] = st[1];
+        for (k, m, _) in &batch {
+            us[*k] = m[0];
+            vs[*k] = m[1];
         }
-        let (su, sv) = (
-            field.sigma_u.as_slice_mut().unwrap(),
-            field.sigma_v.as_slice_mut().unwrap(),
-        );
-        for &(k, st) in &batch {
-            su[k] = st[2];
-            sv[k] = st[3];
+        for (k, _, w) in batch.drain(..) {
             has[k] = true;
+            order.push(k);
+            weights.insert(k, w);
         }
         let mut w = 0;
         for r in 0..open.len() {
@@ -243,6 +267,13 @@ fn neighbour_mean(
         open.truncate(w);
         counts.truncate(w);
     }
+    order
+        .into_iter()
+        .map(|k| {
+            let w = weights.remove(&k).expect("weights of every filled node");
+            (k, w)
+        })
+        .collect()
 }
 
 /// Replaces the neighbour-mean values of filled holes by DCT-PLS
@@ -269,47 +300,116 @@ fn inpaint(p: &Params, field: &mut Field, has: &[bool], ny: usize, nx: usize) {
     }
 }
 
-/// Mean and filling uncertainty `[u, v, sigma_u, sigma_v]` of node `k` from
-/// the 8-neighbours that have values (see the module docs).
-fn neighbour_stats(field: &Field, has: &[bool], k: usize, ny: usize, nx: usize) -> [f64; 4] {
+/// The mean `[u, v]` of the 8-neighbours of node `k` that have values,
+/// and its weights over valid nodes (module docs), sorted by node.
+fn neighbour_mean_at(
+    field: &Field,
+    has: &[bool],
+    weights: &HashMap<usize, Vec<(usize, f64)>>,
+    k: usize,
+    ny: usize,
+    nx: usize,
+) -> ([f64; 2], Vec<(usize, f64)>) {
     let us = field.u.as_slice().unwrap();
     let vs = field.v.as_slice().unwrap();
-    let sus = field.sigma_u.as_slice().unwrap();
-    let svs = field.sigma_v.as_slice().unwrap();
     let (j, i) = (k / nx, k % nx);
-    let (mut n, mut mu, mut mv, mut qu, mut qv) = (0usize, 0.0, 0.0, 0.0, 0.0);
-    let (mut ns, mut s2u, mut s2v) = (0usize, 0.0, 0.0);
-    for (dj, di) in NB {
-        let (jj, ii) = (j as isize + dj, i as isize + di);
-        if jj < 0 || ii < 0 || jj as usize >= ny || ii as usize >= nx {
-            continue;
-        }
-        let q = jj as usize * nx + ii as usize;
-        if !has[q] {
-            continue;
-        }
-        // Welford
-        n += 1;
-        let (du, dv) = (us[q] - mu, vs[q] - mv);
-        mu += du / n as f64;
-        mv += dv / n as f64;
-        qu += du * (us[q] - mu);
-        qv += dv * (vs[q] - mv);
-        if sus[q].is_finite() && svs[q].is_finite() {
-            ns += 1;
-            s2u += sus[q] * sus[q];
-            s2v += svs[q] * svs[q];
+    let nbs: Vec<usize> = NB
+        .iter()
+        .filter_map(|&(dj, di)| {
+            let (jj, ii) = (j as isize + dj, i as isize + di);
+            let inside = jj >= 0 && ii >= 0 && (jj as usize) < ny && (ii as usize) < nx;
+            let q = inside.then(|| jj as usize * nx + ii as usize)?;
+            has[q].then_some(q)
+        })
+        .collect();
+    let n = nbs.len().max(1) as f64;
+    let mean = [
+        nbs.iter().map(|&q| us[q]).sum::<f64>() / n,
+        nbs.iter().map(|&q| vs[q]).sum::<f64>() / n,
+    ];
+    let mut w: Vec<(usize, f64)> = Vec::new();
+    for &q in &nbs {
+        match weights.get(&q) {
+            Some(wq) => w.extend(wq.iter().map(|&(m, x)| (m, x / n))),
+            None => w.push((q, 1.0 / n)),
         }
     }
-    if n < 2 {
-        return [mu, mv, f64::NAN, f64::NAN];
+    w.sort_by_key(|&(m, _)| m);
+    let mut merged: Vec<(usize, f64)> = Vec::with_capacity(w.len());
+    for (m, x) in w {
+        match merged.last_mut() {
+            Some(l) if l.0 == m => l.1 += x,
+            _ => merged.push((m, x)),
+        }
     }
-    let (mut vu, mut vv) = (qu / (n - 1) as f64, qv / (n - 1) as f64);
-    if ns > 0 {
-        vu += s2u / ns as f64;
-        vv += s2v / ns as f64;
+    (mean, merged)
+}
+
+/// Sets `sigma_u`, `sigma_v` of every filled node to its estimated model
+/// error and records the weights in `field.fill_weights` (module docs).
+fn model_error(field: &mut Field, weights: &[(usize, Vec<(usize, f64)>)], nx: usize) {
+    let (ny, _) = field.status.dim();
+    let mut out = Vec::with_capacity(weights.len());
+    for (k, w) in weights {
+        let (j, i) = ((k / nx) as i32, (k % nx) as i32);
+        let at = |m: usize| ((m / nx) as i32 - j, (m % nx) as i32 - i);
+        let reach = w
+            .iter()
+            .map(|&(m, _)| {
+                let (a, b) = at(m);
+                a.abs().max(b.abs())
+            })
+            .max()
+            .unwrap_or(1);
+        let mut model = Vec::new();
+        for r in [2.max(reach), 3.max(reach)] {
+            let offsets: Vec<(i32, i32)> = (-r..=r)
+                .flat_map(|a| (-r..=r).map(move |b| (a, b)))
+                .filter(|&(a, b)| {
+                    let (jj, ii) = (j + a, i + b);
+                    jj >= 0
+                        && ii >= 0
+                        && (jj as usize) < ny
+                        && (ii as usize) < nx
+                        && field.status[[jj as usize, ii as usize]] == VALID
+                })
+                .collect();
+            let Some(fit) = [2, 1]
+                .into_iter()
+                .find_map(|d| PolyFit::new(offsets.clone(), d))
+            else {
+                continue;
+            };
+            // delta = sum_m W_m p(x_m) - p(0), as a stencil of the data.
+            let mut st = fit.value_at(0, 0).scaled(-1.0);
+            for &(m, x) in w {
+                let (a, b) = at(m);
+                st = st.combine(1.0, &fit.value_at(a, b), x);
+            }
+            model = st
+                .taps
+                .iter()
+                .map(|t| (((j + t.dj) as usize) * nx + (i + t.di) as usize, t.w))
+                .collect();
+            break;
+        }
+        let delta = |a: &ndarray::Array2<f64>| {
+            if model.is_empty() {
+                return f64::NAN;
+            }
+            let s = a.as_slice().expect("standard layout");
+            model.iter().map(|&(m, x)| x * s[m]).sum::<f64>().abs()
+        };
+        let (du, dv) = (delta(&field.u), delta(&field.v));
+        field.sigma_u[[j as usize, i as usize]] = du;
+        field.sigma_v[[j as usize, i as usize]] = dv;
+        out.push(FillWeights {
+            node: *k,
+            weights: w.clone(),
+            model,
+        });
     }
-    [mu, mv, vu.sqrt(), vv.sqrt()]
+    field.fill_weights = out;
 }
 
 #[cfg(test)]

@@ -207,6 +207,22 @@ impl Pls {
         Self::search(|t| self.gcv_full(&c, 10f64.powf(t)))
     }
 
+    /// GCV-chosen s shared by several full-weight components (u and v):
+    /// the sum of their GCV scores, i.e. the pooled residual over the
+    /// pooled count (one smoothing for a vector field, as in Garcia 2010's
+    /// multicomponent smoothing, from memory).
+    pub fn gcv_s_joint(&self, ys: &[&[f64]]) -> f64 {
+        let cs: Vec<Vec<f64>> = ys
+            .iter()
+            .map(|y| {
+                let mut c = y.to_vec();
+                self.dct.forward(&mut c);
+                c
+            })
+            .collect();
+        Self::search(|t| cs.iter().map(|c| self.gcv_full(c, 10f64.powf(t))).sum())
+    }
+
     /// `IDCT(G(s) . DCT(y))`.
     pub fn smooth_full(&self, y: &[f64], s: f64) -> Vec<f64> {
         let mut c = y.to_vec();

@@ -54,25 +54,24 @@ fn isolated_holes_in_a_linear_field_are_filled_exactly_and_valid_vectors_kept() 
             }
         }
     }
-    // sigma: sample std of the 8 neighbours of (2,3) in u (derived: values
-    // 1 + 0.3x - 0.2y at x = 2..4, y = 1..3 without the centre) plus the
-    // neighbours' sigma 0.01 in quadrature
-    let nb: Vec<f64> = [
-        (1, 2),
-        (1, 3),
-        (1, 4),
-        (2, 2),
-        (2, 4),
-        (3, 2),
-        (3, 3),
-        (3, 4),
-    ]
-    .iter()
-    .map(|&(j, i)| lin(i as f64, j as f64).0)
-    .collect();
-    let m = nb.iter().sum::<f64>() / 8.0;
-    let s2 = nb.iter().map(|x| (x - m).powi(2)).sum::<f64>() / 7.0;
-    assert_close(f.sigma_u[[2, 3]], (s2 + 1e-4).sqrt(), 1e-12, 0.0, "sigma_u");
+    // sigma is the fill's model error only (the noise goes through the
+    // weights in derive): zero for a linear field (the 8-neighbour mean is
+    // exact for it), and the weights are 1/8 on the 8 valid neighbours.
+    assert_close(
+        f.sigma_u[[2, 3]],
+        0.0,
+        1e-12,
+        0.0,
+        "model error of a linear field",
+    );
+    let w = &f
+        .fill_weights
+        .iter()
+        .find(|r| r.node == 2 * 9 + 3)
+        .unwrap()
+        .weights;
+    assert_eq!(w.len(), 8);
+    assert!(w.iter().all(|&(_, x)| (x - 0.125).abs() < 1e-15));
 }
 
 #[test]
@@ -128,9 +127,99 @@ fn holes_far_from_data_are_masked() {
         ..Params::default()
     };
     assert_eq!(fill(&p, &mut g).unfilled, 0);
-    // the central node gets a larger uncertainty than a rim node
-    assert!(g.sigma_v[[7, 7]].is_finite());
-    assert!(g.sigma_u[[7, 7]] >= g.sigma_u[[3, 7]] * 0.5);
+    // The model error estimate is exact for a linear (and any quadratic)
+    // flow: sigma_u = |filled - true| at every filled node, rim or centre
+    // (derived: the local quadratic fit reproduces the flow).
+    for j in 3..12 {
+        for i in 3..12 {
+            let err = (g.u[[j, i]] - i as f64).abs();
+            assert_close(g.sigma_u[[j, i]], err, 1e-9, 0.0, &format!("({j},{i})"));
+            let sum: f64 = g
+                .fill_weights
+                .iter()
+                .find(|r| r.node == j * 15 + i)
+                .unwrap()
+                .weights
+                .iter()
+                .map(|w| w.1)
+                .sum();
+            assert_close(sum, 1.0, 1e-12, 0.0, "weights sum to 1");
+        }
+    }
+}
+
+/// Issue 11 item 4: the uncertainty of filled vectors against Monte Carlo.
+/// A uniform stream with white noise and with 50 %-overlap noise (2 x 2
+/// top-hat average, rho(1) = 0.5, derived), isolated holes and a 3 x 3 gap;
+/// the reported sigma of filled vectors (derive's u_unc, noise through the
+/// fill weights, GUM eq. 13) must match the RMS of their actual error
+/// within 20 % (before: 4-5 x too large). Measured with white noise:
+/// 1.116 (the floored debiasing of the model-error term leaves a positive
+/// residue where the flow is uniform; without the debiasing 1.184). Vorticity at nodes whose stencil
+/// uses a filled vector: within 20 % (the cross-covariance of a filled
+/// vector with its source vectors is replaced by the correlation model's
+/// there; measured values printed).
+#[test]
+fn filled_vector_uncertainty_matches_monte_carlo() {
+    use crate::derive::noise::tests::box_noise;
+    use crate::derive::{derive, Params as DParams};
+    let g = grid(28, 28);
+    let holes: Vec<(usize, usize)> = (4..24)
+        .flat_map(|j| (4..24).map(move |i| (j, i)))
+        .filter(|&(j, i)| (7 * j + 3 * i) % 23 == 0)
+        .chain((12..15).flat_map(|j| (12..15).map(move |i| (j, i))))
+        .collect();
+    let near: Vec<(usize, usize)> = holes
+        .iter()
+        .flat_map(|&(j, i)| [(j, i + 1), (j + 1, i)])
+        .filter(|n| !holes.contains(n))
+        .collect();
+    let mut r = rng(77);
+    for w in [1, 2] {
+        let (mut e2, mut u2, mut n) = (0.0, 0.0, 0usize);
+        let (mut o1, mut o2, mut ou2) = (vec![0.0; near.len()], vec![0.0; near.len()], 0.0);
+        let reps = 300;
+        for _ in 0..reps {
+            let mut f = Field::from_fn(g, |_, _| (0.3, 0.1));
+            f.u = &f.u + &(box_noise(&mut r, 28, 28, w) * 0.02);
+            f.v = &f.v + &(box_noise(&mut r, 28, 28, w) * 0.02);
+            for &(j, i) in &holes {
+                hole(&mut f, j, i, REPLACED);
+            }
+            fill(&Params::default(), &mut f);
+            let d = derive(
+                &DParams {
+                    quantities: vec![],
+                    truncation: false,
+                    ..DParams::default()
+                },
+                &f,
+            );
+            for &(j, i) in &holes {
+                e2 += (d.u[[j, i]] - 0.3).powi(2);
+                u2 += d.u_unc[[j, i]].powi(2);
+                n += 1;
+            }
+            let om = d.get("omega").unwrap();
+            for (k, &(j, i)) in near.iter().enumerate() {
+                o1[k] += om.value[[j, i]];
+                o2[k] += om.value[[j, i]].powi(2);
+                ou2 += om.unc.as_ref().unwrap()[[j, i]].powi(2);
+            }
+        }
+        let ratio = (u2 / e2).sqrt();
+        let rf = reps as f64;
+        let var: f64 = o1
+            .iter()
+            .zip(&o2)
+            .map(|(a, b)| b / rf - (a / rf).powi(2))
+            .sum::<f64>()
+            / near.len() as f64;
+        let oratio = (ou2 / (rf * near.len() as f64) / var).sqrt();
+        eprintln!("W {w}: filled u: reported/actual {ratio:.3} ({n} values); omega next to them {oratio:.3}");
+        assert_close(ratio, 1.0, 0.20, 0.0, &format!("filled u, W {w}"));
+        assert_close(oratio, 1.0, 0.20, 0.0, &format!("omega near fills, W {w}"));
+    }
 }
 
 /// Issue #3: with 20 % of the nodes missing, inpainting (Garcia 2010) beats

@@ -41,8 +41,9 @@ pub struct RawMedian {
     /// Noise floor in px of displacement (default 0.1 px when the
     /// calibration is known).
     pub eps_px: Option<f64>,
-    /// Noise floor in the input velocity unit (default 0.1 unit when the
-    /// calibration is not known; give it explicitly then).
+    /// Noise floor in the input velocity unit. Without it and without the
+    /// calibration, each frame's estimated noise (stated in the manifest:
+    /// `eps_noise`); a px default is never read in another unit.
     pub eps: Option<f64>,
     /// Normalized residual above which a vector is rejected (default 2).
     pub threshold: Option<f64>,
@@ -83,7 +84,7 @@ pub struct RawEnsemble {
     /// Lower bound on the robust standard deviation, in px (default 0.1 px
     /// when calibrated).
     pub floor_px: Option<f64>,
-    /// Same in the input velocity unit (default 0.1 unit uncalibrated).
+    /// Same in the input velocity unit (required without the calibration).
     pub floor: Option<f64>,
     /// Nodes with fewer valid vectors in the run are not tested (default 10).
     pub min_samples: Option<usize>,
@@ -135,7 +136,9 @@ fn positive(key: &str, v: f64) -> Result<f64> {
 }
 
 /// A velocity given in px (`px_key`) or in the input unit (`unit_key`), in
-/// m/s; `default` (in px when calibrated, else in the input unit).
+/// m/s; without either, `default` px when the calibration is known, else
+/// `None`: a default in px is never read in another unit (the caller
+/// derives one from the data or asks for the key).
 fn velocity(
     ctx: &ResolveCtx,
     px_key: &str,
@@ -143,7 +146,7 @@ fn velocity(
     unit_key: &str,
     unit: Option<f64>,
     default: f64,
-) -> Result<f64> {
+) -> Result<Option<f64>> {
     match (px, unit) {
         (Some(_), Some(_)) => Err(Error::usage(format!(
             "give either {px_key} (px of displacement) or {unit_key} (input velocity unit), not both"
@@ -156,10 +159,10 @@ fn velocity(
                      without it give {unit_key} in the input velocity unit"
                 ))
             })?;
-            Ok(p * s)
+            Ok(Some(p * s))
         }
-        (None, Some(u)) => Ok(positive(unit_key, u)? * ctx.velocity_scale),
-        (None, None) => Ok(default * ctx.px_velocity.unwrap_or(ctx.velocity_scale)),
+        (None, Some(u)) => Ok(Some(positive(unit_key, u)? * ctx.velocity_scale)),
+        (None, None) => Ok(ctx.px_velocity.map(|s| default * s)),
     }
 }
 
@@ -198,7 +201,11 @@ pub fn resolve_validation(raw: &RawValidation, ctx: &ResolveCtx) -> Result<valid
             }
         };
         Some(MedianParams {
-            eps,
+            // Without a calibration and without eps: eps = the frame's
+            // estimated noise (Westerweel & Scarano 2005 give eps = 0.1 px
+            // as the typical noise level of PIV; from memory).
+            eps: eps.unwrap_or(0.0),
+            eps_noise: eps.is_none().then_some(1.0),
             threshold: positive("[validation] median.threshold", m.threshold.unwrap_or(2.0))?,
             radius,
             combine,
@@ -218,6 +225,14 @@ pub fn resolve_validation(raw: &RawValidation, ctx: &ResolveCtx) -> Result<valid
             0.1,
         )?;
         if e.enabled.unwrap_or(true) {
+            let Some(floor) = floor else {
+                return Err(Error::usage(
+                    "[validation] ensemble needs its noise floor: without pixel_size and \
+                     pulse_separation in [input] the 0.1 px default cannot be converted; give \
+                     ensemble.floor in the input velocity unit (about the random error of one \
+                     vector), or the calibration",
+                ));
+            };
             let min_samples = e.min_samples.unwrap_or(10);
             if min_samples < 3 {
                 return Err(Error::usage(format!(
@@ -259,7 +274,8 @@ pub fn resolve_validation(raw: &RawValidation, ctx: &ResolveCtx) -> Result<valid
             }
             (None, None, Some(spread)) => Bounds::Robust {
                 spread: positive("[validation] limits.spread", spread)?,
-                floor,
+                // no floor without a calibration or a given eps/floor
+                floor: floor.unwrap_or(0.0),
             },
             _ => {
                 return Err(Error::usage(
@@ -278,8 +294,10 @@ pub fn resolve_validation(raw: &RawValidation, ctx: &ResolveCtx) -> Result<valid
         }
         p.max_rejected_fraction = Some(f);
     }
-    // ensemble histograms resolve a fifth of the noise floor near zero
-    p.histogram_resolution = 0.2 * floor;
+    // ensemble histograms resolve a fifth of the noise floor near zero;
+    // without a known floor, 1e-3 of the input velocity unit (a bin width,
+    // not a threshold)
+    p.histogram_resolution = floor.map_or(1e-3 * ctx.velocity_scale, |f| 0.2 * f);
     Ok(p)
 }
 

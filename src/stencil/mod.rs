@@ -9,6 +9,7 @@
 //! the grid pitch in their weights, so `out` is in physical units.
 
 pub mod correlation;
+pub mod cut;
 pub mod derivatives;
 pub mod lsq;
 pub mod second;

@@ -7,23 +7,22 @@
 //! derivatives compose with it and uncertainty propagates through the
 //! composite). Does not own: when smoothing runs (the plan and `derive`).
 //!
-//! # Edges and gaps (linear smoothers)
+//! # Edges and gaps
 //!
 //! At a node where every tap lands on a node with a value, the output is
-//! the stencil exactly (`equivalent_stencil` describes these nodes). Where
-//! taps fall outside the grid or on nodes without a value:
-//! - a non-negative kernel (Gaussian) is renormalised over the taps that
-//!   remain, `out = sum_used w f / sum_used w`, so a constant still passes
-//!   unchanged; the node is smoothed less symmetrically, not biased toward 0;
-//! - a kernel with negative weights (Savitzky-Golay of order >= 2) is not
-//!   renormalised, which would not be a least-squares fit: such a node keeps
-//!   its input value (unsmoothed).
+//! the stencil exactly (`equivalent_stencil` describes these nodes).
+//! Elsewhere the smoother applies the operator `cut::cut` returns for its
+//! rule (`Smoother::cut_rule`): Gaussian renormalised, Savitzky-Golay
+//! refitted on the nodes left, PLS folded at the grid's edge. Values and
+//! uncertainties go through that one function, so they describe the same
+//! operator.
 //!
 //! Nodes without a value (`valid` false) come out NaN: smoothing does not
 //! fill. `Smoother::None` returns its input unchanged, NaN or not.
 
 use ndarray::Array2;
 
+use super::cut::{cut, reproduced_degree, Cut};
 use super::{Stencil, Tap};
 use crate::fill::pls::Pls;
 
@@ -83,6 +82,48 @@ impl Smoother {
         }
     }
 
+    /// How this smoother continues where its stencil is cut (`cut`).
+    pub fn cut_rule(&self) -> Cut {
+        match self {
+            Smoother::Linear(st) if st.taps.iter().any(|t| t.w < 0.0) => Cut::Refit {
+                degree: reproduced_degree(st),
+            },
+            Smoother::Pls { .. } => Cut::Reflect,
+            _ => Cut::Renormalise,
+        }
+    }
+
+    /// This smoother with every per-frame choice made: PLS without `s` gets
+    /// the generalised cross-validation choice for the frame's `u` and `v`
+    /// (`valid`: nodes with a value in both), one `s` for both components
+    /// (joint GCV, `Pls::gcv_s_joint`; with gaps, the geometric mean of the
+    /// two weighted choices), rounded to 1/16 decade (`quantise_s`: at most
+    /// 7.5 % from the optimum, whose GCV curve is flat there, and a few
+    /// distinct operators per run for the stencil caches). Others are
+    /// returned as they are.
+    pub fn for_frame(&self, u: &Array2<f64>, v: &Array2<f64>, valid: &Array2<bool>) -> Smoother {
+        let Smoother::Pls { s: None, robust } = *self else {
+            return self.clone();
+        };
+        let (ny, nx) = u.dim();
+        let known =
+            |a: &Array2<f64>, k: usize| valid[(k / nx, k % nx)] && a[(k / nx, k % nx)].is_finite();
+        let full = (0..ny * nx).all(|k| known(u, k) && known(v, k));
+        let s = if full && !robust {
+            let yu: Vec<f64> = u.iter().copied().collect();
+            let yv: Vec<f64> = v.iter().copied().collect();
+            Pls::new(ny, nx).gcv_s_joint(&[&yu, &yv])
+        } else {
+            let su = self.apply_with_s(u, valid).1.unwrap_or(f64::NAN);
+            let sv = self.apply_with_s(v, valid).1.unwrap_or(f64::NAN);
+            (su * sv).sqrt()
+        };
+        Smoother::Pls {
+            s: Some(quantise_s(s)),
+            robust,
+        }
+    }
+
     /// The linear stencil that this smoother is (or, for PLS with a given s,
     /// its equivalent interior kernel, `pls_kernel(s)`), for composing with
     /// derivatives and propagating uncertainty; `None` for no smoothing and
@@ -98,35 +139,22 @@ impl Smoother {
     }
 }
 
-/// Applies a linear stencil with the edge rules of the module docs.
+/// `s` rounded to the nearest 1/16 decade (see `Smoother::for_frame`).
+pub fn quantise_s(s: f64) -> f64 {
+    10f64.powf((16.0 * s.log10()).round() / 16.0)
+}
+
+/// Applies a linear stencil, cut by `cut` where it does not fit.
 fn apply_linear(st: &Stencil, a: &Array2<f64>, valid: &Array2<bool>) -> Array2<f64> {
-    let (ny, nx) = a.dim();
-    let nonneg = st.taps.iter().all(|t| t.w >= 0.0);
-    Array2::from_shape_fn((ny, nx), |(j, i)| {
-        if !(valid[[j, i]] && a[[j, i]].is_finite()) {
-            return f64::NAN;
-        }
-        let (mut s, mut ws, mut complete) = (0.0, 0.0, true);
-        for t in &st.taps {
-            let (jj, ii) = (j as i64 + t.dj as i64, i as i64 + t.di as i64);
-            if jj < 0 || ii < 0 || jj >= ny as i64 || ii >= nx as i64 {
-                complete = false;
-                continue;
-            }
-            let ix = (jj as usize, ii as usize);
-            if !(valid[ix] && a[ix].is_finite()) {
-                complete = false;
-                continue;
-            }
-            s += t.w * a[ix];
-            ws += t.w;
-        }
-        if complete {
-            s
-        } else if nonneg && ws > 0.0 {
-            s / ws
+    let ok = Array2::from_shape_fn(a.dim(), |ix| valid[ix] && a[ix].is_finite());
+    let rule = Smoother::Linear(st.clone()).cut_rule();
+    Array2::from_shape_fn(a.dim(), |(j, i)| {
+        if !ok[[j, i]] {
+            f64::NAN
+        } else if st.fits(j, i, &ok) {
+            st.apply_at(a, j, i)
         } else {
-            a[[j, i]]
+            cut(st, rule, &ok, j, i).map_or(f64::NAN, |c| c.apply_at(a, j, i))
         }
     })
 }

@@ -55,7 +55,12 @@ pub enum Combine {
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct MedianParams {
     /// Noise floor in the denominator (m/s); about 0.1 px of displacement.
+    /// Not used when `eps_noise` is set.
     pub eps: f64,
+    /// When set (no calibration and no eps given), eps on each frame is
+    /// this factor times the frame's estimated random error
+    /// (`frame_noise`), never a px default read in another unit.
+    pub eps_noise: Option<f64>,
     /// Normalized residual above which a vector is rejected (default 2).
     pub threshold: f64,
     /// Neighbourhood radius in nodes: 1 (3x3) or 2 (5x5).
@@ -70,12 +75,40 @@ impl Default for MedianParams {
     fn default() -> Self {
         MedianParams {
             eps: 0.1,
+            eps_noise: None,
             threshold: 2.0,
             radius: 1,
             combine: Combine::Either,
             min_neighbours: 3,
         }
     }
+}
+
+impl MedianParams {
+    /// The eps used on `field` (m/s): the given one, or `eps_noise` times
+    /// the frame's estimated random error.
+    pub fn eps_for(&self, field: &Field) -> f64 {
+        match self.eps_noise {
+            None => self.eps,
+            Some(k) => k * frame_noise(field),
+        }
+    }
+}
+
+/// The random error (m/s) of the valid vectors of `field` before
+/// validation: `derive::noise::estimate` under the frame's estimated
+/// error correlation (both robust, median-based, so the outliers the test
+/// is about to catch barely move it); where too few runs of five valid
+/// vectors exist, `noise::estimate_pairs`; 0 without any valid pair.
+pub fn frame_noise(field: &Field) -> f64 {
+    use crate::derive::noise;
+    let corr = noise::estimate_overlap(field).map_or(
+        crate::stencil::correlation::Correlation::Independent,
+        noise::overlap_model,
+    );
+    noise::estimate(field, &corr)
+        .or_else(|| noise::estimate_pairs(field))
+        .unwrap_or(0.0)
 }
 
 /// Most neighbours a node can have (radius 2).
@@ -259,6 +292,7 @@ pub fn normalized_residual(u0: f64, nb: &mut [f64], eps: f64) -> f64 {
 /// Runs the test on every valid node of `field` (standard layout); rejected
 /// vectors become `REPLACED` with NaN values. Returns how many.
 pub(crate) fn apply(p: &MedianParams, field: &mut Field) -> usize {
+    let eps = p.eps_for(field);
     let (ny, nx) = field.status.dim();
     let r = p.radius.clamp(1, 2) as isize;
     let need = p.min_neighbours.max(1);
@@ -298,7 +332,7 @@ pub(crate) fn apply(p: &MedianParams, field: &mut Field) -> usize {
                 if n < need {
                     continue;
                 }
-                let [ru, rv] = residual_pair8(Pair::new(us[k], vs[k]), &mut b, n, p.eps);
+                let [ru, rv] = residual_pair8(Pair::new(us[k], vs[k]), &mut b, n, eps);
                 (ru, rv)
             } else {
                 let mut n = 0;
@@ -317,8 +351,8 @@ pub(crate) fn apply(p: &MedianParams, field: &mut Field) -> usize {
                     continue;
                 }
                 (
-                    normalized_residual(us[k], &mut bu[..n], p.eps),
-                    normalized_residual(vs[k], &mut bv[..n], p.eps),
+                    normalized_residual(us[k], &mut bu[..n], eps),
+                    normalized_residual(vs[k], &mut bv[..n], eps),
                 )
             };
             let bad = match p.combine {

@@ -45,8 +45,14 @@ fn noisy(n: usize, noise: f64, r: &mut impl Rng) -> Field {
 /// Gaussian noise of `noise` px and 2 % outliers displaced by 10..40 times
 /// the noise in a random direction. Returns (recall, false-positive rate).
 fn detection(noise: f64, frames: usize, seed: u64) -> (f64, f64) {
+    // eps 0.1 (px here), threshold 2
+    detection_with(&Params::default(), 1.0, noise, frames, seed)
+}
+
+/// As `detection`, with the chain `p` and every velocity multiplied by
+/// `scale` (m/s per px).
+fn detection_with(p: &Params, scale: f64, noise: f64, frames: usize, seed: u64) -> (f64, f64) {
     let mut r = rng(seed);
-    let p = Params::default(); // eps 0.1 (px here), threshold 2
     let (mut hit, mut n_out, mut fp, mut n_ok) = (0, 0, 0, 0);
     for _ in 0..frames {
         let mut f = noisy(64, noise, &mut r);
@@ -60,7 +66,9 @@ fn detection(noise: f64, frames: usize, seed: u64) -> (f64, f64) {
                 f.v[[k / 64, k % 64]] += m * a.sin();
             }
         }
-        let c = validate_frame(&p, &mut f, None);
+        f.u *= scale;
+        f.v *= scale;
+        let c = validate_frame(p, &mut f, None);
         assert_eq!(c.outliers(), c.median);
         for (k, &o) in is_out.iter().enumerate() {
             let rej = f.status[[k / 64, k % 64]] == REPLACED;
@@ -92,6 +100,48 @@ fn median_test_detects_injected_outliers_with_few_false_positives() {
         eprintln!("noise {noise} px: recall {recall:.4}, false-positive rate {fpr:.5}");
         assert!(recall >= 0.98, "noise {noise}: recall {recall}");
         assert!(fpr <= max_fpr, "noise {noise}: false-positive rate {fpr}");
+    }
+}
+
+/// Issue 11 item 12: input in m/s without a calibration. The 0.1 px
+/// default used to be read as 0.1 m/s (about 50 x the noise here), and the
+/// test caught few outliers. Now eps is each frame's estimated noise
+/// (`MedianParams::eps_noise`); its detection must be comparable to the
+/// calibrated default (eps = 0.1 px; Westerweel & Scarano 2005). 1 px =
+/// 0.019 m/s (a water channel: 40 um pixels, 2.1 ms between exposures),
+/// noise 0.075 px and 0.1 px, 2 % outliers of 10-40 x the noise.
+#[test]
+fn median_test_without_calibration_takes_eps_from_the_noise_not_from_px() {
+    let px = 4e-5 / 2.1e-3;
+    let with = |eps: f64, eps_noise: Option<f64>| Params {
+        median: Some(MedianParams {
+            eps,
+            eps_noise,
+            ..MedianParams::default()
+        }),
+        ..Params::default()
+    };
+    for noise in [0.075, 0.1] {
+        let cal = detection_with(&with(0.1 * px, None), px, noise, 8, 41);
+        let new = detection_with(&with(0.0, Some(1.0)), px, noise, 8, 41);
+        let old = detection_with(&with(0.1, None), px, noise, 8, 41);
+        eprintln!(
+            "noise {noise} px: (recall, false positives) calibrated {cal:.4?}, \
+             from noise {new:.4?}, 0.1 px read as 0.1 m/s {old:.4?}"
+        );
+        assert!(
+            new.0 >= cal.0 - 0.01,
+            "recall {} vs calibrated {}",
+            new.0,
+            cal.0
+        );
+        assert!(
+            new.1 <= cal.1 + 0.005,
+            "false positives {} vs {}",
+            new.1,
+            cal.1
+        );
+        assert!(old.0 < 0.5, "the old reading should miss most: {}", old.0);
     }
 }
 

@@ -27,9 +27,21 @@ fn defaults_are_the_median_test_at_a_tenth_of_a_pixel() {
     );
     assert!(p.limits.is_none() && p.ensemble.is_none() && p.max_rejected_fraction.is_none());
     assert!(!p.needs_ensemble_pass());
-    // uncalibrated, input in mm/s: 0.1 mm/s
+    // Uncalibrated (issue 11 item 12): the 0.1 px default is never read as
+    // 0.1 of the input unit; eps is each frame's estimated noise instead.
     let p = val("", &ctx(None, 1e-3)).unwrap();
-    assert!((p.median.unwrap().eps - 1e-4).abs() < 1e-18);
+    assert_eq!(p.median.as_ref().unwrap().eps_noise, Some(1.0));
+    // given in the input unit (mm/s), it is used as given
+    let p = val("median = { eps = 0.5 }", &ctx(None, 1e-3)).unwrap();
+    let m = p.median.unwrap();
+    assert!((m.eps - 5e-4).abs() < 1e-18 && m.eps_noise.is_none());
+    // the ensemble floor has no data-based default before its pass: a usage
+    // error that says what to give; with the floor given it resolves
+    let e = val("ensemble = { k = 5.0 }", &ctx(None, 1.0)).unwrap_err();
+    assert_eq!(e.exit_code(), 2);
+    assert!(e.to_string().contains("ensemble.floor"), "{e}");
+    let p = val("ensemble = { floor = 0.002 }", &ctx(None, 1.0)).unwrap();
+    assert_eq!(p.ensemble.unwrap().floor, 0.002);
 }
 
 #[test]
@@ -107,7 +119,10 @@ fn bad_values_name_the_key_and_what_is_expected() {
             "\"box\" or \"ellipse\"",
         ),
         ("max_rejected_fraction = 1.5", "max_rejected_fraction = 1.5"),
-        ("ensemble = { min_samples = 1 }", "ensemble.min_samples = 1"),
+        (
+            "ensemble = { min_samples = 1, floor = 0.1 }",
+            "ensemble.min_samples = 1",
+        ),
         ("median = { thresold = 2.0 }", "thresold"),
     ] {
         let e = val(text, &c).unwrap_err();

@@ -74,6 +74,7 @@ fn frame(
         noise_estimate: None,
         noise_used: 0.02,
         correlation: crate::stencil::correlation::Correlation::Independent,
+        smoothing_s: None,
         scheme_map: Array2::zeros(sh),
         scheme_names: vec!["least-squares"],
         scheme_counts: vec![sh.0 * sh.1],
