@@ -381,3 +381,35 @@ pub fn gamma(
     }
     (g1, g2)
 }
+
+#[cfg(test)]
+mod nan_tests {
+    use super::*;
+
+    #[test]
+    fn unknown_stays_nan_and_q_carries_its_analytic_noise_shift() {
+        // f64::max(NaN, 0) is 0: the old debias and lambda_ci reported an
+        // unknown bias or swirl as 0 (issue #11 item 9).
+        assert!(debias(f64::NAN, 1.0).is_nan());
+        assert!(debias(1.0, f64::NAN).is_nan());
+        assert!(clip0(f64::NAN).is_nan());
+        assert_eq!(debias(1.0, 4.0), 0.0);
+        let mut n = Node {
+            val: [0.1, -1.0, 1.0, -0.1],
+            var: [0.01, 0.02, 0.03, 0.04],
+            bias: [f64::NAN; 4],
+            bvar: [f64::NAN; 4],
+        };
+        for kind in [Kind::Omega, Kind::LambdaCi, Kind::Q] {
+            let v = at(kind, &n);
+            assert!(v.bias.is_nan() && v.b.is_nan(), "{kind:?}: {v:?}");
+        }
+        // q's shift: -(var_a + var_d)/2 (derived: E[a^2] = a^2 + var_a).
+        assert_eq!(at(Kind::Q, &n).shift, -0.5 * (0.01 + 0.04));
+        assert_eq!(at(Kind::Omega, &n).shift, 0.0);
+        assert!(at(Kind::LambdaCi, &n).shift.is_nan());
+        n.val[0] = f64::NAN;
+        let l = at(Kind::LambdaCi, &n);
+        assert!(l.val.is_nan() && l.unc.is_nan(), "{l:?}");
+    }
+}

@@ -279,6 +279,48 @@ mod tests {
     }
 
     #[test]
+    fn std_uncertainty_follows_the_measured_flatness() {
+        // Monte Carlo (seeded): uniform samples (flatness 1.8, derived) and
+        // Laplace samples (flatness 6); the scatter of the sample std over
+        // trials against s/2 sqrt((F - (N-3)/(N-1))/N) (Kenney & Keeping).
+        let (n, trials) = (100usize, 3000);
+        let mut r = rng(41);
+        for (flat, draw) in [
+            (
+                1.8,
+                &(|r: &mut rand_chacha::ChaCha8Rng| -> f64 {
+                    rand::Rng::random_range(r, -1.0..1.0)
+                }) as &dyn Fn(&mut rand_chacha::ChaCha8Rng) -> f64,
+            ),
+            (6.0, &|r: &mut rand_chacha::ChaCha8Rng| -> f64 {
+                let u: f64 = rand::Rng::random_range(r, -0.5..0.5);
+                -u.signum() * (1.0 - 2.0 * u.abs()).ln()
+            }),
+        ] {
+            let mut stds = Vec::with_capacity(trials);
+            for _ in 0..trials {
+                let xs: Vec<f64> = (0..n).map(|_| draw(&mut r)).collect();
+                let m = xs.iter().sum::<f64>() / n as f64;
+                let v = xs.iter().map(|x| (x - m) * (x - m)).sum::<f64>() / (n as f64 - 1.0);
+                stds.push(v.sqrt());
+            }
+            let m = stds.iter().sum::<f64>() / trials as f64;
+            let sd = (stds.iter().map(|x| (x - m) * (x - m)).sum::<f64>() / (trials as f64 - 1.0))
+                .sqrt();
+            let pred = std_unc_flat(m, flat, n as f64);
+            eprintln!("flatness {flat}: predicted u(s) {pred:.5}, Monte Carlo {sd:.5}, Gaussian rule {:.5}", std_unc(m, n as f64));
+            assert_close(pred, sd, 0.0, 0.08, "u(s) with flatness");
+        }
+        assert_close(
+            std_unc_flat(1.0, 3.0, 50.0),
+            std_unc(1.0, 50.0),
+            1e-15,
+            0.0,
+            "Gaussian",
+        );
+    }
+
+    #[test]
     fn infinite_dof_uses_the_normal_quantile_and_empty_sets_are_zero() {
         // Common practice: k = 1.95996 for 95 % of a normal distribution.
         assert_close(
