@@ -34,7 +34,8 @@
 //! instantaneous value (it averages down over frames); `Quantity.bias` is
 //! the standard uncertainty of the systematic truncation error (it does
 //! not). A mean over N frames combines them as
-//! `u(mean)^2 = s^2/N_eff + mean over frames of bias^2`.
+//! `u(mean)^2 = s^2/N_eff + B^2`, B the debiased mean of the signed
+//! truncation estimates `Quantity.trunc` (`stats::table`).
 //!
 //! Cost (release, one thread, 200 x 200 grid, this 2-core machine shared
 //! with other jobs, CPU time): about 650 ns per vector with every quantity

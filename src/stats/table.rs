@@ -22,16 +22,24 @@
 //!   (divisor N - 1), skewness and flatness from the population central
 //!   moments (`m3 / m2^1.5`, `m4 / m2^2`; common practice).
 //! - `*_mean_unc`: combined standard uncertainty of the mean (GUM eq. 10):
-//!   the random part `sigma / sqrt(N_eff)` (nu = N_eff - 1), the RMS over
-//!   frames of the truncation-bias estimate of a derived quantity
-//!   (systematic, not corrected, nu = infinity), and the scale systematics:
+//!   the random part `s / sqrt(N_eff)` times `sqrt((N-1)/(N-N/N_eff))`
+//!   (`gum::mean_unc_correlated`; nu = N_eff - 1), the truncation of the
+//!   mean of a derived quantity (`systematic`: the debiased mean of the
+//!   signed per-frame estimates; not corrected, nu = infinity), and the
+//!   scale systematics:
 //!   a quantity of unit m^a s^b made from pixel displacements and positions
 //!   scales as M^a dt^b with the magnification M and the pulse separation
 //!   dt, so it carries the relative uncertainty
 //!   `sqrt((a r_cal)^2 + (b r_dt)^2)` times |value| (velocity: a = 1,
 //!   b = -1; vorticity: a = 0, b = -1, i.e. no calibration term). Both have
 //!   nu = infinity.
-//! - `*_std_unc`: `sigma / sqrt(2 (N_eff - 1))` with the scale systematic of
+//! - Appended at the end (after the per-quantity blocks):
+//!   `u_std_denoised, v_std_denoised, omega_std_denoised, k_denoised`
+//!   (`denoised`), `k_coherent_unc` (`phase`), `omega_bias_inst` (the RMS of
+//!   the per-frame debiased truncation, what `omega_bias` was before), then
+//!   per other quantity `q_std_denoised, q_bias_inst, q_noise_shift` (the
+//!   mean analytic noise shift removed from `q_mean`; NaN: none known).
+//! - `*_std_unc`: `gum::std_unc_flat` (measured flatness) with the scale systematic of
 //!   the quantity; `uv_cov_unc`: `sqrt((s_u^2 s_v^2 + cov^2)/(N_eff - 1))`
 //!   with twice the velocity's relative scale uncertainty.
 //! - `*_mean_unc_pNN`: expanded uncertainty at coverage NN %, k from
