@@ -36,7 +36,8 @@
 //! instantaneous value (it averages down over frames); `Quantity.bias` is
 //! the standard uncertainty of the systematic truncation error (it does
 //! not). A mean over N frames combines them as
-//! `u(mean)^2 = s^2/N_eff + mean over frames of bias^2`.
+//! `u(mean)^2 = s^2/N_eff + B^2`, B the debiased mean of the signed
+//! truncation estimates `Quantity.trunc` (`stats::table`).
 //!
 //! Cost (release, one thread, 200 x 200 grid, this 2-core machine shared
 //! with other jobs, CPU time): about 650 ns per vector with every quantity
@@ -166,6 +167,14 @@ pub struct Quantity {
     /// Estimated truncation (bias) error, a systematic component: the
     /// standard uncertainty it contributes (non-negative, debiased).
     pub bias: Option<Array2<f64>>,
+    /// The signed truncation estimate and its noise variance (present with
+    /// `bias`): the statistics average the signed estimate, because the
+    /// truncation of a mean is the mean of the truncations.
+    pub trunc: Option<[Array2<f64>; 2]>,
+    /// Expected shift of the value by measurement noise, where it has an
+    /// analytic form (`quantities` module doc); NaN where it has none,
+    /// `None` for the quantities that carry no uncertainty.
+    pub shift: Option<Array2<f64>>,
 }
 
 /// Everything derived from one snapshot.
@@ -435,9 +444,9 @@ pub fn derive(p: &Params, field: &Field) -> Derived {
         .filter_map(|(k, n)| quantities::Kind::of(n).map(|q| (k, q)))
         .collect();
     let n = sh.0 * sh.1;
-    let mut cols: Vec<[Vec<f64>; 3]> = kinds
+    let mut cols: Vec<[Vec<f64>; 6]> = kinds
         .iter()
-        .map(|_| [vec![f64::NAN; n], vec![f64::NAN; n], vec![f64::NAN; n]])
+        .map(|_| std::array::from_fn(|_| vec![f64::NAN; n]))
         .collect();
     let flat = quantities::Flat::new(&g, p.truncation);
     let ok_s = ok.as_slice().expect("standard layout");
@@ -450,15 +459,18 @@ pub fn derive(p: &Params, field: &Field) -> Derived {
             kind: quantities::Kind,
             flat: &quantities::Flat,
             ok: &[bool],
-            c: &mut [Vec<f64>; 3],
+            c: &mut [Vec<f64>; 6],
         ) {
-            let [c0, c1, c2] = c;
+            let [c0, c1, c2, c3, c4, c5] = c;
             for (k, &o) in ok.iter().enumerate() {
                 if o {
-                    let (a, b, t) = quantities::at(kind, &flat.node(k));
-                    c0[k] = a;
-                    c1[k] = b;
-                    c2[k] = t;
+                    let x = quantities::at(kind, &flat.node(k));
+                    c0[k] = x.val;
+                    c1[k] = x.unc;
+                    c2[k] = x.bias;
+                    c3[k] = x.b;
+                    c4[k] = x.vb;
+                    c5[k] = x.shift;
                 }
             }
         }
@@ -493,16 +505,21 @@ pub fn derive(p: &Params, field: &Field) -> Derived {
                     value: value.expect("gamma computed"),
                     unc: None,
                     bias: None,
+                    trunc: None,
+                    shift: None,
                 });
             }
             _ => {
-                let [val, unc, bias] = cols.next().expect("one column set per tensor quantity");
+                let [val, unc, bias, b, vb, shift] =
+                    cols.next().expect("one column set per tensor quantity");
                 out.push(Quantity {
                     name,
                     unit,
                     value: arr(val),
                     unc: Some(arr(unc)),
                     bias: p.truncation.then(|| arr(bias)),
+                    trunc: p.truncation.then(|| [arr(b), arr(vb)]),
+                    shift: Some(arr(shift)),
                 });
             }
         }

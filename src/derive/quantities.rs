@@ -35,7 +35,27 @@
 //! coefficients; the estimate's own noise variance `v_b` is removed from its
 //! square, `bias = sqrt(max(0, b^2 - v_b))` (an unbiased estimate of the
 //! squared systematic error, clipped at zero), so that pure noise does not
-//! pose as a systematic error.
+//! pose as a systematic error. The signed `b` and `v_b` are handed on too:
+//! the truncation of a *mean* is the mean of the signed estimates (the
+//! estimate is linear in the data), debiased by the statistics stage.
+//!
+//! Noise bias of nonlinear quantities (the mean of `f(x + e)` is not
+//! `f(x)`): to second order `E[f(x + e)] - f(x) = 1/2 sum_k f_kk var_k` for
+//! uncorrelated components (Taylor expansion; GUM eq. 14's second-order
+//! terms, common practice). Where that is exact it is returned as the
+//! quantity's `shift`, which the statistics subtract from the mean:
+//! - q: `f_aa = f_dd = -1`, `f_bb = f_cc = 0`, so `shift = -(var_a + var_d)/2`
+//!   (exact: q is quadratic; the cross term `-bc` has no bias because b and
+//!   c come from different velocity components, whose errors are independent);
+//! - stretching `-(c - b)(a + d)`: no second derivatives on the diagonal and
+//!   uncorrelated components, so `shift = 0` (exact);
+//! - linear quantities: `shift = 0`;
+//! - lambda_ci (a square root of a clipped quadratic form) has no such
+//!   closed form: its mean is biased upwards by noise (positive in pure
+//!   noise) and `shift` is NaN; the statistics flag it instead.
+//!
+//! NaN: a NaN component gives NaN (never 0); `f64::max` is not used on
+//! values that can be NaN.
 
 use ndarray::Array2;
 
@@ -60,10 +80,38 @@ pub fn unit(name: &str) -> &'static str {
     ALL.iter().find(|(n, _)| *n == name).map_or("", |(_, u)| u)
 }
 
-/// `sqrt(max(0, b^2 - v_b))`; NaN stays NaN.
+/// `sqrt(max(0, b^2 - v_b))`; NaN in either stays NaN (`f64::max` would
+/// turn it into 0: an unknown bias reported as none).
 #[inline]
 pub fn debias(b: f64, vb: f64) -> f64 {
-    (b * b - vb).max(0.0).sqrt()
+    clip0(b * b - vb).sqrt()
+}
+
+/// `max(x, 0)` that keeps NaN (unknown stays unknown).
+#[inline]
+pub fn clip0(x: f64) -> f64 {
+    if x < 0.0 {
+        0.0
+    } else {
+        x
+    }
+}
+
+/// One quantity at one node: what `at` gives.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Value {
+    /// The value.
+    pub val: f64,
+    /// Propagated standard uncertainty (random part).
+    pub unc: f64,
+    /// Debiased truncation magnitude of this instantaneous value.
+    pub bias: f64,
+    /// Signed truncation estimate and its noise variance.
+    pub b: f64,
+    pub vb: f64,
+    /// Expected shift of the value by noise (0 for linear quantities, NaN
+    /// where no analytic form exists; see the module doc).
+    pub shift: f64,
 }
 
 /// The tensor components at one node: values, variances, signed
@@ -178,54 +226,72 @@ impl Kind {
     }
 }
 
-/// Value, standard uncertainty and debiased truncation of a quantity at
-/// one node.
+/// Value, standard uncertainty, truncation (debiased and signed) and noise
+/// shift of a quantity at one node.
 #[inline]
-pub fn at(kind: Kind, n: &Node) -> (f64, f64, f64) {
+pub fn at(kind: Kind, n: &Node) -> Value {
     let [a, b, c, d] = n.val;
-    let lin = |co: [f64; 4]| {
+    let lin = |val: f64, co: [f64; 4], shift: f64| {
         let (_, var, bb, vb) = linear(n, co);
-        (var.sqrt(), debias(bb, vb))
+        Value {
+            val,
+            unc: var.sqrt(),
+            bias: debias(bb, vb),
+            b: bb,
+            vb,
+            shift,
+        }
     };
     match kind {
-        Kind::Omega => {
-            let (u, bi) = lin([0.0, -1.0, 1.0, 0.0]);
-            (c - b, u, bi)
-        }
-        Kind::Div => {
-            let (u, bi) = lin([1.0, 0.0, 0.0, 1.0]);
-            (a + d, u, bi)
-        }
-        Kind::Exx => {
-            let (u, bi) = lin([1.0, 0.0, 0.0, 0.0]);
-            (a, u, bi)
-        }
-        Kind::Eyy => {
-            let (u, bi) = lin([0.0, 0.0, 0.0, 1.0]);
-            (d, u, bi)
-        }
-        Kind::Exy => {
-            let (u, bi) = lin([0.0, 0.5, 0.5, 0.0]);
-            (0.5 * (b + c), u, bi)
-        }
-        Kind::Q => {
-            let (u, bi) = lin([-a, -c, -b, -d]);
-            (-b * c - 0.5 * (a * a + d * d), u, bi)
-        }
+        Kind::Omega => lin(c - b, [0.0, -1.0, 1.0, 0.0], 0.0),
+        Kind::Div => lin(a + d, [1.0, 0.0, 0.0, 1.0], 0.0),
+        Kind::Exx => lin(a, [1.0, 0.0, 0.0, 0.0], 0.0),
+        Kind::Eyy => lin(d, [0.0, 0.0, 0.0, 1.0], 0.0),
+        Kind::Exy => lin(0.5 * (b + c), [0.0, 0.5, 0.5, 0.0], 0.0),
+        Kind::Q => lin(
+            -b * c - 0.5 * (a * a + d * d),
+            [-a, -c, -b, -d],
+            -0.5 * (n.var[0] + n.var[3]),
+        ),
         Kind::Stretching => {
             let (om, dv) = (c - b, a + d);
-            let (u, bi) = lin([-om, dv, -dv, -om]);
-            (-om * dv, u, bi)
+            lin(-om * dv, [-om, dv, -dv, -om], 0.0)
         }
         Kind::LambdaCi => {
             let dd = a * d - b * c - 0.25 * (a + d) * (a + d);
-            let (ud, bd) = lin([0.5 * (d - a), -c, -b, 0.5 * (a - d)]);
-            let den = 2.0 * (dd.max(0.0) + 0.25 * ud).sqrt();
-            let lam = dd.max(0.0).sqrt();
+            let v = lin(f64::NAN, [0.5 * (d - a), -c, -b, 0.5 * (a - d)], f64::NAN);
+            let (ud, pos) = (v.unc, clip0(dd));
+            let den = 2.0 * (pos + 0.25 * ud).sqrt();
+            let lam = pos.sqrt();
             if den > 0.0 {
-                (lam, ud / den, bd / den)
+                Value {
+                    val: lam,
+                    unc: ud / den,
+                    bias: v.bias / den,
+                    b: v.b / den,
+                    vb: v.vb / (den * den),
+                    shift: f64::NAN,
+                }
+            } else if den == 0.0 {
+                // D <= 0 with no uncertainty at all: exactly no swirl.
+                Value {
+                    val: lam,
+                    unc: 0.0,
+                    bias: 0.0,
+                    b: 0.0,
+                    vb: 0.0,
+                    shift: f64::NAN,
+                }
             } else {
-                (lam, 0.0, 0.0)
+                // NaN anywhere: unknown, never 0.
+                Value {
+                    val: lam,
+                    unc: f64::NAN,
+                    bias: f64::NAN,
+                    b: f64::NAN,
+                    vb: f64::NAN,
+                    shift: f64::NAN,
+                }
             }
         }
     }
@@ -314,4 +380,36 @@ pub fn gamma(
         }
     }
     (g1, g2)
+}
+
+#[cfg(test)]
+mod nan_tests {
+    use super::*;
+
+    #[test]
+    fn unknown_stays_nan_and_q_carries_its_analytic_noise_shift() {
+        // f64::max(NaN, 0) is 0: the old debias and lambda_ci reported an
+        // unknown bias or swirl as 0 (issue #11 item 9).
+        assert!(debias(f64::NAN, 1.0).is_nan());
+        assert!(debias(1.0, f64::NAN).is_nan());
+        assert!(clip0(f64::NAN).is_nan());
+        assert_eq!(debias(1.0, 4.0), 0.0);
+        let mut n = Node {
+            val: [0.1, -1.0, 1.0, -0.1],
+            var: [0.01, 0.02, 0.03, 0.04],
+            bias: [f64::NAN; 4],
+            bvar: [f64::NAN; 4],
+        };
+        for kind in [Kind::Omega, Kind::LambdaCi, Kind::Q] {
+            let v = at(kind, &n);
+            assert!(v.bias.is_nan() && v.b.is_nan(), "{kind:?}: {v:?}");
+        }
+        // q's shift: -(var_a + var_d)/2 (derived: E[a^2] = a^2 + var_a).
+        assert_eq!(at(Kind::Q, &n).shift, -0.5 * (0.01 + 0.04));
+        assert_eq!(at(Kind::Omega, &n).shift, 0.0);
+        assert!(at(Kind::LambdaCi, &n).shift.is_nan());
+        n.val[0] = f64::NAN;
+        let l = at(Kind::LambdaCi, &n);
+        assert!(l.val.is_nan() && l.unc.is_nan(), "{l:?}");
+    }
 }

@@ -68,14 +68,15 @@ fn solid_body_rotation_gives_two_omega_everywhere() {
                 if (2..18).contains(&j) && (2..18).contains(&i) {
                     assert_close(q("gamma2").value[[j, i]], 1.0, 1e-12, 0.0, &w);
                 }
-                // The truncation estimate of a linear field is zero.
-                assert_close(
-                    q("omega").bias.as_ref().unwrap()[[j, i]],
-                    0.0,
-                    1e-6,
-                    0.0,
-                    &w,
-                );
+                // The truncation estimate of a linear field is zero; where
+                // no fit could be made (next to an edge) it is unknown, NaN, never
+                // a 0 made from NaN (issue #11 item 9), and only there.
+                let b = q("omega").bias.as_ref().unwrap()[[j, i]];
+                if b.is_nan() {
+                    assert!(j.min(19 - j).min(i).min(19 - i) < 2, "{w}: NaN bias inside");
+                } else {
+                    assert_close(b, 0.0, 1e-6, 0.0, &w);
+                }
             }
         }
     }

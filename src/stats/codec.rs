@@ -27,8 +27,9 @@
 //!    3 f64 (u, v, omega).
 //!
 //! Moments: frames (f64); u and v scalars; cuv, n_valid, n_replaced,
-//! n_filled vecs; u64 quantity count and each scalar. A scalar is nine vecs:
-//! n, mean, m2, m3, m4, unc2, unc_n, bias2, bias_n.
+//! n_filled vecs; u64 quantity count and each scalar. A scalar is fifteen
+//! vecs: n, mean, m2, m3, m4, unc2, unc_n, bias2, bias_n, tb_n, tb_mean,
+//! tb_m2, tb_var, shift, shift_n (version 1: the first nine).
 //!
 //! Reading checks the magic, the version (another version is an error
 //! naming both), the length (truncation is an error), the checksum, and
@@ -37,18 +38,23 @@
 use sha2::{Digest, Sha256};
 
 use super::lags::{Clock, LagFrame, LagSums, Lags};
-use super::moments::{Moments, Scalar};
+use super::moments::{Moments, Scalar, PARTS_V1};
 use super::{Params, RunAccumulator, Trace};
 use crate::error::{Error, Result};
 use crate::field::Grid;
 
 /// The first eight bytes of a partial-state file.
 pub const FORMAT_MAGIC: &[u8; 8] = b"CURLEWPS";
-/// The version this build writes and reads.
-pub const FORMAT_VERSION: u32 = 1;
+/// The version this build writes. It reads this one and every earlier one
+/// (`READS`): version 1 lacks the signed-truncation and noise-shift sums of
+/// a scalar (read as zeros: such a state finishes with the version-1 rule
+/// for the systematic part, the RMS of the per-frame truncation estimates).
+pub const FORMAT_VERSION: u32 = 2;
+/// The versions this build reads.
+const READS: [u32; 2] = [1, 2];
 
-#[derive(Default)]
-struct W(Vec<u8>);
+/// The payload writer; `.1` is the number of vectors per scalar.
+struct W(Vec<u8>, usize);
 
 impl W {
     fn u8(&mut self, x: u8) {
@@ -79,7 +85,7 @@ impl W {
         }
     }
     fn scalar(&mut self, s: &Scalar) {
-        s.parts().iter().for_each(|v| self.vec(v));
+        s.parts().iter().take(self.1).for_each(|v| self.vec(v));
     }
     fn moments(&mut self, m: &Moments) {
         self.f64(m.frames);
@@ -103,6 +109,8 @@ impl W {
 struct R<'a> {
     b: &'a [u8],
     at: usize,
+    /// Vectors per scalar in this file's version.
+    parts: usize,
 }
 
 fn bad(what: impl Into<String>) -> Error {
@@ -163,7 +171,7 @@ impl R<'_> {
     }
     fn scalar(&mut self, nodes: usize) -> Result<Scalar> {
         let mut s = Scalar::new(nodes);
-        for v in s.parts_mut() {
+        for v in s.parts_mut().into_iter().take(self.parts) {
             *v = self.vec(nodes, "a moment vector")?;
         }
         Ok(s)
@@ -204,7 +212,18 @@ impl R<'_> {
 impl RunAccumulator {
     /// The partial state in the documented format (module `codec`).
     pub fn to_bytes(&self) -> Vec<u8> {
-        let mut w = W::default();
+        self.to_bytes_as(FORMAT_VERSION)
+    }
+
+    /// The partial state as format `version` wrote it (1 drops the sums
+    /// version 1 did not have; for the compatibility tests).
+    pub(crate) fn to_bytes_as(&self, version: u32) -> Vec<u8> {
+        let parts = if version == 1 {
+            PARTS_V1
+        } else {
+            Scalar::new(0).parts().len()
+        };
+        let mut w = W(Vec::new(), parts);
         w.str(&serde_json::to_string(&self.params).expect("params serialise"));
         let g = &self.grid;
         w.u64(g.nx as u64);
@@ -272,7 +291,7 @@ impl RunAccumulator {
         let payload = w.0;
         let mut out = Vec::with_capacity(payload.len() + 52);
         out.extend_from_slice(FORMAT_MAGIC);
-        out.extend_from_slice(&FORMAT_VERSION.to_le_bytes());
+        out.extend_from_slice(&version.to_le_bytes());
         out.extend_from_slice(&(payload.len() as u64).to_le_bytes());
         out.extend_from_slice(&payload);
         out.extend_from_slice(&Sha256::digest(&payload));
@@ -294,9 +313,9 @@ impl RunAccumulator {
             )));
         }
         let version = u32::from_le_bytes(b[8..12].try_into().unwrap());
-        if version != FORMAT_VERSION {
+        if !READS.contains(&version) {
             return Err(bad(format!(
-                "format version {version}, but this curlew ({}) reads version {FORMAT_VERSION}; merge with the curlew that wrote it",
+                "format version {version}, but this curlew ({}) reads versions 1 to {FORMAT_VERSION}; merge with the curlew that wrote it",
                 crate::VERSION
             )));
         }
@@ -312,7 +331,16 @@ impl RunAccumulator {
         if Sha256::digest(payload).as_slice() != &b[20 + len as usize..] {
             return Err(bad("checksum mismatch (damaged file)"));
         }
-        let mut r = R { b: payload, at: 0 };
+        let parts = if version == 1 {
+            PARTS_V1
+        } else {
+            Scalar::new(0).parts().len()
+        };
+        let mut r = R {
+            b: payload,
+            at: 0,
+            parts,
+        };
         let params: Params =
             serde_json::from_str(&r.str()?).map_err(|e| bad(format!("parameters: {e}")))?;
         let (nx, ny) = (r.u64()? as usize, r.u64()? as usize);

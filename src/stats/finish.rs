@@ -5,9 +5,11 @@
 //! Summary scalars (name, SI value): `omega_mean_peak` (signed omega_mean
 //! of largest magnitude over the nodes with at least half the best node's
 //! samples) with `_unc`, `_x`, `_y`; `u_mean_unc_median`,
-//! `omega_mean_unc_median`; for time-resolved runs `n_eff_mean` (mean over
+//! `omega_mean_unc_median`; for time-resolved runs, and for runs without
+//! any frame times (frames taken as evenly spaced), `n_eff_mean` (mean over
 //! nodes of (u_n_eff + v_n_eff)/2), `n_eff_ratio` (its mean ratio to the
-//! samples) and `time_step_s`; with phases `k_coherent_frac`,
+//! samples), `time_step_s` (NaN without times) and `n_eff_by_frame_index`
+//! (1 without times, else 0); with phases `k_coherent_frac`,
 //! `k_stochastic_frac` (sums over nodes) and `phase_frames`; always
 //! `samples_per_node_mean`.
 
@@ -16,6 +18,11 @@ use super::phase;
 use super::probes::{self, ProbeInput};
 use super::table::{coverage_suffix, independent, node_table, scale_exponents, Ctx};
 use super::{Params, PhaseBin, RunAccumulator, RunStats};
+
+/// Fewest frames for which N_eff is estimated over the frame index of a
+/// run without frame times (shorter records keep N_eff = N: a handful of
+/// samples cannot tell a time scale).
+const MIN_INDEX_FRAMES: u64 = 20;
 
 pub(super) fn finish(acc: &RunAccumulator, p: &Params) -> RunStats {
     let mut warnings = Vec::new();
@@ -74,18 +81,33 @@ pub(super) fn finish(acc: &RunAccumulator, p: &Params) -> RunStats {
             b.gaps, b.step
         ));
     }
-    if let (Some(_), Some(lags)) = (step, acc.lags.as_ref()) {
+    // Without any frame times the frames are taken as evenly spaced in
+    // their index (the common case of a fixed acquisition rate); the
+    // autocorrelation then says whether they are independent.
+    let by_index = acc.clock.timed == 0 && acc.clock.frames >= MIN_INDEX_FRAMES;
+    if let (true, Some(lags)) = (step.is_some() || by_index, acc.lags.as_ref()) {
         let cap = p.max_lag.min(acc.params.max_lag).max(1);
         let mut capped = [0usize; 3];
+        let mut short = [0usize; 3];
         let series: Vec<&Scalar> = match omega {
             Some(o) => vec![&acc.ens.u, &acc.ens.v, &acc.ens.q[o]],
             None => vec![&acc.ens.u, &acc.ens.v],
         };
         for (s, sc) in series.iter().enumerate() {
             for (k, slot) in neff[s].iter_mut().enumerate() {
-                let (ne, _, hit) = lags.n_eff(s * nodes + k, sc.n[k], sc.mean[k], sc.m2[k], cap);
-                *slot = ne;
-                capped[s] += usize::from(hit);
+                let e = lags.n_eff(s * nodes + k, sc.n[k], sc.mean[k], sc.m2[k], cap);
+                *slot = e.n_eff;
+                capped[s] += usize::from(e.capped);
+                short[s] += usize::from(e.short);
+            }
+        }
+        for (s, name) in ["u", "v", "omega"].iter().enumerate() {
+            if short[s] > 0 {
+                warnings.push(format!(
+                    "at {} of {nodes} nodes the record of {name} holds fewer than {} effective samples (N_eff from the autocorrelation); a record that short cannot tell its own time scale well and N_eff there may be too high by 20-50 %: record longer or treat those uncertainties as lower bounds",
+                    short[s],
+                    super::lags::SHORT_N_EFF
+                ));
             }
         }
         if omega.is_none() {
@@ -117,12 +139,17 @@ pub(super) fn finish(acc: &RunAccumulator, p: &Params) -> RunStats {
         .map(|b| b.as_ref().unwrap_or(&empty))
         .collect();
     let mut phase_tables = Vec::new();
-    let (k_coh, k_sto) = if has_phase {
+    let [k_coh, k_sto, k_coh_unc] = if has_phase {
         phase::energy_split(&bin_moments, nodes)
     } else {
-        (vec![f64::NAN; nodes], vec![f64::NAN; nodes])
+        std::array::from_fn(|_| vec![f64::NAN; nodes])
     };
-    let ensemble = node_table(&acc.ens, &neff, (k_coh.clone(), k_sto.clone()), &ctx);
+    let ensemble = node_table(
+        &acc.ens,
+        &neff,
+        [k_coh.clone(), k_sto.clone(), k_coh_unc],
+        &ctx,
+    );
     let mut summary = Vec::new();
     if has_phase {
         let mean = |s: &Scalar, k: usize| if s.n[k] > 0.0 { s.mean[k] } else { f64::NAN };
@@ -137,10 +164,7 @@ pub(super) fn finish(acc: &RunAccumulator, p: &Params) -> RunStats {
                     ]
                 })
                 .collect();
-            let kc = coh
-                .iter()
-                .map(|c| 0.5 * (c[0] * c[0] + c[1] * c[1]))
-                .collect();
+            let [kc, kc_unc] = phase::bin_coherent(m, &acc.ens, nodes);
             let ks = (0..nodes)
                 .map(|k| {
                     if m.u.n[k] >= 2.0 {
@@ -150,7 +174,7 @@ pub(super) fn finish(acc: &RunAccumulator, p: &Params) -> RunStats {
                     }
                 })
                 .collect();
-            let mut table = node_table(m, &independent(m, omega), (kc, ks), &ctx);
+            let mut table = node_table(m, &independent(m, omega), [kc, ks, kc_unc], &ctx);
             for (i, name) in ["u_coherent", "v_coherent", "omega_coherent"]
                 .iter()
                 .enumerate()
@@ -234,6 +258,8 @@ pub(super) fn finish(acc: &RunAccumulator, p: &Params) -> RunStats {
             .collect();
         summary.push(("n_eff_ratio".into(), r.iter().sum::<f64>() / r.len() as f64));
         summary.push(("time_step_s".into(), step.unwrap_or(f64::NAN)));
+        // 1: no frame times, N_eff estimated over the frame index.
+        summary.push(("n_eff_by_frame_index".into(), f64::from(u8::from(by_index))));
     }
     let samples = col("n_samples");
     summary.push((

@@ -154,6 +154,48 @@ pub fn std_unc(sigma: f64, n_eff: f64) -> f64 {
     }
 }
 
+/// Standard uncertainty of a mean of `n` correlated samples with sample
+/// standard deviation `s` and effective sample size `n_eff`:
+/// `s / sqrt(N_eff) * sqrt((N - 1) / (N - tau))`, `tau = N / N_eff`.
+/// The second factor undoes the bias of the sample variance of correlated
+/// samples, `E[s^2] = sigma^2 (N - tau) / (N - 1)` (the sample mean carries
+/// part of the variance away; Priestley 1981, Spectral Analysis and Time
+/// Series, sec. 5.3, from memory; exact for the finite-N
+/// `tau = 1 + 2 sum (1 - k/N) rho(k)`, checked by Monte Carlo in the
+/// tests). Independent samples (N_eff = N): the factor is 1. tau is held
+/// below N - 1 (a record that short cannot tell its variance; the caller
+/// warns). NaN when N_eff < 1 or n < 2.
+pub fn mean_unc_correlated(s: f64, n: f64, n_eff: f64) -> f64 {
+    if !(n_eff >= 1.0 && n >= 2.0) {
+        return f64::NAN;
+    }
+    let tau = (n / n_eff).min(n - 1.0);
+    let f = if n_eff >= n {
+        1.0
+    } else {
+        ((n - 1.0) / (n - tau)).sqrt()
+    };
+    mean_unc(s, n_eff) * f
+}
+
+/// Standard uncertainty of a standard deviation `s` from `n_eff` samples of
+/// measured flatness (kurtosis) `flat`:
+/// `u(s) = s/2 sqrt(Var(s^2)/sigma^4)`, `Var(s^2)/sigma^4 = (F - (N-3)/(N-1))/N`
+/// (the exact variance of the sample variance of independent samples,
+/// e.g. Kenney & Keeping 1951, Mathematics of Statistics II, sec. 7.7, from
+/// memory; the delta method for the square root), so
+/// `u(s) = s sqrt((F - 1)/(4N))` to leading order and
+/// `s / sqrt(2 (N - 1))` for Gaussian samples (F = 3; `std_unc`). A flatness
+/// that is not finite (fewer than 3 samples) is taken as Gaussian.
+pub fn std_unc_flat(sigma: f64, flat: f64, n_eff: f64) -> f64 {
+    if n_eff.is_nan() || n_eff <= 1.0 {
+        return f64::NAN;
+    }
+    let f = if flat.is_finite() { flat } else { 3.0 };
+    let rel_var = (f - (n_eff - 3.0) / (n_eff - 1.0)) / n_eff;
+    0.5 * sigma * crate::derive::quantities::clip0(rel_var).sqrt()
+}
+
 /// Standard uncertainty of a covariance (Reynolds shear stress):
 /// `sqrt((sigma_u^2 sigma_v^2 + cov^2) / (N_eff - 1))` (Gaussian samples).
 pub fn cov_unc(su: f64, sv: f64, cov: f64, n_eff: f64) -> f64 {
@@ -229,6 +271,48 @@ mod tests {
             1e-8,
             0.0,
             "t vs scipy (fractional dof)",
+        );
+    }
+
+    #[test]
+    fn std_uncertainty_follows_the_measured_flatness() {
+        // Monte Carlo (seeded): uniform samples (flatness 1.8, derived) and
+        // Laplace samples (flatness 6); the scatter of the sample std over
+        // trials against s/2 sqrt((F - (N-3)/(N-1))/N) (Kenney & Keeping).
+        let (n, trials) = (100usize, 3000);
+        let mut r = rng(41);
+        for (flat, draw) in [
+            (
+                1.8,
+                &(|r: &mut rand_chacha::ChaCha8Rng| -> f64 {
+                    rand::Rng::random_range(r, -1.0..1.0)
+                }) as &dyn Fn(&mut rand_chacha::ChaCha8Rng) -> f64,
+            ),
+            (6.0, &|r: &mut rand_chacha::ChaCha8Rng| -> f64 {
+                let u: f64 = rand::Rng::random_range(r, -0.5..0.5);
+                -u.signum() * (1.0 - 2.0 * u.abs()).ln()
+            }),
+        ] {
+            let mut stds = Vec::with_capacity(trials);
+            for _ in 0..trials {
+                let xs: Vec<f64> = (0..n).map(|_| draw(&mut r)).collect();
+                let m = xs.iter().sum::<f64>() / n as f64;
+                let v = xs.iter().map(|x| (x - m) * (x - m)).sum::<f64>() / (n as f64 - 1.0);
+                stds.push(v.sqrt());
+            }
+            let m = stds.iter().sum::<f64>() / trials as f64;
+            let sd = (stds.iter().map(|x| (x - m) * (x - m)).sum::<f64>() / (trials as f64 - 1.0))
+                .sqrt();
+            let pred = std_unc_flat(m, flat, n as f64);
+            eprintln!("flatness {flat}: predicted u(s) {pred:.5}, Monte Carlo {sd:.5}, Gaussian rule {:.5}", std_unc(m, n as f64));
+            assert_close(pred, sd, 0.0, 0.08, "u(s) with flatness");
+        }
+        assert_close(
+            std_unc_flat(1.0, 3.0, 50.0),
+            std_unc(1.0, 50.0),
+            1e-15,
+            0.0,
+            "Gaussian",
         );
     }
 

@@ -235,6 +235,18 @@ impl RunAccumulator {
                 "{} bias shape",
                 q.name
             );
+            assert!(
+                q.trunc
+                    .as_ref()
+                    .is_none_or(|[b, v]| b.dim() == sh && v.dim() == sh),
+                "{} trunc shape",
+                q.name
+            );
+            assert!(
+                q.shift.as_ref().is_none_or(|a| a.dim() == sh),
+                "{} shift shape",
+                q.name
+            );
             if self.units[i].is_empty() {
                 self.units[i] = q.unit.to_string();
             }
@@ -258,7 +270,10 @@ impl RunAccumulator {
             phase::Binned::Outside => self.outside += 1,
         }
         let om = self.omega();
-        if meta.time_s.is_some() {
+        // Lag sums for N_eff, by the run-wide frame index: with frame times
+        // they count when the times are uniform, without any they stand
+        // for an even acquisition rate (`finish`).
+        {
             let nodes = self.grid.len();
             let series = 2 + usize::from(om.is_some());
             let max_lag = self.params.max_lag;
@@ -441,10 +456,16 @@ fn offer(m: &mut Moments, field: &Field, d: &Derived, counts: &[bool]) {
             q.unc.as_ref().map(sl),
             q.bias.as_ref().map(sl),
         );
+        let (tb, tv) = match &q.trunc {
+            Some([b, v]) => (Some(sl(b)), Some(sl(v))),
+            None => (None, None),
+        };
+        let shift = q.shift.as_ref().map(sl);
         for (k, &c) in counts.iter().enumerate() {
             if c && x[k].is_finite() {
                 acc.add(k, x[k]);
                 acc.add_unc(k, unc.map(|a| a[k]), bias.map(|a| a[k]));
+                acc.add_trunc(k, tb.map(|a| a[k]), tv.map(|a| a[k]), shift.map(|a| a[k]));
             }
         }
     }

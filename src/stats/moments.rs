@@ -28,6 +28,9 @@
 //! caller decides what counts). Memory is a fixed number of `f64` per node
 //! and quantity, independent of the number of frames.
 
+/// The number of vectors a version-1 partial state holds per scalar.
+pub const PARTS_V1: usize = 9;
+
 /// Moments of one scalar at every node. All vectors have one entry per node.
 #[derive(Debug, Clone, PartialEq, Default)]
 pub struct Scalar {
@@ -43,6 +46,16 @@ pub struct Scalar {
     /// Sum of the squared truncation-bias estimate.
     pub bias2: Vec<f64>,
     pub bias_n: Vec<f64>,
+    /// Count, mean and second central sum of the *signed* truncation
+    /// estimate (the same pairwise update as the value, second order).
+    pub tb_n: Vec<f64>,
+    pub tb_mean: Vec<f64>,
+    pub tb_m2: Vec<f64>,
+    /// Sum of the truncation estimate's own noise variance.
+    pub tb_var: Vec<f64>,
+    /// Sum and count of the expected noise shift of the value (finite ones).
+    pub shift: Vec<f64>,
+    pub shift_n: Vec<f64>,
 }
 
 impl Scalar {
@@ -57,12 +70,19 @@ impl Scalar {
             unc2: z.clone(),
             unc_n: z.clone(),
             bias2: z.clone(),
-            bias_n: z,
+            bias_n: z.clone(),
+            tb_n: z.clone(),
+            tb_mean: z.clone(),
+            tb_m2: z.clone(),
+            tb_var: z.clone(),
+            shift: z.clone(),
+            shift_n: z,
         }
     }
 
-    /// The vectors in their fixed serialisation order.
-    pub fn parts(&self) -> [&Vec<f64>; 9] {
+    /// The vectors in their fixed serialisation order (format version 2;
+    /// version 1 wrote the first `PARTS_V1`).
+    pub fn parts(&self) -> [&Vec<f64>; 15] {
         [
             &self.n,
             &self.mean,
@@ -73,10 +93,16 @@ impl Scalar {
             &self.unc_n,
             &self.bias2,
             &self.bias_n,
+            &self.tb_n,
+            &self.tb_mean,
+            &self.tb_m2,
+            &self.tb_var,
+            &self.shift,
+            &self.shift_n,
         ]
     }
 
-    pub fn parts_mut(&mut self) -> [&mut Vec<f64>; 9] {
+    pub fn parts_mut(&mut self) -> [&mut Vec<f64>; 15] {
         [
             &mut self.n,
             &mut self.mean,
@@ -87,6 +113,12 @@ impl Scalar {
             &mut self.unc_n,
             &mut self.bias2,
             &mut self.bias_n,
+            &mut self.tb_n,
+            &mut self.tb_mean,
+            &mut self.tb_m2,
+            &mut self.tb_var,
+            &mut self.shift,
+            &mut self.shift_n,
         ]
     }
 
@@ -130,6 +162,27 @@ impl Scalar {
         }
     }
 
+    /// Adds the signed truncation estimate `b` (with noise variance `vb`)
+    /// and the noise shift of a counted sample, each when finite.
+    #[inline]
+    pub fn add_trunc(&mut self, k: usize, b: Option<f64>, vb: Option<f64>, shift: Option<f64>) {
+        if let (Some(b), Some(vb)) = (b, vb) {
+            if b.is_finite() && vb.is_finite() {
+                let na = self.tb_n[k];
+                let n = na + 1.0;
+                let d = b - self.tb_mean[k];
+                self.tb_mean[k] += d / n;
+                self.tb_m2[k] += d * d * na / n;
+                self.tb_n[k] = n;
+                self.tb_var[k] += vb;
+            }
+        }
+        if let Some(s) = shift.filter(|s| s.is_finite()) {
+            self.shift[k] += s;
+            self.shift_n[k] += 1.0;
+        }
+    }
+
     #[inline]
     fn merge_node(&mut self, k: usize, nb: f64, mb: f64, m2b: f64, m3b: f64, m4b: f64) {
         let na = self.n[k];
@@ -167,6 +220,17 @@ impl Scalar {
             self.unc_n[k] += b.unc_n[k];
             self.bias2[k] += b.bias2[k];
             self.bias_n[k] += b.bias_n[k];
+            let (na, nb) = (self.tb_n[k], b.tb_n[k]);
+            if nb > 0.0 {
+                let n = na + nb;
+                let d = b.tb_mean[k] - self.tb_mean[k];
+                self.tb_mean[k] += d * nb / n;
+                self.tb_m2[k] += b.tb_m2[k] + d * d * na * nb / n;
+                self.tb_n[k] = n;
+            }
+            self.tb_var[k] += b.tb_var[k];
+            self.shift[k] += b.shift[k];
+            self.shift_n[k] += b.shift_n[k];
         }
     }
 }

@@ -22,9 +22,39 @@
 //! so that k_coherent + k_stochastic = k = (u_std^2 + v_std^2)/2 whenever
 //! every frame is binned (then M' = U). Nodes with fewer than 2 binned
 //! samples get NaN.
+//!
+//! Noise of the bin means: each bin mean carries the scatter of its samples
+//! (measurement noise and turbulence), so the between-bin sum is biased,
+//! `E[SS_b] = (K - 1) sigma^2 + sum n_k delta_k^2` (the expected mean
+//! squares of one-way analysis of variance; e.g. Montgomery, Design and
+//! Analysis of Experiments, ch. 3, common textbook result), K the bins
+//! reached. With the pooled within-bin variance
+//! `s_w^2 = SS_w / (N_b - K)` (unbiased), per component
+//! `SS_b' = SS_b - (K - 1) s_w^2` is unbiased for the coherent sum and
+//! `k_coherent = 1/2 sum_(u,v) SS_b' / (N_b - 1)`,
+//! `k_stochastic = 1/2 sum_(u,v) s_w^2`, which still add up to k. With no
+//! coherent motion k_coherent scatters about 0 (it can be negative, which
+//! says "zero within its uncertainty"; it is not clipped, so sums over nodes
+//! stay unbiased). Its standard uncertainty (`k_coherent_unc`), from the
+//! variance of a non-central chi-square, `Var(SS_b) = 2 (K - 1) sigma^4 +
+//! 4 sigma^2 sum n_k delta_k^2` (Johnson, Kotz & Balakrishnan, Continuous
+//! Univariate Distributions 2, ch. 29, from memory), plus the uncertainty
+//! of `s_w^2` (`2 sigma^4 / (N_b - K)`, times (K - 1)^2), u and v taken as
+//! independent, samples as independent and Gaussian:
+//! `u(k_c)^2 = 1/4 sum_(u,v) [2 (K-1) s_w^4 (1 + (K-1)/(N_b-K)) +
+//! 4 s_w^2 max(0, SS_b')] / (N_b - 1)^2`. Where every bin holds one sample
+//! (N_b = K) the within-bin variance is unknown: no correction, NaN
+//! uncertainty.
+//!
+//! Per bin (the phase tables): `k_coherent = 1/2 sum_(u,v) [(m_k - U)^2 -
+//! s_k^2 (1/n_k - 1/N)]`, the bin's squared coherent velocity less the
+//! noise variance of `m_k - U` (bin mean against the ensemble mean of N
+//! samples, of which the bin is part), with uncertainty
+//! `1/2 sqrt(sum_(u,v) 2 v^2 + 4 v max(0, ...))`, v that noise variance.
 
-use super::moments::Moments;
+use super::moments::{Moments, Scalar};
 use super::Params;
+use crate::derive::quantities::clip0;
 
 pub(super) enum Binned {
     Bin(usize),
@@ -56,28 +86,85 @@ pub(super) fn bin_of(p: &Params, phase: Option<f64>) -> Binned {
     Binned::Bin(k)
 }
 
-/// Ensemble maps of the decomposition: (k_coherent, k_stochastic) per node.
-pub(super) fn energy_split(bins: &[&Moments], nodes: usize) -> (Vec<f64>, Vec<f64>) {
+/// Ensemble maps of the decomposition: (k_coherent, k_stochastic,
+/// k_coherent_unc) per node (module doc).
+pub(super) fn energy_split<'a>(bins: &[&'a Moments], nodes: usize) -> [Vec<f64>; 3] {
     let mut coh = vec![f64::NAN; nodes];
     let mut sto = vec![f64::NAN; nodes];
+    let mut unc = vec![f64::NAN; nodes];
     for k in 0..nodes {
         let nb: f64 = bins.iter().map(|m| m.u.n[k]).sum();
         if nb < 2.0 {
             continue;
         }
-        let mu = bins.iter().map(|m| m.u.n[k] * m.u.mean[k]).sum::<f64>() / nb;
-        let mv = bins.iter().map(|m| m.v.n[k] * m.v.mean[k]).sum::<f64>() / nb;
-        let (mut c, mut s) = (0.0, 0.0);
-        for m in bins.iter().filter(|m| m.u.n[k] > 0.0) {
-            let du = m.u.mean[k] - mu;
-            let dv = m.v.mean[k] - mv;
-            c += m.u.n[k] * (du * du + dv * dv);
-            s += m.u.m2[k] + m.v.m2[k];
+        let reached = bins.iter().filter(|m| m.u.n[k] > 0.0).count() as f64;
+        let (mut c_sum, mut s_sum, mut var) = (0.0, 0.0, 0.0);
+        for c in 0..2 {
+            let sc = |m: &'a Moments| component(m, c);
+            let mean = bins.iter().map(|m| sc(m).n[k] * sc(m).mean[k]).sum::<f64>() / nb;
+            let (mut ssb, mut ssw) = (0.0, 0.0);
+            for m in bins.iter().filter(|m| sc(m).n[k] > 0.0) {
+                let d = sc(m).mean[k] - mean;
+                ssb += sc(m).n[k] * d * d;
+                ssw += sc(m).m2[k];
+            }
+            let free = nb - reached;
+            if free >= 1.0 {
+                let sw2 = ssw / free;
+                let sb = ssb - (reached - 1.0) * sw2;
+                c_sum += sb;
+                s_sum += sw2 * (nb - 1.0);
+                let km1 = reached - 1.0;
+                var += 2.0 * km1 * sw2 * sw2 * (1.0 + km1 / free) + 4.0 * sw2 * clip0(sb);
+            } else {
+                c_sum += ssb;
+                s_sum += ssw;
+                var = f64::NAN;
+            }
         }
-        coh[k] = 0.5 * c / (nb - 1.0);
-        sto[k] = 0.5 * s / (nb - 1.0);
+        coh[k] = 0.5 * c_sum / (nb - 1.0);
+        sto[k] = 0.5 * s_sum / (nb - 1.0);
+        unc[k] = 0.5 * var.sqrt() / (nb - 1.0);
     }
-    (coh, sto)
+    [coh, sto, unc]
+}
+
+/// u (0) or v (1) of a set of moments.
+fn component(m: &Moments, c: usize) -> &Scalar {
+    if c == 0 {
+        &m.u
+    } else {
+        &m.v
+    }
+}
+
+/// A bin's coherent kinetic energy per node, less the noise of its bin
+/// mean, and the standard uncertainty (module doc). `ens` is the ensemble.
+pub(super) fn bin_coherent(m: &Moments, ens: &Moments, nodes: usize) -> [Vec<f64>; 2] {
+    let mut kc = vec![f64::NAN; nodes];
+    let mut ku = vec![f64::NAN; nodes];
+    for k in 0..nodes {
+        let (n, nt) = (m.u.n[k], ens.u.n[k]);
+        if n < 1.0 || nt < 1.0 {
+            continue;
+        }
+        let (mut e, mut var) = (0.0, 0.0);
+        for (b, t) in [(&m.u, &ens.u), (&m.v, &ens.v)] {
+            let d = b.mean[k] - t.mean[k];
+            // The noise variance of d: NaN with a single sample in the bin.
+            let v = if n >= 2.0 {
+                b.m2[k] / (n - 1.0) * clip0(1.0 / n - 1.0 / nt)
+            } else {
+                f64::NAN
+            };
+            let c = d * d - v;
+            e += c;
+            var += 2.0 * v * v + 4.0 * v * clip0(c);
+        }
+        kc[k] = 0.5 * e;
+        ku[k] = 0.5 * var.sqrt();
+    }
+    [kc, ku]
 }
 
 #[cfg(test)]

@@ -22,16 +22,24 @@
 //!   (divisor N - 1), skewness and flatness from the population central
 //!   moments (`m3 / m2^1.5`, `m4 / m2^2`; common practice).
 //! - `*_mean_unc`: combined standard uncertainty of the mean (GUM eq. 10):
-//!   the random part `sigma / sqrt(N_eff)` (nu = N_eff - 1), the RMS over
-//!   frames of the truncation-bias estimate of a derived quantity
-//!   (systematic, not corrected, nu = infinity), and the scale systematics:
+//!   the random part `s / sqrt(N_eff)` times `sqrt((N-1)/(N-N/N_eff))`
+//!   (`gum::mean_unc_correlated`; nu = N_eff - 1), the truncation of the
+//!   mean of a derived quantity (`systematic`: the debiased mean of the
+//!   signed per-frame estimates; not corrected, nu = infinity), and the
+//!   scale systematics:
 //!   a quantity of unit m^a s^b made from pixel displacements and positions
 //!   scales as M^a dt^b with the magnification M and the pulse separation
 //!   dt, so it carries the relative uncertainty
 //!   `sqrt((a r_cal)^2 + (b r_dt)^2)` times |value| (velocity: a = 1,
 //!   b = -1; vorticity: a = 0, b = -1, i.e. no calibration term). Both have
 //!   nu = infinity.
-//! - `*_std_unc`: `sigma / sqrt(2 (N_eff - 1))` with the scale systematic of
+//! - Appended at the end (after the per-quantity blocks):
+//!   `u_std_denoised, v_std_denoised, omega_std_denoised, k_denoised`
+//!   (`denoised`), `k_coherent_unc` (`phase`), `omega_bias_inst` (the RMS of
+//!   the per-frame debiased truncation, what `omega_bias` was before), then
+//!   per other quantity `q_std_denoised, q_bias_inst, q_noise_shift` (the
+//!   mean analytic noise shift removed from `q_mean`; NaN: none known).
+//! - `*_std_unc`: `gum::std_unc_flat` (measured flatness) with the scale systematic of
 //!   the quantity; `uv_cov_unc`: `sqrt((s_u^2 s_v^2 + cov^2)/(N_eff - 1))`
 //!   with twice the velocity's relative scale uncertainty.
 //! - `*_mean_unc_pNN`: expanded uncertainty at coverage NN %, k from
@@ -46,6 +54,7 @@
 use super::gum::{self, Component};
 use super::moments::{Moments, Scalar};
 use super::Params;
+use crate::derive::quantities::clip0;
 use crate::field::{Grid, NodeTable};
 
 /// Column suffix of the expanded uncertainty: 0.95 → "p95", 0.9545 → "p95_45".
@@ -110,13 +119,64 @@ struct Stat {
     skew: f64,
     flat: f64,
     inst: f64,
+    /// Systematic (truncation) part of the uncertainty of the mean.
     bias: f64,
+    /// RMS of the per-frame debiased truncation estimates.
+    bias_inst: f64,
+    /// Mean expected noise shift removed from `mean` (NaN: none known, and
+    /// nothing removed).
+    shift: f64,
 }
 
-fn stat(s: &Scalar, k: usize) -> Stat {
+/// The systematic (truncation) part of the uncertainty of the mean at node
+/// `k`, `ratio` = N_eff / N of the quantity there.
+///
+/// The truncation of a mean is the mean of the per-frame truncations (the
+/// estimate is linear in the data), so the signed estimates are averaged:
+/// `b_mean`. Its noise is their scatter over the frames over the effective
+/// number of them, `var(b_mean) = s_b^2 / (N_b ratio)` (measurement noise
+/// and any real frame-to-frame change of the truncation alike); it is
+/// removed from the square as for one frame,
+/// `B = sqrt(max(0, b_mean^2 - var(b_mean)))` (an unbiased estimate of the
+/// squared systematic error, clipped at zero). So the systematic part falls
+/// to zero where the flow has no truncation error, however noisy the
+/// estimator, and stays where it has. One sample: the model variance of the
+/// estimate replaces the scatter. A version-1 partial state (no signed
+/// sums): the RMS of the per-frame estimates, as version 1 reported it.
+/// NaN where no estimate was made.
+fn systematic(s: &Scalar, k: usize, ratio: f64) -> f64 {
+    let nb = s.tb_n[k];
+    if nb >= 2.0 {
+        let s2 = s.tb_m2[k] / (nb - 1.0);
+        let ne = (nb * ratio).clamp(1.0, nb);
+        let m = s.tb_mean[k];
+        clip0(m * m - s2 / ne).sqrt()
+    } else if nb == 1.0 {
+        let m = s.tb_mean[k];
+        clip0(m * m - s.tb_var[k]).sqrt()
+    } else if s.bias_n[k] > 0.0 {
+        (s.bias2[k] / s.bias_n[k]).sqrt()
+    } else {
+        f64::NAN
+    }
+}
+
+fn stat(s: &Scalar, k: usize, ratio: f64) -> Stat {
     let n = s.n[k];
     let nan = f64::NAN;
-    let mean = if n > 0.0 { s.mean[k] } else { nan };
+    // The analytic noise shift, removed from the mean (quantities module);
+    // NaN where none was offered (velocity, lambda_ci, the Gammas, or a
+    // version-1 partial state): then nothing is removed.
+    let shift = if s.shift_n[k] > 0.0 {
+        s.shift[k] / s.shift_n[k]
+    } else {
+        nan
+    };
+    let mean = if n > 0.0 {
+        s.mean[k] - if shift.is_finite() { shift } else { 0.0 }
+    } else {
+        nan
+    };
     let std = if n >= 2.0 {
         (s.m2[k] / (n - 1.0)).sqrt()
     } else {
@@ -136,7 +196,9 @@ fn stat(s: &Scalar, k: usize) -> Stat {
         skew,
         flat,
         inst: rms(s.unc2[k], s.unc_n[k]),
-        bias: rms(s.bias2[k], s.bias_n[k]),
+        bias: systematic(s, k, ratio),
+        bias_inst: rms(s.bias2[k], s.bias_n[k]),
+        shift,
     }
 }
 
@@ -154,12 +216,13 @@ struct Full {
 fn full(s: &Scalar, neff: &[f64], rel: f64, coverage: f64) -> Vec<Full> {
     (0..s.n.len())
         .map(|k| {
-            let st = stat(s, k);
             let ne = neff[k];
+            let n = s.n[k];
+            let st = stat(s, k, if n > 0.0 { ne / n } else { 1.0 });
             let (mut mean_unc, mut mean_exp) = (f64::NAN, f64::NAN);
             if st.n >= 2.0 {
                 let mut c = vec![Component {
-                    u: gum::mean_unc(st.std, ne),
+                    u: gum::mean_unc_correlated(st.std, st.n, ne),
                     dof: ne - 1.0,
                 }];
                 if st.bias.is_finite() {
@@ -182,7 +245,7 @@ fn full(s: &Scalar, neff: &[f64], rel: f64, coverage: f64) -> Vec<Full> {
                     gum::coverage_factor(coverage, nu) * uc
                 };
             }
-            let r = gum::std_unc(st.std, ne);
+            let r = gum::std_unc_flat(st.std, st.flat, ne);
             let std_unc = (r * r + (rel * st.std).powi(2)).sqrt();
             Full {
                 st,
@@ -195,12 +258,12 @@ fn full(s: &Scalar, neff: &[f64], rel: f64, coverage: f64) -> Vec<Full> {
 }
 
 /// The columns of one set of moments (ensemble or bin). `neff` holds the
-/// per-node N_eff of (u, v, omega); `k_parts` the k_coherent and
-/// k_stochastic maps.
+/// per-node N_eff of (u, v, omega); `k_parts` the k_coherent,
+/// k_stochastic and k_coherent_unc maps.
 pub(super) fn node_table(
     m: &Moments,
     neff: &[Vec<f64>; 3],
-    k_parts: (Vec<f64>, Vec<f64>),
+    k_parts: [Vec<f64>; 3],
     c: &Ctx,
 ) -> NodeTable {
     let cv = c.p.coverage;
@@ -270,8 +333,9 @@ pub(super) fn node_table(
     t.push("v_inst_unc", col(&fv, &|f| f.st.inst));
     t.push("omega_bias", col(&fw, &|f| f.st.bias));
     t.push("k", kk);
-    t.push("k_coherent", k_parts.0);
-    t.push("k_stochastic", k_parts.1);
+    let [k_coh, k_sto, k_coh_unc] = k_parts;
+    t.push("k_coherent", k_coh);
+    t.push("k_stochastic", k_sto);
     t.push("u_skew", col(&fu, &|f| f.st.skew));
     t.push("u_flat", col(&fu, &|f| f.st.flat));
     t.push("v_skew", col(&fv, &|f| f.st.skew));
@@ -283,20 +347,53 @@ pub(super) fn node_table(
     t.push("omega_n_eff", neff[2].clone());
     t.push("outlier_frac", frac(&m.n_replaced));
     t.push("filled_frac", frac(&m.n_filled));
-    for (qi, name) in c.quantities.iter().enumerate() {
-        if Some(qi) == c.omega {
-            continue;
-        }
-        let fq = full(&m.q[qi], &neff[2], c.q_rel[qi], cv);
-        t.push(format!("{name}_mean"), col(&fq, &|f| f.st.mean));
-        t.push(format!("{name}_std"), col(&fq, &|f| f.st.std));
-        t.push(format!("{name}_mean_unc"), col(&fq, &|f| f.mean_unc));
-        t.push(format!("{name}_std_unc"), col(&fq, &|f| f.std_unc));
-        t.push(format!("{name}_mean_unc_{sfx}"), col(&fq, &|f| f.mean_exp));
-        t.push(format!("{name}_inst_unc"), col(&fq, &|f| f.st.inst));
-        t.push(format!("{name}_bias"), col(&fq, &|f| f.st.bias));
+    let others: Vec<(&String, Vec<Full>)> = c
+        .quantities
+        .iter()
+        .enumerate()
+        .filter(|(qi, _)| Some(*qi) != c.omega)
+        .map(|(qi, name)| (name, full(&m.q[qi], &neff[2], c.q_rel[qi], cv)))
+        .collect();
+    for (name, fq) in &others {
+        t.push(format!("{name}_mean"), col(fq, &|f| f.st.mean));
+        t.push(format!("{name}_std"), col(fq, &|f| f.st.std));
+        t.push(format!("{name}_mean_unc"), col(fq, &|f| f.mean_unc));
+        t.push(format!("{name}_std_unc"), col(fq, &|f| f.std_unc));
+        t.push(format!("{name}_mean_unc_{sfx}"), col(fq, &|f| f.mean_exp));
+        t.push(format!("{name}_inst_unc"), col(fq, &|f| f.st.inst));
+        t.push(format!("{name}_bias"), col(fq, &|f| f.st.bias));
+    }
+    // Appended after every earlier column (format of 2026-12): the
+    // fluctuations less the measurement noise, the coherent energy's
+    // uncertainty, the per-frame truncation and the noise shifts.
+    let den = |f: &Full| denoised(f.st.std, f.st.inst);
+    let (du, dv) = (col(&fu, &den), col(&fv, &den));
+    t.push("u_std_denoised", du.clone());
+    t.push("v_std_denoised", dv.clone());
+    t.push("omega_std_denoised", col(&fw, &den));
+    t.push(
+        "k_denoised",
+        du.iter()
+            .zip(&dv)
+            .map(|(a, b)| 0.5 * (a * a + b * b))
+            .collect(),
+    );
+    t.push("k_coherent_unc", k_coh_unc);
+    t.push("omega_bias_inst", col(&fw, &|f| f.st.bias_inst));
+    for (name, fq) in &others {
+        t.push(format!("{name}_std_denoised"), col(fq, &den));
+        t.push(format!("{name}_bias_inst"), col(fq, &|f| f.st.bias_inst));
+        t.push(format!("{name}_noise_shift"), col(fq, &|f| f.st.shift));
     }
     t
+}
+
+/// The standard deviation of the resolved fluctuations: the sample
+/// standard deviation less the RMS instantaneous uncertainty in quadrature,
+/// `sqrt(max(0, s^2 - u_inst^2))` (the measurement noise adds its variance
+/// to the fluctuations'; common practice). NaN when either is unknown.
+fn denoised(std: f64, inst: f64) -> f64 {
+    clip0(std * std - inst * inst).sqrt()
 }
 
 /// N_eff = N for every series (independent samples).

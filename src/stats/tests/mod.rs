@@ -55,12 +55,24 @@ fn frame(
     }
     field.u = a[0].clone();
     field.v = a[1].clone();
-    let quantity = |name, value: &Array2<f64>, unc: f64| Quantity {
+    let quantity = |name: &'static str, value: &Array2<f64>, unc: f64| Quantity {
         name,
         unit: "1/s",
         value: value.clone(),
         unc: Some(Array2::from_elem(sh, unc)),
         bias: Some(Array2::from_elem(sh, 0.01)),
+        trunc: Some([
+            Array2::from_elem(sh, 0.01 + 0.002 * (index % 3) as f64),
+            Array2::from_elem(sh, 1e-5),
+        ]),
+        shift: Some(Array2::from_elem(
+            sh,
+            if name == "div" {
+                -0.001 * (index % 2) as f64
+            } else {
+                0.0
+            },
+        )),
     };
     let derived = Derived {
         u: a[0].clone(),
@@ -91,6 +103,17 @@ fn frame(
         field,
         derived,
     }
+}
+
+/// The systematic part of a mean that `frame`'s signed truncation
+/// estimates `0.01 + 0.002 (index mod 3)` give over the frames `idx`
+/// (independent samples): `sqrt(max(0, mean^2 - s^2 / N))` (table module).
+fn expected_systematic(idx: impl Iterator<Item = usize>) -> f64 {
+    let b: Vec<f64> = idx.map(|i| 0.01 + 0.002 * (i % 3) as f64).collect();
+    let n = b.len() as f64;
+    let m = b.iter().sum::<f64>() / n;
+    let s2 = b.iter().map(|x| (x - m) * (x - m)).sum::<f64>() / (n - 1.0);
+    (m * m - s2 / n).max(0.0).sqrt()
 }
 
 /// Random frames with a few replaced and filled nodes, phases and times.
@@ -344,13 +367,22 @@ fn serialisation_round_trips_and_rejects_other_versions_and_damage() {
     let back = RunAccumulator::from_bytes(&bytes).unwrap();
     assert_eq!(back.to_bytes(), bytes);
     assert_same(&back.finish(&p), &a.finish(&p), 0.0, "round trip");
-    let mut v2 = bytes.clone();
-    v2[8..12].copy_from_slice(&2u32.to_le_bytes());
-    let e = RunAccumulator::from_bytes(&v2).unwrap_err();
+    let mut v3 = bytes.clone();
+    v3[8..12].copy_from_slice(&3u32.to_le_bytes());
+    let e = RunAccumulator::from_bytes(&v3).unwrap_err();
     assert!(
-        e.message.contains("version 2") && e.message.contains("version 1"),
+        e.message.contains("version 3") && e.message.contains("versions 1 to 2"),
         "{e}"
     );
+    // A version-1 state (written before the signed truncation sums) still
+    // reads and merges; it lacks exactly those sums.
+    let v1 = a.to_bytes_as(1);
+    assert_eq!(u32::from_le_bytes(v1[8..12].try_into().unwrap()), 1);
+    let old = RunAccumulator::from_bytes(&v1).unwrap();
+    assert_eq!(old.ens.q[0].n, a.ens.q[0].n);
+    assert_eq!(old.ens.q[0].bias2, a.ens.q[0].bias2);
+    assert!(old.ens.q[0].tb_n.iter().all(|&x| x == 0.0));
+    assert!(a.ens.q[0].tb_n.iter().any(|&x| x > 0.0));
     let e = RunAccumulator::from_bytes(&bytes[..bytes.len() - 100]).unwrap_err();
     assert!(e.message.contains("truncated"), "{e}");
     let mut dmg = bytes.clone();
