@@ -8,6 +8,7 @@
 //! maps errors to exit codes.
 
 pub mod compare;
+pub mod coverage;
 pub mod derive;
 pub mod error;
 pub mod field;
