@@ -15,7 +15,12 @@
 //! are finite; regions split them (module `region`).
 //!
 //! - `X_mean_unc` (u, v and each quantity): `X_mean - truth`, the truth
-//!   being the mean over the same frames of the analytic value (`truth`).
+//!   being the analytic value of a steady flow; for a pulsing flow the
+//!   analytic average over a whole period (the ensemble mean estimates the
+//!   time average: the flow's own sampling over the frames is part of its
+//!   uncertainty) or over the phase interval of the bin (a bin's mean
+//!   estimates the phase average over its window). The default phase
+//!   window (the whole bin) is assumed.
 //! - `X_mean_unc_p95`: the same error, read as an expanded 95 % interval.
 //! - `X_std_unc`, `uv_cov_unc`: the population value is not known in closed
 //!   form once noise passes a smoother and a stencil, so it is estimated
@@ -244,8 +249,13 @@ fn col<'a>(t: &'a NodeTable, name: &str) -> Option<&'a [f64]> {
 fn score_cell(cell: &Cell, opts: &SynthOptions, setup: &RunSetup, reps: &[Replica]) -> Vec<Row> {
     let regions = region::regions(setup);
     let mut pairs = Pairs::default();
-    let all: Vec<usize> = (0..opts.frames).collect();
-    let t_all = truth::over_frames(setup, opts, &all);
+    // targets (module doc): a steady flow's value; for a pulsing flow the
+    // average over a period (ensemble) or over a bin's phases (phase table)
+    let pulse = truth::pulse_frequency(setup);
+    let t_all = match pulse {
+        Some(f) => truth::over_times(setup, opts, &truth::phase_times(f, 0.0, 360.0, 96)),
+        None => truth::over_times(setup, opts, &[0.0]),
+    };
     let ens: Vec<&NodeTable> = reps.iter().map(|r| &r.stats.ensemble).collect();
     score_table(&mut pairs, &regions, "ensemble", &ens, &t_all);
     if opts.periodic() {
@@ -258,18 +268,14 @@ fn score_cell(cell: &Cell, opts: &SynthOptions, setup: &RunSetup, reps: &[Replic
             if tabs.len() != reps.len() {
                 continue;
             }
-            let centre = reps[0].stats.phase[b].bin;
-            let frames: Vec<usize> = all
-                .iter()
-                .copied()
-                .filter(|&k| {
-                    setup
-                        .phase_deg(opts, k)
-                        .map(|p| synth::truth::phase_bin(p, bins))
-                        == Some(centre)
-                })
-                .collect();
-            let tb = truth::over_frames(setup, opts, &frames);
+            let Some(f) = pulse else { continue };
+            let k = reps[0].stats.phase[b].bin as f64;
+            let w = 360.0 / opts.phase_bins.max(1) as f64;
+            let tb = truth::over_times(
+                setup,
+                opts,
+                &truth::phase_times(f, k * w, (k + 1.0) * w, 16),
+            );
             score_table(&mut pairs, &regions, "phase", &tabs, &tb);
         }
     } else {

@@ -12,6 +12,7 @@
 //! study's table).
 
 pub mod cell;
+pub mod matched;
 pub mod region;
 pub mod score;
 pub mod study;

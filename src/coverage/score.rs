@@ -206,7 +206,15 @@ mod tests {
         let sig: Vec<f64> = (0..n).map(|i| 0.5 + (i % 7) as f64 * 0.1).collect();
         let pairs: Vec<(f64, f64)> = sig
             .iter()
-            .map(|&s| (s * StandardNormal.sample(&mut rng) as f64, s))
+            .map(|&s| {
+                (
+                    s * {
+                        let z: f64 = StandardNormal.sample(&mut rng);
+                        z
+                    },
+                    s,
+                )
+            })
             .collect();
         let sc = score(pairs.iter().copied(), Reading::Standard);
         let tol = coverage_tolerance(0.9545, n);

@@ -72,7 +72,7 @@ impl Spec {
             FlowSpec::Pulsing(c, b) => format!("pulsing-{c}h-{b}bins"),
         };
         let noise = match self.overlap {
-            o if o == 0.0 => "white".to_string(),
+            0.0 => "white".to_string(),
             o => format!("ov{:.0}", 100.0 * o),
         };
         let smooth = match self.smoothing {

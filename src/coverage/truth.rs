@@ -54,17 +54,10 @@ pub fn quantity(name: &str, g: &Gradient) -> Option<f64> {
     })
 }
 
-/// The analytic gradient tensor of the run's flow at `(x, y)` in frame `k`.
+/// The analytic gradient tensor of the run's flow at `(x, y)` and time `t`.
 /// None where the flow has no value (inside a body) or the scenario has no
 /// gradient here (the wake and the cylinder are not used by the study).
-pub fn gradient(
-    setup: &RunSetup,
-    opts: &SynthOptions,
-    k: usize,
-    x: f64,
-    y: f64,
-) -> Option<Gradient> {
-    let t = setup.time(opts, k);
+pub fn gradient_at(setup: &RunSetup, t: f64, x: f64, y: f64) -> Option<Gradient> {
     match setup.flow {
         Flow::Vortex { gamma, rc } => Some(gradients::lamb_oseen(x, y, 0.0, 0.0, gamma, rc)),
         Flow::Pulsing {
@@ -84,20 +77,14 @@ pub fn gradient(
     }
 }
 
-/// Per-node truth over a set of frames.
+/// Per-node truth: the average over a set of times of the noise-free
+/// velocity and of every quantity.
 #[derive(Debug, Clone)]
 pub struct Truth {
     pub grid: Grid,
-    /// Frames averaged.
-    pub frames: usize,
     /// Mean of the noise-free u, v per node.
     pub u: Vec<f64>,
     pub v: Vec<f64>,
-    /// Temporal variances and covariance of the noise-free u, v (with
-    /// N - 1, as the sample statistics are).
-    pub var_u: Vec<f64>,
-    pub var_v: Vec<f64>,
-    pub cov_uv: Vec<f64>,
     /// Mean of each quantity of `QUANTITIES` per node (same order).
     pub q: Vec<Vec<f64>>,
 }
@@ -116,64 +103,83 @@ impl Truth {
     }
 }
 
-/// The truth over frames `frames` (0-based indices) of the run.
-pub fn over_frames(setup: &RunSetup, opts: &SynthOptions, frames: &[usize]) -> Truth {
+/// The noise-free velocity of the run's flow at `(x, y)` and time `t`
+/// (NaN for flows the study does not use).
+pub fn velocity(setup: &RunSetup, opts: &SynthOptions, t: f64, x: f64, y: f64) -> (f64, f64) {
+    use crate::synth::flows;
+    let s = match setup.flow {
+        Flow::Vortex { gamma, rc } => flows::lamb_oseen(x, y, 0.0, 0.0, gamma, rc),
+        Flow::Pulsing {
+            gamma,
+            rc,
+            amplitude,
+            frequency,
+        } => {
+            let f = 1.0 + amplitude * (std::f64::consts::TAU * frequency * t).sin();
+            flows::lamb_oseen(x, y, 0.0, 0.0, gamma * f, rc)
+        }
+        Flow::Uniform { u, v } => flows::Sample { u, v, omega: 0.0 },
+        Flow::SolidBody { rate } => flows::solid_body(x, y, 0.0, 0.0, rate),
+        Flow::TaylorGreen { u0, k, nu } => flows::taylor_green(x, y, t, u0, k, nu),
+        _ => return (f64::NAN, f64::NAN),
+    };
+    let stream = match setup.flow {
+        Flow::Vortex { .. } | Flow::Pulsing { .. } => opts.stream,
+        _ => 0.0,
+    };
+    (s.u + stream, s.v)
+}
+
+/// The truth averaged over the times `times` (s): for a steady flow one
+/// time suffices; for a pulsing flow, times spread evenly over a period
+/// (the ensemble's target) or over one phase bin (the bin's target).
+pub fn over_times(setup: &RunSetup, opts: &SynthOptions, times: &[f64]) -> Truth {
     let g = setup.grid;
     let nodes = g.len();
-    let n = frames.len().max(1) as f64;
+    let n = times.len().max(1) as f64;
     let (mut su, mut sv) = (vec![0.0; nodes], vec![0.0; nodes]);
-    let (mut suu, mut svv, mut suv) = (vec![0.0; nodes], vec![0.0; nodes], vec![0.0; nodes]);
     let mut q = vec![vec![0.0; nodes]; QUANTITIES.len()];
-    for &k in frames {
-        let tf = setup.truth(opts, k);
+    for &t in times {
         for j in 0..g.ny {
             for i in 0..g.nx {
                 let node = j * g.nx + i;
-                let (u, v) = (tf.u[[j, i]], tf.v[[j, i]]);
+                let (x, y) = (g.x(i), g.y(j));
+                let (u, v) = velocity(setup, opts, t, x, y);
                 su[node] += u;
                 sv[node] += v;
-                suu[node] += u * u;
-                svv[node] += v * v;
-                suv[node] += u * v;
-                let gr = gradient(setup, opts, k, g.x(i), g.y(j));
+                let gr = gradient_at(setup, t, x, y);
                 for (p, name) in QUANTITIES.iter().enumerate() {
                     q[p][node] += gr.and_then(|gr| quantity(name, &gr)).unwrap_or(f64::NAN);
                 }
             }
         }
     }
-    let var = |s2: &[f64], a: &[f64], b: &[f64]| -> Vec<f64> {
-        (0..nodes)
-            .map(|k| {
-                if n > 1.0 {
-                    ((s2[k] - a[k] * b[k] / n) / (n - 1.0)).max(0.0)
-                } else {
-                    0.0
-                }
-            })
-            .collect()
-    };
-    let (var_u, var_v) = (var(&suu, &su, &su), var(&svv, &sv, &sv));
-    let cov_uv = (0..nodes)
-        .map(|k| {
-            if n > 1.0 {
-                (suv[k] - su[k] * sv[k] / n) / (n - 1.0)
-            } else {
-                0.0
-            }
-        })
-        .collect();
     let mean = |s: Vec<f64>| s.into_iter().map(|x| x / n).collect::<Vec<f64>>();
     Truth {
         grid: g,
-        frames: frames.len(),
         u: mean(su),
         v: mean(sv),
-        var_u,
-        var_v,
-        cov_uv,
         q: q.into_iter().map(mean).collect(),
     }
+}
+
+/// The pulsation frequency of the run's flow (Hz), if it pulses.
+pub fn pulse_frequency(setup: &RunSetup) -> Option<f64> {
+    match setup.flow {
+        Flow::Pulsing { frequency, .. } => Some(frequency),
+        _ => None,
+    }
+}
+
+/// Times spread evenly (midpoints of `n` slices) over the phase interval
+/// `[from, to)` degrees of a flow pulsing at `f` Hz.
+pub fn phase_times(f: f64, from_deg: f64, to_deg: f64, n: usize) -> Vec<f64> {
+    (0..n)
+        .map(|k| {
+            let p = from_deg + (to_deg - from_deg) * (k as f64 + 0.5) / n as f64;
+            p / 360.0 / f
+        })
+        .collect()
 }
 
 /// Core radius and peak swirl speed of the run's vortex (None for other flows).

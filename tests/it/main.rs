@@ -4,6 +4,7 @@
 mod util;
 
 mod bad_input;
+mod coverage_command;
 mod coverage_study;
 mod detection;
 mod reference;
