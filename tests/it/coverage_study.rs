@@ -134,34 +134,40 @@ fn coverage_of_the_resolved_vortex_meets_its_targets_where_it_does_today() {
     }
 }
 
-/// The full matrix: rewrites docs/uncertainty-table.md and .csv.
+/// The full matrix: rewrites docs/uncertainty-table.md and .csv (after
+/// every cell, so that an interrupted run leaves the cells it finished,
+/// marked as partial).
 #[test]
 #[ignore]
 fn coverage_table() {
     let w = Work::new();
     let t0 = std::time::Instant::now();
-    let mut rows = Vec::new();
-    for (k, spec) in study::matrix().iter().enumerate() {
-        let c = study::cell_for(spec);
-        let t = std::time::Instant::now();
-        let r = cell::run(&c, &w.path(&format!("cell{k}"))).unwrap();
-        eprintln!("{} in {:.1} s", c.name, t.elapsed().as_secs_f64());
-        rows.extend(r);
-    }
-    let secs = t0.elapsed().as_secs_f64();
+    let specs = study::matrix();
     let root = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("docs");
     std::fs::create_dir_all(&root).unwrap();
-    let md = format!(
-        "# Coverage study: the table\n\n\
-         Made by `cargo test --test it -- --ignored coverage_table` ({} cells, {secs:.0} s in the \
-         dev profile). What the columns mean and the reasons for the misses: \
-         [uncertainty.md](uncertainty.md). Every region of every column: \
-         [uncertainty-table.csv](uncertainty-table.csv).\n\n{}\n\n{}",
-        study::matrix().len(),
-        study::summary(&rows),
-        study::markdown(&rows)
-    );
-    std::fs::write(root.join("uncertainty-table.md"), md).unwrap();
-    std::fs::write(root.join("uncertainty-table.csv"), study::csv(&rows)).unwrap();
+    let mut rows = Vec::new();
+    for (k, spec) in specs.iter().enumerate() {
+        let c = study::cell_for(spec);
+        let t = std::time::Instant::now();
+        rows.extend(cell::run(&c, &w.path(&format!("cell{k}"))).unwrap());
+        eprintln!("{} in {:.1} s", c.name, t.elapsed().as_secs_f64());
+        let secs = t0.elapsed().as_secs_f64();
+        let done = if k + 1 == specs.len() {
+            format!("{} cells", specs.len())
+        } else {
+            format!("PARTIAL: {} of {} cells", k + 1, specs.len())
+        };
+        let md = format!(
+            "# Coverage study: the table\n\n\
+             Made by `cargo test --test it -- --ignored coverage_table` ({done}, {secs:.0} s in \
+             the dev profile). What the columns mean and the reasons for the misses: \
+             [uncertainty.md](uncertainty.md). Every region of every column: \
+             [uncertainty-table.csv](uncertainty-table.csv).\n\n{}\n\n{}",
+            study::summary(&rows),
+            study::markdown(&rows)
+        );
+        std::fs::write(root.join("uncertainty-table.md"), md).unwrap();
+        std::fs::write(root.join("uncertainty-table.csv"), study::csv(&rows)).unwrap();
+    }
     eprintln!("{}", study::summary(&rows));
 }
