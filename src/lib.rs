@@ -40,6 +40,7 @@
 
 pub mod budget;
 pub mod compare;
+pub mod coverage;
 pub mod derive;
 pub mod error;
 pub mod facade;

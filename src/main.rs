@@ -31,6 +31,8 @@ enum Command {
     Merge(cli::merge::Args),
     /// Print what a frame file or an output table holds.
     Inspect(cli::inspect::Args),
+    /// Check how well the uncertainties hold on a simulated campaign matched to yours.
+    Coverage(cli::coverage::Args),
 }
 
 fn main() {
@@ -48,6 +50,7 @@ fn main() {
         Command::Synth(a) => cli::synth::run(a),
         Command::Merge(a) => cli::merge::run(a),
         Command::Inspect(a) => cli::inspect::run(a),
+        Command::Coverage(a) => cli::coverage::run(a),
     };
     if let Err(e) = result {
         if e.kind == curlew::ErrorKind::Io && e.message.contains("broken pipe") {

@@ -184,6 +184,7 @@ pub fn run(args: Args) -> Result<()> {
         noise_memory: args.noise_memory,
         core_pitches: args.core_pitches,
         pulse: None,
+        stream: 0.0,
         outlier_fraction: args.outliers,
         outlier_scale: args.outlier_scale,
         gap_fraction: args.gaps,

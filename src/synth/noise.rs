@@ -80,7 +80,7 @@ pub fn structured(opts: &SynthOptions) -> bool {
 /// White N(0, 1) values on `(ny, nx)` from the stream of innovation
 /// `index` (shifted by `L` so that it is never negative) of `run`.
 fn white(seed: u64, run: usize, index: usize, comp: u64, sh: (usize, usize)) -> Array2<f64> {
-    let mut rng = ChaCha8Rng::seed_from_u64(seed ^ 0x5eed_0f_a1);
+    let mut rng = ChaCha8Rng::seed_from_u64(seed ^ 0x5eed_0fa1);
     rng.set_stream((comp << 62) | ((run as u64) << 32) | index as u64);
     Array2::from_shape_simple_fn(sh, || StandardNormal.sample(&mut rng))
 }

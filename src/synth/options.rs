@@ -190,6 +190,10 @@ pub struct SynthOptions {
     /// with `pulse = Some((A, f in Hz))`; frames then carry a phase.
     #[serde(default)]
     pub pulse: Option<(f64, f64)>,
+    /// `vortex` scenario: a uniform stream along +x (m/s) added to the
+    /// vortex (default 0).
+    #[serde(default)]
+    pub stream: f64,
     /// Fraction of nodes per frame replaced by random vectors.
     pub outlier_fraction: f64,
     /// Outlier magnitude at most this many times the local speed.
@@ -247,6 +251,7 @@ impl Default for SynthOptions {
             noise_memory: 0.0,
             core_pitches: None,
             pulse: None,
+            stream: 0.0,
             outlier_fraction: 0.03,
             outlier_scale: 3.0,
             gap_fraction: 0.02,
@@ -323,6 +328,12 @@ impl SynthOptions {
             return Err(Error::usage(
                 "noise correlation cannot be combined with window noise or noise memory",
             ));
+        }
+        if !(self.stream.is_finite() && self.stream >= 0.0) {
+            return Err(Error::usage(format!(
+                "stream = {} m/s must be zero or positive",
+                self.stream
+            )));
         }
         if let Some(c) = self.core_pitches {
             pos("core radius", c)?;

@@ -96,6 +96,12 @@ impl RunSetup {
             _ => Vec::new(),
         };
         let n = g.len();
+        // the vortex scenario's optional uniform stream (no vorticity)
+        let stream = Sample {
+            u: opts.stream,
+            v: 0.0,
+            omega: 0.0,
+        };
         let (mut u, mut v, mut w) = (
             Vec::with_capacity(n),
             Vec::with_capacity(n),
@@ -111,7 +117,7 @@ impl RunSetup {
                         Some(flows::vortex_street(x, y, &street, &vortices))
                     }
                     Flow::Vortex { gamma, rc } => {
-                        Some(flows::lamb_oseen(x, y, 0.0, 0.0, gamma, rc))
+                        Some(flows::lamb_oseen(x, y, 0.0, 0.0, gamma, rc) + stream)
                     }
                     Flow::Pulsing {
                         gamma,
@@ -120,7 +126,7 @@ impl RunSetup {
                         frequency,
                     } => {
                         let f = 1.0 + amplitude * (std::f64::consts::TAU * frequency * t).sin();
-                        Some(flows::lamb_oseen(x, y, 0.0, 0.0, gamma * f, rc))
+                        Some(flows::lamb_oseen(x, y, 0.0, 0.0, gamma * f, rc) + stream)
                     }
                     Flow::Uniform { u, v } => Some(Sample { u, v, omega: 0.0 }),
                     Flow::SolidBody { rate } => Some(flows::solid_body(x, y, 0.0, 0.0, rate)),
@@ -250,7 +256,10 @@ pub fn setup_run(opts: &SynthOptions, speed: f64) -> Result<RunSetup> {
                 None => Flow::Vortex { gamma, rc },
             };
             // the pulse's peak circulation sets the peak speed
-            (flow, speed * (1.0 + opts.pulse.map_or(0.0, |p| p.0)))
+            (
+                flow,
+                speed * (1.0 + opts.pulse.map_or(0.0, |p| p.0)) + opts.stream,
+            )
         }
         Scenario::Uniform => {
             let a = UNIFORM_ANGLE_DEG.to_radians();

@@ -4,6 +4,8 @@
 mod util;
 
 mod bad_input;
+mod coverage_command;
+mod coverage_study;
 mod detection;
 mod fuzz;
 mod reference;
