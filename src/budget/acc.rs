@@ -1,5 +1,5 @@
 //! The budget's accumulator: per phase bin and node, the mean and the
-//! co-moment matrix of the seven per-frame fields (`ops`), and, for
+//! co-moment matrix of the eight per-frame fields (`ops`), and, for
 //! time-resolved runs, the fields of the few frames whose budget is asked.
 //!
 //! Owns: `BudgetAcc` with `new` / `push` / `merge` (in frame order) and the
@@ -15,10 +15,10 @@
 //! What counts as a sample: a node's fields count in a frame when the
 //! frame is not rejected, every tap of the composites carries a sample (the
 //! statistics' sample rule: a valid vector, or replaced/filled ones with
-//! `include_filled`), so all seven fields are finite. Frames without a
+//! `include_filled`), so all eight fields are finite. Frames without a
 //! phase, or outside every phase window, add nothing to the bins.
-//! Memory: 36 numbers per node for each phase bin reached (a 100 x 100 grid
-//! with 12 bins: 35 MB), plus 9 numbers per node for each kept frame.
+//! Memory: 45 numbers per node for each phase bin reached (a 100 x 100 grid
+//! with 12 bins: 43 MB), plus 10 numbers per node for each kept frame.
 
 use super::ops::{Ops, NF, NT};
 use crate::derive::Derived;
