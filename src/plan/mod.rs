@@ -8,6 +8,7 @@
 //! Each section has its own file (`input`, `validation`, `derivatives`,
 //! `statistics`, `report`) with its raw struct and its `resolve`.
 
+pub mod budget;
 pub mod derivatives;
 pub mod input;
 pub mod report;
@@ -52,6 +53,8 @@ pub struct RawPipeline {
     pub compare: Vec<report::RawCompare>,
     #[serde(default)]
     pub run: Vec<RawRun>,
+    /// The vorticity transport budget (off unless present).
+    pub budget: Option<budget::RawBudget>,
 }
 
 #[derive(Debug, Clone, Default, Deserialize, Serialize)]
@@ -112,6 +115,8 @@ pub struct RunPlan {
     pub plot: plot::Params,
     pub conditions: report::Conditions,
     pub description: Option<String>,
+    /// The vorticity transport budget, when asked for.
+    pub budget: Option<crate::budget::Params>,
 }
 
 /// The resolved pipeline.
@@ -213,6 +218,7 @@ impl Plan {
                 )?,
                 description: r.description.clone(),
                 input: spec,
+                budget: budget::resolve_budget(raw.budget.as_ref())?,
             });
         }
         Ok(Plan {

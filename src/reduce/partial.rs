@@ -11,6 +11,8 @@
 //!                           and the peak-locking accumulator (integer histograms),
 //!                           when the run has a calibration
 //!   <run id>/accumulator.bin   the statistics accumulator (stats' own versioned bytes)
+//!   <run id>/budget.bin        the vorticity budget's accumulator, when `[budget]` is on
+//!                              (`budget::codec`; absent in older partials)
 //! ```
 //!
 //! `merge` accepts any set of partial folders of one pipeline (same SHA-256)
@@ -95,6 +97,10 @@ pub fn write(
         std::fs::create_dir_all(&rd).with_path(&rd)?;
         let p = rd.join("accumulator.bin");
         std::fs::write(&p, r.acc.to_bytes()).with_path(&p)?;
+        if let Some(b) = &r.budget {
+            let p = rd.join("budget.bin");
+            std::fs::write(&p, b.to_bytes()).with_path(&p)?;
+        }
         parts.push(RunPart {
             id: r.id.clone(),
             grid: r.grid,
@@ -157,6 +163,14 @@ pub fn read(dir: &Path) -> Result<Partial> {
         let ap = dir.join(&r.id).join("accumulator.bin");
         let bytes = std::fs::read(&ap).with_path(&ap)?;
         let acc = RunAccumulator::from_bytes(&bytes).with_path(&ap)?;
+        let bp = dir.join(&r.id).join("budget.bin");
+        let budget = match bp.exists() {
+            true => {
+                let b = std::fs::read(&bp).with_path(&bp)?;
+                Some(crate::budget::BudgetAcc::from_bytes(&b).with_path(&bp)?)
+            }
+            false => None,
+        };
         runs.push(Reduced {
             id: r.id,
             grid: r.grid,
@@ -175,6 +189,7 @@ pub fn read(dir: &Path) -> Result<Partial> {
                 })
                 .collect(),
             acc,
+            budget,
             inputs: r.inputs,
             warnings: r.warnings,
             timings: r.timings,
@@ -246,6 +261,17 @@ pub fn merge(mut parts: Vec<Partial>) -> Result<(Partial, Vec<Reduced>)> {
                 .with_path(&dir));
             }
             into.acc.try_merge(r.acc).map_err(|e| e.with_path(&dir))?;
+            match (&mut into.budget, r.budget) {
+                (Some(a), Some(b)) => a.merge(b),
+                (None, None) => {}
+                _ => {
+                    return Err(Error::data(format!(
+                        "run '{}': some shards have a budget (budget.bin) and some not",
+                        r.id
+                    ))
+                    .with_path(&dir))
+                }
+            }
             match (&mut into.peak_acc, r.peak_acc) {
                 (Some(a), Some(b)) => a.merge(b),
                 (None, None) => {}

@@ -4,6 +4,7 @@
 mod util;
 
 mod bad_input;
+mod budget;
 mod detection;
 mod reference;
 mod run;
