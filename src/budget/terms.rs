@@ -125,8 +125,8 @@ fn quad(j: &[f64; NF], s: &[f64]) -> f64 {
 /// the variance of the signed sum of the four in the residual.
 ///
 /// The turbulent term `T = -sum_a w_a c_a` (c the co-moment at tap a) has,
-/// per frame, the influence `-(q - U dw/dx - V dw/dy - W_x u - W_y v - W div
-/// - DIV w)` to first order (the product rule applied to `Dx(u w)`, exact up
+/// per frame, the influence
+/// `-(q - U dw/dx - V dw/dy - W_x u - W_y v - W div - DIV w)` to first order (the product rule applied to `Dx(u w)`, exact up
 /// to the stencil's truncation), so its variance and its covariance with
 /// the other terms follow from the same covariance matrix.
 fn local(m: &[f64], s: &[f64], nu: f64, turb: bool) -> ([f64; 4], [f64; 4], f64) {
