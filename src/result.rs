@@ -39,6 +39,8 @@ pub struct RunResult {
     pub figures: Vec<FigureRef>,
     pub conditions: crate::plan::report::Conditions,
     pub description: Option<String>,
+    /// The vorticity transport budget, when `[budget]` asked for it.
+    pub budget: Option<crate::budget::Budget>,
 }
 
 /// A reduced campaign.

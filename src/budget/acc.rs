@@ -1,5 +1,5 @@
 //! The budget's accumulator: per phase bin and node, the mean and the
-//! co-moment matrix of the seven per-frame fields (`ops`), and, for
+//! co-moment matrix of the eight per-frame fields (`ops`), and, for
 //! time-resolved runs, the fields of the few frames whose budget is asked.
 //!
 //! Owns: `BudgetAcc` with `new` / `push` / `merge` (in frame order) and the
@@ -15,15 +15,16 @@
 //! What counts as a sample: a node's fields count in a frame when the
 //! frame is not rejected, every tap of the composites carries a sample (the
 //! statistics' sample rule: a valid vector, or replaced/filled ones with
-//! `include_filled`), so all seven fields are finite. Frames without a
+//! `include_filled`), so all eight fields are finite. Frames without a
 //! phase, or outside every phase window, add nothing to the bins.
-//! Memory: 36 numbers per node for each phase bin reached (a 100 x 100 grid
-//! with 12 bins: 35 MB), plus 9 numbers per node for each kept frame.
+//! Memory: 45 numbers per node for each phase bin reached (a 100 x 100 grid
+//! with 12 bins: 43 MB), plus 10 numbers per node for each kept frame.
 
 use super::ops::{Ops, NF, NT};
 use crate::derive::Derived;
 use crate::field::{Field, FrameMeta, Grid, FILLED, REPLACED, VALID};
 use crate::stats;
+use crate::stencil::Stencil;
 
 /// Sums of one phase bin, node-major (`mean[k * NF + f]`, `cm[k * NT + t]`).
 #[derive(Debug, Clone, PartialEq)]
@@ -128,6 +129,9 @@ pub struct BudgetAcc {
     pub params: super::Params,
     /// The phase binning and sample rule (the statistics' own).
     pub stats: stats::Params,
+    /// The smoother's equivalent stencil, when one runs before the
+    /// derivatives (its noise correlation enters the Gram matrices).
+    pub smoother: Option<Stencil>,
     pub ops: Ops,
     pub bins: Vec<Option<BinSums>>,
     /// Kept frames, in frame order.
@@ -137,12 +141,18 @@ pub struct BudgetAcc {
 }
 
 impl BudgetAcc {
-    pub fn new(p: &super::Params, sp: &stats::Params, grid: Grid, ops: Ops) -> Self {
+    pub fn new(
+        p: &super::Params,
+        sp: &stats::Params,
+        grid: Grid,
+        smoother: Option<Stencil>,
+    ) -> Self {
         BudgetAcc {
             grid,
             params: p.clone(),
             stats: sp.clone(),
-            ops,
+            ops: Ops::new(p.diff_scheme(), grid.dx, grid.dy, smoother.as_ref()),
+            smoother,
             bins: vec![None; sp.phase_bins],
             slices: Vec::new(),
             frames: 0,
@@ -167,7 +177,10 @@ impl BudgetAcc {
         let v = ndarray::Zip::from(&field.status)
             .and(&d.v)
             .map_collect(take);
-        let sq = |a: &ndarray::Array2<f64>| a.mapv(|s| s * s);
+        // derive reports the uncertainty of the smoothed velocity; the Gram
+        // matrices compose the smoother, so they need the raw one
+        let gain = self.smoother.as_ref().map_or(1.0, |s| s.noise_factor());
+        let sq = |a: &ndarray::Array2<f64>| a.mapv(|s| (s / gain).powi(2));
         let frame = Frame {
             index: meta.index as u64,
             time_s: meta.time_s.unwrap_or(f64::NAN),

@@ -11,21 +11,23 @@
 //! end-32  32  SHA-256 of everything before it
 //! ```
 //!
-//! Header: the budget `Params`, the statistics `Params`, the grid, frames
+//! Header: the budget `Params`, the statistics `Params`, the grid, the
+//! smoother's equivalent stencil, frames
 //! pushed, which bins are present, and the index and time of each kept
 //! frame. Arrays, in order: each present bin's n, mean, cm; each kept
-//! frame's fields, var_u, var_v. The stencils are not stored: the reader
-//! rebuilds them from the pipeline (`from_bytes` takes them).
+//! frame's fields, var_u, var_v. The budget's stencils are rebuilt from
+//! the parameters, the grid and the smoother's stencil (in the header).
 //! Reading checks magic, version, lengths and checksum; no partially read
 //! state escapes.
 
 use sha2::{Digest, Sha256};
 
 use super::acc::{BinSums, BudgetAcc, Slice};
-use super::ops::{Ops, NF, NT};
+use super::ops::{NF, NT};
 use crate::error::{Error, Result};
 use crate::field::Grid;
 use crate::stats;
+use crate::stencil::{Stencil, Tap};
 
 pub const MAGIC: &[u8; 8] = b"CURLEWVB";
 pub const VERSION: u32 = 1;
@@ -35,6 +37,8 @@ struct Header {
     params: super::Params,
     stats: stats::Params,
     grid: Grid,
+    /// The smoother's equivalent stencil as (dj, di, w).
+    smoother: Option<Vec<(i32, i32, f64)>>,
     frames: u64,
     bins: Vec<bool>,
     /// (index, time_s bits) of each kept frame.
@@ -51,6 +55,10 @@ impl BudgetAcc {
             params: self.params.clone(),
             stats: self.stats.clone(),
             grid: self.grid,
+            smoother: self
+                .smoother
+                .as_ref()
+                .map(|s| s.taps.iter().map(|t| (t.dj, t.di, t.w)).collect()),
             frames: self.frames,
             bins: self.bins.iter().map(Option::is_some).collect(),
             slices: self
@@ -84,8 +92,8 @@ impl BudgetAcc {
         out
     }
 
-    /// Reads `to_bytes`; `ops` are the run's stencils (from the pipeline).
-    pub fn from_bytes(b: &[u8], ops: Ops) -> Result<BudgetAcc> {
+    /// Reads `to_bytes`.
+    pub fn from_bytes(b: &[u8]) -> Result<BudgetAcc> {
         if b.len() < 8 || &b[..8] != MAGIC {
             return Err(bad("not a curlew partial-budget file (wrong magic bytes)"));
         }
@@ -125,7 +133,10 @@ impl BudgetAcc {
             .chunks_exact(8)
             .map(|c| f64::from_le_bytes(c.try_into().unwrap()));
         let mut take = |n: usize| -> Vec<f64> { it.by_ref().take(n).collect() };
-        let mut acc = BudgetAcc::new(&h.params, &h.stats, h.grid, ops);
+        let smoother = h
+            .smoother
+            .map(|t| Stencil::new(t.into_iter().map(|(dj, di, w)| Tap { dj, di, w }).collect()));
+        let mut acc = BudgetAcc::new(&h.params, &h.stats, h.grid, smoother);
         acc.frames = h.frames;
         for (slot, &present) in acc.bins.iter_mut().zip(&h.bins) {
             if present {

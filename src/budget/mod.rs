@@ -18,6 +18,7 @@
 pub mod acc;
 pub mod codec;
 pub mod ops;
+pub mod run;
 pub mod terms;
 #[cfg(test)]
 mod tests;

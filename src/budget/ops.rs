@@ -7,7 +7,9 @@
 //! frames (`acc`) or the terms (`terms`).
 //!
 //! Fields, in order (`F_*`): u, v, omega = Dx v - Dy u, d omega/dx,
-//! d omega/dy, laplacian(omega) and the in-plane divergence Dx u + Dy v.
+//! d omega/dy, laplacian(omega), the in-plane divergence Dx u + Dy v, and
+//! the divergence of the vorticity flux Dx(u omega) + Dy(v omega), whose bin
+//! mean and covariances give the turbulent term and its uncertainty.
 //! `D` is the first-derivative stencil of the chosen scheme, `L` the
 //! five-point Laplacian (`stencil::second`), composed with `Stencil::after`:
 //! d omega/dx = Dx∘Dx on v - Dx∘Dy on u, laplacian(omega) = L∘Dx on v -
@@ -37,8 +39,11 @@ pub const F_WX: usize = 3;
 pub const F_WY: usize = 4;
 pub const F_LAP: usize = 5;
 pub const F_DIV: usize = 6;
+/// The divergence of the instantaneous vorticity flux, `Dx(u w) + Dy(v w)`
+/// (not linear: its stencils are empty and its noise Gram entries 0).
+pub const F_Q: usize = 7;
 /// Number of per-frame fields.
-pub const NF: usize = 7;
+pub const NF: usize = 8;
 
 /// Index of the pair (a, b), a <= b, in the packed upper triangle of a
 /// symmetric NF x NF matrix.
@@ -83,6 +88,7 @@ impl Ops {
             neg(&ddy.after(&ddy)),
             neg(&lap.after(&ddy)),
             ddx.clone(),
+            Stencil::default(),
         ];
         let on_v = vec![
             none,
@@ -92,6 +98,7 @@ impl Ops {
             ddy.after(&ddx),
             lap.after(&ddx),
             ddy.clone(),
+            Stencil::default(),
         ];
         let smooth = |v: &[Stencil]| -> Vec<Stencil> {
             match smoother {
@@ -111,7 +118,7 @@ impl Ops {
         }
     }
 
-    /// The seven fields of one frame, field-major (`out[f * nodes + k]`),
+    /// The eight fields of one frame, field-major (`out[f * nodes + k]`),
     /// NaN where a composite does not fit. `u`, `v` are NaN where the node
     /// carries no sample.
     pub fn eval(&self, u: &Array2<f64>, v: &Array2<f64>) -> Vec<f64> {
@@ -121,6 +128,8 @@ impl Ops {
         let w = Array2::from_shape_fn((ny, nx), |(j, i)| {
             apply(&self.dx, v, j, i) - apply(&self.dy, u, j, i)
         });
+        let uw = u * &w;
+        let vw = v * &w;
         for j in 0..ny {
             for i in 0..nx {
                 let k = j * nx + i;
@@ -131,6 +140,7 @@ impl Ops {
                 out[F_WY * n + k] = apply(&self.dy, &w, j, i);
                 out[F_LAP * n + k] = apply(&self.lap, &w, j, i);
                 out[F_DIV * n + k] = apply(&self.dx, u, j, i) + apply(&self.dy, v, j, i);
+                out[F_Q * n + k] = apply(&self.dx, &uw, j, i) + apply(&self.dy, &vw, j, i);
             }
         }
         out
@@ -186,7 +196,7 @@ mod tests {
         let v = Array2::from_shape_fn((9, 11), |(j, i)| ((i * 2 + j * 5) % 7) as f64 * 0.2);
         let out = ops.eval(&u, &v);
         let n = 99;
-        for f in 0..NF {
+        for f in 0..F_Q {
             for (j, i) in [(2, 2), (4, 5), (6, 8)] {
                 let want = apply(&ops.on_u[f], &u, j, i) + apply(&ops.on_v[f], &v, j, i);
                 let got = out[f * n + j * 11 + i];

@@ -1,5 +1,6 @@
 //! The terms of the budget per slice (phase bin or kept frame) and node,
 //! with propagated standard uncertainties.
+//! (Time-resolved slices have no turbulent term; their residual leaves it out.)
 //!
 //! Owns: turning `BudgetAcc` into `Budget`. Does not own: accumulation
 //! (`acc`), stencils (`ops`), files (`reduce::outputs`).
@@ -18,16 +19,16 @@
 //!   stencil. Time-resolved slices have no such term (NaN).
 //!
 //! Uncertainty (GUM, JCGM 100:2008 §5.2, first-order propagation):
-//! - phase runs: the covariance of the seven bin means is `C / (n (n-1))`
+//! - phase runs: the covariance of the eight bin means is `C / (n (n-1))`
 //!   (type A, from the scatter over the bin's frames: measurement noise,
 //!   turbulence and the spatial correlation of both are in it, exactly, at
 //!   one node); advection, stretching, diffusion and their sum in the
-//!   residual use the full 7 x 7 covariance (their correlation is carried).
-//!   The unsteady term uses other bins (other frames): independent. The
-//!   turbulent term's co-moment has variance `(s_u² s_w² + c²) / (n - 1)`
-//!   (normal fluctuations; Bendat & Piersol 2010, *Random Data*, §4.6, from
-//!   memory), and the covariance of the co-moments at neighbouring nodes,
-//!   and of the turbulent term with the others, is neglected.
+//!   residual use the full covariance (their correlation is carried). The
+//!   turbulent term enters through its first-order influence per frame
+//!   (`local`), so its correlation with the others is carried too. The
+//!   unsteady term uses other bins (other frames): independent.
+//!   Neglected: second-order terms (products of two errors), which matter
+//!   only where a term's relative uncertainty approaches 1.
 //! - time-resolved slices: `sigma_u² G_u + sigma_v² G_v`, the noise Gram
 //!   matrices of the composite stencils (`ops`) times the node's velocity
 //!   variances (taken as uniform over the stencil's reach).
@@ -35,7 +36,7 @@
 //! Nodes without two samples in the bin, or without every tap, get NaN.
 
 use super::acc::{BinSums, BudgetAcc, Slice};
-use super::ops::{apply, tri, F_DIV, F_LAP, F_U, F_V, F_W, F_WX, F_WY, NF, NT};
+use super::ops::{apply, tri, F_DIV, F_LAP, F_Q, F_U, F_V, F_W, F_WX, F_WY, NF, NT};
 use crate::field::Grid;
 use ndarray::Array2;
 
@@ -119,9 +120,16 @@ fn quad(j: &[f64; NF], s: &[f64]) -> f64 {
 }
 
 /// Advection, stretching, diffusion at a node from the field means `m` and
-/// their covariance `s`: values, variances, and the variance of their
-/// signed sum in the residual.
-fn local(m: &[f64], s: &[f64], nu: f64) -> ([f64; 3], [f64; 3], f64) {
+/// their covariance `s`: values, variances, the variance of the turbulent
+/// term (`turb`: its first-order dependence on the frame values, below) and
+/// the variance of the signed sum of the four in the residual.
+///
+/// The turbulent term `T = -sum_a w_a c_a` (c the co-moment at tap a) has,
+/// per frame, the influence
+/// `-(q - U dw/dx - V dw/dy - W_x u - W_y v - W div - DIV w)` to first order (the product rule applied to `Dx(u w)`, exact up
+/// to the stencil's truncation), so its variance and its covariance with
+/// the other terms follow from the same covariance matrix.
+fn local(m: &[f64], s: &[f64], nu: f64, turb: bool) -> ([f64; 4], [f64; 4], f64) {
     let mut ja = [0.0; NF];
     ja[F_U] = m[F_WX];
     ja[F_V] = m[F_WY];
@@ -132,22 +140,35 @@ fn local(m: &[f64], s: &[f64], nu: f64) -> ([f64; 3], [f64; 3], f64) {
     js[F_DIV] = -m[F_W];
     let mut jd = [0.0; NF];
     jd[F_LAP] = nu;
-    let jr: [f64; NF] = std::array::from_fn(|f| ja[f] - js[f] - jd[f]);
+    let mut jt = [0.0; NF];
+    if turb {
+        jt[F_Q] = -1.0;
+        jt[F_WX] = m[F_U];
+        jt[F_WY] = m[F_V];
+        jt[F_U] = m[F_WX];
+        jt[F_V] = m[F_WY];
+        jt[F_DIV] = m[F_W];
+        jt[F_W] = m[F_DIV];
+    }
+    let jr: [f64; NF] = std::array::from_fn(|f| ja[f] - js[f] - jd[f] - jt[f]);
     (
         [
             m[F_U] * m[F_WX] + m[F_V] * m[F_WY],
             -m[F_W] * m[F_DIV],
             nu * m[F_LAP],
+            f64::NAN,
         ],
-        [quad(&ja, s), quad(&js, s), quad(&jd, s)],
+        [quad(&ja, s), quad(&js, s), quad(&jd, s), quad(&jt, s)],
         quad(&jr, s),
     )
 }
 
-/// Fills advection, stretching, diffusion and the residual of node `k`,
-/// given the unsteady and turbulent values and variances already there.
-fn close(out: &mut SliceBudget, k: usize, m: &[f64], s: &[f64], nu: f64, var: [f64; 2]) {
-    let (val, vars, var_r) = local(m, s, nu);
+/// Fills advection, stretching, diffusion, the turbulent uncertainty and
+/// the residual of node `k`, given the unsteady value and variance and the
+/// turbulent value (NaN in a frame's budget: no such term) already there.
+fn close(out: &mut SliceBudget, k: usize, m: &[f64], s: &[f64], nu: f64, var_unst: f64) {
+    let turb = out.value[4][k];
+    let (val, vars, var_r) = local(m, s, nu, !turb.is_nan());
     out.u[k] = m[F_U];
     out.v[k] = m[F_V];
     out.omega[k] = m[F_W];
@@ -155,14 +176,12 @@ fn close(out: &mut SliceBudget, k: usize, m: &[f64], s: &[f64], nu: f64, var: [f
         out.value[t + 1][k] = val[t];
         out.unc[t + 1][k] = vars[t].max(0.0).sqrt();
     }
-    let turb = out.value[4][k];
-    let turb = if turb.is_nan() && var[1] == 0.0 {
-        0.0
-    } else {
-        turb
-    };
+    if !turb.is_nan() {
+        out.unc[4][k] = vars[3].max(0.0).sqrt();
+    }
+    let turb = if turb.is_nan() { 0.0 } else { turb };
     out.residual[k] = out.value[0][k] + val[0] - val[1] - val[2] - turb;
-    out.residual_unc[k] = (var[0] + var_r + var[1]).max(0.0).sqrt();
+    out.residual_unc[k] = (var_unst + var_r).max(0.0).sqrt();
 }
 
 /// The finished budget. `nu` (m²/s) and `freq` (Hz) may be missing: the
@@ -224,10 +243,9 @@ fn phase_slice(
     let nodes = g.len();
     let mut out = SliceBudget::empty(kind, nodes);
     out.n.clone_from(&s.n);
-    // co-moments <u''w''>, <v''w''> and their variances
+    // co-moments <u''w''>, <v''w''>
     let mut cu = Array2::from_elem(g.shape(), f64::NAN);
     let mut cv = cu.clone();
-    let (mut vu, mut vv) = (cu.clone(), cu.clone());
     for k in 0..nodes {
         let n = s.n[k];
         if n < 2.0 {
@@ -235,14 +253,9 @@ fn phase_slice(
         }
         let c = &s.cm[k * NT..(k + 1) * NT];
         let (j, i) = (k / g.nx, k % g.nx);
-        let var = |a: usize| c[tri(a, a)] / (n - 1.0);
         cu[[j, i]] = c[tri(F_U, F_W)] / (n - 1.0);
         cv[[j, i]] = c[tri(F_V, F_W)] / (n - 1.0);
-        vu[[j, i]] = (var(F_U) * var(F_W) + cu[[j, i]].powi(2)) / (n - 1.0);
-        vv[[j, i]] = (var(F_V) * var(F_W) + cv[[j, i]].powi(2)) / (n - 1.0);
     }
-    let dx2 = squared(&acc.ops.dx);
-    let dy2 = squared(&acc.ops.dy);
     for k in 0..nodes {
         let n = s.n[k];
         if n < 2.0 {
@@ -263,25 +276,10 @@ fn phase_slice(
                 out.unc[0][k] = var_unst.sqrt();
             }
         }
-        let t = -(apply(&acc.ops.dx, &cu, j, i) + apply(&acc.ops.dy, &cv, j, i));
-        let var_t = apply(&dx2, &vu, j, i) + apply(&dy2, &vv, j, i);
-        out.value[4][k] = t;
-        out.unc[4][k] = var_t.sqrt();
-        close(&mut out, k, m, &cov, nu, [var_unst, var_t]);
+        out.value[4][k] = -(apply(&acc.ops.dx, &cu, j, i) + apply(&acc.ops.dy, &cv, j, i));
+        close(&mut out, k, m, &cov, nu, var_unst);
     }
     out
-}
-
-/// The stencil with squared weights (the variance of its output for
-/// independent inputs of given variances).
-fn squared(s: &crate::stencil::Stencil) -> crate::stencil::Stencil {
-    crate::stencil::Stencil {
-        taps: s
-            .taps
-            .iter()
-            .map(|t| crate::stencil::Tap { w: t.w * t.w, ..*t })
-            .collect(),
-    }
 }
 
 /// A kept frame's budget; `pair` its neighbouring frames.
@@ -312,7 +310,7 @@ fn frame_slice(acc: &BudgetAcc, s: &Slice, pair: Option<(&Slice, &Slice)>, nu: f
             var_unst = (var_w(p, k) + var_w(q, k)) / (dt * dt);
             out.unc[0][k] = var_unst.sqrt();
         }
-        close(&mut out, k, &m, &cov, nu, [var_unst, 0.0]);
+        close(&mut out, k, &m, &cov, nu, var_unst);
     }
     out
 }

@@ -6,7 +6,6 @@ use rand::Rng;
 use rand_distr::StandardNormal;
 
 use super::acc::{BudgetAcc, Frame};
-use super::ops::Ops;
 use super::terms::{finish, Budget, SliceBudget};
 use super::Params;
 use crate::field::Grid;
@@ -37,7 +36,7 @@ fn acc(g: Grid, frames: Vec<u64>, bins: usize) -> BudgetAcc {
         phase_bins: bins,
         ..stats::Params::default()
     };
-    BudgetAcc::new(&p, &sp, g, Ops::new(p.diff_scheme(), g.dx, g.dy, None))
+    BudgetAcc::new(&p, &sp, g, None)
 }
 
 /// Pushes the field `f` sampled on the grid, plus independent normal noise
@@ -262,4 +261,218 @@ fn burgers_vortex_balances_advection_stretching_and_diffusion() {
     }
     println!("burgers: stretching vs alpha omega, residual (/ peak stretching) {e:?}");
     assert!(e[0] < 0.01 && e[1] < 0.02, "{e:?}");
+}
+
+/// Ratio of the scatter over seeds to the reported uncertainty, per term
+/// (TERMS order, then the residual), pooled over nodes: sqrt(mean over
+/// nodes of the variance over seeds / mean over nodes and seeds of u²).
+fn scatter_ratio(runs: &[SliceBudget]) -> [f64; 6] {
+    let nodes = interior(&runs[0]);
+    let s = runs.len() as f64;
+    std::array::from_fn(|t| {
+        let get = |b: &SliceBudget, k: usize| {
+            if t < 5 {
+                (b.value[t][k], b.unc[t][k])
+            } else {
+                (b.residual[k], b.residual_unc[k])
+            }
+        };
+        let (mut var, mut u2) = (0.0, 0.0);
+        for &k in nodes
+            .iter()
+            .filter(|&&k| runs.iter().all(|b| get(b, k).0.is_finite()))
+        {
+            let m = runs.iter().map(|b| get(b, k).0).sum::<f64>() / s;
+            var += runs.iter().map(|b| (get(b, k).0 - m).powi(2)).sum::<f64>() / (s - 1.0);
+            u2 += runs.iter().map(|b| get(b, k).1.powi(2)).sum::<f64>() / s;
+        }
+        (var / u2).sqrt()
+    })
+}
+
+#[test]
+fn monte_carlo_time_resolved_uncertainty_matches_the_scatter() {
+    // 200 seeds (1000..1200) of the noisy diffusing Lamb-Oseen vortex.
+    let g = grid(25, 5e-4);
+    let runs: Vec<SliceBudget> = (1000..1200)
+        .map(|seed| three_frames(g, &|t| oseen(t, 0.0), 10.0, 0.05, 5e-5, seed).slices[0].clone())
+        .collect();
+    let r = scatter_ratio(&runs);
+    println!("scatter / reported (unsteady, advection, stretching, diffusion, -, residual): {r:?}");
+    for t in [0, 1, 2, 3, 5] {
+        assert!((r[t] - 1.0).abs() < 0.15, "term {t}: {r:?}");
+    }
+}
+
+/// A phase-locked run: a Lamb-Oseen vortex going round a circle of radius
+/// 2 mm once per cycle (f = 2 Hz), each frame displaced at random by 0.4 mm
+/// (a stochastic part with spatial correlation and a turbulent flux), plus
+/// measurement noise; `per_bin` frames at each of 8 bin centres.
+fn phase_run(seed: u64, per_bin: usize) -> Budget {
+    let g = grid(25, 5e-4);
+    let mut a = acc(g, vec![], 8);
+    let mut r = rng(seed);
+    let mut index = 0;
+    for b in 0..8 {
+        let ph = (b as f64 + 0.5) * 45.0;
+        for _ in 0..per_bin {
+            let th = ph.to_radians();
+            let jx = 4e-4 * r.sample::<f64, _>(StandardNormal);
+            let jy = 4e-4 * r.sample::<f64, _>(StandardNormal);
+            let (xc, yc) = (2e-3 * th.cos() + jx, 2e-3 * th.sin() + jy);
+            let f = move |x: f64, y: f64| flows::lamb_oseen(x, y, xc, yc, 2e-4, 3e-3);
+            let frame = Frame {
+                index,
+                time_s: f64::NAN,
+                phase_deg: Some(ph),
+            };
+            push(&mut a, frame, &f, 5e-5, &mut r);
+            index += 1;
+        }
+    }
+    finish(&a, Some(NU), Some(2.0))
+}
+
+#[test]
+fn monte_carlo_phase_resolved_uncertainty_matches_the_scatter() {
+    // 150 seeds (2000..2150), 24 frames per bin; bin 0.
+    let runs: Vec<SliceBudget> = (2000..2150)
+        .map(|s| phase_run(s, 24).slices[0].clone())
+        .collect();
+    let r = scatter_ratio(&runs);
+    println!("scatter / reported (unsteady, advection, stretching, diffusion, turbulent, residual): {r:?}");
+    for t in 0..6 {
+        assert!((r[t] - 1.0).abs() < 0.15, "term {t}: {r:?}");
+    }
+}
+
+#[test]
+fn chunks_merged_in_order_and_a_codec_round_trip_equal_one_pass() {
+    // 3 bins x 5 frames, plus frames 6..8 kept for a time-resolved budget.
+    let g = grid(13, 5e-4);
+    let mk = || acc(g, vec![7], 3);
+    let frames: Vec<(Frame, u64)> = (0..15u64)
+        .map(|i| {
+            let ph = (i % 3) as f64 * 120.0 + 10.0;
+            (
+                Frame {
+                    index: i,
+                    time_s: i as f64 * 0.01,
+                    phase_deg: Some(ph),
+                },
+                50 + i,
+            )
+        })
+        .collect();
+    let feed = |a: &mut BudgetAcc, fs: &[(Frame, u64)]| {
+        for (f, seed) in fs {
+            let xc = 1e-3 * (f.index as f64 * 0.7).sin();
+            let flow = move |x: f64, y: f64| flows::lamb_oseen(x, y, xc, 0.0, 2e-4, 2e-3);
+            push(a, *f, &flow, 5e-5, &mut rng(*seed));
+        }
+    };
+    let mut one = mk();
+    feed(&mut one, &frames);
+    let mut merged = mk();
+    feed(&mut merged, &frames[..4]);
+    for part in [&frames[4..9], &frames[9..]] {
+        let mut b = mk();
+        feed(&mut b, part);
+        let bytes = b.to_bytes();
+        merged.merge(BudgetAcc::from_bytes(&bytes).unwrap());
+    }
+    let (a, b) = (
+        finish(&one, Some(NU), Some(1.0)),
+        finish(&merged, Some(NU), Some(1.0)),
+    );
+    assert_eq!(a.slices.len(), 4, "three bins and one frame");
+    for (x, y) in a.slices.iter().zip(&b.slices) {
+        assert_eq!(x.kind, y.kind);
+        for k in interior(x) {
+            for t in 0..5 {
+                crate::testutil::assert_close(x.value[t][k], y.value[t][k], 1e-12, 1e-9, "value");
+                crate::testutil::assert_close(x.unc[t][k], y.unc[t][k], 1e-12, 1e-9, "unc");
+            }
+        }
+    }
+    // a damaged partial is an error, not a wrong budget
+    let mut bytes = mk().to_bytes();
+    let last = bytes.len() - 40;
+    bytes[last] ^= 1;
+    assert!(BudgetAcc::from_bytes(&bytes).is_err());
+    assert!(BudgetAcc::from_bytes(b"CURLEWPS").is_err());
+}
+
+/// Largest errors of unsteady and advection in bin 5 of `nb` bins of the
+/// phase-locked street, relative to the peak advection.
+fn street_errors(nb: usize) -> [f64; 2] {
+    // Unsteady and advection against the model's own derivatives (fine
+    // central differences of `vortex_street` in phase and space), frames at
+    // the bin centres, no noise.
+    let street = flows::Street::behind_cylinder(0.2, 0.01, 0.2, 0.8, 0.28, 0.15, NU, 0.08);
+    let f = 0.2 * 0.2 / 0.01;
+    // around the upper row (y = b/2 = 5.6 mm), cores ~1.8 mm = 7 pitches
+    let g = Grid {
+        nx: 41,
+        ny: 41,
+        x0: 0.045,
+        y0: 0.0006,
+        dx: 2.5e-4,
+        dy: 2.5e-4,
+    };
+    let mut a = acc(g, vec![], nb);
+    let w =
+        |th: f64, x: f64, y: f64| flows::vortex_street(x, y, &street, &street.vortices(th)).omega;
+    for b in 0..nb as u64 {
+        let th = (b as f64 + 0.5) * std::f64::consts::TAU / nb as f64;
+        let vs = street.vortices(th);
+        let flow = move |x: f64, y: f64| flows::vortex_street(x, y, &street, &vs);
+        // two identical frames per bin (a bin mean needs two samples)
+        for index in [2 * b, 2 * b + 1] {
+            let frame = Frame {
+                index,
+                time_s: f64::NAN,
+                phase_deg: Some(th.to_degrees()),
+            };
+            push(&mut a, frame, &flow, 0.0, &mut rng(1));
+        }
+    }
+    let bud = finish(&a, Some(NU), Some(f));
+    let s = &bud.slices[5];
+    let th = 5.5 * std::f64::consts::TAU / nb as f64;
+    let (e, h) = (1e-4, 1e-6);
+    let vs = street.vortices(th);
+    let mut err = [0.0f64; 2];
+    let mut peak = 0.0f64;
+    for k in interior(s) {
+        let (x, y) = (g.x(k % g.nx), g.y(k / g.nx));
+        let dt = (w(th + e, x, y) - w(th - e, x, y)) / (2.0 * e) * std::f64::consts::TAU * f;
+        let smp = flows::vortex_street(x, y, &street, &vs);
+        let wx = (w(th, x + h, y) - w(th, x - h, y)) / (2.0 * h);
+        let wy = (w(th, x, y + h) - w(th, x, y - h)) / (2.0 * h);
+        let adv = smp.u * wx + smp.v * wy;
+        peak = peak.max(adv.abs());
+        err[0] = err[0].max((s.value[0][k] - dt).abs());
+        err[1] = err[1].max((s.value[1][k] - adv).abs());
+    }
+    err.map(|x| x / peak)
+}
+
+#[test]
+fn phase_locked_vortex_street_terms_match_the_models_derivatives() {
+    // Kinematic check (the street is a model, not a Navier-Stokes
+    // solution, so only the terms are checked, not the closure).
+    // 72 bins: the phase step moves the street by a/72 = 0.56 mm, a third
+    // of a core radius; the central difference in phase is the larger
+    // error, and it shrinks with the step (144 bins: down to the spatial
+    // truncation of omega itself, the same 3 % advection shows).
+    let e72 = street_errors(72);
+    let e144 = street_errors(144);
+    println!("street: largest error / peak advection (unsteady, advection): 72 bins {e72:?}, 144 bins {e144:?}");
+    assert!(e72[0] < 0.1 && e72[1] < 0.04, "{e72:?}");
+    assert!(
+        e144[0] < 0.5 * e72[0],
+        "shrinks with the phase step: {e72:?} {e144:?}"
+    );
+    assert!(e144[1] < 0.04, "{e144:?}");
 }

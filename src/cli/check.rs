@@ -88,6 +88,9 @@ fn check_run(plan: &Plan, r: &RunPlan) -> Result<()> {
     println!("  fill          {:?}", r.fill);
     println!("  derivatives   {:?}", r.derive);
     println!("  statistics    {:?}", r.stats);
+    for line in curlew::budget::run::check_lines(r, with_phase > 0, with_time > 0) {
+        println!("  {line}");
+    }
     Ok(())
 }
 

@@ -9,6 +9,7 @@
 //! `statistics`, `report`) with its raw struct and its `resolve`.
 
 pub mod bounds;
+pub mod budget;
 pub mod derivatives;
 pub mod input;
 mod locate;
@@ -54,6 +55,8 @@ pub struct RawPipeline {
     pub compare: Vec<report::RawCompare>,
     #[serde(default)]
     pub run: Vec<RawRun>,
+    /// The vorticity transport budget (off unless present).
+    pub budget: Option<budget::RawBudget>,
 }
 
 #[derive(Debug, Clone, Default, Deserialize, Serialize)]
@@ -114,6 +117,8 @@ pub struct RunPlan {
     pub plot: plot::Params,
     pub conditions: report::Conditions,
     pub description: Option<String>,
+    /// The vorticity transport budget, when asked for.
+    pub budget: Option<crate::budget::Params>,
 }
 
 /// The resolved pipeline.
@@ -232,6 +237,7 @@ impl Plan {
                 )?,
                 description: r.description.clone(),
                 input: spec,
+                budget: budget::resolve_budget(raw.budget.as_ref())?,
             });
         }
         Ok(Plan {

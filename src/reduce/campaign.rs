@@ -60,7 +60,15 @@ pub fn finish_campaign(
             figures: Vec::new(),
             conditions: rp.conditions.clone(),
             description: rp.description.clone(),
+            budget: None,
         };
+        if let Some(b) = &r.budget {
+            let t = Instant::now();
+            let bud = crate::budget::run::finish(b, rp);
+            run_warnings.extend(bud.warnings.iter().map(|w| format!("run '{}': {w}", rr.id)));
+            rr.budget = Some(bud);
+            timings.push(("budget".into(), t.elapsed().as_secs_f64()));
+        }
         let t = Instant::now();
         outputs::write_run_tables(&out.join(&rr.id), &rr)?;
         timings.push(("write".into(), t.elapsed().as_secs_f64()));

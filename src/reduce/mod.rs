@@ -147,6 +147,8 @@ pub struct Reduced {
     pub range: (usize, usize),
     pub frames: Vec<FrameRecord>,
     pub acc: RunAccumulator,
+    /// The vorticity budget's accumulator, when the run asks for one.
+    pub budget: Option<crate::budget::BudgetAcc>,
     pub inputs: Vec<InputFile>,
     pub warnings: Vec<String>,
     pub timings: Vec<(String, f64)>,
@@ -392,7 +394,9 @@ pub fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
         inputs: Vec<InputFile>,
         schemes: Vec<(String, usize)>,
         peak: Option<PeakLockAcc>,
+        budget: Option<crate::budget::BudgetAcc>,
     }
+    let mut budget = crate::budget::run::start(run, grid);
     let mut schemes: Vec<(String, usize)> = Vec::new();
     let mut peak: Option<PeakLockAcc> = run.px_velocity.map(PeakLockAcc::new);
     let mut acc = RunAccumulator::new(&run.stats, grid, &names);
@@ -409,6 +413,7 @@ pub fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
                 inputs: Vec::new(),
                 schemes: Vec::new(),
                 peak: run.px_velocity.map(PeakLockAcc::new),
+                budget: crate::budget::run::start(run, grid),
             };
             for (meta, src) in chunk {
                 let (mut field, hash) = read_on_grid_hashed(run, src, &grid, true)?;
@@ -434,6 +439,9 @@ pub fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
                 );
                 if !rejected {
                     out.acc.push(meta, &field, &derived);
+                    if let Some(b) = out.budget.as_mut() {
+                        b.push(meta, &field, &derived);
+                    }
                 }
                 if let Some(dir) = &opts.frame_fields_dir {
                     outputs::write_frame_field(
@@ -465,6 +473,9 @@ pub fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
             add_counts(&mut schemes, &names, &counts);
             if let (Some(p), Some(q)) = (peak.as_mut(), c.peak) {
                 p.merge(q);
+            }
+            if let (Some(b), Some(q)) = (budget.as_mut(), c.budget) {
+                b.merge(q);
             }
         },
     )?;
@@ -508,6 +519,7 @@ pub fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
         range,
         frames: records,
         acc,
+        budget,
         inputs,
         warnings,
         timings,

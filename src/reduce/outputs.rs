@@ -135,6 +135,11 @@ pub fn write_run_tables(dir: &Path, run: &RunResult) -> Result<()> {
     if let Some(c) = &run.stats.convergence {
         io::write_csv(&dir.join("convergence.csv"), c)?;
     }
+    if let Some(b) = &run.budget {
+        let t = crate::budget::run::table(b);
+        io::write_csv(&dir.join("budget.csv"), &t)?;
+        io::write_parquet(&dir.join("budget.parquet"), &t)?;
+    }
     Ok(())
 }
 

@@ -12,6 +12,8 @@
 //!                           when the run has a calibration
 //!   <run id>/accumulator.bin   the statistics accumulator (stats' own versioned bytes)
 //!   partial.sha256          SHA-256 of partial.json and of every accumulator.bin
+//!   <run id>/budget.bin        the vorticity budget's accumulator, when `[budget]` is on
+//!                              (`budget::codec`; absent in older partials)
 //! ```
 //!
 //! Version 2: floats of frame records and grids are exact strings, and
@@ -128,6 +130,10 @@ pub fn write(dir: &Path, plan: &Plan, shard: Shard, runs: &[Reduced]) -> Result<
             .find(|p| p.id == r.id)
             .ok_or_else(|| Error::data(format!("run '{}' is not in the pipeline", r.id)))?;
         let g = r.grid;
+        if let Some(b) = &r.budget {
+            let p = rd.join("budget.bin");
+            std::fs::write(&p, b.to_bytes()).with_path(&p)?;
+        }
         parts.push(RunPart {
             id: r.id.clone(),
             grid: GridRow {
@@ -214,6 +220,14 @@ pub fn read(dir: &Path) -> Result<Partial> {
         let ap = dir.join(&r.id).join("accumulator.bin");
         let bytes = std::fs::read(&ap).with_path(&ap)?;
         let acc = RunAccumulator::from_bytes(&bytes).with_path(&ap)?;
+        let bp = dir.join(&r.id).join("budget.bin");
+        let budget = match bp.exists() {
+            true => {
+                let b = std::fs::read(&bp).with_path(&bp)?;
+                Some(crate::budget::BudgetAcc::from_bytes(&b).with_path(&bp)?)
+            }
+            false => None,
+        };
         runs.push(Reduced {
             id: r.id,
             grid: Grid {
@@ -244,6 +258,7 @@ pub fn read(dir: &Path) -> Result<Partial> {
                 })
                 .collect(),
             acc,
+            budget,
             inputs: r.inputs,
             warnings: r.warnings,
             timings: r.timings,
@@ -327,6 +342,17 @@ pub fn merge(mut parts: Vec<Partial>) -> Result<(Partial, Vec<Reduced>)> {
                 .with_path(&dir));
             }
             into.acc.try_merge(r.acc).map_err(|e| e.with_path(&dir))?;
+            match (&mut into.budget, r.budget) {
+                (Some(a), Some(b)) => a.merge(b),
+                (None, None) => {}
+                _ => {
+                    return Err(Error::data(format!(
+                        "run '{}': some shards have a budget (budget.bin) and some not",
+                        r.id
+                    ))
+                    .with_path(&dir))
+                }
+            }
             match (&mut into.peak_acc, r.peak_acc) {
                 (Some(a), Some(b)) => a.merge(b),
                 (None, None) => {}

@@ -6,6 +6,7 @@ mod util;
 mod bad_input;
 mod coverage_command;
 mod coverage_study;
+mod budget;
 mod detection;
 mod fuzz;
 mod reference;
