@@ -13,6 +13,7 @@ pub mod error;
 pub mod field;
 pub mod fill;
 pub mod io;
+pub mod mask;
 pub mod plan;
 pub mod plot;
 pub mod reduce;

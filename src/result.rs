@@ -39,6 +39,9 @@ pub struct RunResult {
     pub figures: Vec<FigureRef>,
     pub conditions: crate::plan::report::Conditions,
     pub description: Option<String>,
+    /// Nodes of `grid` (node order) masked by the pipeline's geometry mask
+    /// (`crate::mask`); `None` when nothing is masked. Figures draw them grey.
+    pub mask: Option<Vec<bool>>,
 }
 
 /// A reduced campaign.

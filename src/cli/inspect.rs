@@ -93,6 +93,7 @@ pub fn run(args: Args) -> Result<()> {
         pulse_separation: args.pulse_separation,
         skip_lines: args.skip_lines,
         grid_tolerance: None,
+        ..Default::default()
     };
     let spec = raw.resolve("inspect")?;
     let mut text = curlew::io::inspect::describe(&args.file, &spec)?;

@@ -14,6 +14,7 @@ mod frame_table;
 pub mod grid;
 pub mod inspect;
 mod natural;
+pub mod orient;
 pub mod parquet;
 pub mod table;
 mod text;
@@ -23,6 +24,7 @@ use std::path::{Path, PathBuf};
 
 use crate::error::{Error, Result};
 use crate::field::{Field, Grid, NodeTable};
+pub use orient::Orientation;
 pub use parquet::write_frames_parquet;
 pub use table::{Table, Values};
 pub use write::{hash_bytes, hash_file, write_csv, OutputDir};
@@ -49,6 +51,8 @@ pub struct ColumnMap {
     pub flag: Option<String>,
     /// The integer frame column of a parquet long table.
     pub frame: String,
+    /// A column whose nonzero cells mark masked nodes (`mask`).
+    pub mask: Option<String>,
 }
 
 /// Everything a reader needs, resolved to SI factors.
@@ -66,6 +70,8 @@ pub struct InputSpec {
     /// Relative tolerance on node positions, in grid pitches, for printed
     /// rounding when inferring the grid.
     pub grid_tolerance: f64,
+    /// Which way y and v point in the files (`orient`).
+    pub orientation: Orientation,
 }
 
 /// Where one frame comes from.
@@ -162,6 +168,17 @@ fn read_rows(
     grid_only: bool,
     hash: bool,
 ) -> Result<(grid::RawRows, FileHash)> {
+    let (mut rows, h) = read_rows_as_written(spec, source, grid_only, hash)?;
+    spec.orientation.apply(&mut rows);
+    Ok((rows, h))
+}
+
+fn read_rows_as_written(
+    spec: &InputSpec,
+    source: &FrameSource,
+    grid_only: bool,
+    hash: bool,
+) -> Result<(grid::RawRows, FileHash)> {
     match source {
         FrameSource::File(path) => {
             if spec.format == Format::Parquet {
@@ -214,7 +231,7 @@ pub fn read_frame_hashed(
     } else {
         "line"
     };
-    let f = grid::assemble(
+    let mut f = grid::assemble(
         &rows,
         spec.grid_tolerance,
         spec.length_scale,
@@ -222,7 +239,20 @@ pub fn read_frame_hashed(
         what,
     )
     .map_err(|e| e.with_path(source.path()))?;
+    mask_rows(&rows, spec.length_scale, &mut f);
     Ok((f, h))
+}
+
+/// Masks the nodes of the rows the input's mask column marks (every row
+/// lies on a node: `assemble` checked it).
+fn mask_rows(rows: &grid::RawRows, length_scale: f64, f: &mut Field) {
+    let Some(masked) = &rows.masked else { return };
+    for (k, _) in masked.iter().enumerate().filter(|(_, &m)| m) {
+        let (x, y) = (rows.x[k] * length_scale, rows.y[k] * length_scale);
+        if let Some((i, j)) = crate::mask::node_of(&f.grid, x, y, 0.5) {
+            crate::mask::mask_node(f, j, i);
+        }
+    }
 }
 
 /// Reads only what `check` needs: the grid of one frame (header and x, y).

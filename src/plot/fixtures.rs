@@ -186,6 +186,7 @@ pub fn run(id: &str, v: &Vortex, g: Grid) -> RunResult {
             ..Default::default()
         },
         description: Some("a test run".into()),
+        mask: None,
     }
 }
 

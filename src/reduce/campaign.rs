@@ -60,6 +60,12 @@ pub fn finish_campaign(
             figures: Vec::new(),
             conditions: rp.conditions.clone(),
             description: rp.description.clone(),
+            mask: rp
+                .mask
+                .nodes(&r.grid, rp.input.grid_tolerance)
+                .ok()
+                .filter(|m| m.iter().any(|&b| b))
+                .map(|m| m.iter().copied().collect()),
         };
         let t = Instant::now();
         outputs::write_run_tables(&out.join(&rr.id), &rr)?;
@@ -106,6 +112,7 @@ pub fn finish_campaign(
             "frames": rr.frames.len(),
             "frames_in_run": r.n_frames_run,
             "grid": rr.grid,
+            "orientation": rp.input.orientation.describe(),
             "timings_s": timings.iter().map(|(k, v)| (k.clone(), serde_json::json!(v))).collect::<serde_json::Map<_, _>>(),
             "resolved": {
                 "input": format!("{:?}", rp.input),

@@ -5,5 +5,6 @@ mod util;
 
 mod bad_input;
 mod detection;
+mod masks_axes;
 mod reference;
 mod run;
