@@ -80,6 +80,14 @@ fn columns(pairs: &[String]) -> Result<Option<RawColumns>> {
 }
 
 pub fn run(args: Args) -> Result<()> {
+    let ext = args
+        .file
+        .extension()
+        .map(|e| e.to_string_lossy().to_ascii_lowercase());
+    if ext.as_deref() == Some("nc") {
+        print!("{}", curlew::io::cf::summary(&args.file)?);
+        return Ok(());
+    }
     let raw = RawInput {
         format: Some(
             args.format

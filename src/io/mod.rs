@@ -10,10 +10,12 @@
 //! and folders, hashes), `inspect` (summaries for `curlew inspect`), `natural` (natural sort order of frame files), `frame_table` (time and
 //! phase per frame).
 
+pub mod cf;
 mod frame_table;
 pub mod grid;
 pub mod inspect;
 mod natural;
+pub mod netcdf;
 pub mod orient;
 pub mod parquet;
 pub mod table;

@@ -69,6 +69,7 @@ pub fn finish_campaign(
         };
         let t = Instant::now();
         outputs::write_run_tables(&out.join(&rr.id), &rr)?;
+        outputs::write_run_netcdf(&out.join(&rr.id), &rr, &plan.text)?;
         timings.push(("write".into(), t.elapsed().as_secs_f64()));
         if plan.figures {
             let t = Instant::now();

@@ -6,5 +6,6 @@ mod util;
 mod bad_input;
 mod detection;
 mod masks_axes;
+mod netcdf_out;
 mod reference;
 mod run;
