@@ -13,6 +13,7 @@
 pub mod cf;
 mod frame_table;
 pub mod grid;
+mod gridded;
 pub mod inspect;
 mod natural;
 pub mod netcdf;
@@ -39,6 +40,8 @@ pub enum Format {
     /// Whitespace-separated, `#` comment lines.
     Text,
     Parquet,
+    /// NetCDF-3 (classic or 64-bit offset), one frame per file.
+    NetCdf,
 }
 
 /// Header names of the columns in the input files.
@@ -192,6 +195,10 @@ fn read_rows_as_written(
             READ_BUF.with(|buf| {
                 let mut bytes = buf.borrow_mut();
                 text::read_into(path, &mut bytes)?;
+                if spec.format == Format::NetCdf {
+                    let rows = gridded::netcdf_rows(&bytes, path, &spec.columns)?;
+                    return Ok((rows, hash.then(|| hash_bytes(&bytes))));
+                }
                 let rows = text::parse_frame(
                     &bytes,
                     path,
@@ -365,3 +372,5 @@ pub fn node_table_to_table(nt: &NodeTable) -> Table {
 
 #[cfg(test)]
 mod tests;
+#[cfg(test)]
+mod tests_gridded;

@@ -92,9 +92,10 @@ impl RawInput {
             "tsv" => Format::Tsv,
             "text" => Format::Text,
             "parquet" => Format::Parquet,
+            "netcdf" => Format::NetCdf,
             other => {
                 return Err(Error::usage(format!(
-                    "{what}: format = '{other}' is not known; expected csv, tsv, text or parquet"
+                    "{what}: format = '{other}' is not known; expected csv, tsv, text, parquet or netcdf"
                 )))
             }
         };
