@@ -47,6 +47,7 @@ pub mod facade;
 pub mod field;
 pub mod fill;
 pub mod io;
+pub mod mask;
 pub mod plan;
 pub mod plot;
 pub mod reduce;

@@ -41,6 +41,9 @@ pub struct RunResult {
     pub description: Option<String>,
     /// The vorticity transport budget, when `[budget]` asked for it.
     pub budget: Option<crate::budget::Budget>,
+    /// Nodes of `grid` (node order) masked by the pipeline's geometry mask
+    /// (`crate::mask`); `None` when nothing is masked. Figures draw them grey.
+    pub mask: Option<Vec<bool>>,
 }
 
 /// A reduced campaign.

@@ -80,6 +80,21 @@ fn check_run(plan: &Plan, r: &RunPlan) -> Result<()> {
         "  units         {:?}; x, y x {} m; u, v x {} m/s",
         r.input.format, r.input.length_scale, r.input.velocity_scale
     );
+    println!("  orientation   {}", r.input.orientation.describe());
+    if !r.mask.is_empty() {
+        let m = r.mask.nodes(&first, r.input.grid_tolerance)?;
+        let n = m.iter().filter(|&&b| b).count();
+        println!(
+            "  mask          {n} of {} nodes masked (status 3: never filled, never counted)",
+            first.len()
+        );
+    }
+    if let Some(c) = &r.input.columns.mask {
+        println!("  mask column   '{c}': nonzero cells mask their node");
+    }
+    for w in &r.input_warnings {
+        println!("  warning       {w}");
+    }
     match r.px_velocity {
         Some(p) => println!("  calibration   1 px of displacement = {:.6} m/s", p),
         None => println!("  calibration   none (pixel size and pulse separation not given)"),

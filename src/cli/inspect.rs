@@ -80,6 +80,14 @@ fn columns(pairs: &[String]) -> Result<Option<RawColumns>> {
 }
 
 pub fn run(args: Args) -> Result<()> {
+    let ext = args
+        .file
+        .extension()
+        .map(|e| e.to_string_lossy().to_ascii_lowercase());
+    if ext.as_deref() == Some("nc") {
+        print!("{}", curlew::io::cf::summary(&args.file)?);
+        return Ok(());
+    }
     let raw = RawInput {
         format: Some(
             args.format
@@ -93,6 +101,7 @@ pub fn run(args: Args) -> Result<()> {
         pulse_separation: args.pulse_separation,
         skip_lines: args.skip_lines,
         grid_tolerance: None,
+        ..Default::default()
     };
     let spec = raw.resolve("inspect")?;
     let mut text = curlew::io::inspect::describe(&args.file, &spec)?;

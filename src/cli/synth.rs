@@ -82,6 +82,10 @@ pub struct Args {
     /// (a value written with flag = 1).
     #[arg(long)]
     pub flag_column: bool,
+    /// Write the nodes inside a body as rows with mask = 1 and empty u, v
+    /// (instead of leaving them out); the pipeline masks by that column.
+    #[arg(long)]
+    pub mask_column: bool,
     /// Camera calibration, micrometres per pixel.
     #[arg(long, default_value_t = 40.0)]
     pub pixel_um: f64,
@@ -98,6 +102,10 @@ pub struct Args {
     /// Unit of the written u, v: m/s, mm/s or px (displacement between exposures).
     #[arg(long, default_value = "m/s", value_parser = parse::<VelocityUnit>)]
     pub velocity_unit: VelocityUnit,
+    /// Which way the written y and v point: up, or down as in image
+    /// coordinates (the files then hold minus the flow's y and v).
+    #[arg(long, default_value = "up", value_parser = ["up", "down"])]
+    pub y_axis: String,
     /// csv (one file per frame) or parquet (one long table per run).
     #[arg(long, default_value = "csv", value_parser = parse_format)]
     pub format: OutFormat,
@@ -190,8 +198,10 @@ pub fn run(args: Args) -> Result<()> {
         gap_fraction: args.gaps,
         sigma_columns: args.sigma_columns,
         flag_column: args.flag_column,
+        mask_column: args.mask_column,
         length_unit: args.length_unit,
         velocity_unit: args.velocity_unit,
+        y_down: args.y_axis == "down",
         format: args.format,
         digits: args.digits,
         truth: !args.no_truth,

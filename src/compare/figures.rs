@@ -55,7 +55,9 @@ pub fn difference_figures(
     } else {
         (&EMBER, (0.0, magnitude_limit(&both)))
     };
-    let panel = |t: String, v: &[f64]| MapPanel {
+    // Both maps are on the grid of a; b's own mask only where its grid is a's.
+    let mask_of = |r: &RunResult| r.mask.clone().filter(|_| r.grid == d.grid);
+    let panel = |t: String, v: &[f64], mask| MapPanel {
         title: t,
         grid: d.grid,
         values: v.to_vec(),
@@ -63,11 +65,12 @@ pub fn difference_figures(
         range,
         vectors: None,
         faded: None,
+        mask,
     };
     let fig = MapFigure::new(
         None,
         vec![
-            panel(a.id.clone(), &d.a),
+            panel(a.id.clone(), &d.a, mask_of(a)),
             panel(
                 format!(
                     "{}{}",
@@ -79,6 +82,7 @@ pub fn difference_figures(
                     }
                 ),
                 &d.b,
+                mask_of(b),
             ),
         ],
         mm_axes(),
@@ -109,6 +113,7 @@ pub fn difference_figures(
             range: (-lim, lim),
             vectors: None,
             faded: Some(d.significant.iter().map(|s| !s).collect()),
+            mask: mask_of(a),
         }],
         mm_axes(),
         format!("Δ {} ({unit})", p.quantity),

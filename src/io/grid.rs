@@ -248,6 +248,8 @@ pub struct RawRows {
     pub sigma_v: Option<Vec<f64>>,
     pub invalid: Vec<bool>,
     pub line: Vec<usize>,
+    /// Rows the input's mask column marks as masked (`crate::mask`).
+    pub masked: Option<Vec<bool>>,
 }
 
 impl RawRows {

@@ -10,11 +10,15 @@
 //! hashes), `outdir` (output folders: safety, leftovers, signals), `inspect` (summaries for `curlew inspect`), `natural` (natural sort order of frame files), `frame_table` (time and
 //! phase per frame).
 
+pub mod cf;
 mod frame_table;
 pub mod grid;
+mod gridded;
 pub mod inspect;
 mod natural;
 pub mod outdir;
+pub mod netcdf;
+pub mod orient;
 pub mod parquet;
 pub mod table;
 mod text;
@@ -25,6 +29,7 @@ use std::path::{Path, PathBuf};
 use crate::error::{Error, Result};
 use crate::field::{Field, Grid, NodeTable};
 pub use outdir::OutputDir;
+pub use orient::Orientation;
 pub use parquet::write_frames_parquet;
 pub use table::{Table, Values};
 pub use text::clip as clip_text;
@@ -40,6 +45,8 @@ pub enum Format {
     /// Whitespace-separated, `#` comment lines.
     Text,
     Parquet,
+    /// NetCDF-3 (classic or 64-bit offset), one frame per file.
+    NetCdf,
 }
 
 /// Header names of the columns in the input files.
@@ -54,6 +61,8 @@ pub struct ColumnMap {
     pub flag: Option<String>,
     /// The integer frame column of a parquet long table.
     pub frame: String,
+    /// A column whose nonzero cells mark masked nodes (`mask`).
+    pub mask: Option<String>,
 }
 
 /// Everything a reader needs, resolved to SI factors.
@@ -71,6 +80,8 @@ pub struct InputSpec {
     /// Relative tolerance on node positions, in grid pitches, for printed
     /// rounding when inferring the grid.
     pub grid_tolerance: f64,
+    /// Which way y and v point in the files (`orient`).
+    pub orientation: Orientation,
 }
 
 /// Where one frame comes from.
@@ -167,6 +178,17 @@ fn read_rows(
     grid_only: bool,
     hash: bool,
 ) -> Result<(grid::RawRows, FileHash)> {
+    let (mut rows, h) = read_rows_as_written(spec, source, grid_only, hash)?;
+    spec.orientation.apply(&mut rows);
+    Ok((rows, h))
+}
+
+fn read_rows_as_written(
+    spec: &InputSpec,
+    source: &FrameSource,
+    grid_only: bool,
+    hash: bool,
+) -> Result<(grid::RawRows, FileHash)> {
     match source {
         FrameSource::File(path) => {
             if spec.format == Format::Parquet {
@@ -178,6 +200,10 @@ fn read_rows(
             READ_BUF.with(|buf| {
                 let mut bytes = buf.borrow_mut();
                 text::read_into(path, &mut bytes)?;
+                if spec.format == Format::NetCdf {
+                    let rows = gridded::netcdf_rows(&bytes, path, &spec.columns)?;
+                    return Ok((rows, hash.then(|| hash_bytes(&bytes))));
+                }
                 let rows = text::parse_frame(
                     &bytes,
                     path,
@@ -219,7 +245,7 @@ pub fn read_frame_hashed(
     } else {
         "line"
     };
-    let f = grid::assemble(
+    let mut f = grid::assemble(
         &rows,
         spec.grid_tolerance,
         spec.length_scale,
@@ -227,7 +253,20 @@ pub fn read_frame_hashed(
         what,
     )
     .map_err(|e| e.with_path(source.path()))?;
+    mask_rows(&rows, spec.length_scale, &mut f);
     Ok((f, h))
+}
+
+/// Masks the nodes of the rows the input's mask column marks (every row
+/// lies on a node: `assemble` checked it).
+fn mask_rows(rows: &grid::RawRows, length_scale: f64, f: &mut Field) {
+    let Some(masked) = &rows.masked else { return };
+    for (k, _) in masked.iter().enumerate().filter(|(_, &m)| m) {
+        let (x, y) = (rows.x[k] * length_scale, rows.y[k] * length_scale);
+        if let Some((i, j)) = crate::mask::node_of(&f.grid, x, y, 0.5) {
+            crate::mask::mask_node(f, j, i);
+        }
+    }
 }
 
 /// Reads only what `check` needs: the grid of one frame (header and x, y).
@@ -338,3 +377,5 @@ pub fn node_table_to_table(nt: &NodeTable) -> Table {
 
 #[cfg(test)]
 mod tests;
+#[cfg(test)]
+mod tests_gridded;

@@ -175,6 +175,9 @@ pub(crate) fn read_rows(
             wanted.push(c);
         }
     }
+    if let Some(c) = &cols.mask {
+        wanted.push(c);
+    }
     for w in &wanted {
         if !ix.columns.iter().any(|c| c == w) {
             return Err(Error::data(format!(
@@ -188,6 +191,7 @@ pub(crate) fn read_rows(
     let mut rows = RawRows {
         sigma_u: (!grid_only && cols.sigma_u.is_some()).then(Vec::new),
         sigma_v: (!grid_only && cols.sigma_v.is_some()).then(Vec::new),
+        masked: cols.mask.is_some().then(Vec::new),
         ..RawRows::default()
     };
     for &(offset, len) in runs {
@@ -215,6 +219,10 @@ pub(crate) fn read_rows(
         rows.line.extend((0..len).map(|k| offset + k + 1));
         rows.x.extend(x);
         rows.y.extend(y);
+        if let (Some(name), Some(dst)) = (&cols.mask, rows.masked.as_mut()) {
+            let m = f64_column(&df, name, path)?;
+            dst.extend(m.iter().map(|&c| c.is_finite() && c != 0.0));
+        }
         if grid_only {
             rows.invalid.extend(std::iter::repeat_n(false, len));
             continue;

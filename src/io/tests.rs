@@ -19,11 +19,13 @@ pub(crate) fn spec(format: Format) -> InputSpec {
             sigma_v: None,
             flag: None,
             frame: "frame".into(),
+            mask: None,
         },
         length_scale: 1.0,
         velocity_scale: 1.0,
         skip_lines: 0,
         grid_tolerance: 0.05,
+        orientation: Default::default(),
     }
 }
 

@@ -138,7 +138,7 @@ fn scan_row(
     line: &[u8],
     format: Format,
     role_of: &[u8],
-    vals: &mut [Option<f64>; 7],
+    vals: &mut [Option<f64>; 8],
 ) -> std::result::Result<usize, (usize, String)> {
     let n = line.len();
     let text = format == Format::Text;
@@ -456,6 +456,7 @@ const V: usize = 3;
 const SU: usize = 4;
 const SV: usize = 5;
 const FLAG: usize = 6;
+const MASK: usize = 7;
 const NONE: u8 = u8::MAX;
 
 /// Parses a text frame into rows. With `grid_only`, only x and y are read
@@ -471,6 +472,9 @@ pub(crate) fn parse_frame(
     let mut it = lines(bytes);
     let (hline, names) = header(&mut it, format, skip_lines, path)?;
     let mut wanted: Vec<(usize, &str)> = vec![(X, &cols.x), (Y, &cols.y)];
+    if let Some(c) = &cols.mask {
+        wanted.push((MASK, c));
+    }
     if !grid_only {
         wanted.push((U, &cols.u));
         wanted.push((V, &cols.v));
@@ -481,7 +485,7 @@ pub(crate) fn parse_frame(
         }
     }
     let mut role_of = vec![NONE; names.len()];
-    let mut role_name = [""; 7];
+    let mut role_name = [""; 8];
     for &(role, name) in &wanted {
         let k = find(&names, name, path, hline)?;
         if let Some(k2) = names[k + 1..].iter().position(|n| n == name) {
@@ -498,7 +502,7 @@ pub(crate) fn parse_frame(
         role_of[k] = role as u8;
         role_name[role] = name;
     }
-    let mut present = [false; 7];
+    let mut present = [false; 8];
     for w in &wanted {
         present[w.0] = true;
     }
@@ -514,9 +518,10 @@ pub(crate) fn parse_frame(
         sigma_v: has(SV).then(vec),
         invalid: Vec::with_capacity(cap),
         line: Vec::with_capacity(cap),
+        masked: has(MASK).then(|| Vec::with_capacity(cap)),
     };
     let ncol = names.len();
-    let mut vals: [Option<f64>; 7] = [None; 7];
+    let mut vals: [Option<f64>; 8] = [None; 8];
     for (no, line) in it {
         if is_comment_or_blank(line) {
             continue;
@@ -545,6 +550,9 @@ pub(crate) fn parse_frame(
         rows.x.push(pos(X)?);
         rows.y.push(pos(Y)?);
         rows.line.push(no);
+        if let Some(m) = rows.masked.as_mut() {
+            m.push(vals[MASK].is_some_and(|c| c != 0.0));
+        }
         if grid_only {
             rows.invalid.push(false);
             continue;
@@ -614,7 +622,7 @@ mod tests {
         let role_of: Vec<u8> = (0..ncells as u8)
             .map(|k| if k < 7 { k } else { NONE })
             .collect();
-        let mut vals = [Some(-99.0); 7];
+        let mut vals = [Some(-99.0); 8];
         let n = scan_row(line.as_bytes(), format, &role_of, &mut vals)?;
         Ok((n, vals[..ncells.min(7)].to_vec()))
     }
@@ -654,7 +662,7 @@ mod tests {
             2
         );
         let role_of = [0u8, NONE, 1];
-        let mut vals = [None; 7];
+        let mut vals = [None; 8];
         assert_eq!(
             scan_row(b"4,junk,5,extra", Format::Csv, &role_of, &mut vals),
             Ok(4)

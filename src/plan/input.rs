@@ -4,7 +4,7 @@
 use serde::{Deserialize, Serialize};
 
 use crate::error::{Error, Result};
-use crate::io::{ColumnMap, Format, InputSpec};
+use crate::io::{ColumnMap, Format, InputSpec, Orientation};
 
 /// `[input]` as written; every key optional so that a run's `[run.input]`
 /// can override just what differs.
@@ -27,6 +27,11 @@ pub struct RawInput {
     /// Tolerance on node positions, as a fraction of the grid pitch
     /// (default 0.05), for coordinates printed with rounding.
     pub grid_tolerance: Option<f64>,
+    /// up | down: which way y grows in the files (down: image rows).
+    pub y_axis: Option<String>,
+    /// up | down: which way a positive v points in the files (default: as
+    /// `y_axis`).
+    pub v_axis: Option<String>,
 }
 
 #[derive(Debug, Clone, Default, Deserialize, Serialize, PartialEq)]
@@ -40,6 +45,8 @@ pub struct RawColumns {
     pub sigma_v: Option<String>,
     pub flag: Option<String>,
     pub frame: Option<String>,
+    /// Nonzero marks a masked node ("no flow here").
+    pub mask: Option<String>,
 }
 
 fn pick<T: Clone>(over: &Option<T>, base: &Option<T>) -> Option<T> {
@@ -59,6 +66,7 @@ impl RawInput {
                 sigma_v: pick(&o.sigma_v, &b.sigma_v),
                 flag: pick(&o.flag, &b.flag),
                 frame: pick(&o.frame, &b.frame),
+                mask: pick(&o.mask, &b.mask),
             }),
             (b, o) => pick(o, b),
         };
@@ -71,6 +79,8 @@ impl RawInput {
             pulse_separation: pick(&over.pulse_separation, &self.pulse_separation),
             skip_lines: pick(&over.skip_lines, &self.skip_lines),
             grid_tolerance: pick(&over.grid_tolerance, &self.grid_tolerance),
+            y_axis: pick(&over.y_axis, &self.y_axis),
+            v_axis: pick(&over.v_axis, &self.v_axis),
         }
     }
 
@@ -82,9 +92,10 @@ impl RawInput {
             "tsv" => Format::Tsv,
             "text" => Format::Text,
             "parquet" => Format::Parquet,
+            "netcdf" => Format::NetCdf,
             other => {
                 return Err(Error::usage(format!(
-                    "{what}: format = '{other}' is not known; expected csv, tsv, text or parquet"
+                    "{what}: format = '{other}' is not known; expected csv, tsv, text, parquet or netcdf"
                 )))
             }
         };
@@ -98,6 +109,7 @@ impl RawInput {
             sigma_v: c.sigma_v,
             flag: c.flag,
             frame: c.frame.unwrap_or_else(|| "frame".into()),
+            mask: c.mask,
         };
         let positive = |name: &str, v: Option<f64>| -> Result<Option<f64>> {
             match v {
@@ -151,13 +163,49 @@ impl RawInput {
                 "{what}: grid_tolerance = {grid_tolerance} must lie between 0 and 0.5 grid pitches"
             )));
         }
+        let orientation = self.orientation(what)?;
         Ok(InputSpec {
+            orientation,
             format,
             columns,
             length_scale,
             velocity_scale,
             skip_lines: self.skip_lines.unwrap_or(0),
             grid_tolerance,
+        })
+    }
+
+    /// `y_axis` and `v_axis` (v follows y unless stated).
+    fn orientation(&self, what: &str) -> Result<Orientation> {
+        let down = |key: &str, v: &Option<String>| -> Result<Option<bool>> {
+            match v.as_deref() {
+                None => Ok(None),
+                Some("up") => Ok(Some(false)),
+                Some("down") => Ok(Some(true)),
+                Some(other) => Err(Error::usage(format!(
+                    "{what}: {key} = '{other}' is not known; expected up or down"
+                ))),
+            }
+        };
+        let y = down("y_axis", &self.y_axis)?;
+        let v = down("v_axis", &self.v_axis)?;
+        let y_down = y.unwrap_or(false);
+        Ok(Orientation {
+            y_down,
+            v_down: v.unwrap_or(y_down),
+            stated: y.is_some(),
+        })
+    }
+
+    /// The warning for positions in pixels with no stated y direction:
+    /// pixel positions usually come from images, whose y grows downwards.
+    pub fn orientation_warning(&self, what: &str) -> Option<String> {
+        (self.length_unit.as_deref() == Some("px") && self.y_axis.is_none()).then(|| {
+            format!(
+                "{what}: positions are in pixels but [input] y_axis is not given; y was assumed \
+                 to point up. Image coordinates usually grow downwards, which flips the sign \
+                 of every vorticity: state y_axis = \"up\" or \"down\""
+            )
         })
     }
 
@@ -222,5 +270,49 @@ mod tests {
         assert_eq!(m.columns.x, "X");
         assert_eq!(m.columns.u, "Vx");
         assert_eq!(m.columns.v, "v");
+    }
+
+    #[test]
+    fn y_axis_down_turns_v_down_unless_v_axis_says_otherwise() {
+        let raw = RawInput {
+            y_axis: Some("down".into()),
+            ..Default::default()
+        };
+        let o = raw.resolve("[input]").unwrap().orientation;
+        assert!(o.y_down && o.v_down && o.stated);
+        let raw = RawInput {
+            v_axis: Some("up".into()),
+            ..raw
+        };
+        let o = raw.resolve("[input]").unwrap().orientation;
+        assert!(o.y_down && !o.v_down);
+        let o = RawInput::default().resolve("[input]").unwrap().orientation;
+        assert!(!o.y_down && !o.v_down && !o.stated);
+        let e = RawInput {
+            y_axis: Some("downwards".into()),
+            ..Default::default()
+        }
+        .resolve("[input]")
+        .unwrap_err();
+        assert_eq!(e.exit_code(), 2);
+        assert!(e.message.contains("y_axis = 'downwards'"), "{e}");
+    }
+
+    #[test]
+    fn pixels_without_a_y_direction_warn() {
+        let raw = RawInput {
+            length_unit: Some("px".into()),
+            ..Default::default()
+        };
+        assert!(raw
+            .orientation_warning("run 'a'")
+            .unwrap()
+            .contains("y_axis"));
+        let stated = RawInput {
+            y_axis: Some("up".into()),
+            ..raw
+        };
+        assert!(stated.orientation_warning("run 'a'").is_none());
+        assert!(RawInput::default().orientation_warning("x").is_none());
     }
 }

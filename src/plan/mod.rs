@@ -33,6 +33,8 @@ pub struct RawPipeline {
     pub campaign: RawCampaign,
     #[serde(default)]
     pub input: input::RawInput,
+    /// Geometry masks of every run (`crate::mask`).
+    pub mask: Option<crate::mask::RawMask>,
     #[serde(default)]
     pub validation: validation::RawValidation,
     #[serde(default)]
@@ -83,6 +85,8 @@ pub struct RawRun {
     pub frames: String,
     pub frame_table: Option<String>,
     pub input: Option<input::RawInput>,
+    /// This run's masks, added to the campaign's (`crate::mask`).
+    pub mask: Option<crate::mask::RawMask>,
     pub conditions: Option<report::RawConditions>,
     /// Free text for the report.
     pub description: Option<String>,
@@ -119,6 +123,11 @@ pub struct RunPlan {
     pub description: Option<String>,
     /// The vorticity transport budget, when asked for.
     pub budget: Option<crate::budget::Params>,
+    /// Warnings about the run's input found while resolving (e.g. pixel
+    /// positions with no stated y direction); `run` records them.
+    pub input_warnings: Vec<String>,
+    /// The geometry mask (may be empty).
+    pub mask: crate::mask::MaskSpec,
 }
 
 /// The resolved pipeline.
@@ -236,6 +245,15 @@ impl Plan {
                     &ctx,
                 )?,
                 description: r.description.clone(),
+                input_warnings: raw_input.orientation_warning(&what).into_iter().collect(),
+                mask: crate::mask::MaskSpec::resolve(
+                    raw.mask.as_ref(),
+                    r.mask.as_ref(),
+                    spec.length_scale,
+                    spec.orientation,
+                    base_dir,
+                    &what,
+                )?,
                 input: spec,
                 budget: budget::resolve_budget(raw.budget.as_ref())?,
             });

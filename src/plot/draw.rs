@@ -106,6 +106,8 @@ pub struct MapPanel<'a> {
     pub vectors: Option<(&'a [f64], &'a [f64], usize)>,
     /// Nodes to draw faded toward white (e.g. not significant).
     pub faded: Option<Vec<bool>>,
+    /// Masked nodes ("no flow here"): drawn neutral grey with an outline.
+    pub mask: Option<Vec<bool>>,
 }
 
 /// Pixel layout of a row/grid of maps sharing one colour bar.
@@ -192,6 +194,48 @@ pub fn tick_in(v: f64, span: f64) -> String {
     }
 }
 
+/// Masked nodes: a neutral grey, darker than `NO_DATA` so the two differ.
+pub const MASK_GREY: RGBColor = RGBColor(150, 150, 150);
+/// The outline of a masked region.
+pub const MASK_EDGE: RGBColor = RGBColor(60, 60, 60);
+
+/// The outline of the masked cells of `g` (node order), in plot units
+/// (metres / `s`): every cell edge between a masked node and an unmasked
+/// node or the domain's border, as one segment each.
+pub fn mask_outline(g: &Grid, m: &[bool], s: f64) -> Vec<Vec<(f64, f64)>> {
+    let at = |i: isize, j: isize| {
+        i >= 0
+            && j >= 0
+            && (i as usize) < g.nx
+            && (j as usize) < g.ny
+            && m[j as usize * g.nx + i as usize]
+    };
+    let (hx, hy) = (0.5 * g.dx / s, 0.5 * g.dy / s);
+    let mut segs = Vec::new();
+    for j in 0..g.ny as isize {
+        for i in 0..g.nx as isize {
+            if !at(i, j) {
+                continue;
+            }
+            let (x, y) = (g.x(i as usize) / s, g.y(j as usize) / s);
+            let (l, r, b, t) = (x - hx, x + hx, y - hy, y + hy);
+            if !at(i - 1, j) {
+                segs.push(vec![(l, b), (l, t)]);
+            }
+            if !at(i + 1, j) {
+                segs.push(vec![(r, b), (r, t)]);
+            }
+            if !at(i, j - 1) {
+                segs.push(vec![(l, b), (r, b)]);
+            }
+            if !at(i, j + 1) {
+                segs.push(vec![(l, t), (r, t)]);
+            }
+        }
+    }
+    segs
+}
+
 fn blend_white(c: RGBColor, keep: f64) -> RGBColor {
     let f = |x: u8| (255.0 - (255.0 - x as f64) * keep).round() as u8;
     RGBColor(f(c.0), f(c.1), f(c.2))
@@ -239,11 +283,21 @@ pub fn draw_map<DB: DrawingBackend>(
                 if p.faded.as_ref().is_some_and(|f| f[k]) && c != NO_DATA {
                     c = blend_white(c, 0.22);
                 }
+                if p.mask.as_ref().is_some_and(|m| m[k]) {
+                    c = MASK_GREY;
+                }
                 let (x, y) = (g.x(i) / s, g.y(j) / s);
                 let (hx, hy) = (0.5 * g.dx / s * 1.02, 0.5 * g.dy / s * 1.02);
                 Rectangle::new([(x - hx, y - hy), (x + hx, y + hy)], c.filled())
             }),
     )?;
+    if let Some(m) = &p.mask {
+        chart.draw_series(
+            mask_outline(&g, m, s)
+                .into_iter()
+                .map(|seg| PathElement::new(seg, MASK_EDGE.stroke_width(2))),
+        )?;
+    }
     if let Some((u, v, every)) = p.vectors {
         let every = every.max(1);
         let smax = u

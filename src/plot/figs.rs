@@ -130,6 +130,7 @@ impl<'a> Ctx<'a> {
             range,
             vectors: vec,
             faded: None,
+            mask: run.mask.clone(),
         })
     }
 
@@ -247,6 +248,7 @@ pub fn run_figures(p: &Params, run: &RunResult, out: &Path) -> Result<Vec<Figure
             range: (0.0, hi),
             vectors: None,
             faded: None,
+            mask: run.mask.clone(),
         };
         let fig = MapFigure::new(
             None,
@@ -323,6 +325,7 @@ fn validation_figures(c: &mut Ctx) -> Result<()> {
                 range: (0.0, hi),
                 vectors: None,
                 faded: None,
+                mask: c.run.mask.clone(),
             })
             .collect();
         let width = if n > 1 {
@@ -495,6 +498,7 @@ fn phase_figure(c: &mut Ctx) -> Result<()> {
             range: (-lim, lim),
             vectors: None,
             faded: None,
+            mask: c.run.mask.clone(),
         })
         .collect();
     let cols = if panels.len() <= 4 { panels.len() } else { 4 };

@@ -61,6 +61,12 @@ pub fn finish_campaign(
             conditions: rp.conditions.clone(),
             description: rp.description.clone(),
             budget: None,
+            mask: rp
+                .mask
+                .nodes(&r.grid, rp.input.grid_tolerance)
+                .ok()
+                .filter(|m| m.iter().any(|&b| b))
+                .map(|m| m.iter().copied().collect()),
         };
         if let Some(b) = &r.budget {
             let t = Instant::now();
@@ -71,6 +77,7 @@ pub fn finish_campaign(
         }
         let t = Instant::now();
         outputs::write_run_tables(&out.join(&rr.id), &rr)?;
+        outputs::write_run_netcdf(&out.join(&rr.id), &rr, &plan.text)?;
         timings.push(("write".into(), t.elapsed().as_secs_f64()));
         if plan.figures {
             let t = Instant::now();
@@ -114,6 +121,7 @@ pub fn finish_campaign(
             "frames": rr.frames.len(),
             "frames_in_run": r.n_frames_run,
             "grid": rr.grid,
+            "orientation": rp.input.orientation.describe(),
             "timings_s": timings.iter().map(|(k, v)| (k.clone(), serde_json::json!(v))).collect::<serde_json::Map<_, _>>(),
             "resolved": {
                 "input": format!("{:?}", rp.input),

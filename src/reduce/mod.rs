@@ -224,24 +224,30 @@ fn source_path(src: &FrameSource) -> &std::path::Path {
     }
 }
 
-/// Reads a frame and checks it lies on the run's grid.
-fn read_on_grid(run: &RunPlan, src: &FrameSource, grid: &Grid) -> Result<crate::field::Field> {
-    Ok(read_on_grid_hashed(run, src, grid, false)?.0)
+/// The run's grid and its geometry mask (`None` when nothing is masked).
+type OnGrid = (Grid, Option<crate::mask::NodeMask>);
+
+/// Reads a frame, checks it lies on the run's grid and masks it.
+fn read_on_grid(run: &RunPlan, src: &FrameSource, g: &OnGrid) -> Result<crate::field::Field> {
+    Ok(read_on_grid_hashed(run, src, g, false)?.0)
 }
 
 /// `read_on_grid`, with the file's size and SHA-256 when `hash`.
 fn read_on_grid_hashed(
     run: &RunPlan,
     src: &FrameSource,
-    grid: &Grid,
+    (grid, mask): &OnGrid,
     hash: bool,
 ) -> Result<(crate::field::Field, io::FileHash)> {
-    let (f, h) = io::read_frame_hashed(&run.input, src, hash)?;
+    let (mut f, h) = io::read_frame_hashed(&run.input, src, hash)?;
     if let Some(d) = grid.difference(&f.grid, run.input.grid_tolerance) {
         return Err(
             Error::data(format!("{d} (the run's first frame sets the grid)"))
                 .with_path(source_path(src)),
         );
+    }
+    if let Some(m) = mask {
+        crate::mask::apply(m, &mut f);
     }
     Ok((f, h))
 }
@@ -349,12 +355,20 @@ fn fold_chunks<T: Sync, A: Send>(
 pub fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
     let t0 = Instant::now();
     let mut timings = Vec::new();
-    let mut warnings = Vec::new();
+    let mut warnings = run.input_warnings.clone();
     let frames = list_run_frames(run)?;
     let n = frames.len();
     let range = opts.shard.map_or((0, n), |s| s.range(n));
     let grid = io::read_frame(&run.input, &frames[0].1)?.grid;
     crate::plan::bounds::check_grid(run, &grid)?;
+    let on_grid: OnGrid = (
+        grid,
+        if run.mask.is_empty() {
+            None
+        } else {
+            Some(run.mask.nodes(&grid, run.input.grid_tolerance)?)
+        },
+    );
     timings.push(("list".to_string(), t0.elapsed().as_secs_f64()));
 
     // Pass 1 (only when the chain has an ensemble test): robust per-node
@@ -369,7 +383,7 @@ pub fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
             |chunk| {
                 let mut b = EnsembleBuilder::new(&run.validation, grid);
                 for (_, src) in chunk {
-                    b.push(&read_on_grid(run, src, &grid)?);
+                    b.push(&read_on_grid(run, src, &on_grid)?);
                 }
                 Ok(b)
             },
@@ -416,7 +430,7 @@ pub fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
                 budget: crate::budget::run::start(run, grid),
             };
             for (meta, src) in chunk {
-                let (mut field, hash) = read_on_grid_hashed(run, src, &grid, true)?;
+                let (mut field, hash) = read_on_grid_hashed(run, src, &on_grid, true)?;
                 if let (FrameSource::File(p), Some((bytes, sha256))) = (src, hash) {
                     out.inputs.push(InputFile {
                         path: p.display().to_string(),

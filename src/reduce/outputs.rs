@@ -143,6 +143,27 @@ pub fn write_run_tables(dir: &Path, run: &RunResult) -> Result<()> {
     Ok(())
 }
 
+/// Writes `ensemble.nc` (and `phase.nc` when the run has phases) in
+/// `dir`: the CF-convention NetCDF of `io::cf`, with the pipeline's text
+/// and hash as global attributes.
+pub fn write_run_netcdf(dir: &Path, run: &RunResult, pipeline_text: &str) -> Result<()> {
+    let sha = io::hash_bytes(pipeline_text.as_bytes()).1;
+    let p = io::cf::Provenance {
+        run: &run.id,
+        pipeline_text,
+        pipeline_sha256: &sha,
+    };
+    let put = |name: &str, ds: io::netcdf::Dataset| {
+        let path = dir.join(name);
+        std::fs::write(&path, ds.to_bytes()).map_err(|e| crate::Error::io(&path, e))
+    };
+    put("ensemble.nc", io::cf::ensemble(&run.stats.ensemble, &p))?;
+    if let Some(ds) = io::cf::phase(&run.stats.phase, &p) {
+        put("phase.nc", ds)?;
+    }
+    Ok(())
+}
+
 /// One frame's filled field (docs/interface.md per-frame fields): `x, y, u, v,
 /// status, omega, omega_unc`; masked nodes have empty u, v, omega.
 pub fn write_frame_field(path: &Path, field: &Field, derived: &Derived) -> Result<()> {

@@ -205,8 +205,15 @@ pub struct SynthOptions {
     pub sigma_columns: bool,
     /// Write a `flag` column (0, or 1 on flagged gap rows).
     pub flag_column: bool,
+    /// Write the nodes inside a body as rows with `mask` = 1 (empty u, v)
+    /// instead of leaving them out; the pipeline then masks by that column
+    /// rather than by a circle (csv only).
+    pub mask_column: bool,
     pub length_unit: LengthUnit,
     pub velocity_unit: VelocityUnit,
+    /// Write image-oriented frames: y and v grow downwards (the files hold
+    /// minus the flow's y and v; the pipeline says `y_axis = "down"`).
+    pub y_down: bool,
     pub format: OutFormat,
     /// Significant digits of printed values, relative to each column's scale;
     /// 16 or more: shortest exact representation.
@@ -257,8 +264,10 @@ impl Default for SynthOptions {
             gap_fraction: 0.02,
             sigma_columns: false,
             flag_column: false,
+            mask_column: false,
             length_unit: LengthUnit::Mm,
             velocity_unit: VelocityUnit::MPerS,
+            y_down: false,
             format: OutFormat::Csv,
             digits: 5,
             truth: true,
@@ -280,6 +289,9 @@ impl SynthOptions {
 
     /// Checks the options; errors are usage errors naming the option.
     pub fn validate(&self) -> Result<()> {
+        if self.mask_column && self.format != OutFormat::Csv {
+            return Err(Error::usage("--mask-column is written in csv frames only"));
+        }
         let frac = |name: &str, v: f64| {
             if (0.0..=1.0).contains(&v) {
                 Ok(())

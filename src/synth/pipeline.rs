@@ -70,6 +70,29 @@ pub fn describe(setup: &RunSetup) -> String {
     }
 }
 
+/// `[mask]` for a scenario with a body (the cylinder, in the written unit
+/// and axes), unless the frames carry a mask column; else nothing.
+fn mask_section(opts: &SynthOptions, runs: &[RunSetup]) -> String {
+    let radius = runs.iter().find_map(|r| match r.flow {
+        crate::synth::scenario::Flow::Cylinder { radius, .. } => Some(radius),
+        _ => None,
+    });
+    match (radius, opts.mask_column) {
+        (Some(r), false) => {
+            let ls = match runs.first() {
+                Some(setup) => crate::synth::write::unit_scales(opts, setup).0,
+                None => 1.0,
+            };
+            format!(
+                "\n[mask]                        # the body: no flow there (status 3, never filled)\n\
+                 circles = [[0.0, 0.0, {}]]\n",
+                tidy(r / ls)
+            )
+        }
+        _ => String::new(),
+    }
+}
+
 /// The pipeline for the campaign; `prefix` (with a trailing `/` or empty)
 /// is prepended to every path (the campaign folder seen from the
 /// pipeline's folder).
@@ -105,12 +128,17 @@ pub fn pipeline_toml(opts: &SynthOptions, runs: &[RunSetup], prefix: &str) -> St
     if opts.flag_column {
         extra.push_str(", flag = \"flag\"");
     }
+    if opts.mask_column {
+        extra.push_str(", mask = \"mask\"");
+    }
     t.push_str(&format!(
-        "\n[input]\nformat = \"{format}\"\ncolumns = {{ x = \"x\", y = \"y\", u = \"u\", v = \"v\"{extra} }}\nlength_unit = \"{}\"\nvelocity_unit = \"{}\"\npixel_size = {}                # metres per pixel\n",
+        "\n[input]\nformat = \"{format}\"\ncolumns = {{ x = \"x\", y = \"y\", u = \"u\", v = \"v\"{extra} }}\nlength_unit = \"{}\"\nvelocity_unit = \"{}\"\npixel_size = {}                # metres per pixel\ny_axis = \"{}\"\n",
         opts.length_unit.name(),
         opts.velocity_unit.name(),
-        tidy(opts.pixel_size)
+        tidy(opts.pixel_size),
+        if opts.y_down { "down" } else { "up" }
     ));
+    t.push_str(&mask_section(opts, runs));
     t.push_str("\n[derivatives]\nscheme = \"least-squares\"\n");
     t.push_str(&format!(
         "\n[uncertainty]\nvelocity_noise = \"{}\"\nneighbour_correlation = {:?}   # as generated\n",

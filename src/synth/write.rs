@@ -128,12 +128,12 @@ fn write_run(opts: &SynthOptions, run: usize, setup: &RunSetup, dir: &Path) -> R
             let mut b = Vec::with_capacity(24);
             push(&mut b, g.x(k % g.nx) / ls, dxy);
             b.push(b',');
-            push(&mut b, g.y(k / g.nx) / ls, dxy);
+            push(&mut b, ysign(opts) * (g.y(k / g.nx) / ls), dxy);
             b.push(b',');
             b
         })
         .collect();
-    let xy = prefixes_xy(setup, ls);
+    let xy = prefixes_xy(opts, setup, ls);
     let cols = Columns::new(opts, setup, vs, dvel);
     let mut stats = TruthStats::new(g, opts.phase_bins);
     let mut events = Vec::with_capacity(1 << 16);
@@ -274,6 +274,10 @@ struct Columns {
     dvel: Option<u32>,
     /// The noise sigma in written units, when sigma columns are on.
     sigma: Option<f64>,
+    /// -1 when v is written downwards.
+    vsign: f64,
+    /// Body nodes are rows with mask = 1.
+    mask: bool,
     flag: bool,
 }
 
@@ -283,6 +287,8 @@ impl Columns {
             vs,
             dvel,
             sigma: opts.sigma_columns.then_some(setup.noise_sigma / vs),
+            vsign: ysign(opts),
+            mask: opts.mask_column,
             flag: opts.flag_column,
         }
     }
@@ -295,6 +301,9 @@ impl Columns {
         if self.flag {
             h.push_str(",flag");
         }
+        if self.mask {
+            h.push_str(",mask");
+        }
         h
     }
 }
@@ -306,17 +315,18 @@ fn frame_csv(m: &Measured, prefixes: &[Vec<u8>], cols: &Columns) -> Vec<u8> {
     buf.push(b'\n');
     for (k, ((u, v), c)) in m.u.iter().zip(m.v.iter()).zip(m.kind.iter()).enumerate() {
         let kind = Kind::from_code(*c);
-        if matches!(kind, Kind::Missing | Kind::Body) {
+        let body = kind == Kind::Body;
+        if kind == Kind::Missing || (body && !cols.mask) {
             continue;
         }
         buf.extend_from_slice(&prefixes[k]);
-        let has_value = kind != Kind::Empty;
+        let has_value = !matches!(kind, Kind::Empty | Kind::Body);
         if has_value {
             push(&mut buf, u / cols.vs, cols.dvel);
         }
         buf.push(b',');
         if has_value {
-            push(&mut buf, v / cols.vs, cols.dvel);
+            push(&mut buf, cols.vsign * (v / cols.vs), cols.dvel);
         }
         if let Some(sg) = cols.sigma {
             buf.push(b',');
@@ -330,6 +340,9 @@ fn frame_csv(m: &Measured, prefixes: &[Vec<u8>], cols: &Columns) -> Vec<u8> {
         }
         if cols.flag {
             buf.extend_from_slice(if kind == Kind::Flagged { b",1" } else { b",0" });
+        }
+        if cols.mask {
+            buf.extend_from_slice(if body { b",1" } else { b",0" });
         }
         buf.push(b'\n');
     }
@@ -358,11 +371,21 @@ fn truth_frame_csv(setup: &RunSetup, tf: &TruthFrame) -> Vec<u8> {
     buf
 }
 
-fn prefixes_xy(setup: &RunSetup, ls: f64) -> (Vec<f64>, Vec<f64>) {
+fn prefixes_xy(opts: &SynthOptions, setup: &RunSetup, ls: f64) -> (Vec<f64>, Vec<f64>) {
     let g = setup.grid;
     (0..g.len())
-        .map(|k| (g.x(k % g.nx) / ls, g.y(k / g.nx) / ls))
+        .map(|k| (g.x(k % g.nx) / ls, ysign(opts) * (g.y(k / g.nx) / ls)))
         .unzip()
+}
+
+/// -1 for image-oriented files (y and v written downwards), else 1;
+/// multiplying by it is an exact negation.
+fn ysign(opts: &SynthOptions) -> f64 {
+    if opts.y_down {
+        -1.0
+    } else {
+        1.0
+    }
 }
 
 /// The parquet long table of a run, written in row groups of one chunk.
@@ -430,7 +453,7 @@ impl ParquetFrames {
                 y.push(xy.1[k]);
                 let has = kind != Kind::Empty;
                 u.push(has.then_some(mu / vs));
-                v.push(has.then_some(mv / vs));
+                v.push(has.then_some(self.cols.vsign * (mv / vs)));
                 if let Some(s) = self.cols.sigma {
                     sg.push(has.then_some(s));
                 }

@@ -9,6 +9,8 @@ mod coverage_study;
 mod budget;
 mod detection;
 mod fuzz;
+mod masks_axes;
+mod netcdf_out;
 mod reference;
 mod reliability;
 mod run;

@@ -1,0 +1,459 @@
+//! NetCDF-3 files (the classic and the 64-bit offset formats): an
+//! in-memory dataset, its encoding and its decoding, in pure Rust.
+//!
+//! Owns: the byte layout. Does not own: what the variables mean (`cf`
+//! builds curlew's outputs; readers map variables to columns).
+//!
+//! # Format
+//!
+//! The NetCDF Classic Format Specification (Unidata, "NetCDF Users Guide",
+//! appendix "File Format Specifications"; from memory of the published
+//! grammar): a header — magic `CDF` and a version byte (1 classic, 2
+//! 64-bit offset), the record count, the dimension list, the global
+//! attributes, the variable list (name, dimension ids, attributes, type,
+//! size, data offset) — then the data of each fixed-size variable,
+//! big-endian, each padded to 4 bytes, then the records (the variables
+//! whose first dimension is the unlimited one, interleaved record by
+//! record). Names and attribute values are padded to 4 bytes with zeros.
+//!
+//! Written: version 2 (64-bit offsets, so no size limit matters for a
+//! grid), fixed-size variables of doubles and 32-bit ints, text and double
+//! attributes; no record dimension. Read: versions 1 and 2, every numeric
+//! type (byte, short, int, float, double, as f64), text, fixed and record
+//! variables. The streaming form (record count `-1`) reads as the records
+//! the file holds.
+//!
+//! Edge behaviour: a truncated or inconsistent header is an error saying
+//! which part; a value past the file's end is an error, never a panic.
+
+/// One attribute value: text, or numbers (stored as doubles).
+#[derive(Debug, Clone, PartialEq)]
+pub enum Attr {
+    Text(String),
+    Num(Vec<f64>),
+}
+
+/// A variable's values.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Data {
+    F64(Vec<f64>),
+    I32(Vec<i32>),
+}
+
+impl Data {
+    fn len(&self) -> usize {
+        match self {
+            Data::F64(v) => v.len(),
+            Data::I32(v) => v.len(),
+        }
+    }
+    /// The values as f64.
+    pub fn to_f64(&self) -> Vec<f64> {
+        match self {
+            Data::F64(v) => v.clone(),
+            Data::I32(v) => v.iter().map(|&x| x as f64).collect(),
+        }
+    }
+}
+
+/// One variable: its dimensions (indices into `Dataset::dims`, slowest
+/// first), attributes and values (row-major over the dimensions).
+#[derive(Debug, Clone, PartialEq)]
+pub struct Var {
+    pub name: String,
+    pub dims: Vec<usize>,
+    pub attrs: Vec<(String, Attr)>,
+    pub data: Data,
+}
+
+impl Var {
+    pub fn attr(&self, name: &str) -> Option<&Attr> {
+        self.attrs.iter().find(|(n, _)| n == name).map(|(_, a)| a)
+    }
+    /// A text attribute.
+    pub fn text(&self, name: &str) -> Option<&str> {
+        match self.attr(name) {
+            Some(Attr::Text(s)) => Some(s),
+            _ => None,
+        }
+    }
+}
+
+/// A NetCDF-3 dataset in memory. `unlimited` is the index of the record
+/// dimension, if any (its length in `dims` is the record count).
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct Dataset {
+    pub dims: Vec<(String, usize)>,
+    pub unlimited: Option<usize>,
+    pub attrs: Vec<(String, Attr)>,
+    pub vars: Vec<Var>,
+}
+
+const NC_DIMENSION: u32 = 10;
+const NC_VARIABLE: u32 = 11;
+const NC_ATTRIBUTE: u32 = 12;
+const NC_BYTE: u32 = 1;
+const NC_CHAR: u32 = 2;
+const NC_SHORT: u32 = 3;
+const NC_INT: u32 = 4;
+const NC_FLOAT: u32 = 5;
+const NC_DOUBLE: u32 = 6;
+
+fn pad4(n: usize) -> usize {
+    n.div_ceil(4) * 4
+}
+
+impl Dataset {
+    pub fn var(&self, name: &str) -> Option<&Var> {
+        self.vars.iter().find(|v| v.name == name)
+    }
+    pub fn dim_index(&self, name: &str) -> Option<usize> {
+        self.dims.iter().position(|(n, _)| n == name)
+    }
+    /// The shape of a variable (lengths of its dimensions).
+    pub fn shape(&self, v: &Var) -> Vec<usize> {
+        v.dims.iter().map(|&d| self.dims[d].1).collect()
+    }
+
+    /// Encodes the dataset (version 2, fixed-size variables only). Panics
+    /// if a variable's length is not the product of its dimensions (a
+    /// programming error).
+    pub fn to_bytes(&self) -> Vec<u8> {
+        assert!(
+            self.unlimited.is_none(),
+            "the writer has no record dimension"
+        );
+        let header = |begins: &[u64]| {
+            let mut b = Vec::new();
+            b.extend_from_slice(b"CDF\x02");
+            put_u32(&mut b, 0);
+            if self.dims.is_empty() {
+                put_u32(&mut b, 0);
+                put_u32(&mut b, 0);
+            } else {
+                put_u32(&mut b, NC_DIMENSION);
+                put_u32(&mut b, self.dims.len() as u32);
+                for (name, len) in &self.dims {
+                    put_name(&mut b, name);
+                    put_u32(&mut b, *len as u32);
+                }
+            }
+            put_attrs(&mut b, &self.attrs);
+            if self.vars.is_empty() {
+                put_u32(&mut b, 0);
+                put_u32(&mut b, 0);
+            } else {
+                put_u32(&mut b, NC_VARIABLE);
+                put_u32(&mut b, self.vars.len() as u32);
+                for (v, &begin) in self.vars.iter().zip(begins) {
+                    put_name(&mut b, &v.name);
+                    put_u32(&mut b, v.dims.len() as u32);
+                    for &d in &v.dims {
+                        put_u32(&mut b, d as u32);
+                    }
+                    put_attrs(&mut b, &v.attrs);
+                    let (ty, size) = match v.data {
+                        Data::F64(_) => (NC_DOUBLE, 8),
+                        Data::I32(_) => (NC_INT, 4),
+                    };
+                    put_u32(&mut b, ty);
+                    put_u32(&mut b, pad4(v.data.len() * size) as u32);
+                    b.extend_from_slice(&begin.to_be_bytes());
+                }
+            }
+            b
+        };
+        for v in &self.vars {
+            let n: usize = self.shape(v).iter().product();
+            assert_eq!(n, v.data.len(), "variable '{}' length", v.name);
+        }
+        let zeros = vec![0u64; self.vars.len()];
+        let mut at = header(&zeros).len() as u64;
+        let mut begins = Vec::with_capacity(self.vars.len());
+        for v in &self.vars {
+            begins.push(at);
+            let size = match v.data {
+                Data::F64(_) => 8,
+                Data::I32(_) => 4,
+            };
+            at += pad4(v.data.len() * size) as u64;
+        }
+        let mut b = header(&begins);
+        b.reserve(at as usize - b.len());
+        for v in &self.vars {
+            match &v.data {
+                Data::F64(d) => d.iter().for_each(|x| b.extend_from_slice(&x.to_be_bytes())),
+                Data::I32(d) => d.iter().for_each(|x| b.extend_from_slice(&x.to_be_bytes())),
+            }
+            b.resize(pad4(b.len()), 0);
+        }
+        b
+    }
+
+    /// Decodes a NetCDF-3 file. The error says what is wrong; the caller
+    /// adds the file's name.
+    pub fn from_bytes(bytes: &[u8]) -> Result<Dataset, String> {
+        let mut r = Reader { b: bytes, p: 0 };
+        let magic = r
+            .take(4)
+            .map_err(|_| "not a NetCDF file: too short".to_string())?;
+        if &magic[..3] != b"CDF" {
+            let hdf5 = bytes.starts_with(b"\x89HDF");
+            return Err(if hdf5 {
+                "this is an HDF5 file (NetCDF-4 or MAT 7.3), not NetCDF-3".into()
+            } else {
+                "not a NetCDF-3 file (it does not start with 'CDF')".into()
+            });
+        }
+        let wide = match magic[3] {
+            1 => false,
+            2 => true,
+            v => return Err(format!("NetCDF-3 version byte {v} is not 1 or 2")),
+        };
+        let numrecs = r.u32()?;
+        let mut ds = Dataset::default();
+        let (tag, n) = (r.u32()?, r.u32()? as usize);
+        if tag == NC_DIMENSION {
+            for k in 0..n {
+                let name = r.name()?;
+                let len = r.u32()? as usize;
+                if len == 0 {
+                    ds.unlimited = Some(k);
+                }
+                ds.dims.push((name, len));
+            }
+        } else if tag != 0 || n != 0 {
+            return Err("the dimension list is malformed".into());
+        }
+        ds.attrs = r.attrs()?;
+        let (tag, n) = (r.u32()?, r.u32()? as usize);
+        if tag != NC_VARIABLE && (tag != 0 || n != 0) {
+            return Err("the variable list is malformed".into());
+        }
+        let mut layout = Vec::with_capacity(n);
+        for _ in 0..if tag == NC_VARIABLE { n } else { 0 } {
+            let name = r.name()?;
+            let nd = r.u32()? as usize;
+            let mut dims = Vec::with_capacity(nd.min(64));
+            for _ in 0..nd {
+                let d = r.u32()? as usize;
+                if d >= ds.dims.len() {
+                    return Err(format!(
+                        "variable '{name}' names dimension {d}, which does not exist"
+                    ));
+                }
+                dims.push(d);
+            }
+            let attrs = r.attrs()?;
+            let ty = r.u32()?;
+            let vsize = r.u32()? as usize;
+            let begin = if wide { r.u64()? } else { r.u32()? as u64 };
+            layout.push((ty, vsize, begin as usize));
+            ds.vars.push(Var {
+                name,
+                dims,
+                attrs,
+                data: Data::F64(Vec::new()),
+            });
+        }
+        // The record count: as stated, or (streaming, -1) as the file holds.
+        let is_rec = |v: &Var| v.dims.first().is_some_and(|&d| Some(d) == ds.unlimited);
+        let rec_size: usize = ds
+            .vars
+            .iter()
+            .zip(&layout)
+            .filter(|(v, _)| is_rec(v))
+            .map(|(_, l)| l.1)
+            .sum();
+        let n_rec_vars = ds.vars.iter().filter(|v| is_rec(v)).count();
+        if let Some(u) = ds.unlimited {
+            let recs = if numrecs == u32::MAX {
+                let first = ds
+                    .vars
+                    .iter()
+                    .zip(&layout)
+                    .filter(|(v, _)| is_rec(v))
+                    .map(|(_, l)| l.2)
+                    .min();
+                match first {
+                    Some(b) if rec_size > 0 => bytes.len().saturating_sub(b) / rec_size,
+                    _ => 0,
+                }
+            } else {
+                numrecs as usize
+            };
+            ds.dims[u].1 = recs;
+        }
+        for (k, &(ty, _, begin)) in layout.iter().enumerate() {
+            let v = &ds.vars[k];
+            let shape = ds.shape(v);
+            let size = type_size(ty)
+                .ok_or_else(|| format!("variable '{}' has unknown type {ty}", v.name))?;
+            let rec = is_rec(v);
+            let per: usize = if rec {
+                shape[1..].iter().product()
+            } else {
+                shape.iter().product()
+            };
+            let nrec = if rec { shape[0] } else { 1 };
+            // a lone record variable is not padded between records
+            let stride = if rec {
+                if n_rec_vars == 1 {
+                    per * size
+                } else {
+                    rec_size
+                }
+            } else {
+                0
+            };
+            let mut out = Vec::with_capacity(per * nrec);
+            for rec_k in 0..nrec {
+                let at = begin + rec_k * stride;
+                let raw = bytes.get(at..at + per * size).ok_or_else(|| {
+                    format!("variable '{}' runs past the end of the file", v.name)
+                })?;
+                decode(ty, raw, &mut out);
+            }
+            let data = if ty == NC_CHAR {
+                Data::F64(Vec::new())
+            } else {
+                Data::F64(out)
+            };
+            ds.vars[k].data = data;
+        }
+        Ok(ds)
+    }
+}
+
+fn type_size(ty: u32) -> Option<usize> {
+    match ty {
+        NC_BYTE | NC_CHAR => Some(1),
+        NC_SHORT => Some(2),
+        NC_INT | NC_FLOAT => Some(4),
+        NC_DOUBLE => Some(8),
+        _ => None,
+    }
+}
+
+fn decode(ty: u32, raw: &[u8], out: &mut Vec<f64>) {
+    match ty {
+        NC_BYTE => out.extend(raw.iter().map(|&b| b as i8 as f64)),
+        NC_SHORT => out.extend(
+            raw.chunks_exact(2)
+                .map(|c| i16::from_be_bytes([c[0], c[1]]) as f64),
+        ),
+        NC_INT => out.extend(
+            raw.chunks_exact(4)
+                .map(|c| i32::from_be_bytes(c.try_into().unwrap()) as f64),
+        ),
+        NC_FLOAT => out.extend(
+            raw.chunks_exact(4)
+                .map(|c| f32::from_be_bytes(c.try_into().unwrap()) as f64),
+        ),
+        NC_DOUBLE => out.extend(
+            raw.chunks_exact(8)
+                .map(|c| f64::from_be_bytes(c.try_into().unwrap())),
+        ),
+        _ => {}
+    }
+}
+
+fn put_u32(b: &mut Vec<u8>, x: u32) {
+    b.extend_from_slice(&x.to_be_bytes());
+}
+
+fn put_name(b: &mut Vec<u8>, s: &str) {
+    put_u32(b, s.len() as u32);
+    b.extend_from_slice(s.as_bytes());
+    b.resize(pad4(b.len()), 0);
+}
+
+fn put_attrs(b: &mut Vec<u8>, attrs: &[(String, Attr)]) {
+    if attrs.is_empty() {
+        put_u32(b, 0);
+        put_u32(b, 0);
+        return;
+    }
+    put_u32(b, NC_ATTRIBUTE);
+    put_u32(b, attrs.len() as u32);
+    for (name, a) in attrs {
+        put_name(b, name);
+        match a {
+            Attr::Text(s) => {
+                put_u32(b, NC_CHAR);
+                put_u32(b, s.len() as u32);
+                b.extend_from_slice(s.as_bytes());
+            }
+            Attr::Num(v) => {
+                put_u32(b, NC_DOUBLE);
+                put_u32(b, v.len() as u32);
+                v.iter().for_each(|x| b.extend_from_slice(&x.to_be_bytes()));
+            }
+        }
+        b.resize(pad4(b.len()), 0);
+    }
+}
+
+struct Reader<'a> {
+    b: &'a [u8],
+    p: usize,
+}
+
+impl<'a> Reader<'a> {
+    fn take(&mut self, n: usize) -> Result<&'a [u8], String> {
+        let s = self
+            .b
+            .get(self.p..self.p.saturating_add(n))
+            .ok_or_else(|| "the NetCDF header is truncated".to_string())?;
+        self.p += n;
+        Ok(s)
+    }
+    fn u32(&mut self) -> Result<u32, String> {
+        Ok(u32::from_be_bytes(self.take(4)?.try_into().unwrap()))
+    }
+    fn u64(&mut self) -> Result<u64, String> {
+        Ok(u64::from_be_bytes(self.take(8)?.try_into().unwrap()))
+    }
+    fn name(&mut self) -> Result<String, String> {
+        let n = self.u32()? as usize;
+        let s = String::from_utf8_lossy(self.take(n)?).into_owned();
+        self.take(pad4(n) - n)?;
+        Ok(s)
+    }
+    fn attrs(&mut self) -> Result<Vec<(String, Attr)>, String> {
+        let (tag, n) = (self.u32()?, self.u32()? as usize);
+        if tag != NC_ATTRIBUTE {
+            return if tag == 0 && n == 0 {
+                Ok(Vec::new())
+            } else {
+                Err("an attribute list is malformed".into())
+            };
+        }
+        let mut out = Vec::with_capacity(n.min(1024));
+        for _ in 0..n {
+            let name = self.name()?;
+            let ty = self.u32()?;
+            let len = self.u32()? as usize;
+            let size =
+                type_size(ty).ok_or_else(|| format!("attribute '{name}' has unknown type {ty}"))?;
+            let raw = self.take(len.saturating_mul(size))?;
+            self.take(pad4(len * size) - len * size)?;
+            let a = if ty == NC_CHAR {
+                Attr::Text(
+                    String::from_utf8_lossy(raw)
+                        .trim_end_matches('\0')
+                        .to_string(),
+                )
+            } else {
+                let mut v = Vec::with_capacity(len);
+                decode(ty, raw, &mut v);
+                Attr::Num(v)
+            };
+            out.push((name, a));
+        }
+        Ok(out)
+    }
+}
+
+#[cfg(test)]
+mod tests;
