@@ -39,7 +39,7 @@ pub fn finish_campaign(
     let mut manifest_runs = Vec::new();
     let mut inputs: Vec<InputFile> = Vec::new();
     let mut warnings: Vec<String> = Vec::new();
-    for r in reduced {
+    for mut r in reduced {
         let rp = plan
             .runs
             .iter()
@@ -61,8 +61,13 @@ pub fn finish_campaign(
             conditions: rp.conditions.clone(),
             description: rp.description.clone(),
         };
+        let sketch = r.modes.take();
         let t = Instant::now();
         outputs::write_run_tables(&out.join(&rr.id), &rr)?;
+        if let Some(s) = &sketch {
+            let w = crate::modes::write_run(s, rp, &rr.frames, &rr.grid, &out.join(&rr.id))?;
+            run_warnings.extend(w);
+        }
         timings.push(("write".into(), t.elapsed().as_secs_f64()));
         if plan.figures {
             let t = Instant::now();

@@ -31,6 +31,7 @@ use std::time::Instant;
 use crate::error::{Error, Result, WithPath};
 use crate::field::{FrameMeta, Grid, NodeTable};
 use crate::io::{self, FrameSource};
+use crate::modes::ModeSketch;
 use crate::plan::RunPlan;
 use crate::result::FrameRecord;
 use crate::stats::RunAccumulator;
@@ -146,6 +147,8 @@ pub struct Reduced {
     pub peak_lock: Option<validate::peaklock::PeakLock>,
     /// Its accumulator, which shards carry to `merge`.
     pub peak_acc: Option<PeakLockAcc>,
+    /// The POD sketch, when `[modes]` asks for it.
+    pub modes: Option<ModeSketch>,
 }
 
 impl Reduced {
@@ -380,7 +383,13 @@ pub fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
         inputs: Vec<InputFile>,
         schemes: Vec<(String, usize)>,
         peak: Option<PeakLockAcc>,
+        modes: Option<ModeSketch>,
     }
+    let modes0 = run
+        .modes
+        .enabled
+        .then(|| ModeSketch::new(&run.modes, grid.len()));
+    let mut modes = modes0.as_ref().map(ModeSketch::empty_like);
     let mut schemes: Vec<(String, usize)> = Vec::new();
     let mut peak: Option<PeakLockAcc> = run.px_velocity.map(PeakLockAcc::new);
     let mut acc = RunAccumulator::new(&run.stats, grid, &names);
@@ -397,6 +406,7 @@ pub fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
                 inputs: Vec::new(),
                 schemes: Vec::new(),
                 peak: run.px_velocity.map(PeakLockAcc::new),
+                modes: modes0.as_ref().map(ModeSketch::empty_like),
             };
             for (meta, src) in chunk {
                 let (mut field, hash) = read_on_grid_hashed(run, src, &grid, true)?;
@@ -422,6 +432,9 @@ pub fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
                 );
                 if !rejected {
                     out.acc.push(meta, &field, &derived);
+                    if let Some(m) = out.modes.as_mut() {
+                        m.push_frame(meta, &derived);
+                    }
                 }
                 if let Some(dir) = &opts.frame_fields_dir {
                     outputs::write_frame_field(
@@ -453,6 +466,9 @@ pub fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
             add_counts(&mut schemes, &names, &counts);
             if let (Some(p), Some(q)) = (peak.as_mut(), c.peak) {
                 p.merge(q);
+            }
+            if let (Some(m), Some(q)) = (modes.as_mut(), c.modes) {
+                m.merge(q);
             }
         },
     )?;
@@ -490,6 +506,7 @@ pub fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
         scheme_counts: schemes,
         peak_lock: None,
         peak_acc: peak,
+        modes,
         id: run.id.clone(),
         grid,
         n_frames_run: n,

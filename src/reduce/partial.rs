@@ -11,6 +11,8 @@
 //!                           and the peak-locking accumulator (integer histograms),
 //!                           when the run has a calibration
 //!   <run id>/accumulator.bin   the statistics accumulator (stats' own versioned bytes)
+//!   <run id>/modes.bin         the POD sketch, only when `[modes]` asks for it
+//!                              (modes::codec's own versioned bytes)
 //! ```
 //!
 //! `merge` accepts any set of partial folders of one pipeline (same SHA-256)
@@ -24,12 +26,16 @@ use serde::{Deserialize, Serialize};
 use super::{InputFile, Reduced, Shard};
 use crate::error::{Error, Result, WithPath};
 use crate::field::{FrameMeta, Grid};
+use crate::modes::ModeSketch;
 use crate::result::FrameRecord;
 use crate::stats::RunAccumulator;
 use crate::{fill, validate};
 
 pub const FORMAT: &str = "curlew-partial";
 pub const VERSION: u32 = 1;
+/// The POD sketch of a run, when `[modes]` asks for it (absent otherwise:
+/// partials without it stay readable).
+const MODES_FILE: &str = "modes.bin";
 
 #[derive(Debug, Clone, Serialize, Deserialize)]
 struct FrameRow {
@@ -95,6 +101,10 @@ pub fn write(
         std::fs::create_dir_all(&rd).with_path(&rd)?;
         let p = rd.join("accumulator.bin");
         std::fs::write(&p, r.acc.to_bytes()).with_path(&p)?;
+        if let Some(m) = &r.modes {
+            let p = rd.join(MODES_FILE);
+            std::fs::write(&p, m.to_bytes()).with_path(&p)?;
+        }
         parts.push(RunPart {
             id: r.id.clone(),
             grid: r.grid,
@@ -157,6 +167,12 @@ pub fn read(dir: &Path) -> Result<Partial> {
         let ap = dir.join(&r.id).join("accumulator.bin");
         let bytes = std::fs::read(&ap).with_path(&ap)?;
         let acc = RunAccumulator::from_bytes(&bytes).with_path(&ap)?;
+        let mp = dir.join(&r.id).join(MODES_FILE);
+        let modes = match std::fs::read(&mp) {
+            Ok(b) => Some(ModeSketch::from_bytes(&b).with_path(&mp)?),
+            Err(e) if e.kind() == std::io::ErrorKind::NotFound => None,
+            Err(e) => return Err(Error::io(&mp, e)),
+        };
         runs.push(Reduced {
             id: r.id,
             grid: r.grid,
@@ -181,6 +197,7 @@ pub fn read(dir: &Path) -> Result<Partial> {
             scheme_counts: r.scheme_counts,
             peak_lock: None,
             peak_acc: r.peak_acc,
+            modes,
         });
     }
     Ok(Partial {
@@ -252,6 +269,20 @@ pub fn merge(mut parts: Vec<Partial>) -> Result<(Partial, Vec<Reduced>)> {
                 _ => {
                     return Err(Error::data(format!(
                         "run '{}': some shards have a peak-locking accumulator and some not",
+                        r.id
+                    ))
+                    .with_path(&dir))
+                }
+            }
+            match (&mut into.modes, r.modes) {
+                (Some(a), Some(b)) => {
+                    a.compatible(&b).map_err(|e| e.with_path(&dir))?;
+                    a.merge(b)
+                }
+                (None, None) => {}
+                _ => {
+                    return Err(Error::data(format!(
+                        "run '{}': some shards have a POD sketch ({MODES_FILE}) and some not",
                         r.id
                     ))
                     .with_path(&dir))

@@ -5,5 +5,7 @@ mod util;
 
 mod bad_input;
 mod detection;
+mod modes;
 mod reference;
 mod run;
+mod spectra;
