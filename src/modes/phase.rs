@@ -46,7 +46,8 @@ pub const MAX_HOLE_FRACTION: f64 = 0.05;
 
 /// Estimates every frame's phase from modes 1 and 2.
 pub fn estimate(pod: &Pod) -> Result<PhaseEstimate> {
-    if pod.energy.len() < 2 || !(pod.energy[1] > 0.0) {
+    if pod.energy.len() < 2 || pod.energy[1].partial_cmp(&0.0) != Some(std::cmp::Ordering::Greater)
+    {
         return Err(Error::data(
             "phase from the flow needs two POD modes with energy",
         ));
@@ -71,7 +72,7 @@ pub fn estimate(pod: &Pod) -> Result<PhaseEstimate> {
             "energy ratio of modes 2 and 1 is {energy_ratio:.3} (a pair needs >= {MIN_ENERGY_RATIO})"
         ));
     }
-    if !(radius_cv <= MAX_RADIUS_CV) {
+    if radius_cv.is_nan() || radius_cv > MAX_RADIUS_CV {
         failed.push(format!(
             "the phase portrait is not a ring: radius varies by {:.0} % (a pair needs <= {:.0} %)",
             100.0 * radius_cv,

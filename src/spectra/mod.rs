@@ -156,7 +156,7 @@ pub fn dof_welch(w: &[f64], step: usize, k: usize) -> f64 {
 pub fn dominant(p: &Psd) -> Option<(f64, f64)> {
     let n = p.psd.len();
     let i = (1..n).max_by(|&a, &b| p.psd[a].total_cmp(&p.psd[b]))?;
-    if i + 1 >= n || !(p.psd[i] > 0.0) {
+    if i + 1 >= n || p.psd[i].is_nan() || p.psd[i] <= 0.0 {
         return None;
     }
     let (a, b, c) = (p.psd[i - 1].ln(), p.psd[i].ln(), p.psd[i + 1].ln());

@@ -57,6 +57,7 @@ fn pod_equals_numpy_svd_when_the_sketch_spans_the_fluctuations() {
     let case = &r["exact"];
     let pod = pod_of(case);
     let e_ref = nums(&case["energy"]);
+    #[allow(clippy::needless_range_loop)]
     for j in 0..10 {
         let rel = (pod.energy[j] - e_ref[j]).abs() / e_ref[j];
         assert!(
