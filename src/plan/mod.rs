@@ -13,6 +13,7 @@ pub mod budget;
 pub mod derivatives;
 pub mod input;
 mod locate;
+pub mod modes;
 pub mod report;
 pub mod statistics;
 pub mod validation;
@@ -49,6 +50,8 @@ pub struct RawPipeline {
     pub statistics: statistics::RawStatistics,
     #[serde(default)]
     pub phase: statistics::RawPhase,
+    #[serde(default)]
+    pub modes: modes::RawModes,
     #[serde(default)]
     pub output: RawOutput,
     #[serde(default)]
@@ -119,6 +122,8 @@ pub struct RunPlan {
     pub derive: derive::Params,
     pub stats: stats::Params,
     pub plot: plot::Params,
+    /// `[modes]`: POD and phase from the flow.
+    pub modes: crate::modes::Params,
     pub conditions: report::Conditions,
     pub description: Option<String>,
     /// The vorticity transport budget, when asked for.
@@ -240,6 +245,7 @@ impl Plan {
                 )?,
                 stats: statistics::resolve_stats(&raw.statistics, &raw.phase, &ctx)?,
                 plot: report::resolve_figures(&raw.figures, &ctx)?,
+                modes: modes::resolve_modes(&raw.modes)?,
                 conditions: report::resolve_conditions(
                     &r.conditions.clone().unwrap_or_default(),
                     &ctx,

@@ -39,7 +39,7 @@ pub fn finish_campaign(
     let mut manifest_runs = Vec::new();
     let mut inputs: Vec<InputFile> = Vec::new();
     let mut warnings: Vec<String> = Vec::new();
-    for r in reduced {
+    for mut r in reduced {
         let rp = plan
             .runs
             .iter()
@@ -68,6 +68,7 @@ pub fn finish_campaign(
                 .filter(|m| m.iter().any(|&b| b))
                 .map(|m| m.iter().copied().collect()),
         };
+        let sketch = r.modes.take();
         if let Some(b) = &r.budget {
             let t = Instant::now();
             let bud = crate::budget::run::finish(b, rp);
@@ -78,6 +79,10 @@ pub fn finish_campaign(
         let t = Instant::now();
         outputs::write_run_tables(&out.join(&rr.id), &rr)?;
         outputs::write_run_netcdf(&out.join(&rr.id), &rr, &plan.text)?;
+        if let Some(s) = &sketch {
+            let w = crate::modes::write_run(s, rp, &rr.frames, &rr.grid, &out.join(&rr.id))?;
+            run_warnings.extend(w);
+        }
         timings.push(("write".into(), t.elapsed().as_secs_f64()));
         if plan.figures {
             let t = Instant::now();

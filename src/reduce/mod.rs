@@ -32,6 +32,7 @@ use std::time::Instant;
 use crate::error::{Error, Result, WithPath};
 use crate::field::{FrameMeta, Grid, NodeTable};
 use crate::io::{self, FrameSource};
+use crate::modes::ModeSketch;
 use crate::plan::RunPlan;
 use crate::result::FrameRecord;
 use crate::stats::RunAccumulator;
@@ -159,6 +160,8 @@ pub struct Reduced {
     pub peak_lock: Option<validate::peaklock::PeakLock>,
     /// Its accumulator, which shards carry to `merge`.
     pub peak_acc: Option<PeakLockAcc>,
+    /// The POD sketch, when `[modes]` asks for it.
+    pub modes: Option<ModeSketch>,
 }
 
 impl Reduced {
@@ -409,8 +412,14 @@ pub fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
         schemes: Vec<(String, usize)>,
         peak: Option<PeakLockAcc>,
         budget: Option<crate::budget::BudgetAcc>,
+        modes: Option<ModeSketch>,
     }
     let mut budget = crate::budget::run::start(run, grid);
+    let modes0 = run
+        .modes
+        .enabled
+        .then(|| ModeSketch::new(&run.modes, grid.len()));
+    let mut modes = modes0.as_ref().map(ModeSketch::empty_like);
     let mut schemes: Vec<(String, usize)> = Vec::new();
     let mut peak: Option<PeakLockAcc> = run.px_velocity.map(PeakLockAcc::new);
     let mut acc = RunAccumulator::new(&run.stats, grid, &names);
@@ -428,6 +437,7 @@ pub fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
                 schemes: Vec::new(),
                 peak: run.px_velocity.map(PeakLockAcc::new),
                 budget: crate::budget::run::start(run, grid),
+                modes: modes0.as_ref().map(ModeSketch::empty_like),
             };
             for (meta, src) in chunk {
                 let (mut field, hash) = read_on_grid_hashed(run, src, &on_grid, true)?;
@@ -455,6 +465,9 @@ pub fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
                     out.acc.push(meta, &field, &derived);
                     if let Some(b) = out.budget.as_mut() {
                         b.push(meta, &field, &derived);
+                    }
+                    if let Some(m) = out.modes.as_mut() {
+                        m.push_frame(meta, &derived);
                     }
                 }
                 if let Some(dir) = &opts.frame_fields_dir {
@@ -490,6 +503,9 @@ pub fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
             }
             if let (Some(b), Some(q)) = (budget.as_mut(), c.budget) {
                 b.merge(q);
+            }
+            if let (Some(m), Some(q)) = (modes.as_mut(), c.modes) {
+                m.merge(q);
             }
         },
     )?;
@@ -527,6 +543,7 @@ pub fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
         scheme_counts: schemes,
         peak_lock: None,
         peak_acc: peak,
+        modes,
         id: run.id.clone(),
         grid,
         n_frames_run: n,

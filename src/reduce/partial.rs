@@ -14,6 +14,8 @@
 //!   partial.sha256          SHA-256 of partial.json and of every accumulator.bin
 //!   <run id>/budget.bin        the vorticity budget's accumulator, when `[budget]` is on
 //!                              (`budget::codec`; absent in older partials)
+//!   <run id>/modes.bin         the POD sketch, only when `[modes]` asks for it
+//!                              (modes::codec's own versioned bytes)
 //! ```
 //!
 //! Version 2: floats of frame records and grids are exact strings, and
@@ -34,12 +36,16 @@ use super::{InputFile, Reduced, Shard};
 use crate::error::{Error, Result, WithPath};
 use crate::field::{FrameMeta, Grid};
 use crate::plan::Plan;
+use crate::modes::ModeSketch;
 use crate::result::FrameRecord;
 use crate::stats::RunAccumulator;
 use crate::{fill, validate};
 
 pub const FORMAT: &str = "curlew-partial";
 pub const VERSION: u32 = 2;
+/// The POD sketch of a run, when `[modes]` asks for it (absent otherwise:
+/// partials without it stay readable).
+const MODES_FILE: &str = "modes.bin";
 
 #[derive(Debug, Clone, Serialize, Deserialize)]
 struct FrameRow {
@@ -133,6 +139,10 @@ pub fn write(dir: &Path, plan: &Plan, shard: Shard, runs: &[Reduced]) -> Result<
         if let Some(b) = &r.budget {
             let p = rd.join("budget.bin");
             std::fs::write(&p, b.to_bytes()).with_path(&p)?;
+        }
+        if let Some(m) = &r.modes {
+            let p = rd.join(MODES_FILE);
+            std::fs::write(&p, m.to_bytes()).with_path(&p)?;
         }
         parts.push(RunPart {
             id: r.id.clone(),
@@ -228,6 +238,12 @@ pub fn read(dir: &Path) -> Result<Partial> {
             }
             false => None,
         };
+        let mp = dir.join(&r.id).join(MODES_FILE);
+        let modes = match std::fs::read(&mp) {
+            Ok(b) => Some(ModeSketch::from_bytes(&b).with_path(&mp)?),
+            Err(e) if e.kind() == std::io::ErrorKind::NotFound => None,
+            Err(e) => return Err(Error::io(&mp, e)),
+        };
         runs.push(Reduced {
             id: r.id,
             grid: Grid {
@@ -265,6 +281,7 @@ pub fn read(dir: &Path) -> Result<Partial> {
             scheme_counts: r.scheme_counts,
             peak_lock: None,
             peak_acc: r.peak_acc,
+            modes,
         });
     }
     Ok(Partial {
@@ -359,6 +376,20 @@ pub fn merge(mut parts: Vec<Partial>) -> Result<(Partial, Vec<Reduced>)> {
                 _ => {
                     return Err(Error::data(format!(
                         "run '{}': some shards have a peak-locking accumulator and some not",
+                        r.id
+                    ))
+                    .with_path(&dir))
+                }
+            }
+            match (&mut into.modes, r.modes) {
+                (Some(a), Some(b)) => {
+                    a.compatible(&b).map_err(|e| e.with_path(&dir))?;
+                    a.merge(b)
+                }
+                (None, None) => {}
+                _ => {
+                    return Err(Error::data(format!(
+                        "run '{}': some shards have a POD sketch ({MODES_FILE}) and some not",
                         r.id
                     ))
                     .with_path(&dir))

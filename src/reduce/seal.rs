@@ -146,7 +146,7 @@ pub fn check_follows(
 }
 
 /// Writes `dir/partial.sha256`: the SHA-256 of `partial.json` and of every
-/// run's `accumulator.bin` (and `budget.bin`), one `hash  path` line each.
+/// run's `accumulator.bin` (and `budget.bin`, `modes.bin`), one `hash  path` line each.
 pub fn write_checksums(dir: &Path, runs: &[Reduced]) -> Result<()> {
     let mut text = String::new();
     let mut files = vec!["partial.json".to_string()];
@@ -155,6 +155,11 @@ pub fn write_checksums(dir: &Path, runs: &[Reduced]) -> Result<()> {
         runs.iter()
             .filter(|r| r.budget.is_some())
             .map(|r| format!("{}/budget.bin", r.id)),
+    );
+    files.extend(
+        runs.iter()
+            .filter(|r| r.modes.is_some())
+            .map(|r| format!("{}/modes.bin", r.id)),
     );
     for f in &files {
         let (_, sha) = io::hash_file(&dir.join(f))?;

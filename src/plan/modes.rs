@@ -1,0 +1,63 @@
+//! `[modes]`: raw keys and their resolution into `modes::Params`.
+//!
+//! Every key is optional; the section is off unless `pod = true` (or
+//! `phase = true`, which needs the POD). Errors name the section, the key,
+//! the value and what was expected.
+
+use serde::{Deserialize, Serialize};
+
+use crate::error::{Error, Result};
+use crate::modes;
+
+/// `[modes]` as written.
+#[derive(Debug, Clone, Default, Deserialize, Serialize, PartialEq)]
+#[serde(deny_unknown_fields)]
+pub struct RawModes {
+    /// Compute the POD of the velocity fluctuations (default false). Costs
+    /// memory of about 3 × (modes + oversampling) numbers per vector
+    /// component and node, and about as many operations per frame.
+    pub pod: Option<bool>,
+    /// Modes reported (default 10), between 1 and 500.
+    pub modes: Option<usize>,
+    /// Extra sketch columns beyond `modes` (default 20); the POD is exact
+    /// when the fluctuations span at most `modes + oversampling` dimensions.
+    pub oversampling: Option<usize>,
+    /// Seed of the random test matrices (default 1).
+    pub seed: Option<u64>,
+    /// Estimate every frame's phase from modes 1 and 2 and write it as a
+    /// frame table, `<run>/phase-from-modes.csv` (default false; implies pod).
+    pub phase: Option<bool>,
+    /// Modes drawn as maps (default 4, at most `modes`).
+    pub figure_modes: Option<usize>,
+}
+
+/// Resolves `[modes]`.
+pub fn resolve_modes(raw: &RawModes) -> Result<modes::Params> {
+    let d = modes::Params::default();
+    let phase = raw.phase.unwrap_or(d.phase);
+    let m = raw.modes.unwrap_or(d.modes);
+    if !(1..=500).contains(&m) {
+        return Err(Error::usage(format!(
+            "[modes] modes = {m} must lie between 1 and 500"
+        )));
+    }
+    let over = raw.oversampling.unwrap_or(d.oversampling);
+    if over > 1000 {
+        return Err(Error::usage(format!(
+            "[modes] oversampling = {over} must be at most 1000"
+        )));
+    }
+    if phase && m < 2 {
+        return Err(Error::usage(
+            "[modes] phase = true needs modes >= 2 (the phase comes from modes 1 and 2)",
+        ));
+    }
+    Ok(modes::Params {
+        enabled: raw.pod.unwrap_or(false) || phase,
+        modes: m,
+        oversampling: over,
+        seed: raw.seed.unwrap_or(d.seed),
+        phase,
+        figure_modes: raw.figure_modes.unwrap_or(d.figure_modes).min(m),
+    })
+}
