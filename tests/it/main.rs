@@ -4,16 +4,16 @@
 mod util;
 
 mod bad_input;
+mod budget;
 mod coverage_command;
 mod coverage_study;
-mod budget;
 mod detection;
 mod fuzz;
 mod masks_axes;
-mod netcdf_out;
 mod modes;
+mod netcdf_out;
 mod reference;
 mod reliability;
 mod run;
-mod truth;
 mod spectra;
+mod truth;
