@@ -177,7 +177,8 @@ pub fn infer_axis(values: &[f64], tol: f64) -> std::result::Result<Axis, AxisErr
     for w in centres.windows(2) {
         let ratio = (w[1] - w[0]) / h;
         let reach = *idx.last().unwrap() as f64 + ratio;
-        if !(reach <= most) {
+        // NaN or beyond the cap both refuse (a NaN reach is never `<=`).
+        if reach.is_nan() || reach > most {
             return Err(AxisError::Stray {
                 value: w[1],
                 pitch: h,

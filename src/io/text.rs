@@ -339,8 +339,7 @@ const CLIP: usize = 60;
 /// length of the rest.
 pub fn clip(text: &str) -> String {
     let mut out = String::new();
-    let mut n = 0;
-    for c in text.chars() {
+    for (n, c) in text.chars().enumerate() {
         if n == CLIP {
             let rest = text.chars().count() - n;
             out.push_str(&format!("... ({rest} more characters)"));
@@ -351,7 +350,6 @@ pub fn clip(text: &str) -> String {
         } else {
             out.push(c);
         }
-        n += 1;
     }
     out
 }

@@ -123,7 +123,19 @@ fn field(p: &std::path::Path) -> Vec<[f64; 5]> {
 /// analytic solution of any fluid-mechanics text) with the body masked by
 /// the circle `synth` writes into the pipeline: no node inside the body is
 /// filled, every one has status 3 and no value, and the mean vorticity
-/// around the mask is zero within its propagated uncertainty.
+/// around the mask is what the scheme gives on the exact field, within its
+/// propagated uncertainty.
+///
+/// The exact vorticity is zero, but the least-squares stencil
+/// (2f2 + f1 - f-1 - 2f-2)/(10h) (docs/methods.md, derivative table) has a
+/// real truncation error of up to 2 1/s here, where the flow curves round
+/// the body (its leading term (17/30) h^2 f''' in the same table): 24
+/// frames cannot detect it through the degree-5 truncation estimate, whose
+/// own noise at the mean is about 1.3 1/s, so it is not in
+/// `omega_mean_unc` (see docs/uncertainty.md, open limits). The test
+/// therefore compares with the stencil applied to the analytic field: what
+/// the mask may not spoil is everything else (no filled body values, no
+/// stencil reaching into the body, the noise propagated honestly).
 #[test]
 fn a_masked_cylinder_gives_zero_vorticity_around_it_and_nothing_inside() {
     let w = Work::new();
@@ -161,7 +173,25 @@ fn a_masked_cylinder_gives_zero_vorticity_around_it_and_nothing_inside() {
     let (x, y) = (ens.col("x"), ens.col("y"));
     let (om, unc) = (ens.col("omega_mean"), ens.col("omega_mean_unc"));
     let h = (x[1] - x[0]).abs();
-    let (mut ring, mut worst) = (0, 0.0f64);
+    // Potential flow past a cylinder of radius r in a stream U along +x
+    // (complex velocity u - i v = U (1 - r^2 / z^2), any fluid-mechanics
+    // text), and the least-squares stencil applied to it along each axis.
+    let speed = 0.2;
+    let exact = |x: f64, y: f64| {
+        let (zr, zi) = (x * x - y * y, 2.0 * x * y); // z^2
+        let m = zr * zr + zi * zi;
+        let (ir, ii) = (zr / m, -zi / m); // 1 / z^2
+        (speed * (1.0 - r * r * ir), speed * r * r * ii)
+    };
+    let scheme = |x: f64, y: f64| {
+        let mut om = 0.0;
+        for (c, w) in [(-2.0, -2.0), (-1.0, -1.0), (1.0, 1.0), (2.0, 2.0)] {
+            om += w * exact(x + c * h, y).1 / (10.0 * h);
+            om -= w * exact(x, y + c * h).0 / (10.0 * h);
+        }
+        om
+    };
+    let (mut ring, mut worst, mut worst_vs_zero, mut sum_z2) = (0, 0.0f64, 0.0f64, 0.0);
     for k in 0..x.len() {
         let d = x[k].hypot(y[k]);
         if d < r {
@@ -171,18 +201,34 @@ fn a_masked_cylinder_gives_zero_vorticity_around_it_and_nothing_inside() {
                 x[k],
                 y[k]
             );
-        } else if d >= r + 2.5 * h && d < r + 8.0 * h {
-            // stencils clear of the mask
+        } else if d >= r + 3.0 * h && d < r + 9.0 * h {
+            // stencils clear of the mask and of the row next to it, where
+            // the normalized median test rejects some exact vectors (the
+            // flow turns round the body within a pitch, and the mask
+            // leaves the test only the neighbours on one side)
             ring += 1;
-            worst = worst.max(om[k].abs() / unc[k]);
+            let z = (om[k] - scheme(x[k], y[k])) / unc[k];
+            worst = worst.max(z.abs());
+            sum_z2 += z * z;
+            worst_vs_zero = worst_vs_zero.max(om[k].abs() / unc[k]);
         }
     }
-    assert!(ring > 300, "{ring} nodes around the mask");
-    // coverage factor 3 (about 99.7 % for a normal error), every node:
-    // measured 2.4 at most here, rms 0.9 from 2.5 to 4 pitches
+    assert!(ring > 350, "{ring} nodes around the mask");
+    // coverage factor 3.5 (a normal error passes it at all of 400 nodes
+    // with probability 0.83; 3 would fail a fair estimate one time in two):
+    // measured 2.7 at most here
+    let rms = (sum_z2 / ring as f64).sqrt();
+    // and the width: rms of the standardised error measured 0.69 (the
+    // uncertainty somewhat wide, not 2x off either way)
+    assert!(rms > 0.5 && rms < 1.3, "rms standardised error {rms}");
     assert!(
-        worst <= 3.0,
-        "|omega_mean| / u(omega_mean) reaches {worst} around the mask"
+        worst <= 3.5,
+        "|omega_mean - scheme(exact)| / u(omega_mean) reaches {worst} around the mask"
+    );
+    // the truncation the comparison allows for is real and larger
+    assert!(
+        worst_vs_zero > worst,
+        "against zero {worst_vs_zero}, against the scheme {worst}"
     );
 
     // Without the mask the body's nodes are holes that get filled from the
