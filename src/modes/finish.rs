@@ -18,7 +18,7 @@
 //! mode k: raise `oversampling` when the spectrum decays slowly.
 //!
 //! The small factorisations use nalgebra (already in the build through
-//! statrs; see docs/modes.md for the measurement against faer).
+//! statrs; no second linear-algebra crate).
 //!
 //! Sign: each mode is turned so that its entry of largest magnitude is
 //! positive (the SVD leaves the sign free), with its coefficients.
@@ -76,7 +76,7 @@ pub fn finish(s: &ModeSketch, max_lag: usize) -> Result<Pod> {
         .map_err(|e| Error::data(format!("POD least squares failed: {e}")))?;
     // The left singular vectors of B as eigenvectors of the k × k Gram
     // matrix B Bᵀ (nalgebra's symmetric QR; its SVD with vectors lost 3e-4
-    // in the angle of a mode of the NumPy reference case, see docs/modes.md).
+    // in the angle of a mode of the NumPy reference case, tests/it/modes.rs).
     let gram = &b * b.transpose();
     let eig = gram.symmetric_eigen();
     let u = eig.eigenvectors;
