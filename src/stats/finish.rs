@@ -16,6 +16,7 @@
 use super::moments::{Moments, Scalar};
 use super::phase;
 use super::probes::{self, ProbeInput};
+use super::strata::{strata, Strata};
 use super::table::{coverage_suffix, independent, node_table, scale_exponents, Ctx};
 use super::{Params, PhaseBin, RunAccumulator, RunStats};
 
@@ -144,11 +145,28 @@ pub(super) fn finish(acc: &RunAccumulator, p: &Params) -> RunStats {
     } else {
         std::array::from_fn(|_| vec![f64::NAN; nodes])
     };
+    // Phase bins as strata of the ensemble mean (`strata`), when the bins
+    // partition the circle: no narrower windows, no frame outside them.
+    let partition = has_phase
+        && acc.outside == 0
+        && acc.params.phase_width_deg.is_none_or(|w| {
+            (w * acc.params.phase_bins as f64 - 360.0).abs() < 1e-9 * 360.0
+        });
+    let strata: Option<Vec<Strata>> = partition.then(|| {
+        let of = |pick: &dyn Fn(&Moments) -> &Scalar| {
+            let bins: Vec<&Scalar> = bin_moments.iter().map(|m| pick(m)).collect();
+            strata(pick(&acc.ens), &bins)
+        };
+        let mut v = vec![of(&|m| &m.u), of(&|m| &m.v)];
+        v.extend((0..acc.quantities.len()).map(|i| of(&|m| &m.q[i])));
+        v
+    });
     let ensemble = node_table(
         &acc.ens,
         &neff,
         [k_coh.clone(), k_sto.clone(), k_coh_unc],
         &ctx,
+        strata.as_deref(),
     );
     let mut summary = Vec::new();
     if has_phase {
@@ -174,7 +192,7 @@ pub(super) fn finish(acc: &RunAccumulator, p: &Params) -> RunStats {
                     }
                 })
                 .collect();
-            let mut table = node_table(m, &independent(m, omega), [kc, ks, kc_unc], &ctx);
+            let mut table = node_table(m, &independent(m, omega), [kc, ks, kc_unc], &ctx, None);
             for (i, name) in ["u_coherent", "v_coherent", "omega_coherent"]
                 .iter()
                 .enumerate()

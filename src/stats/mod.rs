@@ -31,6 +31,7 @@ pub mod lags;
 pub mod moments;
 mod phase;
 mod probes;
+mod strata;
 mod table;
 #[cfg(test)]
 mod tests;

@@ -23,7 +23,10 @@
 //!   moments (`m3 / m2^1.5`, `m4 / m2^2`; common practice).
 //! - `*_mean_unc`: combined standard uncertainty of the mean (GUM eq. 10):
 //!   the random part `s / sqrt(N_eff)` times `sqrt((N-1)/(N-N/N_eff))`
-//!   (`gum::mean_unc_correlated`; nu = N_eff - 1), the truncation of the
+//!   (`gum::mean_unc_correlated`; nu = N_eff - 1) — in a phased run's
+//!   ensemble, where the bins partition the circle, `s` is the stratified
+//!   within-bin one and the bins' imbalance is a further systematic part
+//!   (`strata`; nu = min(N_eff - 1, N - B)) — the truncation of the
 //!   mean of a derived quantity (`systematic`: the debiased mean of the
 //!   signed per-frame estimates; not corrected, nu = infinity), and the
 //!   scale systematics:
@@ -52,6 +55,7 @@
 //!   cycle per bin), N_eff = N.
 
 use super::gum::{self, Component};
+use super::strata::Strata;
 use super::moments::{Moments, Scalar};
 use super::Params;
 use crate::derive::quantities::clip0;
@@ -212,8 +216,17 @@ struct Full {
 }
 
 /// The statistics of `s` at every node, with N_eff `neff` and the relative
-/// scale uncertainty `rel` (see the module doc).
-fn full(s: &Scalar, neff: &[f64], rel: f64, coverage: f64) -> Vec<Full> {
+/// scale uncertainty `rel` (see the module doc). With `strata` (the
+/// ensemble of a phased run, `strata`), the random part of the mean is the
+/// stratified one and the bins' imbalance a systematic part, at the nodes
+/// where stratification applies.
+fn full(
+    s: &Scalar,
+    neff: &[f64],
+    rel: f64,
+    coverage: f64,
+    strata: Option<&Strata>,
+) -> Vec<Full> {
     (0..s.n.len())
         .map(|k| {
             let ne = neff[k];
@@ -221,10 +234,23 @@ fn full(s: &Scalar, neff: &[f64], rel: f64, coverage: f64) -> Vec<Full> {
             let st = stat(s, k, if n > 0.0 { ne / n } else { 1.0 });
             let (mut mean_unc, mut mean_exp) = (f64::NAN, f64::NAN);
             if st.n >= 2.0 {
-                let mut c = vec![Component {
-                    u: gum::mean_unc_correlated(st.std, st.n, ne),
-                    dof: ne - 1.0,
+                let strat = strata.filter(|t| t.std[k].is_finite());
+                let mut c = vec![match strat {
+                    Some(t) => Component {
+                        u: gum::mean_unc_correlated(t.std[k], st.n, ne),
+                        dof: (ne - 1.0).min(t.dof[k]),
+                    },
+                    None => Component {
+                        u: gum::mean_unc_correlated(st.std, st.n, ne),
+                        dof: ne - 1.0,
+                    },
                 }];
+                if let Some(t) = strat {
+                    c.push(Component {
+                        u: t.imbalance[k].abs(),
+                        dof: f64::INFINITY,
+                    });
+                }
                 if st.bias.is_finite() {
                     c.push(Component {
                         u: st.bias,
@@ -259,19 +285,28 @@ fn full(s: &Scalar, neff: &[f64], rel: f64, coverage: f64) -> Vec<Full> {
 
 /// The columns of one set of moments (ensemble or bin). `neff` holds the
 /// per-node N_eff of (u, v, omega); `k_parts` the k_coherent,
-/// k_stochastic and k_coherent_unc maps.
+/// k_stochastic and k_coherent_unc maps; `strata` (a phased run's
+/// ensemble) the phase-bin strata of u, v and each quantity, in that order.
 pub(super) fn node_table(
     m: &Moments,
     neff: &[Vec<f64>; 3],
     k_parts: [Vec<f64>; 3],
     c: &Ctx,
+    strata: Option<&[Strata]>,
 ) -> NodeTable {
+    let st = |i: usize| strata.map(|s| &s[i]);
     let cv = c.p.coverage;
     let empty = Scalar::new(c.grid.len());
     let w_rel = c.omega.map_or(0.0, |o| c.q_rel[o]);
-    let fu = full(&m.u, &neff[0], c.vel_rel, cv);
-    let fv = full(&m.v, &neff[1], c.vel_rel, cv);
-    let fw = full(c.omega.map_or(&empty, |o| &m.q[o]), &neff[2], w_rel, cv);
+    let fu = full(&m.u, &neff[0], c.vel_rel, cv, st(0));
+    let fv = full(&m.v, &neff[1], c.vel_rel, cv, st(1));
+    let fw = full(
+        c.omega.map_or(&empty, |o| &m.q[o]),
+        &neff[2],
+        w_rel,
+        cv,
+        c.omega.and_then(|o| st(2 + o)),
+    );
     let col = |f: &[Full], g: &dyn Fn(&Full) -> f64| -> Vec<f64> { f.iter().map(g).collect() };
     let cov: Vec<f64> = (0..m.cuv.len())
         .map(|k| {
@@ -352,7 +387,7 @@ pub(super) fn node_table(
         .iter()
         .enumerate()
         .filter(|(qi, _)| Some(*qi) != c.omega)
-        .map(|(qi, name)| (name, full(&m.q[qi], &neff[2], c.q_rel[qi], cv)))
+        .map(|(qi, name)| (name, full(&m.q[qi], &neff[2], c.q_rel[qi], cv, st(2 + qi))))
         .collect();
     for (name, fq) in &others {
         t.push(format!("{name}_mean"), col(fq, &|f| f.st.mean));

@@ -374,3 +374,69 @@ fn n_eff_uncertainty_matches_the_scatter_of_correlated_means() {
         "observed scatter vs truth (150 trials)",
     );
 }
+
+/// The ensemble mean of a periodic signal sampled at a fixed rate, against
+/// its long-time mean (Monte Carlo, 400 replicas): omega = A sin(phi) +
+/// noise with A = 10 1/s, noise 1 1/s, 100 frames advancing 75.6 degrees
+/// each (the demo wake's 3.15 Hz at 15 frames/s) from a random start, 7 %
+/// of the samples missing at random, 12 phase bins. The truth is 0. With
+/// the bins as strata (`strata`: Cochran 1977, stratified sampling) the
+/// width of the uncertainty matches the actual scatter; the unstratified
+/// s / sqrt(N) is over 3x too wide (it counts the coherent swing
+/// A / sqrt(2) as sampling noise). The coverage is above 95 % by
+/// construction: the bins' imbalance is a nearly exactly known part of the
+/// error, included (not corrected) at its full size.
+#[test]
+fn the_mean_of_a_periodic_run_has_the_stratified_uncertainty() {
+    let g = grid(1, 1);
+    let (amp, sigma, n, reps) = (10.0, 1.0, 100usize, 400);
+    let p = Params {
+        phase_bins: 12,
+        ..Params::default()
+    };
+    let mut r = rng(20261203);
+    let (mut errs, mut uncs, mut plain) = (Vec::new(), Vec::new(), Vec::new());
+    for _ in 0..reps {
+        let start: f64 = r.random_range(0.0..360.0);
+        let frames: Vec<Frame> = (0..n)
+            .map(|f| {
+                let ph = (start + 75.6 * f as f64) % 360.0;
+                let w = amp * ph.to_radians().sin()
+                    + sigma * Distribution::<f64>::sample(&StandardNormal, &mut r);
+                let missing = r.random_range(0.0..1.0) < 0.07;
+                frame(g, f, None, Some(ph), &|_, _| [0.0, 0.0, w, 0.0], &|_, _| {
+                    if missing {
+                        REPLACED
+                    } else {
+                        VALID
+                    }
+                })
+            })
+            .collect();
+        let s = accumulate(&p, g, &frames).finish(&p);
+        let e = &s.ensemble;
+        let (m, u, sd, ns) = (
+            e.get("omega_mean").unwrap()[0],
+            e.get("omega_mean_unc").unwrap()[0],
+            e.get("omega_std").unwrap()[0],
+            e.get("n_samples").unwrap()[0],
+        );
+        errs.push(m);
+        uncs.push(u);
+        plain.push(sd / ns.sqrt());
+    }
+    let rms = (errs.iter().map(|e| e * e).sum::<f64>() / reps as f64).sqrt();
+    let cover = errs
+        .iter()
+        .zip(&uncs)
+        .filter(|(e, u)| e.abs() <= 2.0 * **u)
+        .count() as f64
+        / reps as f64;
+    let ratio = crate::robust::median(&mut uncs.clone()) / rms;
+    let plain_ratio = crate::robust::median(&mut plain) / rms;
+    // Measured: coverage 1.00, width ratio 1.06, unstratified 3.3 (rms
+    // error 0.22 1/s, of which the noise of 93 samples is 0.10).
+    assert!(cover >= 0.95, "k = 2 coverage {cover}");
+    assert!((0.8..=1.25).contains(&ratio), "width ratio {ratio}");
+    assert!(plain_ratio > 2.5, "unstratified width ratio {plain_ratio}");
+}
