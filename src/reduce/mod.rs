@@ -401,6 +401,14 @@ pub fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
         None
     };
 
+    // Pass 1b (only with scheme = "auto"): the scheme maps from a pilot of
+    // frames spread over the whole run, whatever the shard (`derive::choice`).
+    let tp = Instant::now();
+    let choice = scheme_choice(run, &frames, &on_grid, ens.as_ref())?;
+    if choice.is_some() {
+        timings.push(("scheme_pilot".to_string(), tp.elapsed().as_secs_f64()));
+    }
+
     // Pass 2: every stage, frame by frame.
     let t = Instant::now();
     let names = derive::quantity_names(&run.derive);
@@ -455,12 +463,21 @@ pub fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
                     p.push(&field);
                 }
                 let fcounts = fill::fill(&run.fill, &mut field);
-                let derived = derive::derive(&run.derive, &field);
+                let derived = derive::derive_with(&run.derive, &field, choice.as_ref(), None);
                 add_counts(
                     &mut out.schemes,
                     &derived.scheme_names,
                     &derived.scheme_counts,
                 );
+                if let Some((_, counts)) = &derived.inst_omega {
+                    let names: Vec<String> = derived
+                        .scheme_names
+                        .iter()
+                        .map(|n| format!("instantaneous fields: {n}"))
+                        .collect();
+                    let names: Vec<&str> = names.iter().map(String::as_str).collect();
+                    add_counts(&mut out.schemes, &names, counts);
+                }
                 if !rejected {
                     out.acc.push(meta, &field, &derived);
                     if let Some(b) = out.budget.as_mut() {
@@ -560,6 +577,34 @@ pub fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
         out.finish_peak_lock();
     }
     Ok(out)
+}
+
+/// The run's scheme maps for `scheme = "auto"` (`derive::choice`): the
+/// pilot frames are validated, filled and differentiated with every
+/// candidate in frame order, one after the other (so the sums, and the
+/// choice, are the same whatever the thread count or the shard). `None`
+/// for a fixed scheme.
+fn scheme_choice(
+    run: &RunPlan,
+    frames: &[(FrameMeta, FrameSource)],
+    on_grid: &OnGrid,
+    ens: Option<&EnsembleRef>,
+) -> Result<Option<derive::choice::Choice>> {
+    if run.derive.scheme != derive::Scheme::Auto || run.derive.candidates.len() < 2 {
+        return Ok(None);
+    }
+    let grid = on_grid.0;
+    let mut pilot = derive::choice::Pilot::new(run.derive.candidates.len(), grid.shape());
+    for k in derive::choice::pilot_indices(frames.len()) {
+        let mut field = read_on_grid(run, &frames[k].1, on_grid)?;
+        let vcounts = validate::validate_frame(&run.validation, &mut field, ens);
+        if validate::frame_rejected(&run.validation, &vcounts, grid.len()) {
+            continue;
+        }
+        fill::fill(&run.fill, &mut field);
+        derive::derive_with(&run.derive, &field, None, Some(&mut pilot));
+    }
+    Ok(Some(pilot.finish(frames.len())))
 }
 
 /// The mean of the per-frame noise estimates, when the frames carry one.

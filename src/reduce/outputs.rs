@@ -185,16 +185,21 @@ pub fn write_frame_field(path: &Path, field: &Field, derived: &Derived) -> Resul
         "status",
         Values::I64(field.status.iter().map(|&s| s as i64).collect()),
     );
-    let omega = derived.quantities.iter().find(|q| q.name == "omega");
+    // The instantaneous scheme map's vorticity where the run chose one
+    // apart from the statistics' (`derive::choice`).
     let nan = vec![f64::NAN; g.len()];
-    t.push(
-        "omega",
-        Values::F64(omega.map_or(nan.clone(), |q| flat(&q.value))),
-    );
-    t.push(
-        "omega_unc",
-        Values::F64(omega.and_then(|q| q.unc.as_ref()).map_or(nan, flat)),
-    );
+    let (om, unc) = match &derived.inst_omega {
+        Some(([om, unc], _)) => (flat(om), flat(unc)),
+        None => {
+            let omega = derived.quantities.iter().find(|q| q.name == "omega");
+            (
+                omega.map_or(nan.clone(), |q| flat(&q.value)),
+                omega.and_then(|q| q.unc.as_ref()).map_or(nan, flat),
+            )
+        }
+    };
+    t.push("omega", Values::F64(om));
+    t.push("omega_unc", Values::F64(unc));
     io::write_csv(path, &t)
 }
 

@@ -149,9 +149,10 @@ pub(super) fn finish(acc: &RunAccumulator, p: &Params) -> RunStats {
     // partition the circle: no narrower windows, no frame outside them.
     let partition = has_phase
         && acc.outside == 0
-        && acc.params.phase_width_deg.is_none_or(|w| {
-            (w * acc.params.phase_bins as f64 - 360.0).abs() < 1e-9 * 360.0
-        });
+        && acc
+            .params
+            .phase_width_deg
+            .is_none_or(|w| (w * acc.params.phase_bins as f64 - 360.0).abs() < 1e-9 * 360.0);
     let strata: Option<Vec<Strata>> = partition.then(|| {
         let of = |pick: &dyn Fn(&Moments) -> &Scalar| {
             let bins: Vec<&Scalar> = bin_moments.iter().map(|m| pick(m)).collect();

@@ -55,8 +55,8 @@
 //!   cycle per bin), N_eff = N.
 
 use super::gum::{self, Component};
-use super::strata::Strata;
 use super::moments::{Moments, Scalar};
+use super::strata::Strata;
 use super::Params;
 use crate::derive::quantities::clip0;
 use crate::field::{Grid, NodeTable};
@@ -220,13 +220,7 @@ struct Full {
 /// ensemble of a phased run, `strata`), the random part of the mean is the
 /// stratified one and the bins' imbalance a systematic part, at the nodes
 /// where stratification applies.
-fn full(
-    s: &Scalar,
-    neff: &[f64],
-    rel: f64,
-    coverage: f64,
-    strata: Option<&Strata>,
-) -> Vec<Full> {
+fn full(s: &Scalar, neff: &[f64], rel: f64, coverage: f64, strata: Option<&Strata>) -> Vec<Full> {
     (0..s.n.len())
         .map(|k| {
             let ne = neff[k];

@@ -3,6 +3,7 @@
 
 mod util;
 
+mod auto_scheme;
 mod bad_input;
 mod budget;
 mod coverage_command;

@@ -92,6 +92,7 @@ fn frame(
         scheme_counts: vec![sh.0 * sh.1],
         fallback_nodes: 0,
         sigma_fallback_nodes: 0,
+        inst_omega: None,
     };
     Frame {
         meta: FrameMeta {

@@ -1,0 +1,219 @@
+//! `scheme = "auto"` chosen from ensemble estimates: one map of schemes for
+//! the mean fields and one for the instantaneous fields, fixed for a run.
+//!
+//! Why not per frame: each frame's error estimates are noisy, so a choice
+//! made frame by frame splits a uniform stream at random between schemes,
+//! and it minimises the error of one snapshot while the main outputs are
+//! means, whose noise falls as 1/sqrt(N) while truncation does not.
+//!
+//! Method (the weighing of truncation against noise is the principle of
+//! Foucaut & Stanislas 2002, Meas. Sci. Technol. 13:1058): a pilot of up
+//! to `PILOT_FRAMES` frames spread evenly over the whole run (the same
+//! frames for every shard, so a sharded run chooses as a single run does)
+//! is validated, filled and differentiated with every candidate. Per
+//! candidate c and node, over the pilot's K frames: the mean propagated
+//! variance of one vorticity value V_c; the mean b_c, sample variance
+//! s_c² and mean square of the signed truncation estimate b; and the mean
+//! noise variance of that estimate vb_c. Then
+//!
+//! - mean fields: E_c = V_c / N + (b_c² − s_c² / K), with N the frames of
+//!   the run: the noise of a mean of N frames plus its debiased squared
+//!   truncation (the truncation of a mean is the mean of the truncations),
+//!   the latter counted only where the pilot detects it, b_c² > 9 s_c² / K
+//!   (3 standard errors): in a uniform stream the truncation estimator's
+//!   noise would otherwise pick the scheme at random;
+//! - instantaneous fields: E_c = V_c + max(0, mean(b²) − vb_c), the error
+//!   of one snapshot;
+//!
+//! each averaged over the node's 5 x 5 neighbourhood (the nodes where the
+//! candidate has a value) before the least is taken, so that a region, not
+//! a node's own noisy estimate, decides; ties go to the first candidate.
+//! Where no candidate has an estimate the map holds `u8::MAX` and the
+//! first candidate that has a value there is used. Without truncation
+//! estimates (`truncation = false`) the truncation terms are 0 and the
+//! least noisy candidate wins everywhere.
+
+use ndarray::Array2;
+
+use super::gradient::Grad;
+use super::quantities::{clip0, linear, Node};
+
+/// Frames the pilot uses at most.
+pub const PILOT_FRAMES: usize = 16;
+
+/// Half width of the neighbourhood over which errors are averaged.
+const REGION: usize = 2;
+
+/// Indices of the pilot frames among `n` frames: evenly spread, first and
+/// last included, in increasing order.
+pub fn pilot_indices(n: usize) -> Vec<usize> {
+    let k = n.min(PILOT_FRAMES);
+    if k <= 1 {
+        return (0..k).collect();
+    }
+    (0..k)
+        .map(|i| (i * (n - 1) + (k - 1) / 2) / (k - 1))
+        .collect()
+}
+
+/// Sums of one candidate's vorticity error estimates per node.
+#[derive(Debug, Clone)]
+struct Sums {
+    /// Frames with a value; Σ variance; Σ b, Σ b², Σ vb over frames with a
+    /// finite truncation estimate, and their count.
+    n: Vec<f64>,
+    var: Vec<f64>,
+    nb: Vec<f64>,
+    b: Vec<f64>,
+    b2: Vec<f64>,
+    vb: Vec<f64>,
+}
+
+/// The pilot's accumulated estimates, per candidate.
+#[derive(Debug, Clone)]
+pub struct Pilot {
+    shape: (usize, usize),
+    sums: Vec<Sums>,
+    frames: usize,
+}
+
+impl Pilot {
+    pub fn new(candidates: usize, shape: (usize, usize)) -> Pilot {
+        let z = vec![0.0; shape.0 * shape.1];
+        let s = Sums {
+            n: z.clone(),
+            var: z.clone(),
+            nb: z.clone(),
+            b: z.clone(),
+            b2: z.clone(),
+            vb: z,
+        };
+        Pilot {
+            shape,
+            sums: vec![s; candidates],
+            frames: 0,
+        }
+    }
+
+    /// Adds one frame's gradients of every candidate (in candidate order).
+    pub fn push(&mut self, grads: &[Grad], ok: &Array2<bool>) {
+        self.frames += 1;
+        for (g, s) in grads.iter().zip(&mut self.sums) {
+            for ((j, i), &o) in ok.indexed_iter() {
+                if !o {
+                    continue;
+                }
+                let n = Node::load(g, j, i);
+                let (val, var, b, vb) = linear(&n, [0.0, -1.0, 1.0, 0.0]);
+                if !(val.is_finite() && var.is_finite()) {
+                    continue;
+                }
+                let k = j * self.shape.1 + i;
+                s.n[k] += 1.0;
+                s.var[k] += var;
+                if b.is_finite() && vb.is_finite() {
+                    s.nb[k] += 1.0;
+                    s.b[k] += b;
+                    s.b2[k] += b * b;
+                    s.vb[k] += vb;
+                }
+            }
+        }
+    }
+
+    /// The two maps for a run of `n_run` frames.
+    pub fn finish(&self, n_run: usize) -> Choice {
+        let nodes = self.shape.0 * self.shape.1;
+        let nr = n_run.max(1) as f64;
+        let mut mean_err = Vec::with_capacity(self.sums.len());
+        let mut inst_err = Vec::with_capacity(self.sums.len());
+        for s in &self.sums {
+            let (mut em, mut ei) = (vec![f64::NAN; nodes], vec![f64::NAN; nodes]);
+            for k in 0..nodes {
+                if s.n[k] == 0.0 {
+                    continue;
+                }
+                let v = s.var[k] / s.n[k];
+                let (mut tm, mut ti) = (0.0, 0.0);
+                if s.nb[k] >= 2.0 {
+                    let kb = s.nb[k];
+                    let m = s.b[k] / kb;
+                    let s2 = clip0((s.b2[k] - kb * m * m) / (kb - 1.0));
+                    // Only a truncation the pilot detects (beyond 3
+                    // standard errors) moves the choice of the means:
+                    // otherwise the estimator's noise, not the flow,
+                    // would pick the scheme.
+                    if m * m > 9.0 * s2 / kb {
+                        tm = m * m - s2 / kb;
+                    }
+                    ti = clip0(s.b2[k] / kb - s.vb[k] / kb);
+                }
+                em[k] = v / nr + tm;
+                ei[k] = v + ti;
+            }
+            mean_err.push(em);
+            inst_err.push(ei);
+        }
+        Choice {
+            mean: self.least(&mean_err),
+            inst: self.least(&inst_err),
+            pilot_frames: self.frames,
+        }
+    }
+
+    /// Per node, the candidate with the least error averaged over the
+    /// neighbourhood.
+    fn least(&self, err: &[Vec<f64>]) -> Array2<u8> {
+        let (ny, nx) = self.shape;
+        Array2::from_shape_fn(self.shape, |(j, i)| {
+            let mut best = (f64::INFINITY, u8::MAX);
+            for (c, e) in err.iter().enumerate() {
+                if !e[j * nx + i].is_finite() {
+                    continue;
+                }
+                let (mut sum, mut cnt) = (0.0, 0);
+                for jj in j.saturating_sub(REGION)..(j + REGION + 1).min(ny) {
+                    for ii in i.saturating_sub(REGION)..(i + REGION + 1).min(nx) {
+                        let x = e[jj * nx + ii];
+                        if x.is_finite() {
+                            sum += x;
+                            cnt += 1;
+                        }
+                    }
+                }
+                let m = sum / cnt as f64;
+                if m < best.0 {
+                    best = (m, c as u8);
+                }
+            }
+            best.1
+        })
+    }
+}
+
+/// The run's scheme maps (indices into the candidates; `u8::MAX` where no
+/// candidate had an estimate).
+#[derive(Debug, Clone, PartialEq)]
+pub struct Choice {
+    /// For everything the statistics see (means, deviations, phase bins).
+    pub mean: Array2<u8>,
+    /// For the instantaneous fields written per frame.
+    pub inst: Array2<u8>,
+    pub pilot_frames: usize,
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn pilot_frames_spread_over_the_run() {
+        assert_eq!(pilot_indices(0), Vec::<usize>::new());
+        assert_eq!(pilot_indices(1), vec![0]);
+        assert_eq!(pilot_indices(5), vec![0, 1, 2, 3, 4]);
+        let p = pilot_indices(1000);
+        assert_eq!(p.len(), PILOT_FRAMES);
+        assert_eq!((p[0], p[PILOT_FRAMES - 1]), (0, 999));
+        assert!(p.windows(2).all(|w| w[1] > w[0] && w[1] - w[0] >= 66));
+    }
+}
