@@ -39,7 +39,7 @@ use super::gradient::Grad;
 use super::quantities::{clip0, linear, Node};
 
 /// Frames the pilot uses at most.
-pub const PILOT_FRAMES: usize = 16;
+pub const PILOT_FRAMES: usize = 32;
 
 /// Half width of the neighbourhood over which errors are averaged.
 const REGION: usize = 2;
@@ -214,6 +214,6 @@ mod tests {
         let p = pilot_indices(1000);
         assert_eq!(p.len(), PILOT_FRAMES);
         assert_eq!((p[0], p[PILOT_FRAMES - 1]), (0, 999));
-        assert!(p.windows(2).all(|w| w[1] > w[0] && w[1] - w[0] >= 66));
+        assert!(p.windows(2).all(|w| w[1] > w[0] && w[1] - w[0] >= 32));
     }
 }

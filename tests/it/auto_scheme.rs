@@ -45,7 +45,7 @@ fn a_uniform_stream_takes_one_scheme_for_its_means() {
         .iter()
         .map(|k| count(&s, k))
         .sum();
-    // 48 x 36 nodes x 40 frames; measured: least squares 89 %, the rest
+    // 48 x 36 nodes x 40 frames; measured: least squares 95 %, the rest
     // circulation at the borders, never central or Richardson.
     assert_eq!(total, 48.0 * 36.0 * 40.0, "{s:?}");
     assert!(count(&s, "least-squares") / total > 0.85, "{s:?}");
