@@ -42,6 +42,7 @@ pub mod budget;
 pub mod compare;
 pub mod coverage;
 pub mod derive;
+pub mod describe;
 pub mod error;
 pub mod facade;
 pub mod field;

@@ -5,6 +5,7 @@ use std::path::PathBuf;
 
 use rayon::prelude::*;
 
+use curlew::describe::num;
 use curlew::io::{self, FrameSource};
 use curlew::plan::{Plan, RunPlan};
 use curlew::reduce;
@@ -77,8 +78,10 @@ fn check_run(plan: &Plan, r: &RunPlan) -> Result<()> {
         first.y(first.ny - 1) * 1e3
     );
     println!(
-        "  units         {:?}; x, y x {} m; u, v x {} m/s",
-        r.input.format, r.input.length_scale, r.input.velocity_scale
+        "  units         {} files; x, y in units of {} m; u, v in units of {} m/s",
+        r.input.format.name(),
+        num(r.input.length_scale, 6),
+        num(r.input.velocity_scale, 6)
     );
     println!("  orientation   {}", r.input.orientation.describe());
     if !r.mask.is_empty() {
@@ -96,13 +99,15 @@ fn check_run(plan: &Plan, r: &RunPlan) -> Result<()> {
         println!("  warning       {w}");
     }
     match r.px_velocity {
-        Some(p) => println!("  calibration   1 px of displacement = {:.6} m/s", p),
+        Some(p) => println!("  calibration   1 px of displacement = {} m/s", num(p, 6)),
         None => println!("  calibration   none (pixel size and pulse separation not given)"),
     }
-    println!("  validation    {:?}", r.validation);
-    println!("  fill          {:?}", r.fill);
-    println!("  derivatives   {:?}", r.derive);
-    println!("  statistics    {:?}", r.stats);
+    let mut last = "";
+    for (stage, text) in r.describe_stages() {
+        let label = if stage == last { "" } else { stage };
+        println!("  {label:<13} {text}");
+        last = stage;
+    }
     for line in curlew::budget::run::check_lines(r, with_phase > 0, with_time > 0) {
         println!("  {line}");
     }

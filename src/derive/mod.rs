@@ -53,6 +53,7 @@
 
 mod cache;
 pub mod choice;
+mod describe;
 pub mod gradient;
 pub mod noise;
 pub mod quantities;
@@ -75,22 +76,27 @@ use crate::stencil::Stencil;
 use crate::stencil::cut::cut;
 use gradient::{gradient, summed_area, Grad, Inputs};
 
-/// How the derivatives are taken.
-#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
+/// How the derivatives are taken. In the manifest a fixed scheme is its
+/// `DiffScheme` (`{"name": "least-squares", "window": 5, "order": 1}`) and
+/// auto is `{"name": "auto"}` (`describe`).
+#[derive(Debug, Clone, Copy, PartialEq)]
 pub enum Scheme {
     Fixed(DiffScheme),
     /// Per node, the candidate with the least estimated total error.
     Auto,
 }
 
-/// Where the per-vector random error comes from.
+/// Where the per-vector random error comes from. In the manifest as in
+/// the pipeline file: "estimate", "columns" or the level in m/s.
 #[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
+#[serde(rename_all = "lowercase")]
 pub enum VelocityNoise {
     /// Estimated from each frame (`noise::estimate`).
     Estimate,
     /// The input's sigma_u and sigma_v columns.
     Columns,
     /// A fixed level in m/s.
+    #[serde(untagged)]
     Value(f64),
 }
 
@@ -112,7 +118,6 @@ pub struct Params {
     /// the user gives a correlation (a user setting wins).
     pub correlation_from_data: bool,
     /// The smoother (resolved by the smoothing section).
-    #[serde(skip)]
     pub smoother: Smoother,
     /// The quantities to make besides omega (names from `quantities::ALL`).
     pub quantities: Vec<&'static str>,

@@ -67,6 +67,7 @@ use crate::stencil::lsq::PolyFit;
 
 /// How holes are filled.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
+#[serde(rename_all = "kebab-case")]
 pub enum Method {
     NeighbourMean,
     Inpaint,
@@ -92,6 +93,31 @@ impl Default for Params {
             max_distance: Some(3),
             min_neighbours: 2,
             inpaint_iterations: 30,
+        }
+    }
+}
+
+impl Params {
+    /// The filling in plain words, for `curlew check` and the report:
+    /// "neighbour mean (holes up to 3 nodes from a valid vector, at least 2
+    /// neighbours with values)".
+    pub fn describe(&self) -> String {
+        let reach = match self.max_distance {
+            Some(d) => format!(
+                "holes up to {d} node{} from a valid vector; farther ones stay empty",
+                if d == 1 { "" } else { "s" }
+            ),
+            None => "every hole connected to valid vectors".to_string(),
+        };
+        match self.method {
+            Method::NeighbourMean => format!(
+                "neighbour mean ({reach}; at least {} neighbours with values)",
+                self.min_neighbours
+            ),
+            Method::Inpaint => format!(
+                "penalized least-squares inpainting, {} iterations ({reach})",
+                self.inpaint_iterations
+            ),
         }
     }
 }

@@ -314,3 +314,25 @@ fn holes_beyond_the_distance_match_brute_force() {
         }
     }
 }
+
+#[test]
+fn the_fill_reads_in_plain_words() {
+    assert_eq!(
+        Params::default().describe(),
+        "neighbour mean (holes up to 3 nodes from a valid vector; farther ones stay empty; \
+         at least 2 neighbours with values)"
+    );
+    let p = Params {
+        method: Method::Inpaint,
+        max_distance: None,
+        inpaint_iterations: 60,
+        ..Params::default()
+    };
+    assert_eq!(
+        p.describe(),
+        "penalized least-squares inpainting, 60 iterations (every hole connected to valid vectors)"
+    );
+    let m = serde_json::to_value(&p).unwrap();
+    assert_eq!(m["method"], "inpaint");
+    assert!(m["max_distance"].is_null());
+}

@@ -39,6 +39,7 @@ pub use write::{
 
 /// The text formats and parquet.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
+#[serde(rename_all = "lowercase")]
 pub enum Format {
     Csv,
     Tsv,
@@ -47,6 +48,19 @@ pub enum Format {
     Parquet,
     /// NetCDF-3 (classic or 64-bit offset), one frame per file.
     NetCdf,
+}
+
+impl Format {
+    /// The name, as in the pipeline file (`[input] format`).
+    pub fn name(&self) -> &'static str {
+        match self {
+            Format::Csv => "csv",
+            Format::Tsv => "tsv",
+            Format::Text => "text",
+            Format::Parquet => "parquet",
+            Format::NetCdf => "netcdf",
+        }
+    }
 }
 
 /// Header names of the columns in the input files.

@@ -11,6 +11,7 @@
 pub mod bounds;
 pub mod budget;
 pub mod derivatives;
+mod describe;
 pub mod input;
 mod locate;
 pub mod modes;

@@ -128,13 +128,8 @@ pub fn finish_campaign(
             "grid": rr.grid,
             "orientation": rp.input.orientation.describe(),
             "timings_s": timings.iter().map(|(k, v)| (k.clone(), serde_json::json!(v))).collect::<serde_json::Map<_, _>>(),
-            "resolved": {
-                "input": format!("{:?}", rp.input),
-                "validation": format!("{:?}", rp.validation),
-                "fill": format!("{:?}", rp.fill),
-                "derive": format!("{:?}", rp.derive),
-                "stats": format!("{:?}", rp.stats),
-            },
+            "resolved": rp.resolved_json()?,
+            "resolved_in_words": rp.describe_json(),
             "warnings": rr.warnings,
             "derivative_schemes": r.scheme_counts.iter().map(|(k, v)| (k.clone(), serde_json::json!(v))).collect::<serde_json::Map<_, _>>(),
             "peak_locking": r.peak_lock.as_ref().map(|p| serde_json::json!({

@@ -107,6 +107,49 @@ impl Default for Params {
 }
 
 impl Params {
+    /// The statistics settings in plain words, for `curlew check` and the
+    /// report: "coverage 95 %, autocorrelation up to lag 50 frames, 12 phase
+    /// bins (each the whole 30°), …".
+    pub fn describe(&self) -> String {
+        use crate::describe::{num, percent};
+        let bin = 360.0 / self.phase_bins.max(1) as f64;
+        let width = match self.phase_width_deg {
+            Some(w) => format!("windows {}° wide", num(w, 3)),
+            None => format!("each the whole {}°", num(bin, 3)),
+        };
+        let mut parts = vec![
+            format!("coverage {}", percent(self.coverage)),
+            format!("autocorrelation up to lag {} frames", self.max_lag),
+            format!(
+                "{} phase bins when frames have phases ({width})",
+                self.phase_bins
+            ),
+        ];
+        if self.calibration_unc > 0.0 || self.pulse_separation_unc > 0.0 {
+            parts.push(format!(
+                "systematic: calibration {}, pulse separation {}",
+                percent(self.calibration_unc),
+                percent(self.pulse_separation_unc)
+            ));
+        }
+        parts.push(
+            if self.include_filled {
+                "replaced and filled vectors count as samples"
+            } else {
+                "only valid vectors are samples"
+            }
+            .into(),
+        );
+        if !self.probes.is_empty() {
+            parts.push(format!(
+                "{} probe(s), convergence judged over the last {} of the frames",
+                self.probes.len(),
+                percent(self.convergence_tail)
+            ));
+        }
+        parts.join(", ")
+    }
+
     /// Names of the fields in which `self` and `other` differ.
     fn differences(&self, other: &Params) -> Vec<String> {
         let (a, b) = (serde_json::to_value(self), serde_json::to_value(other));

@@ -22,8 +22,10 @@ use ndarray::Array2;
 
 use super::Stencil;
 
-/// The error-correlation model between vectors of one component.
-#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
+/// The error-correlation model between vectors of one component. In the
+/// manifest: `{"model": "independent"}`, `{"model": "window", "overlap":
+/// 0.5}` or `{"model": "adjacent", "coefficient": 0.3}`.
+#[derive(Debug, Clone, Copy, PartialEq)]
 pub enum Correlation {
     /// Independent errors.
     Independent,
@@ -34,7 +36,42 @@ pub enum Correlation {
     Adjacent(f64),
 }
 
+impl serde::Serialize for Correlation {
+    fn serialize<S: serde::Serializer>(&self, s: S) -> Result<S::Ok, S::Error> {
+        use serde::ser::SerializeMap;
+        let mut m = s.serialize_map(None)?;
+        match *self {
+            Correlation::Independent => m.serialize_entry("model", "independent")?,
+            Correlation::Window(c) => {
+                m.serialize_entry("model", "window")?;
+                m.serialize_entry("overlap", &c)?;
+            }
+            Correlation::Adjacent(c) => {
+                m.serialize_entry("model", "adjacent")?;
+                m.serialize_entry("coefficient", &c)?;
+            }
+        }
+        m.end()
+    }
+}
+
 impl Correlation {
+    /// The model in plain words, for `curlew check` and the report.
+    pub fn describe(&self) -> String {
+        use crate::describe::{num, percent};
+        match *self {
+            Correlation::Independent => "errors independent between vectors".into(),
+            Correlation::Window(c) => format!(
+                "errors correlated as interrogation windows overlapping by {}",
+                percent(c)
+            ),
+            Correlation::Adjacent(c) => format!(
+                "errors of adjacent vectors correlated with coefficient {}",
+                num(c, 3)
+            ),
+        }
+    }
+
     /// The correlation coefficient of two vectors `(dj, di)` grid steps apart.
     #[inline]
     pub fn rho(&self, dj: i32, di: i32) -> f64 {

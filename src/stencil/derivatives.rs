@@ -36,8 +36,10 @@
 use super::lsq::savgol_derivative;
 use super::{Stencil, Tap};
 
-/// A fixed differentiation scheme.
+/// A fixed differentiation scheme (in the manifest: `{"name": "central"}`,
+/// `{"name": "least-squares", "window": 5, "order": 1}`, …).
 #[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
+#[serde(tag = "name", rename_all = "kebab-case")]
 pub enum DiffScheme {
     Central,
     Richardson,
@@ -58,6 +60,19 @@ impl DiffScheme {
             DiffScheme::Richardson => "richardson",
             DiffScheme::LeastSquares { .. } => "least-squares",
             DiffScheme::Circulation => "circulation",
+        }
+    }
+
+    /// The scheme in plain words: "central differences", "least squares,
+    /// window 5, order 1", …
+    pub fn describe(&self) -> String {
+        match self {
+            DiffScheme::Central => "central differences".into(),
+            DiffScheme::Richardson => "fourth-order central differences (Richardson)".into(),
+            DiffScheme::LeastSquares { window, order } => {
+                format!("least squares, window {window}, order {order}")
+            }
+            DiffScheme::Circulation => "circulation around the 3 x 3 box".into(),
         }
     }
 }

@@ -40,7 +40,60 @@ pub enum Smoother {
     Pls { s: Option<f64>, robust: bool },
 }
 
+/// In the manifest: `{"method": "none"}`; a linear stencil by its extent
+/// and noise factor (`{"method": "stencil", "half_width_x", "half_width_y",
+/// "taps", "noise_factor"}`; the pipeline as read names the kernel); PLS as
+/// `{"method": "pls", "s": null (chosen by GCV) or s, "robust"}`.
+impl serde::Serialize for Smoother {
+    fn serialize<S: serde::Serializer>(&self, ser: S) -> Result<S::Ok, S::Error> {
+        use serde::ser::SerializeMap;
+        let mut m = ser.serialize_map(None)?;
+        match self {
+            Smoother::None => m.serialize_entry("method", "none")?,
+            Smoother::Linear(st) => {
+                let (rj, ri) = st.reach();
+                m.serialize_entry("method", "stencil")?;
+                m.serialize_entry("half_width_x", &ri)?;
+                m.serialize_entry("half_width_y", &rj)?;
+                m.serialize_entry("taps", &st.taps.len())?;
+                m.serialize_entry("noise_factor", &st.noise_factor())?;
+            }
+            Smoother::Pls { s, robust } => {
+                m.serialize_entry("method", "pls")?;
+                m.serialize_entry("s", s)?;
+                m.serialize_entry("robust", robust)?;
+            }
+        }
+        m.end()
+    }
+}
+
 impl Smoother {
+    /// The smoother in plain words, for `curlew check` and the report.
+    pub fn describe(&self) -> String {
+        use crate::describe::num;
+        match self {
+            Smoother::None => "none".into(),
+            Smoother::Linear(st) => {
+                let (rj, ri) = st.reach();
+                format!(
+                    "linear stencil over {} x {} nodes (noise factor {})",
+                    2 * ri + 1,
+                    2 * rj + 1,
+                    num(st.noise_factor(), 3)
+                )
+            }
+            Smoother::Pls { s, robust } => {
+                let s = match s {
+                    Some(s) => format!("s = {}", num(*s, 3)),
+                    None => "s chosen per frame by generalized cross-validation".into(),
+                };
+                let r = if *robust { ", robust weights" } else { "" };
+                format!("penalized least squares, {s}{r}")
+            }
+        }
+    }
+
     /// The smoothed copy of `a`; `valid` marks nodes that carry a value.
     pub fn apply(&self, a: &Array2<f64>, valid: &Array2<bool>) -> Array2<f64> {
         self.apply_with_s(a, valid).0

@@ -22,13 +22,16 @@ use super::EnsembleRef;
 
 /// The shape of the accepted region.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
+#[serde(rename_all = "lowercase")]
 pub enum Shape {
     Box,
     Ellipse,
 }
 
-/// Where the limits come from.
+/// Where the limits come from (in the manifest: `{"from": "given", "u":
+/// [lo, hi], "v": [lo, hi]}` or `{"from": "robust", "spread", "floor"}`).
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
+#[serde(tag = "from", rename_all = "lowercase")]
 pub enum Bounds {
     /// `[lo, hi]` for u and for v, in m/s.
     Given { u: [f64; 2], v: [f64; 2] },

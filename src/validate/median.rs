@@ -44,6 +44,7 @@ use crate::field::{Field, REPLACED, VALID};
 
 /// How the u and v residuals combine into one decision.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
+#[serde(rename_all = "lowercase")]
 pub enum Combine {
     /// Reject when either component's normalized residual exceeds the threshold.
     Either,

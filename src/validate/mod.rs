@@ -28,6 +28,7 @@
 //! A whole frame is rejected (`frame_rejected`) when the fraction of its
 //! nodes that are invalid input or outliers exceeds `max_rejected_fraction`.
 
+mod describe;
 pub mod ensemble;
 pub mod limits;
 pub mod median;

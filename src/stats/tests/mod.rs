@@ -482,3 +482,30 @@ fn throughput_probe() {
         assert!(s.ensemble.columns.len() > 40);
     }
 }
+
+#[test]
+fn the_statistics_settings_read_in_plain_words() {
+    assert_eq!(
+        Params::default().describe(),
+        "coverage 95 %, autocorrelation up to lag 50 frames, 12 phase bins when frames have \
+         phases (each the whole 30°), only valid vectors are samples"
+    );
+    let p = Params {
+        phase_bins: 8,
+        phase_width_deg: Some(20.0),
+        probes: vec![(0.01, 0.02)],
+        calibration_unc: 0.005,
+        pulse_separation_unc: 0.001,
+        include_filled: true,
+        ..Params::default()
+    };
+    let s = p.describe();
+    for piece in [
+        "8 phase bins when frames have phases (windows 20° wide)",
+        "systematic: calibration 0.5 %, pulse separation 0.1 %",
+        "replaced and filled vectors count as samples",
+        "1 probe(s), convergence judged over the last 20 % of the frames",
+    ] {
+        assert!(s.contains(piece), "{piece:?} not in {s:?}");
+    }
+}
