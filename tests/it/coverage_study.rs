@@ -159,8 +159,8 @@ fn coverage_table() {
         };
         let md = format!(
             "# Coverage study: the table\n\n\
-             Made by `cargo test --test it -- --ignored coverage_table` ({done}, {secs:.0} s in \
-             the dev profile). What the columns mean and the reasons for the misses: \
+             Made by `cargo test --release --test it -- --ignored coverage_table` ({done}, {secs:.0} s)\
+             . What the columns mean and the reasons for the misses: \
              [uncertainty.md](uncertainty.md). Every region of every column: \
              [uncertainty-table.csv](uncertainty-table.csv).\n\n{}\n\n{}",
             study::summary(&rows),
