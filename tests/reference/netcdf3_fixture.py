@@ -6,12 +6,15 @@ and netcdf3_fixture.json with the values as scipy reads them back (as
 shortest round-trip strings, so a JSON parser cannot round them)."""
 import json
 import os
+import sys
 
 import numpy as np
 import scipy
 from scipy.io import netcdf_file
 
-here = os.path.dirname(os.path.abspath(__file__))
+# The folder given (.ci/check-references passes a temporary one), else
+# beside this script.
+here = sys.argv[1] if len(sys.argv) > 1 else os.path.dirname(os.path.abspath(__file__))
 ny, nx, nt = 3, 4, 2
 u = (np.arange(nt * ny * nx, dtype=np.float64).reshape(nt, ny, nx) * 0.125 - 1.0)
 v = np.sin(np.arange(nt * ny * nx, dtype=np.float64)).reshape(nt, ny, nx)

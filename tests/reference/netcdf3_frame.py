@@ -7,12 +7,15 @@ repr). One vector is NaN (invalid). Writes netcdf3_frame.json with the
 library and version."""
 import json
 import os
+import sys
 
 import numpy as np
 import scipy
 from scipy.io import netcdf_file
 
-here = os.path.dirname(os.path.abspath(__file__))
+# The folder given (.ci/check-references passes a temporary one), else
+# beside this script.
+here = sys.argv[1] if len(sys.argv) > 1 else os.path.dirname(os.path.abspath(__file__))
 nx, ny = 5, 4
 x = 1.0 + 0.5 * np.arange(nx)          # mm
 y = -2.0 + 0.5 * np.arange(ny)

@@ -16,6 +16,7 @@ energies are s**2 / (N - 1); each mode's sign is fixed so that its entry of
 largest magnitude is positive (curlew's convention).
 """
 import json
+import os
 import sys
 
 import numpy as np
@@ -84,6 +85,9 @@ out = {
     "exact": case(24, 10),
     "wide": case(160, 10),
 }
-path = __file__.rsplit(".", 1)[0] + ".json"
+# Into the folder given (.ci/check-references passes a temporary one), else
+# beside this script.
+path = (os.path.join(sys.argv[1], "pod.json") if len(sys.argv) > 1
+        else __file__.rsplit(".", 1)[0] + ".json")
 with open(path, "w") as fh:
     json.dump(out, fh, indent=1, sort_keys=True)

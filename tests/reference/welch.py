@@ -5,6 +5,7 @@ plus a scatter from the fractional part of a scaled sine (a common hash).
 The series is written into the JSON too, so the test uses exactly it.
 """
 import json
+import os
 import sys
 
 import numpy as np
@@ -30,6 +31,9 @@ out = {
     "x": x.tolist(),
     "cases": cases,
 }
-path = __file__.rsplit(".", 1)[0] + ".json"
+# Into the folder given (.ci/check-references passes a temporary one), else
+# beside this script.
+path = (os.path.join(sys.argv[1], "welch.json") if len(sys.argv) > 1
+        else __file__.rsplit(".", 1)[0] + ".json")
 with open(path, "w") as fh:
     json.dump(out, fh, indent=1, sort_keys=True)
