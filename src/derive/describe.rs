@@ -31,12 +31,12 @@ impl Params {
         let scheme = match self.scheme {
             Scheme::Fixed(d) => d.describe(),
             Scheme::Auto => format!(
-                "auto: per node the least estimated error of {}, chosen once from a pilot of up to {} frames (one map for the means, one for the per-frame fields)",
+                "auto: per node the candidate with the least estimated error among [{}], chosen once from a pilot of up to {} frames (one map for the means, one for the per-frame fields)",
                 self.candidates
                     .iter()
                     .map(DiffScheme::describe)
                     .collect::<Vec<_>>()
-                    .join(", "),
+                    .join(" | "),
                 super::choice::PILOT_FRAMES
             ),
         };
@@ -115,8 +115,8 @@ mod tests {
         };
         assert_eq!(
             p.describe(),
-            "auto: per node the least estimated error of central differences, \
-             fourth-order central differences (Richardson), chosen once from a pilot of up to \
+            "auto: per node the candidate with the least estimated error among [central differences | \
+             fourth-order central differences (Richardson)], chosen once from a pilot of up to \
              32 frames (one map for the means, one for the per-frame fields); \
              noise 0.002 m/s per component; \
              errors correlated as interrogation windows overlapping by 50 %; truncation not estimated"
