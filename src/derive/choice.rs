@@ -158,6 +158,7 @@ impl Pilot {
             mean: self.least(&mean_err),
             inst: self.least(&inst_err),
             pilot_frames: self.frames,
+            fields: true,
         }
     }
 
@@ -200,6 +201,9 @@ pub struct Choice {
     /// For the instantaneous fields written per frame.
     pub inst: Array2<u8>,
     pub pilot_frames: usize,
+    /// Whether per-frame fields are written: only then is the
+    /// instantaneous map applied (`derive_with`), and counted.
+    pub fields: bool,
 }
 
 #[cfg(test)]

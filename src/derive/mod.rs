@@ -222,7 +222,7 @@ pub struct Derived {
     /// The instantaneous vorticity and its uncertainty from the run's
     /// instantaneous scheme map, with that map's counts per scheme (in the
     /// order of `scheme_names`), when it differs from the statistics' map
-    /// (`choice`); the per-frame fields show these.
+    /// and the run writes per-frame fields (`choice`), which show these.
     pub inst_omega: Option<([Array2<f64>; 2], Vec<usize>)>,
 }
 
@@ -463,7 +463,7 @@ pub fn derive_with(
         }
         c
     };
-    let inst_omega = choice.filter(|c| c.inst != c.mean).map(|c| {
+    let inst_omega = choice.filter(|c| c.fields && c.inst != c.mean).map(|c| {
         let (om, map) = omega_from_map(&grads, &ok, &c.inst);
         (om, counts(&map))
     });

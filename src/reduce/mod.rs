@@ -404,7 +404,12 @@ pub fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
     // Pass 1b (only with scheme = "auto"): the scheme maps from a pilot of
     // frames spread over the whole run, whatever the shard (`derive::choice`).
     let tp = Instant::now();
-    let choice = scheme_choice(run, &frames, &on_grid, ens.as_ref())?;
+    // The instantaneous map only matters (and costs a pass over the nodes
+    // per frame) when the per-frame fields are written.
+    let choice = scheme_choice(run, &frames, &on_grid, ens.as_ref())?.map(|mut c| {
+        c.fields = opts.frame_fields_dir.is_some();
+        c
+    });
     if choice.is_some() {
         timings.push(("scheme_pilot".to_string(), tp.elapsed().as_secs_f64()));
     }
