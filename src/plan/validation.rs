@@ -11,7 +11,7 @@ use serde::{Deserialize, Serialize};
 
 use super::ResolveCtx;
 use crate::error::{Error, Result};
-use crate::stencil::smooth::{self, Smoother};
+use crate::stencil::smooth::Smoother;
 use crate::validate::{Bounds, Combine, EnsembleParams, Limits, MedianParams, Shape};
 use crate::{fill, validate};
 
@@ -373,10 +373,7 @@ pub fn resolve_smoothing(raw: &RawSmoothing, _ctx: &ResolveCtx) -> Result<Smooth
         )));
     }
     Ok(match method {
-        "gaussian" => Smoother::Linear(smooth::gaussian(positive(
-            "[smoothing] sigma",
-            raw.sigma.unwrap_or(1.0),
-        )?)),
+        "gaussian" => Smoother::gaussian(positive("[smoothing] sigma", raw.sigma.unwrap_or(1.0))?),
         "savitzky-golay" => {
             let m = raw.half_width.unwrap_or(2);
             let o = raw.order.unwrap_or(2);
@@ -385,7 +382,7 @@ pub fn resolve_smoothing(raw: &RawSmoothing, _ctx: &ResolveCtx) -> Result<Smooth
                     "[smoothing] half_width = {m}, order = {o}: expected half_width 1 to 10 and order at most 2 half_width"
                 )));
             }
-            Smoother::Linear(smooth::savitzky_golay(m, o))
+            Smoother::savitzky_golay(m, o)
         }
         "pls" => Smoother::Pls {
             s: raw.s.map(|s| positive("[smoothing] s", s)).transpose()?,

@@ -237,8 +237,8 @@ mod tests {
         let n = Normal::new(0.0, 0.02).unwrap();
         let mut r = rng(5);
         for sm in [
-            Smoother::Linear(savitzky_golay(2, 2)),
-            Smoother::Linear(gaussian(1.0)),
+            Smoother::savitzky_golay(2, 2),
+            Smoother::gaussian(1.0),
             Smoother::Pls {
                 s: Some(2.0),
                 robust: false,

@@ -32,17 +32,45 @@ pub enum Smoother {
     /// No smoothing (the default).
     #[default]
     None,
-    /// A linear, normalised smoothing stencil (Gaussian, Savitzky-Golay).
-    Linear(Stencil),
+    /// A linear, normalised smoothing stencil (Gaussian, Savitzky-Golay)
+    /// and the kernel it was built from (for the record).
+    Linear(Stencil, Kernel),
     /// DCT penalized least squares (Garcia 2010): `s` fixed, or chosen by
     /// GCV per frame and component when `None`; `robust` adds bisquare
     /// weights against outliers.
     Pls { s: Option<f64>, robust: bool },
 }
 
-/// In the manifest: `{"method": "none"}`; a linear stencil by its extent
-/// and noise factor (`{"method": "stencil", "half_width_x", "half_width_y",
-/// "taps", "noise_factor"}`; the pipeline as read names the kernel); PLS as
+/// The kernel a linear smoother was built from.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Kernel {
+    /// Gaussian of standard deviation `sigma`, in grid pitches.
+    Gaussian { sigma: f64 },
+    /// 2-D Savitzky-Golay: a polynomial of total degree `order` fitted over
+    /// (2 `half_width` + 1)² nodes.
+    SavitzkyGolay { half_width: usize, order: usize },
+    /// Any other linear stencil (built in code, not from a pipeline).
+    Custom,
+}
+
+impl Smoother {
+    /// A Gaussian smoother of `sigma` grid pitches (`gaussian`).
+    pub fn gaussian(sigma: f64) -> Smoother {
+        Smoother::Linear(gaussian(sigma), Kernel::Gaussian { sigma })
+    }
+    /// A 2-D Savitzky-Golay smoother (`savitzky_golay`).
+    pub fn savitzky_golay(half_width: usize, order: usize) -> Smoother {
+        Smoother::Linear(
+            savitzky_golay(half_width, order),
+            Kernel::SavitzkyGolay { half_width, order },
+        )
+    }
+}
+
+/// In the manifest: `{"method": "none"}`; a linear stencil by its kernel
+/// (`"gaussian"` with `sigma`, `"savitzky-golay"` with `half_width` and
+/// `order`, or `"stencil"`), extent and noise factor (`"half_width_x",
+/// "half_width_y", "taps", "noise_factor"`); PLS as
 /// `{"method": "pls", "s": null (chosen by GCV) or s, "robust"}`.
 impl serde::Serialize for Smoother {
     fn serialize<S: serde::Serializer>(&self, ser: S) -> Result<S::Ok, S::Error> {
@@ -50,9 +78,20 @@ impl serde::Serialize for Smoother {
         let mut m = ser.serialize_map(None)?;
         match self {
             Smoother::None => m.serialize_entry("method", "none")?,
-            Smoother::Linear(st) => {
+            Smoother::Linear(st, kernel) => {
                 let (rj, ri) = st.reach();
-                m.serialize_entry("method", "stencil")?;
+                match *kernel {
+                    Kernel::Gaussian { sigma } => {
+                        m.serialize_entry("method", "gaussian")?;
+                        m.serialize_entry("sigma", &sigma)?;
+                    }
+                    Kernel::SavitzkyGolay { half_width, order } => {
+                        m.serialize_entry("method", "savitzky-golay")?;
+                        m.serialize_entry("half_width", &half_width)?;
+                        m.serialize_entry("order", &order)?;
+                    }
+                    Kernel::Custom => m.serialize_entry("method", "stencil")?,
+                }
                 m.serialize_entry("half_width_x", &ri)?;
                 m.serialize_entry("half_width_y", &rj)?;
                 m.serialize_entry("taps", &st.taps.len())?;
@@ -74,10 +113,19 @@ impl Smoother {
         use crate::describe::num;
         match self {
             Smoother::None => "none".into(),
-            Smoother::Linear(st) => {
+            Smoother::Linear(st, kernel) => {
                 let (rj, ri) = st.reach();
+                let name = match *kernel {
+                    Kernel::Gaussian { sigma } => {
+                        format!("Gaussian, sigma {} pitches, ", num(sigma, 3))
+                    }
+                    Kernel::SavitzkyGolay { half_width, order } => {
+                        format!("Savitzky-Golay of degree {order}, half width {half_width}, ")
+                    }
+                    Kernel::Custom => String::new(),
+                };
                 format!(
-                    "linear stencil over {} x {} nodes (noise factor {})",
+                    "{name}linear stencil over {} x {} nodes (noise factor {})",
                     2 * ri + 1,
                     2 * rj + 1,
                     num(st.noise_factor(), 3)
@@ -110,7 +158,7 @@ impl Smoother {
         let ok = |ix: (usize, usize)| valid[ix] && a[ix].is_finite();
         match self {
             Smoother::None => (a.clone(), None),
-            Smoother::Linear(st) => (apply_linear(st, a, valid), None),
+            Smoother::Linear(st, _) => (apply_linear(st, a, valid), None),
             Smoother::Pls { s, robust } => {
                 let (ny, nx) = a.dim();
                 let known: Vec<bool> = (0..ny * nx).map(|k| ok((k / nx, k % nx))).collect();
@@ -138,7 +186,7 @@ impl Smoother {
     /// How this smoother continues where its stencil is cut (`cut`).
     pub fn cut_rule(&self) -> Cut {
         match self {
-            Smoother::Linear(st) if st.taps.iter().any(|t| t.w < 0.0) => Cut::Refit {
+            Smoother::Linear(st, _) if st.taps.iter().any(|t| t.w < 0.0) => Cut::Refit {
                 degree: reproduced_degree(st),
             },
             Smoother::Pls { .. } => Cut::Reflect,
@@ -185,7 +233,7 @@ impl Smoother {
     pub fn equivalent_stencil(&self) -> Option<Stencil> {
         match self {
             Smoother::None => None,
-            Smoother::Linear(s) => Some(s.clone()),
+            Smoother::Linear(s, _) => Some(s.clone()),
             Smoother::Pls { s: Some(s), .. } => Some(pls_kernel(*s)),
             Smoother::Pls { s: None, .. } => None,
         }
@@ -200,7 +248,7 @@ pub fn quantise_s(s: f64) -> f64 {
 /// Applies a linear stencil, cut by `cut` where it does not fit.
 fn apply_linear(st: &Stencil, a: &Array2<f64>, valid: &Array2<bool>) -> Array2<f64> {
     let ok = Array2::from_shape_fn(a.dim(), |ix| valid[ix] && a[ix].is_finite());
-    let rule = Smoother::Linear(st.clone()).cut_rule();
+    let rule = Smoother::Linear(st.clone(), Kernel::Custom).cut_rule();
     Array2::from_shape_fn(a.dim(), |(j, i)| {
         if !ok[[j, i]] {
             f64::NAN

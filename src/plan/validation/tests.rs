@@ -165,11 +165,11 @@ fn fill_and_smoothing_sections() {
     assert_eq!(s("").unwrap(), Smoother::None);
     assert_eq!(
         s("method = \"gaussian\"\nsigma = 1.5").unwrap(),
-        Smoother::Linear(smooth::gaussian(1.5))
+        Smoother::gaussian(1.5)
     );
     assert_eq!(
         s("method = \"savitzky-golay\"\nhalf_width = 3\norder = 3").unwrap(),
-        Smoother::Linear(smooth::savitzky_golay(3, 3))
+        Smoother::savitzky_golay(3, 3)
     );
     assert_eq!(
         s("method = \"pls\"").unwrap(),

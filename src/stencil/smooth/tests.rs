@@ -16,9 +16,9 @@ fn smoothing_a_constant_changes_nothing_with_edges_and_gaps() {
         valid[(k / nx, k % nx)] = false;
     }
     let smoothers = [
-        Smoother::Linear(gaussian(1.5)),
-        Smoother::Linear(savitzky_golay(2, 2)),
-        Smoother::Linear(savitzky_golay(3, 4)),
+        Smoother::gaussian(1.5),
+        Smoother::savitzky_golay(2, 2),
+        Smoother::savitzky_golay(3, 4),
         Smoother::Pls {
             s: Some(20.0),
             robust: false,
@@ -56,7 +56,7 @@ fn gaussian_matches_scipy_gaussian_filter_at_interior_nodes() {
         let st = gaussian(sigma);
         let r = (4.0 * sigma + 0.5) as usize;
         assert_eq!(st.reach(), (r, r));
-        let z = Smoother::Linear(st).apply(&a, &Array2::from_elem((ny, nx), true));
+        let z = Smoother::Linear(st, Kernel::Custom).apply(&a, &Array2::from_elem((ny, nx), true));
         for j in r..ny - r {
             for i in r..nx - r {
                 assert_close(
@@ -174,10 +174,10 @@ fn gaussian_at_edges_is_renormalised_and_sg_refits() {
     // its quadratic on the nodes inside (stencil::cut), which keeps a ramp
     let a = Array2::from_shape_fn((9, 9), |(_, i)| i as f64);
     let valid = Array2::from_elem((9, 9), true);
-    let g = Smoother::Linear(gaussian(1.0)).apply(&a, &valid);
+    let g = Smoother::gaussian(1.0).apply(&a, &valid);
     assert!(g[(4, 0)] > 0.0 && g[(4, 0)] < 1.0, "{}", g[(4, 0)]);
     assert_close(g[(4, 4)], 4.0, 1e-12, 0.0, "interior of a ramp");
-    let sg = Smoother::Linear(savitzky_golay(2, 2)).apply(&a, &valid);
+    let sg = Smoother::savitzky_golay(2, 2).apply(&a, &valid);
     assert_close(sg[(4, 0)], 0.0, 1e-12, 0.0, "edge of a ramp");
     assert_close(sg[(0, 0)], 0.0, 1e-12, 0.0, "corner of a ramp");
     assert_close(sg[(4, 4)], 4.0, 1e-12, 0.0, "interior of a ramp");
