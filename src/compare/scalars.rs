@@ -43,24 +43,7 @@ pub struct Scalar {
     pub unit: String,
 }
 
-/// The node of largest |ω̄| among the well-determined nodes (module doc),
-/// and its value.
-pub fn peak_node(t: &NodeTable) -> Option<(usize, f64)> {
-    let w = t.get("omega_mean")?;
-    let lim = t
-        .get("omega_mean_unc")
-        .map(|u| 3.0 * crate::robust::median_of(u.iter().copied()))
-        .filter(|m| m.is_finite());
-    let ok = |k: usize| match (lim, t.get("omega_mean_unc")) {
-        (Some(l), Some(u)) => u[k].is_finite() && u[k] <= l,
-        _ => true,
-    };
-    w.iter()
-        .enumerate()
-        .filter(|(k, x)| x.is_finite() && ok(*k))
-        .max_by(|a, b| a.1.abs().total_cmp(&b.1.abs()))
-        .map(|(k, x)| (k, *x))
-}
+pub use crate::stats::finish::peak_node;
 
 /// The strongest vortex: (circulation, its uncertainty, area in m², nodes).
 pub fn strongest_vortex(t: &NodeTable, threshold: f64) -> Option<(f64, f64, f64, usize)> {

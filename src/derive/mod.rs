@@ -57,6 +57,7 @@ mod describe;
 pub mod gradient;
 pub mod noise;
 pub mod quantities;
+pub mod smoothing_bias;
 
 #[cfg(test)]
 pub mod flows;
@@ -224,6 +225,11 @@ pub struct Derived {
     /// order of `scheme_names`), when it differs from the statistics' map
     /// and the run writes per-frame fields (`choice`), which show these.
     pub inst_omega: Option<([Array2<f64>; 2], Vec<usize>)>,
+    /// With a smoother and `truncation` on: the signed smoothing-bias
+    /// estimates of u and v with their noise variances, `[b_u, var(b_u),
+    /// b_v, var(b_v)]` (`smoothing_bias`); the statistics carry them into
+    /// `u_mean_unc` and `v_mean_unc` as the truncation of a derivative.
+    pub vel_trunc: Option<[Array2<f64>; 4]>,
 }
 
 impl Derived {
@@ -402,6 +408,17 @@ pub fn derive_with(
     let (us, vs) = match &smoothed {
         Some([a, b, _, _]) => (a, b),
         None => (&u, &v),
+    };
+    let vel_trunc = match (&smoother, p.truncation) {
+        (Some(s), true) => Some(smoothing_bias::estimate(
+            &frame_smoother,
+            s,
+            &ok,
+            [us, vs],
+            [&sig_u, &sig_v],
+            &corr,
+        )),
+        _ => None,
     };
 
     let not_plain = summed_area(
@@ -589,6 +606,7 @@ pub fn derive_with(
         fallback_nodes,
         sigma_fallback_nodes,
         inst_omega,
+        vel_trunc,
     }
 }
 

@@ -612,10 +612,13 @@ fn scheme_choice(
     Ok(Some(pilot.finish(frames.len())))
 }
 
-/// The mean of the per-frame noise estimates, when the frames carry one.
+/// The mean of the per-frame noise estimates over the frames the statistics
+/// used (a rejected frame, a bad laser shot, would inflate it), when the
+/// frames carry one.
 pub fn mean_noise(frames: &[FrameRecord]) -> Option<f64> {
     let v: Vec<f64> = frames
         .iter()
+        .filter(|f| !f.rejected)
         .filter_map(|f| f.noise)
         .filter(|x| x.is_finite())
         .collect();

@@ -104,11 +104,6 @@ struct Totals {
 
 fn totals(r: &RunResult) -> Totals {
     let f = &r.frames;
-    let noise: Vec<f64> = f
-        .iter()
-        .filter_map(|x| x.noise)
-        .filter(|x| x.is_finite())
-        .collect();
     Totals {
         frames: f.len(),
         rejected: f.iter().filter(|x| x.rejected).count(),
@@ -118,16 +113,12 @@ fn totals(r: &RunResult) -> Totals {
         replaced: f.iter().map(|x| x.fill.replaced).sum(),
         filled: f.iter().map(|x| x.fill.filled).sum(),
         unfilled: f.iter().map(|x| x.fill.unfilled).sum(),
-        noise: if noise.is_empty() {
-            f64::NAN
-        } else {
-            noise.iter().sum::<f64>() / noise.len() as f64
-        },
+        noise: crate::reduce::mean_noise(f).unwrap_or(f64::NAN),
     }
 }
 
 fn peak_vorticity(r: &RunResult) -> f64 {
-    crate::compare::scalars::peak_node(&r.stats.ensemble).map_or(f64::NAN, |(_, w)| w)
+    crate::stats::finish::peak_node(&r.stats.ensemble).map_or(f64::NAN, |(_, w)| w)
 }
 
 fn summary(out: &mut String, c: &CampaignResult) {

@@ -3,8 +3,8 @@
 //! campaign.csv, convergence at the probes (`probes`) and the warnings.
 //!
 //! Summary scalars (name, SI value): `omega_mean_peak` (signed omega_mean
-//! of largest magnitude over the nodes with at least half the best node's
-//! samples) with `_unc`, `_x`, `_y`; `u_mean_unc_median`,
+//! of largest magnitude over the well-determined nodes, `peak_node`) with
+//! `_unc`, `_x`, `_y`; `u_mean_unc_median`,
 //! `omega_mean_unc_median`; for time-resolved runs, and for runs without
 //! any frame times (frames taken as evenly spaced), `n_eff_mean` (mean over
 //! nodes of (u_n_eff + v_n_eff)/2), `n_eff_ratio` (its mean ratio to the
@@ -19,6 +19,7 @@ use super::probes::{self, ProbeInput};
 use super::strata::{strata, Strata};
 use super::table::{coverage_suffix, independent, node_table, scale_exponents, Ctx};
 use super::{Params, PhaseBin, RunAccumulator, RunStats};
+use crate::field::NodeTable;
 
 /// Fewest frames for which N_eff is estimated over the frame index of a
 /// run without frame times (shorter records keep N_eff = N: a handful of
@@ -249,10 +250,7 @@ pub(super) fn finish(acc: &RunAccumulator, p: &Params) -> RunStats {
     // Summary scalars.
     let col = |n: &str| ensemble.get(n).expect("column");
     let (om, omu) = (col("omega_mean"), col("omega_mean_unc"));
-    if let Some(k) = (0..nodes)
-        .filter(|&k| om[k].is_finite())
-        .max_by(|&a, &b| om[a].abs().total_cmp(&om[b].abs()))
-    {
+    if let Some((k, _)) = peak_node(&ensemble) {
         summary.push(("omega_mean_peak".into(), om[k]));
         summary.push(("omega_mean_peak_unc".into(), omu[k]));
         summary.push(("omega_mean_peak_x".into(), grid.x(k % grid.nx)));
@@ -325,4 +323,26 @@ pub(super) fn finish(acc: &RunAccumulator, p: &Params) -> RunStats {
         summary,
         warnings,
     }
+}
+
+/// The node of largest |ω̄| among the well-determined nodes, and its value:
+/// u(ω̄) at most 3 × its median over the field, which keeps a poorly sampled
+/// edge or corner node from posing as the peak (without an uncertainty
+/// column, every finite node). The one peak rule of campaign.csv, the
+/// report and the comparison scalars.
+pub fn peak_node(t: &NodeTable) -> Option<(usize, f64)> {
+    let w = t.get("omega_mean")?;
+    let lim = t
+        .get("omega_mean_unc")
+        .map(|u| 3.0 * crate::robust::median_of(u.iter().copied()))
+        .filter(|m| m.is_finite());
+    let ok = |k: usize| match (lim, t.get("omega_mean_unc")) {
+        (Some(l), Some(u)) => u[k].is_finite() && u[k] <= l,
+        _ => true,
+    };
+    w.iter()
+        .enumerate()
+        .filter(|(k, x)| x.is_finite() && ok(*k))
+        .max_by(|a, b| a.1.abs().total_cmp(&b.1.abs()))
+        .map(|(k, x)| (k, *x))
 }

@@ -25,7 +25,7 @@
 //! `max_lag = 50`, 114 MB (the lag sums: 96 bytes per node and lag).
 
 mod codec;
-mod finish;
+pub mod finish;
 pub mod gum;
 pub mod lags;
 pub mod moments;
@@ -492,6 +492,17 @@ fn offer(m: &mut Moments, field: &Field, d: &Derived, counts: &[bool]) {
             m.add_velocity(k, u[k], v[k]);
             m.u.add_unc(k, Some(su[k]), None);
             m.v.add_unc(k, Some(sv[k]), None);
+        }
+    }
+    // The smoother's bias, as the truncation of the velocity
+    // (derive::smoothing_bias; table::systematic averages and debiases it).
+    if let Some([bu, vbu, bv, vbv]) = &d.vel_trunc {
+        let (bu, vbu, bv, vbv) = (sl(bu), sl(vbu), sl(bv), sl(vbv));
+        for (k, &c) in counts.iter().enumerate() {
+            if c {
+                m.u.add_trunc(k, Some(bu[k]), Some(vbu[k]), None);
+                m.v.add_trunc(k, Some(bv[k]), Some(vbv[k]), None);
+            }
         }
     }
     for (q, acc) in d.quantities.iter().zip(m.q.iter_mut()) {

@@ -93,6 +93,7 @@ fn frame(
         fallback_nodes: 0,
         sigma_fallback_nodes: 0,
         inst_omega: None,
+        vel_trunc: None,
     };
     Frame {
         meta: FrameMeta {
