@@ -4,7 +4,7 @@
 //! its accumulator (`acc`, merged in frame order across chunks and shards
 //! like the statistics), its serialised partial state (`codec`), the terms
 //! per slice and node (`terms`) and the circulation budget of vortex cores
-//! (`cores`). Does not own: the statistics (`stats`), files or figures.
+//! (`cores`), and the frequency of the phase bins (`freq`). Does not own: the statistics (`stats`), files or figures.
 //!
 //! For the out-of-plane vorticity w of a planar, incompressible,
 //! constant-density flow (docs/budget.md):
@@ -17,6 +17,7 @@
 
 pub mod acc;
 pub mod codec;
+pub mod freq;
 pub mod ops;
 pub mod run;
 pub mod terms;

@@ -83,6 +83,8 @@ pub struct Budget {
     pub slices: Vec<SliceBudget>,
     /// Coverage factor of the significance test.
     pub k: f64,
+    /// The frequency of the phase bins and its source (set by `run::finish`).
+    pub frequency: Option<super::freq::Frequency>,
     pub warnings: Vec<String>,
 }
 
@@ -226,6 +228,7 @@ pub fn finish(acc: &BudgetAcc, nu: Option<f64>, freq: Option<f64>) -> Budget {
         grid: acc.grid,
         slices,
         k: acc.params.k,
+        frequency: None,
         warnings,
     }
 }

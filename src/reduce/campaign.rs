@@ -71,7 +71,12 @@ pub fn finish_campaign(
         let sketch = r.modes.take();
         if let Some(b) = &r.budget {
             let t = Instant::now();
-            let bud = crate::budget::run::finish(b, rp);
+            let tp: Vec<_> = rr
+                .frames
+                .iter()
+                .map(|f| (f.meta.time_s, f.meta.phase_deg))
+                .collect();
+            let bud = crate::budget::run::finish(b, rp, &tp)?;
             run_warnings.extend(bud.warnings.iter().map(|w| format!("run '{}': {w}", rr.id)));
             rr.budget = Some(bud);
             timings.push(("budget".into(), t.elapsed().as_secs_f64()));
