@@ -103,6 +103,7 @@ pub fn finish(
     };
     let mut b = super::terms::finish(acc, run.conditions.viscosity, f.as_ref().map(|f| f.hz));
     b.frequency = f;
+    b.reading = Some(super::reading::read(&b, run.derive.gamma_radius));
     Ok(b)
 }
 

@@ -85,6 +85,10 @@ pub struct Budget {
     pub k: f64,
     /// The frequency of the phase bins and its source (set by `run::finish`).
     pub frequency: Option<super::freq::Frequency>,
+    /// Phase bin of the term figure (`[budget] figure_bin`).
+    pub figure_bin: Option<usize>,
+    /// The plain-words reading (set by `run::finish`).
+    pub reading: Option<super::reading::Reading>,
     pub warnings: Vec<String>,
 }
 
@@ -229,6 +233,8 @@ pub fn finish(acc: &BudgetAcc, nu: Option<f64>, freq: Option<f64>) -> Budget {
         slices,
         k: acc.params.k,
         frequency: None,
+        figure_bin: acc.params.figure_bin,
+        reading: None,
         warnings,
     }
 }

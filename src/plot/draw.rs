@@ -108,6 +108,8 @@ pub struct MapPanel<'a> {
     pub faded: Option<Vec<bool>>,
     /// Masked nodes ("no flow here"): drawn neutral grey with an outline.
     pub mask: Option<Vec<bool>>,
+    /// Nodes marked with a small dark ring (e.g. a significant residual).
+    pub marks: Option<Vec<bool>>,
 }
 
 /// Pixel layout of a row/grid of maps sharing one colour bar.
@@ -297,6 +299,17 @@ pub fn draw_map<DB: DrawingBackend>(
                 .into_iter()
                 .map(|seg| PathElement::new(seg, MASK_EDGE.stroke_width(2))),
         )?;
+    }
+    if let Some(m) = &p.marks {
+        let r = (0.3 * layout.panel_w as f64 / g.nx as f64).clamp(1.5, 6.0) as u32;
+        let ink = RGBColor(20, 20, 24);
+        chart.draw_series((0..g.len()).filter(|&k| m[k]).map(|k| {
+            Circle::new(
+                (g.x(k % g.nx) / s, g.y(k / g.nx) / s),
+                r,
+                ink.stroke_width(1),
+            )
+        }))?;
     }
     if let Some((u, v, every)) = p.vectors {
         let every = every.max(1);

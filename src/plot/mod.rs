@@ -1,7 +1,8 @@
 //! Figures (PNG and SVG) of a run and of comparisons, drawn with plotters
 //! and an embedded font (DejaVu Sans) so text renders without system fonts.
 //!
-//! Owns: which figures a run gets, their units and limits (`figs`), the
+//! Owns: which figures a run gets, their units and limits (`figs`; the
+//! vorticity budget's in `budget`), the
 //! colour maps (`colormap`) and the drawing layer (`draw`). Does not own:
 //! the numbers (stats), nor the comparison arithmetic (`compare`).
 //!
@@ -12,6 +13,7 @@
 //! 18 px and more. A figure whose columns are missing is skipped, never an
 //! error.
 
+pub mod budget;
 pub mod colormap;
 pub mod draw;
 mod figs;

@@ -278,6 +278,7 @@ fn run_section(out: &mut String, r: &RunResult) {
         out.push_str("<h3>Results</h3>\n");
         table(out, &["quantity (SI)", "value"], &srows);
     }
+    super::budget::section(out, r);
     out.push_str("<h3>Figures</h3>\n");
     figures(out, &r.figures);
     let _ = writeln!(
