@@ -108,6 +108,9 @@ fn check_run(plan: &Plan, r: &RunPlan) -> Result<()> {
         println!("  {label:<13} {text}");
         last = stage;
     }
+    for line in curlew::vortex::run::check_lines(r, with_phase > 0) {
+        println!("  {line}");
+    }
     for line in curlew::budget::run::check_lines(r, with_phase > 0, with_time > 0) {
         println!("  {line}");
     }
