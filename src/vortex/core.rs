@@ -78,7 +78,15 @@ pub fn measure(
         om.iter().zip(&xy).map(|(w, p)| w * p.0).sum::<f64>() / sum,
         om.iter().zip(&xy).map(|(w, p)| w * p.1).sum::<f64>() / sum,
     );
-    let sd = |c: Vec<f64>| corr.variance(nodes, &c, &sig, g.nx).max(0.0).sqrt();
+    // NaN stays NaN (f64::max would turn it into 0).
+    let sd = |c: Vec<f64>| {
+        let v = corr.variance(nodes, &c, &sig, g.nx);
+        if v < 0.0 {
+            0.0
+        } else {
+            v.sqrt()
+        }
+    };
     let circulation_unc = da * sd(vec![1.0; nodes.len()]);
     let x_unc = sd(xy.iter().map(|p| (p.0 - x) / sum).collect());
     let y_unc = sd(xy.iter().map(|p| (p.1 - y) / sum).collect());

@@ -173,7 +173,7 @@ mod tests {
             Correlation::Independent,
         );
         let mut lags = c.lags.clone();
-        lags.sort_by(|a, b| (a.0, a.1).cmp(&(b.0, b.1)));
+        lags.sort_by_key(|a| (a.0, a.1));
         let want = [
             (-2, 0, -0.25),
             (0, -2, -0.25),

@@ -76,12 +76,12 @@ fn model(p: &Vector4<f64>, x: f64, y: f64) -> (f64, Vector4<f64>) {
 /// Weighted sum of squares and normal equations at `p`.
 fn normal(d: &FitData, w: &[f64], p: &Vector4<f64>) -> (f64, Matrix4<f64>, Vector4<f64>) {
     let (mut ss, mut h, mut b) = (0.0, Matrix4::zeros(), Vector4::zeros());
-    for k in 0..d.nodes.len() {
+    for (k, &wk) in w.iter().enumerate() {
         let (m, j) = model(p, d.xy[k].0, d.xy[k].1);
         let r = d.omega[k] - m;
-        ss += w[k] * r * r;
-        h += w[k] * j * j.transpose();
-        b += w[k] * r * j;
+        ss += wk * r * r;
+        h += wk * j * j.transpose();
+        b += wk * r * j;
     }
     (ss, h, b)
 }
@@ -129,7 +129,7 @@ pub fn fit(d: &FitData, p0: [f64; 4], r_eq: f64, corr: &OmegaCorrelation) -> Opt
         }
     }
     let rc = p[3].abs();
-    if !converged || !(rc > 0.1 * r_eq && rc < 20.0 * r_eq) {
+    if !(converged && rc > 0.1 * r_eq && rc < 20.0 * r_eq) {
         return None;
     }
     let hinv = h.try_inverse()?;
@@ -146,7 +146,14 @@ pub fn fit(d: &FitData, p0: [f64; 4], r_eq: f64, corr: &OmegaCorrelation) -> Opt
     } else {
         hinv * chi2_red
     };
-    let u = |i: usize| cov[(i, i)].max(0.0).sqrt();
+    let u = |i: usize| {
+        let v = cov[(i, i)];
+        if v < 0.0 {
+            0.0
+        } else {
+            v.sqrt()
+        }
+    };
     Some(LambOseen {
         x: p[0],
         y: p[1],
