@@ -63,6 +63,7 @@ pub mod synth;
 #[cfg(test)]
 pub mod testutil;
 pub mod validate;
+pub mod vortex;
 
 pub use error::{Error, ErrorKind, Result};
 pub use facade::{merge, Campaign, Progress, RunOptions};

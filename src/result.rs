@@ -41,6 +41,8 @@ pub struct RunResult {
     pub description: Option<String>,
     /// The vorticity transport budget, when `[budget]` asked for it.
     pub budget: Option<crate::budget::Budget>,
+    /// Vortex cores and tracks, when `[vortices]` asked for them.
+    pub vortices: Option<crate::vortex::Vortices>,
     /// Nodes of `grid` (node order) masked by the pipeline's geometry mask
     /// (`crate::mask`); `None` when nothing is masked. Figures draw them grey.
     pub mask: Option<Vec<bool>>,

@@ -108,6 +108,9 @@ fn check_run(plan: &Plan, r: &RunPlan) -> Result<()> {
         println!("  {label:<13} {text}");
         last = stage;
     }
+    for line in curlew::vortex::run::check_lines(r, with_phase > 0) {
+        println!("  {line}");
+    }
     let tp: Vec<_> = frames
         .iter()
         .map(|(m, _)| (m.time_s, m.phase_deg))

@@ -62,6 +62,7 @@ impl RunPlan {
             "stats": v("stats", &self.stats)?,
             "modes": v("modes", &self.modes)?,
             "budget": v("budget", &self.budget)?,
+            "vortices": v("vortices", &self.vortices)?,
         }))
     }
 }

@@ -18,6 +18,7 @@ pub mod modes;
 pub mod report;
 pub mod statistics;
 pub mod validation;
+pub mod vortices;
 
 use std::path::{Path, PathBuf};
 
@@ -63,6 +64,8 @@ pub struct RawPipeline {
     pub run: Vec<RawRun>,
     /// The vorticity transport budget (off unless present).
     pub budget: Option<budget::RawBudget>,
+    /// Vortex cores found, measured and tracked (off unless present).
+    pub vortices: Option<vortices::RawVortices>,
 }
 
 #[derive(Debug, Clone, Default, Deserialize, Serialize)]
@@ -129,6 +132,8 @@ pub struct RunPlan {
     pub description: Option<String>,
     /// The vorticity transport budget, when asked for.
     pub budget: Option<crate::budget::Params>,
+    /// The vortex analysis, when asked for.
+    pub vortices: Option<crate::vortex::Params>,
     /// Warnings about the run's input found while resolving (e.g. pixel
     /// positions with no stated y direction); `run` records them.
     pub input_warnings: Vec<String>,
@@ -263,6 +268,7 @@ impl Plan {
                 )?,
                 input: spec,
                 budget: budget::resolve_budget(raw.budget.as_ref())?,
+                vortices: vortices::resolve_vortices(raw.vortices.as_ref())?,
             });
         }
         Ok(Plan {

@@ -61,6 +61,7 @@ pub fn finish_campaign(
             conditions: rp.conditions.clone(),
             description: rp.description.clone(),
             budget: None,
+            vortices: None,
             mask: rp
                 .mask
                 .nodes(&r.grid, rp.input.grid_tolerance)
@@ -81,6 +82,10 @@ pub fn finish_campaign(
             rr.budget = Some(bud);
             timings.push(("budget".into(), t.elapsed().as_secs_f64()));
         }
+        if let Some(v) = crate::vortex::run::analyse(&rr, rp) {
+            run_warnings.extend(v.warnings.iter().map(|w| format!("run '{}': {w}", rr.id)));
+            rr.vortices = Some(v);
+        }
         let t = Instant::now();
         outputs::write_run_tables(&out.join(&rr.id), &rr)?;
         outputs::write_run_netcdf(&out.join(&rr.id), &rr, &plan.text)?;
@@ -91,7 +96,10 @@ pub fn finish_campaign(
         timings.push(("write".into(), t.elapsed().as_secs_f64()));
         if plan.figures {
             let t = Instant::now();
-            match plot::run_figures(&rp.plot, &rr, out) {
+            match plot::run_figures(&rp.plot, &rr, out).and_then(|mut f| {
+                f.extend(crate::vortex::figures::draw(&rp.plot, &rr, out)?);
+                Ok(f)
+            }) {
                 Ok(f) => rr.figures = f,
                 Err(e) => {
                     run_warnings.push(format!("run '{}': figures could not be drawn: {e}", rr.id))

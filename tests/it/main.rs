@@ -19,3 +19,4 @@ mod resolved;
 mod run;
 mod spectra;
 mod truth;
+mod vortices;
