@@ -17,5 +17,6 @@ mod reference;
 mod reliability;
 mod resolved;
 mod run;
+mod scales;
 mod spectra;
 mod truth;
