@@ -56,6 +56,8 @@ pub struct Structures {
     pub phase: Option<crate::modes::phase::PhaseEstimate>,
     pub spectra: Option<crate::spectra::run::RunSpectra>,
     pub scales: Option<crate::scales::Scales>,
+    /// POD modes drawn as maps (`[modes] figure_modes`).
+    pub figure_modes: usize,
 }
 
 /// A reduced campaign.

@@ -416,11 +416,13 @@ pub fn merge(mut parts: Vec<Partial>) -> Result<(Partial, Vec<Reduced>)> {
                     a.merge(b)
                 }
                 (None, None) => {}
-                _ => return Err(Error::data(format!(
+                _ => {
+                    return Err(Error::data(format!(
                     "run '{}': some shards have two-point correlations ({CORR_FILE}) and some not",
                     r.id
                 ))
-                .with_path(&dir)),
+                    .with_path(&dir))
+                }
             }
             into.range.1 = r.range.1;
             into.frames.extend(r.frames);

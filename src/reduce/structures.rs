@@ -33,7 +33,10 @@ pub fn finish(
     parts: Parts,
     dir: &Path,
 ) -> Result<(Structures, Vec<String>)> {
-    let mut st = Structures::default();
+    let mut st = Structures {
+        figure_modes: rp.modes.figure_modes,
+        ..Structures::default()
+    };
     let mut warnings = Vec::new();
     if let Some(s) = parts.sketch {
         let (pod, est, w) = crate::modes::write_run(s, rp, &rr.frames, &rr.grid, dir)?;
