@@ -56,6 +56,7 @@ pub mod reduce;
 pub mod report;
 pub mod result;
 pub mod robust;
+pub mod scales;
 pub mod spectra;
 pub mod stats;
 pub mod stencil;

@@ -55,6 +55,8 @@ pub struct RawPipeline {
     #[serde(default)]
     pub modes: modes::RawModes,
     #[serde(default)]
+    pub spectra: modes::RawSpectra,
+    #[serde(default)]
     pub output: RawOutput,
     #[serde(default)]
     pub figures: report::RawFigures,
@@ -128,6 +130,8 @@ pub struct RunPlan {
     pub plot: plot::Params,
     /// `[modes]`: POD and phase from the flow.
     pub modes: crate::modes::Params,
+    /// `[spectra]`: Welch spectra of time-resolved runs.
+    pub spectra: crate::spectra::run::Params,
     pub conditions: report::Conditions,
     pub description: Option<String>,
     /// The vorticity transport budget, when asked for.
@@ -252,6 +256,7 @@ impl Plan {
                 stats: statistics::resolve_stats(&raw.statistics, &raw.phase, &ctx)?,
                 plot: report::resolve_figures(&raw.figures, &ctx)?,
                 modes: modes::resolve_modes(&raw.modes)?,
+                spectra: modes::resolve_spectra(&raw.spectra)?,
                 conditions: report::resolve_conditions(
                     &r.conditions.clone().unwrap_or_default(),
                     &ctx,

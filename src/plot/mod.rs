@@ -18,6 +18,7 @@ pub mod colormap;
 pub mod draw;
 mod figs;
 pub mod lines;
+pub mod structures;
 
 use std::path::Path;
 
@@ -54,7 +55,9 @@ impl Default for Params {
 /// Writes the figures of one run into `out/<run id>/figures/` and returns
 /// them with paths relative to `out`.
 pub fn run_figures(p: &Params, run: &RunResult, out: &Path) -> Result<Vec<FigureRef>> {
-    figs::run_figures(p, run, out)
+    let mut f = figs::run_figures(p, run, out)?;
+    f.extend(structures::figures(p, run, out)?);
+    Ok(f)
 }
 
 /// Makes a `FigureRef` with paths relative to `out`.

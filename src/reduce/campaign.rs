@@ -68,6 +68,7 @@ pub fn finish_campaign(
                 .ok()
                 .filter(|m| m.iter().any(|&b| b))
                 .map(|m| m.iter().copied().collect()),
+            structures: Default::default(),
         };
         let sketch = r.modes.take();
         if let Some(b) = &r.budget {
@@ -89,10 +90,14 @@ pub fn finish_campaign(
         let t = Instant::now();
         outputs::write_run_tables(&out.join(&rr.id), &rr)?;
         outputs::write_run_netcdf(&out.join(&rr.id), &rr, &plan.text)?;
-        if let Some(s) = &sketch {
-            let w = crate::modes::write_run(s, rp, &rr.frames, &rr.grid, &out.join(&rr.id))?;
-            run_warnings.extend(w);
-        }
+        let parts = super::structures::Parts {
+            acc: &r.acc,
+            sketch: sketch.as_ref(),
+            corr: r.corr.as_ref(),
+        };
+        let (st, w) = super::structures::finish(rp, &rr, parts, &out.join(&rr.id))?;
+        run_warnings.extend(w);
+        rr.structures = st;
         timings.push(("write".into(), t.elapsed().as_secs_f64()));
         if plan.figures {
             let t = Instant::now();

@@ -17,6 +17,7 @@ mod reference;
 mod reliability;
 mod resolved;
 mod run;
+mod scales;
 mod spectra;
 mod truth;
 mod vortices;
