@@ -56,6 +56,7 @@ pub mod reduce;
 pub mod report;
 pub mod result;
 pub mod robust;
+pub mod scales;
 pub mod spectra;
 pub mod stats;
 pub mod stencil;
@@ -63,6 +64,7 @@ pub mod synth;
 #[cfg(test)]
 pub mod testutil;
 pub mod validate;
+pub mod vortex;
 
 pub use error::{Error, ErrorKind, Result};
 pub use facade::{merge, Campaign, Progress, RunOptions};

@@ -41,9 +41,25 @@ pub struct RunResult {
     pub description: Option<String>,
     /// The vorticity transport budget, when `[budget]` asked for it.
     pub budget: Option<crate::budget::Budget>,
+    /// Vortex cores and tracks, when `[vortices]` asked for them.
+    pub vortices: Option<crate::vortex::Vortices>,
     /// Nodes of `grid` (node order) masked by the pipeline's geometry mask
     /// (`crate::mask`); `None` when nothing is masked. Figures draw them grey.
     pub mask: Option<Vec<bool>>,
+    /// POD, spectra and two-point statistics, where computed.
+    pub structures: Structures,
+}
+
+/// A run's coherent structures and scales (docs/modes.md), each `None`
+/// when not computed.
+#[derive(Debug, Clone, Default)]
+pub struct Structures {
+    pub pod: Option<crate::modes::Pod>,
+    pub phase: Option<crate::modes::phase::PhaseEstimate>,
+    pub spectra: Option<crate::spectra::run::RunSpectra>,
+    pub scales: Option<crate::scales::Scales>,
+    /// POD modes drawn as maps (`[modes] figure_modes`).
+    pub figure_modes: usize,
 }
 
 /// A reduced campaign.

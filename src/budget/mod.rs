@@ -4,7 +4,7 @@
 //! its accumulator (`acc`, merged in frame order across chunks and shards
 //! like the statistics), its serialised partial state (`codec`), the terms
 //! per slice and node (`terms`) and the circulation budget of vortex cores
-//! (`cores`). Does not own: the statistics (`stats`), files or figures.
+//! (`cores`), its plain-words reading (`reading`), and the frequency of the phase bins (`freq`). Does not own: the statistics (`stats`), files or figures.
 //!
 //! For the out-of-plane vorticity w of a planar, incompressible,
 //! constant-density flow (docs/budget.md):
@@ -17,7 +17,9 @@
 
 pub mod acc;
 pub mod codec;
+pub mod freq;
 pub mod ops;
+pub mod reading;
 pub mod run;
 pub mod terms;
 #[cfg(test)]
@@ -38,9 +40,13 @@ pub struct Params {
     pub frames: Vec<u64>,
     /// Coverage factor of the residual's significance test (default 2).
     pub k: f64,
-    /// Phase bin of the term figure (`None`: the bin with the largest
-    /// circulation).
+    /// Phase bin of the term figure (`None`: the slice with the largest
+    /// |unsteady|).
     pub figure_bin: Option<usize>,
+    /// Count replaced and filled vectors as samples of the budget's
+    /// stencils (`None`: as `[statistics] include_filled`).
+    #[serde(default)]
+    pub include_filled: Option<bool>,
 }
 
 impl Default for Params {
@@ -50,6 +56,7 @@ impl Default for Params {
             frames: Vec::new(),
             k: 2.0,
             figure_bin: None,
+            include_filled: None,
         }
     }
 }

@@ -13,8 +13,10 @@
 //! uncertainty), `residual`, `residual_unc`, and `significant` (1 where
 //! |residual| > k residual_unc, 0 where not, NaN where the residual is).
 
+use super::freq::{self, Frequency};
 use super::terms::{Budget, SliceKind, TERMS};
 use super::{BudgetAcc, Params};
+use crate::error::Result;
 use crate::field::Grid;
 use crate::io::{Table, Values};
 use crate::plan::RunPlan;
@@ -30,24 +32,47 @@ pub fn start(run: &RunPlan, grid: Grid) -> Option<BudgetAcc> {
     ))
 }
 
-/// What `curlew check` says about the budget of a run: what will be
-/// computed and what is missing.
-pub fn check_lines(run: &RunPlan, has_phase: bool, has_time: bool) -> Vec<String> {
-    let Some(p) = &run.budget else {
-        return Vec::new();
+/// The frequency of `run`'s phase bins (`freq`): given, from its frame
+/// table's column, or fitted to the frames' (time, phase) pairs `tp`.
+/// Reads the frame table when there is one.
+pub fn frequency(run: &RunPlan, tp: &[(f64, f64)]) -> Result<Option<Frequency>> {
+    let table = match &run.frame_table {
+        Some(p) if run.conditions.frequency.is_none() => Some(crate::io::read_frame_table(p)?),
+        _ => None,
     };
+    Ok(freq::resolve(run.conditions.frequency, table.as_ref(), tp))
+}
+
+/// What `curlew check` says about the budget of a run: what will be
+/// computed, where the frequency comes from and what is missing. `frames`
+/// holds each frame's (time, phase).
+pub fn check_lines(run: &RunPlan, frames: &[(Option<f64>, Option<f64>)]) -> Result<Vec<String>> {
+    let Some(p) = &run.budget else {
+        return Ok(Vec::new());
+    };
+    let has_phase = frames.iter().any(|f| f.1.is_some());
+    let has_time = frames.iter().any(|f| f.0.is_some());
     let c = &run.conditions;
     let mut out = vec![format!(
         "budget: {} differences; terms unsteady, advection, stretching, diffusion, turbulent, residual (significant beyond k = {})",
         p.scheme, p.k
     )];
-    if c.viscosity.is_none() {
-        out.push("budget: no [run.conditions] viscosity: the diffusion term and the residual will be empty".into());
+    match c.viscosity {
+        Some(nu) => out.push(format!("budget: viscosity {} m²/s, given in [run.conditions]", crate::plot::draw::tick(nu))),
+        None => out.push("budget: no [run.conditions] viscosity: the diffusion term and the residual will be empty".into()),
     }
-    if has_phase && c.frequency.is_none() {
-        out.push("budget: no [run.conditions] frequency: the unsteady term and the residual of the phase bins will be empty".into());
-    }
-    if !has_phase && p.frames.is_empty() {
+    if has_phase {
+        let tp = time_phase(frames);
+        match frequency(run, &tp)? {
+            Some(f) => {
+                out.push(format!("budget: frequency {}", f.describe()));
+                if let Some(w) = freq::disagreement(&f, &tp) {
+                    out.push(format!("budget: warning: {w}"));
+                }
+            }
+            None => out.push("budget: no frequency (none in [run.conditions], no frequency_hz or period_s column in the frame table, and the phases and times do not fit a steady frequency): the unsteady term and the residual of the phase bins will be empty".into()),
+        }
+    } else if p.frames.is_empty() {
         out.push(
             "budget: the frames have no phases and [budget] frames is empty: nothing to compute"
                 .into(),
@@ -56,12 +81,30 @@ pub fn check_lines(run: &RunPlan, has_phase: bool, has_time: bool) -> Vec<String
     if !p.frames.is_empty() && !has_time {
         out.push("budget: [budget] frames needs frame times (time_s in the frame table) for the unsteady term".into());
     }
-    out
+    Ok(out)
 }
 
-/// The finished budget of a run with its conditions.
-pub fn finish(acc: &BudgetAcc, run: &RunPlan) -> Budget {
-    super::terms::finish(acc, run.conditions.viscosity, run.conditions.frequency)
+/// The (time, phase) pairs of the frames that have both.
+pub fn time_phase(frames: &[(Option<f64>, Option<f64>)]) -> Vec<(f64, f64)> {
+    frames.iter().filter_map(|&(t, p)| t.zip(p)).collect()
+}
+
+/// The finished budget of a run with its conditions; `frames` holds each
+/// frame's (time, phase) for the frequency when none is given.
+pub fn finish(
+    acc: &BudgetAcc,
+    run: &RunPlan,
+    frames: &[(Option<f64>, Option<f64>)],
+) -> Result<Budget> {
+    let f = if acc.bins.iter().any(Option::is_some) {
+        frequency(run, &time_phase(frames))?
+    } else {
+        None
+    };
+    let mut b = super::terms::finish(acc, run.conditions.viscosity, f.as_ref().map(|f| f.hz));
+    b.frequency = f;
+    b.reading = Some(super::reading::read(&b, run.derive.gamma_radius));
+    Ok(b)
 }
 
 /// The `budget.csv` table.

@@ -83,6 +83,12 @@ pub struct Budget {
     pub slices: Vec<SliceBudget>,
     /// Coverage factor of the significance test.
     pub k: f64,
+    /// The frequency of the phase bins and its source (set by `run::finish`).
+    pub frequency: Option<super::freq::Frequency>,
+    /// Phase bin of the term figure (`[budget] figure_bin`).
+    pub figure_bin: Option<usize>,
+    /// The plain-words reading (set by `run::finish`).
+    pub reading: Option<super::reading::Reading>,
     pub warnings: Vec<String>,
 }
 
@@ -226,6 +232,9 @@ pub fn finish(acc: &BudgetAcc, nu: Option<f64>, freq: Option<f64>) -> Budget {
         grid: acc.grid,
         slices,
         k: acc.params.k,
+        frequency: None,
+        figure_bin: acc.params.figure_bin,
+        reading: None,
         warnings,
     }
 }

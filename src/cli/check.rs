@@ -108,7 +108,14 @@ fn check_run(plan: &Plan, r: &RunPlan) -> Result<()> {
         println!("  {label:<13} {text}");
         last = stage;
     }
-    for line in curlew::budget::run::check_lines(r, with_phase > 0, with_time > 0) {
+    for line in curlew::vortex::run::check_lines(r, with_phase > 0) {
+        println!("  {line}");
+    }
+    let tp: Vec<_> = frames
+        .iter()
+        .map(|(m, _)| (m.time_s, m.phase_deg))
+        .collect();
+    for line in curlew::budget::run::check_lines(r, &tp)? {
         println!("  {line}");
     }
     Ok(())

@@ -11,7 +11,9 @@ use curlew::{Error, Result};
 #[derive(clap::Args, Debug)]
 pub struct Args {
     /// The flow: wake (vortex street behind a cylinder, periodic), vortex
-    /// (steady Lamb-Oseen), solid-body, cylinder (potential flow), taylor-green.
+    /// (steady Lamb-Oseen), solid-body, cylinder (potential flow), taylor-green,
+    /// uniform, diffusing-vortex (Lamb-Oseen in still water; with a high
+    /// --frame-rate, time-resolved), burgers (steady Burgers vortex).
     #[arg(value_parser = parse::<Scenario>)]
     pub scenario: Scenario,
     /// Output folder; it appears only when complete.

@@ -66,6 +66,7 @@ pub fn difference_figures(
         vectors: None,
         faded: None,
         mask,
+        marks: None,
     };
     let fig = MapFigure::new(
         None,
@@ -114,6 +115,7 @@ pub fn difference_figures(
             vectors: None,
             faded: Some(d.significant.iter().map(|s| !s).collect()),
             mask: mask_of(a),
+            marks: None,
         }],
         mm_axes(),
         format!("Δ {} ({unit})", p.quantity),

@@ -73,7 +73,7 @@ pub fn gradient_at(setup: &RunSetup, t: f64, x: f64, y: f64) -> Option<Gradient>
         Flow::SolidBody { rate } => Some(gradients::solid_body(rate)),
         Flow::TaylorGreen { u0, k: wk, nu } => Some(gradients::taylor_green(x, y, t, u0, wk, nu)),
         Flow::Cylinder { radius, u_inf } => gradients::cylinder(x, y, 0.0, 0.0, radius, u_inf),
-        Flow::Wake { .. } => None,
+        Flow::Wake { .. } | Flow::Diffusing { .. } | Flow::Burgers { .. } => None,
     }
 }
 

@@ -295,6 +295,21 @@ pub fn read_grid(spec: &InputSpec, source: &FrameSource) -> Result<Grid> {
 #[derive(Debug, Clone, Default)]
 pub struct FrameTable {
     pub rows: Vec<(String, Option<f64>, Option<f64>)>,
+    /// The run's frequency, when the table has a `frequency_hz` or a
+    /// `period_s` column.
+    pub frequency: Option<TableFrequency>,
+}
+
+/// A frequency given in the frame table (a column with a value per frame).
+#[derive(Debug, Clone, PartialEq)]
+pub struct TableFrequency {
+    /// `frequency_hz` or `period_s`.
+    pub column: &'static str,
+    /// Mean over the rows of the per-row frequency (Hz).
+    pub hz: f64,
+    /// Largest |f_row - hz| / hz over the rows.
+    pub spread: f64,
+    pub rows: usize,
 }
 
 impl FrameTable {
@@ -313,7 +328,7 @@ impl FrameTable {
 }
 
 /// Reads a frame table: CSV with `frame` and `time_s` and/or `phase_deg`
-/// (phase kept as given). Errors name the line and value; a duplicate frame
+/// (phase kept as given), optionally `frequency_hz` or `period_s`. Errors name the line and value; a duplicate frame
 /// names both lines.
 pub fn read_frame_table(path: &Path) -> Result<FrameTable> {
     let bytes = text::read_bytes(path)?;

@@ -473,6 +473,29 @@ fn frame_table_reads_and_rejects() {
         read_frame_table(&p).unwrap().lookup("3"),
         Some((Some(0.5), None))
     );
+    assert_eq!(read_frame_table(&p).unwrap().frequency, None);
+}
+
+#[test]
+fn frame_table_frequency_column_is_averaged_and_checked() {
+    let d = tempfile::tempdir().unwrap();
+    let p = d.path().join("frames.csv");
+    fs::write(&p, "frame,phase_deg,frequency_hz\n1,0,2.0\n2,90,2.2\n").unwrap();
+    let f = read_frame_table(&p).unwrap().frequency.unwrap();
+    assert_eq!((f.column, f.rows), ("frequency_hz", 2));
+    assert!((f.hz - 2.1).abs() < 1e-12 && (f.spread - 0.1 / 2.1).abs() < 1e-12);
+    fs::write(&p, "frame,phase_deg,period_s\n1,0,0.25\n2,90,0.25\n").unwrap();
+    let f = read_frame_table(&p).unwrap().frequency.unwrap();
+    assert_eq!((f.column, f.hz, f.spread), ("period_s", 4.0, 0.0));
+    fs::write(&p, "frame,phase_deg,period_s\n1,0,0.25\n2,90,-1\n").unwrap();
+    let e = read_frame_table(&p).unwrap_err();
+    assert_eq!((e.line, e.column.as_deref()), (Some(3), Some("period_s")));
+    assert!(e.to_string().contains("-1 must be a positive"), "{e}");
+    fs::write(&p, "frame,phase_deg,period_s,frequency_hz\n1,0,1,1\n").unwrap();
+    assert!(read_frame_table(&p)
+        .unwrap_err()
+        .to_string()
+        .contains("not both"));
 }
 
 #[test]

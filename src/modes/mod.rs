@@ -67,15 +67,19 @@ impl ModeSketch {
     }
 }
 
+/// A run's finished POD, its phase estimate (with `phase = true`) and
+/// warnings.
+pub type RunPod = (Pod, Option<phase::PhaseEstimate>, Vec<String>);
+
 /// Finishes the POD of a run and writes its tables (and the phase frame
-/// table when asked) into `dir`; returns warnings for the run.
+/// table when asked) into `dir`.
 pub fn write_run(
     sketch: &ModeSketch,
     run: &crate::plan::RunPlan,
     frames: &[crate::result::FrameRecord],
     grid: &crate::field::Grid,
     dir: &std::path::Path,
-) -> crate::error::Result<Vec<String>> {
+) -> crate::error::Result<RunPod> {
     let pod = finish(sketch, run.stats.max_lag)?;
     let names = |i: u64| {
         frames
@@ -100,5 +104,5 @@ pub fn write_run(
         None
     };
     output::write_tables(dir, &pod, grid, &names, est.as_ref())?;
-    Ok(warnings)
+    Ok((pod, est, warnings))
 }

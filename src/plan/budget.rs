@@ -28,9 +28,14 @@ pub struct RawBudget {
     pub frames: Option<Vec<u64>>,
     /// Coverage factor of the residual's significance test (default 2).
     pub k: Option<f64>,
-    /// Phase bin drawn in the term figure (default: the bin with the
-    /// strongest vortex core).
+    /// Phase bin drawn in the term figure (default: the slice with the
+    /// largest |unsteady|).
     pub figure_bin: Option<usize>,
+    /// Count replaced and filled vectors in the budget's stencils (default:
+    /// as `[statistics] include_filled`). A composite stencil reaches two
+    /// nodes; without filled vectors one gap in its 5 x 5 reach drops the
+    /// node from the frame (with 5 % gaps, about two thirds of the samples).
+    pub include_filled: Option<bool>,
 }
 
 /// The resolved budget, or `None` when it is off.
@@ -60,6 +65,7 @@ pub fn resolve_budget(raw: Option<&RawBudget>) -> Result<Option<budget::Params>>
         frames,
         k,
         figure_bin: r.figure_bin,
+        include_filled: r.include_filled,
     }))
 }
 

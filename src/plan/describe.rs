@@ -61,7 +61,9 @@ impl RunPlan {
             "derive": v("derive", &self.derive)?,
             "stats": v("stats", &self.stats)?,
             "modes": v("modes", &self.modes)?,
+            "spectra": v("spectra", &self.spectra)?,
             "budget": v("budget", &self.budget)?,
+            "vortices": v("vortices", &self.vortices)?,
         }))
     }
 }

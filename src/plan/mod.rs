@@ -18,6 +18,7 @@ pub mod modes;
 pub mod report;
 pub mod statistics;
 pub mod validation;
+pub mod vortices;
 
 use std::path::{Path, PathBuf};
 
@@ -54,6 +55,8 @@ pub struct RawPipeline {
     #[serde(default)]
     pub modes: modes::RawModes,
     #[serde(default)]
+    pub spectra: modes::RawSpectra,
+    #[serde(default)]
     pub output: RawOutput,
     #[serde(default)]
     pub figures: report::RawFigures,
@@ -63,6 +66,8 @@ pub struct RawPipeline {
     pub run: Vec<RawRun>,
     /// The vorticity transport budget (off unless present).
     pub budget: Option<budget::RawBudget>,
+    /// Vortex cores found, measured and tracked (off unless present).
+    pub vortices: Option<vortices::RawVortices>,
 }
 
 #[derive(Debug, Clone, Default, Deserialize, Serialize)]
@@ -125,10 +130,14 @@ pub struct RunPlan {
     pub plot: plot::Params,
     /// `[modes]`: POD and phase from the flow.
     pub modes: crate::modes::Params,
+    /// `[spectra]`: Welch spectra of time-resolved runs.
+    pub spectra: crate::spectra::run::Params,
     pub conditions: report::Conditions,
     pub description: Option<String>,
     /// The vorticity transport budget, when asked for.
     pub budget: Option<crate::budget::Params>,
+    /// The vortex analysis, when asked for.
+    pub vortices: Option<crate::vortex::Params>,
     /// Warnings about the run's input found while resolving (e.g. pixel
     /// positions with no stated y direction); `run` records them.
     pub input_warnings: Vec<String>,
@@ -247,6 +256,7 @@ impl Plan {
                 stats: statistics::resolve_stats(&raw.statistics, &raw.phase, &ctx)?,
                 plot: report::resolve_figures(&raw.figures, &ctx)?,
                 modes: modes::resolve_modes(&raw.modes)?,
+                spectra: modes::resolve_spectra(&raw.spectra)?,
                 conditions: report::resolve_conditions(
                     &r.conditions.clone().unwrap_or_default(),
                     &ctx,
@@ -263,6 +273,7 @@ impl Plan {
                 )?,
                 input: spec,
                 budget: budget::resolve_budget(raw.budget.as_ref())?,
+                vortices: vortices::resolve_vortices(raw.vortices.as_ref())?,
             });
         }
         Ok(Plan {

@@ -61,3 +61,44 @@ pub fn resolve_modes(raw: &RawModes) -> Result<modes::Params> {
         figure_modes: raw.figure_modes.unwrap_or(d.figure_modes).min(m),
     })
 }
+
+/// `[spectra]` as written (time-resolved runs only).
+#[derive(Debug, Clone, Default, Deserialize, Serialize, PartialEq)]
+#[serde(deny_unknown_fields)]
+pub struct RawSpectra {
+    /// Welch spectra at the probes and of the POD coefficients (default:
+    /// on for runs whose frames have evenly spaced times and that have
+    /// probes or `[modes] pod = true`; cheap: a few series per run).
+    pub psd: Option<bool>,
+    /// Samples per Welch segment (default: the largest power of two up to
+    /// a quarter of the frames); the frequency resolution is fs / segment.
+    pub segment: Option<usize>,
+    /// Overlap of consecutive segments, a fraction in [0, 0.9] (default 0.5).
+    pub overlap: Option<f64>,
+    /// POD coefficients whose spectra are taken (default 4).
+    pub modes: Option<usize>,
+}
+
+/// Resolves `[spectra]`.
+pub fn resolve_spectra(raw: &RawSpectra) -> Result<crate::spectra::run::Params> {
+    let d = crate::spectra::run::Params::default();
+    if let Some(s) = raw.segment {
+        if s < 8 {
+            return Err(Error::usage(format!(
+                "[spectra] segment = {s} must be at least 8 samples"
+            )));
+        }
+    }
+    let overlap = raw.overlap.unwrap_or(d.overlap);
+    if !(0.0..=0.9).contains(&overlap) {
+        return Err(Error::usage(format!(
+            "[spectra] overlap = {overlap} must lie between 0 and 0.9 (a fraction of a segment)"
+        )));
+    }
+    Ok(crate::spectra::run::Params {
+        enabled: raw.psd,
+        segment: raw.segment,
+        overlap,
+        modes: raw.modes.unwrap_or(d.modes),
+    })
+}

@@ -108,6 +108,8 @@ pub struct MapPanel<'a> {
     pub faded: Option<Vec<bool>>,
     /// Masked nodes ("no flow here"): drawn neutral grey with an outline.
     pub mask: Option<Vec<bool>>,
+    /// Nodes marked with a small dark ring (e.g. a significant residual).
+    pub marks: Option<Vec<bool>>,
 }
 
 /// Pixel layout of a row/grid of maps sharing one colour bar.
@@ -248,6 +250,25 @@ pub fn draw_map<DB: DrawingBackend>(
     axes: &Axes,
     layout: &MapLayout,
 ) -> DrawResult<DB> {
+    draw_map_over(area, p, axes, layout, None)
+}
+
+/// Lines and points drawn over a map, in metres (e.g. vortex tracks).
+pub struct Overlay {
+    /// Polylines with their colour.
+    pub lines: Vec<(Vec<(f64, f64)>, RGBColor)>,
+    /// Ringed points with their colour.
+    pub points: Vec<((f64, f64), RGBColor)>,
+}
+
+/// `draw_map` with an optional overlay drawn last (with a pale halo).
+pub fn draw_map_over<DB: DrawingBackend>(
+    area: &DrawingArea<DB, Shift>,
+    p: &MapPanel,
+    axes: &Axes,
+    layout: &MapLayout,
+    over: Option<&Overlay>,
+) -> DrawResult<DB> {
     let g = p.grid;
     let s = axes.scale;
     let xr = (g.x0 - 0.5 * g.dx) / s..(g.x(g.nx - 1) + 0.5 * g.dx) / s;
@@ -298,6 +319,17 @@ pub fn draw_map<DB: DrawingBackend>(
                 .map(|seg| PathElement::new(seg, MASK_EDGE.stroke_width(2))),
         )?;
     }
+    if let Some(m) = &p.marks {
+        let r = (0.3 * layout.panel_w as f64 / g.nx as f64).clamp(1.5, 6.0) as u32;
+        let ink = RGBColor(20, 20, 24);
+        chart.draw_series((0..g.len()).filter(|&k| m[k]).map(|k| {
+            Circle::new(
+                (g.x(k % g.nx) / s, g.y(k / g.nx) / s),
+                r,
+                ink.stroke_width(1),
+            )
+        }))?;
+    }
     if let Some((u, v, every)) = p.vectors {
         let every = every.max(1);
         let smax = u
@@ -344,6 +376,18 @@ pub fn draw_map<DB: DrawingBackend>(
                     .map(|pts| PathElement::new(pts, ink.stroke_width(1))),
             )?;
         }
+    }
+    if let Some(o) = over {
+        let sc = |pts: &[(f64, f64)]| pts.iter().map(|q| (q.0 / s, q.1 / s)).collect::<Vec<_>>();
+        for (pts, c) in &o.lines {
+            chart.draw_series([PathElement::new(sc(pts), WHITE.mix(0.7).stroke_width(5))])?;
+            chart.draw_series([PathElement::new(sc(pts), c.stroke_width(2))])?;
+        }
+        chart.draw_series(
+            o.points
+                .iter()
+                .map(|(q, c)| Circle::new((q.0 / s, q.1 / s), 4, c.stroke_width(2))),
+        )?;
     }
     Ok(())
 }

@@ -4,7 +4,7 @@
 //! Figures (each skipped when its columns are missing): vorticity with a
 //! vector overlay, uncertainty of the mean vorticity, mean speed, velocity
 //! fluctuations, Reynolds shear stress, validation map, rejected fraction
-//! per frame, convergence, phase sequence.
+//! per frame, convergence, phase sequence, vorticity budget (`budget`).
 
 use std::path::Path;
 
@@ -131,6 +131,7 @@ impl<'a> Ctx<'a> {
             vectors: vec,
             faded: None,
             mask: run.mask.clone(),
+            marks: None,
         })
     }
 
@@ -249,6 +250,7 @@ pub fn run_figures(p: &Params, run: &RunResult, out: &Path) -> Result<Vec<Figure
             vectors: None,
             faded: None,
             mask: run.mask.clone(),
+            marks: None,
         };
         let fig = MapFigure::new(
             None,
@@ -288,6 +290,9 @@ pub fn run_figures(p: &Params, run: &RunResult, out: &Path) -> Result<Vec<Figure
     validation_figures(&mut c)?;
     convergence_figure(&mut c)?;
     phase_figure(&mut c)?;
+    if let Some(f) = super::budget::figure(p, run, out, c.units)? {
+        c.figs.push(f);
+    }
     Ok(c.figs)
 }
 
@@ -326,6 +331,7 @@ fn validation_figures(c: &mut Ctx) -> Result<()> {
                 vectors: None,
                 faded: None,
                 mask: c.run.mask.clone(),
+                marks: None,
             })
             .collect();
         let width = if n > 1 {
@@ -499,6 +505,7 @@ fn phase_figure(c: &mut Ctx) -> Result<()> {
             vectors: None,
             faded: None,
             mask: c.run.mask.clone(),
+            marks: None,
         })
         .collect();
     let cols = if panels.len() <= 4 { panels.len() } else { 4 };

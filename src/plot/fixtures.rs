@@ -187,6 +187,8 @@ pub fn run(id: &str, v: &Vortex, g: Grid) -> RunResult {
         },
         description: Some("a test run".into()),
         budget: None,
+        vortices: None,
+        structures: Default::default(),
         mask: None,
     }
 }

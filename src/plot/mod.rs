@@ -1,7 +1,8 @@
 //! Figures (PNG and SVG) of a run and of comparisons, drawn with plotters
 //! and an embedded font (DejaVu Sans) so text renders without system fonts.
 //!
-//! Owns: which figures a run gets, their units and limits (`figs`), the
+//! Owns: which figures a run gets, their units and limits (`figs`; the
+//! vorticity budget's in `budget`), the
 //! colour maps (`colormap`) and the drawing layer (`draw`). Does not own:
 //! the numbers (stats), nor the comparison arithmetic (`compare`).
 //!
@@ -12,10 +13,12 @@
 //! 18 px and more. A figure whose columns are missing is skipped, never an
 //! error.
 
+pub mod budget;
 pub mod colormap;
 pub mod draw;
 mod figs;
 pub mod lines;
+pub mod structures;
 
 use std::path::Path;
 
@@ -52,7 +55,9 @@ impl Default for Params {
 /// Writes the figures of one run into `out/<run id>/figures/` and returns
 /// them with paths relative to `out`.
 pub fn run_figures(p: &Params, run: &RunResult, out: &Path) -> Result<Vec<FigureRef>> {
-    figs::run_figures(p, run, out)
+    let mut f = figs::run_figures(p, run, out)?;
+    f.extend(structures::figures(p, run, out)?);
+    Ok(f)
 }
 
 /// Makes a `FigureRef` with paths relative to `out`.

@@ -61,32 +61,50 @@ pub fn finish_campaign(
             conditions: rp.conditions.clone(),
             description: rp.description.clone(),
             budget: None,
+            vortices: None,
             mask: rp
                 .mask
                 .nodes(&r.grid, rp.input.grid_tolerance)
                 .ok()
                 .filter(|m| m.iter().any(|&b| b))
                 .map(|m| m.iter().copied().collect()),
+            structures: Default::default(),
         };
         let sketch = r.modes.take();
         if let Some(b) = &r.budget {
             let t = Instant::now();
-            let bud = crate::budget::run::finish(b, rp);
+            let tp: Vec<_> = rr
+                .frames
+                .iter()
+                .map(|f| (f.meta.time_s, f.meta.phase_deg))
+                .collect();
+            let bud = crate::budget::run::finish(b, rp, &tp)?;
             run_warnings.extend(bud.warnings.iter().map(|w| format!("run '{}': {w}", rr.id)));
             rr.budget = Some(bud);
             timings.push(("budget".into(), t.elapsed().as_secs_f64()));
         }
+        if let Some(v) = crate::vortex::run::analyse(&rr, rp) {
+            run_warnings.extend(v.warnings.iter().map(|w| format!("run '{}': {w}", rr.id)));
+            rr.vortices = Some(v);
+        }
         let t = Instant::now();
         outputs::write_run_tables(&out.join(&rr.id), &rr)?;
         outputs::write_run_netcdf(&out.join(&rr.id), &rr, &plan.text)?;
-        if let Some(s) = &sketch {
-            let w = crate::modes::write_run(s, rp, &rr.frames, &rr.grid, &out.join(&rr.id))?;
-            run_warnings.extend(w);
-        }
+        let parts = super::structures::Parts {
+            acc: &r.acc,
+            sketch: sketch.as_ref(),
+            corr: r.corr.as_ref(),
+        };
+        let (st, w) = super::structures::finish(rp, &rr, parts, &out.join(&rr.id))?;
+        run_warnings.extend(w);
+        rr.structures = st;
         timings.push(("write".into(), t.elapsed().as_secs_f64()));
         if plan.figures {
             let t = Instant::now();
-            match plot::run_figures(&rp.plot, &rr, out) {
+            match plot::run_figures(&rp.plot, &rr, out).and_then(|mut f| {
+                f.extend(crate::vortex::figures::draw(&rp.plot, &rr, out)?);
+                Ok(f)
+            }) {
                 Ok(f) => rr.figures = f,
                 Err(e) => {
                     run_warnings.push(format!("run '{}': figures could not be drawn: {e}", rr.id))

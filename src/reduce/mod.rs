@@ -25,6 +25,7 @@ pub mod campaign;
 pub mod outputs;
 pub mod partial;
 pub mod seal;
+pub mod structures;
 
 use std::path::PathBuf;
 use std::time::Instant;
@@ -162,6 +163,8 @@ pub struct Reduced {
     pub peak_acc: Option<PeakLockAcc>,
     /// The POD sketch, when `[modes]` asks for it.
     pub modes: Option<ModeSketch>,
+    /// The two-point co-moments at the probes, when the run names probes.
+    pub corr: Option<crate::scales::CorrAcc>,
 }
 
 impl Reduced {
@@ -426,7 +429,10 @@ pub fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
         peak: Option<PeakLockAcc>,
         budget: Option<crate::budget::BudgetAcc>,
         modes: Option<ModeSketch>,
+        corr: Option<crate::scales::CorrAcc>,
     }
+    let corr0 = crate::scales::CorrAcc::new(&run.stats, grid);
+    let mut corr = corr0.as_ref().map(crate::scales::CorrAcc::empty_like);
     let mut budget = crate::budget::run::start(run, grid);
     let modes0 = run
         .modes
@@ -451,6 +457,7 @@ pub fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
                 peak: run.px_velocity.map(PeakLockAcc::new),
                 budget: crate::budget::run::start(run, grid),
                 modes: modes0.as_ref().map(ModeSketch::empty_like),
+                corr: corr0.as_ref().map(crate::scales::CorrAcc::empty_like),
             };
             for (meta, src) in chunk {
                 let (mut field, hash) = read_on_grid_hashed(run, src, &on_grid, true)?;
@@ -491,6 +498,9 @@ pub fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
                     if let Some(m) = out.modes.as_mut() {
                         m.push_frame(meta, &derived);
                     }
+                    if let Some(c) = out.corr.as_mut() {
+                        c.push(&field, &derived);
+                    }
                 }
                 if let Some(dir) = &opts.frame_fields_dir {
                     outputs::write_frame_field(
@@ -527,6 +537,9 @@ pub fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
                 b.merge(q);
             }
             if let (Some(m), Some(q)) = (modes.as_mut(), c.modes) {
+                m.merge(q);
+            }
+            if let (Some(m), Some(q)) = (corr.as_mut(), c.corr) {
                 m.merge(q);
             }
         },
@@ -566,6 +579,7 @@ pub fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
         peak_lock: None,
         peak_acc: peak,
         modes,
+        corr,
         id: run.id.clone(),
         grid,
         n_frames_run: n,

@@ -140,6 +140,9 @@ pub fn write_run_tables(dir: &Path, run: &RunResult) -> Result<()> {
         io::write_csv(&dir.join("budget.csv"), &t)?;
         io::write_parquet(&dir.join("budget.parquet"), &t)?;
     }
+    if let Some(v) = &run.vortices {
+        crate::vortex::table::write(dir, v)?;
+    }
     Ok(())
 }
 

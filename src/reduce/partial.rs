@@ -16,6 +16,8 @@
 //!                              (`budget::codec`; absent in older partials)
 //!   <run id>/modes.bin         the POD sketch, only when `[modes]` asks for it
 //!                              (modes::codec's own versioned bytes)
+//!   <run id>/correlation.bin   the two-point co-moments at the probes, when the
+//!                              run names probes (scales::codec's own bytes)
 //! ```
 //!
 //! Version 2: floats of frame records and grids are exact strings, and
@@ -46,6 +48,8 @@ pub const VERSION: u32 = 2;
 /// The POD sketch of a run, when `[modes]` asks for it (absent otherwise:
 /// partials without it stay readable).
 const MODES_FILE: &str = "modes.bin";
+/// The two-point co-moments of a run with probes (absent otherwise).
+pub const CORR_FILE: &str = "correlation.bin";
 
 #[derive(Debug, Clone, Serialize, Deserialize)]
 struct FrameRow {
@@ -143,6 +147,10 @@ pub fn write(dir: &Path, plan: &Plan, shard: Shard, runs: &[Reduced]) -> Result<
         if let Some(m) = &r.modes {
             let p = rd.join(MODES_FILE);
             std::fs::write(&p, m.to_bytes()).with_path(&p)?;
+        }
+        if let Some(c) = &r.corr {
+            let p = rd.join(CORR_FILE);
+            std::fs::write(&p, c.to_bytes()).with_path(&p)?;
         }
         parts.push(RunPart {
             id: r.id.clone(),
@@ -244,6 +252,12 @@ pub fn read(dir: &Path) -> Result<Partial> {
             Err(e) if e.kind() == std::io::ErrorKind::NotFound => None,
             Err(e) => return Err(Error::io(&mp, e)),
         };
+        let cp = dir.join(&r.id).join(CORR_FILE);
+        let corr = match std::fs::read(&cp) {
+            Ok(b) => Some(crate::scales::CorrAcc::from_bytes(&b).with_path(&cp)?),
+            Err(e) if e.kind() == std::io::ErrorKind::NotFound => None,
+            Err(e) => return Err(Error::io(&cp, e)),
+        };
         runs.push(Reduced {
             id: r.id,
             grid: Grid {
@@ -282,6 +296,7 @@ pub fn read(dir: &Path) -> Result<Partial> {
             peak_lock: None,
             peak_acc: r.peak_acc,
             modes,
+            corr,
         });
     }
     Ok(Partial {
@@ -392,6 +407,20 @@ pub fn merge(mut parts: Vec<Partial>) -> Result<(Partial, Vec<Reduced>)> {
                         "run '{}': some shards have a POD sketch ({MODES_FILE}) and some not",
                         r.id
                     ))
+                    .with_path(&dir))
+                }
+            }
+            match (&mut into.corr, r.corr) {
+                (Some(a), Some(b)) => {
+                    a.compatible(&b).map_err(|e| e.with_path(&dir))?;
+                    a.merge(b)
+                }
+                (None, None) => {}
+                _ => {
+                    return Err(Error::data(format!(
+                    "run '{}': some shards have two-point correlations ({CORR_FILE}) and some not",
+                    r.id
+                ))
                     .with_path(&dir))
                 }
             }

@@ -9,6 +9,7 @@
 //! The page is written through `io::atomic_bytes`, so a failed write never
 //! leaves a half page in place of a good one.
 
+mod budget;
 pub mod conditions;
 mod html;
 mod sections;

@@ -269,6 +269,14 @@ fn run_section(out: &mut String, r: &RunResult) {
         out.push_str("<h3>Results</h3>\n");
         table(out, &["quantity (SI)", "value"], &srows);
     }
+    super::budget::section(out, r);
+    if let Some(v) = &r.vortices {
+        let _ = writeln!(
+            out,
+            "<h3>Vortex cores</h3>\n<p>{}</p>",
+            esc(&crate::vortex::run::words(v))
+        );
+    }
     out.push_str("<h3>Figures</h3>\n");
     figures(out, &r.figures);
     let _ = writeln!(

@@ -26,6 +26,8 @@
 //! Edge behaviour: a series with a non-finite value, or shorter than
 //! `nperseg`, is an error naming the series; nperseg must be ≥ 2.
 
+pub mod run;
+
 use rustdct::rustfft::{num_complex::Complex, FftPlanner};
 use statrs::distribution::{ChiSquared, ContinuousCDF};
 

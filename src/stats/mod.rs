@@ -31,6 +31,7 @@ pub mod lags;
 pub mod moments;
 mod phase;
 mod probes;
+pub use probes::nearest_node;
 mod strata;
 mod table;
 #[cfg(test)]
@@ -237,6 +238,15 @@ impl RunAccumulator {
     /// Frames pushed so far.
     pub fn frames(&self) -> u64 {
         self.clock.frames
+    }
+
+    /// Each probe's node and its rows (run-wide frame index; u, v, omega,
+    /// NaN where the node had no sample), in frame order.
+    pub fn probe_series(&self) -> Vec<(usize, &[(u64, [f64; 3])])> {
+        self.traces
+            .iter()
+            .map(|t| (t.node, t.rows.as_slice()))
+            .collect()
     }
 
     /// Names of the derived quantities, in column order.

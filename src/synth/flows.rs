@@ -120,6 +120,36 @@ pub fn taylor_green(x: f64, y: f64, t: f64, u0: f64, k: f64, nu: f64) -> Sample 
     }
 }
 
+/// A Lamb–Oseen vortex at the origin diffusing in still fluid (Saffman
+/// 1992, *Vortex Dynamics* §1.3: the exact solution of the Navier–Stokes
+/// equations for a line vortex): at time `t` the core radius is
+/// `rc² = rc0² + 4 nu t` and the field is `lamb_oseen` with that core, so
+/// `omega = gamma / (pi rc²) exp(-r²/rc²)` and `d omega/dt = nu lap(omega)`
+/// exactly, with no advection and no stretching. The circulation `gamma`
+/// is constant.
+pub fn diffusing_vortex(x: f64, y: f64, t: f64, gamma: f64, rc0: f64, nu: f64) -> Sample {
+    let rc = (rc0 * rc0 + 4.0 * nu * t).sqrt();
+    lamb_oseen(x, y, 0.0, 0.0, gamma, rc)
+}
+
+/// The Burgers vortex (Burgers 1948, Adv. Appl. Mech. 1:171; the steady
+/// solution as given in Saffman 1992 §1.3) at the origin, in the plane
+/// z = 0: axial strain `alpha` (w = alpha z), radial inflow
+/// `u_r = -alpha r / 2` and the Lamb–Oseen swirl and vorticity of core
+/// radius `rc = sqrt(4 nu / alpha)`. Steady: the advection by the inflow
+/// balances the stretching `alpha omega` and the diffusion `nu lap(omega)`,
+/// `u . grad(omega) = alpha omega + nu lap(omega)`. The in-plane divergence
+/// is `-alpha` everywhere.
+pub fn burgers(x: f64, y: f64, gamma: f64, alpha: f64, nu: f64) -> Sample {
+    let rc = (4.0 * nu / alpha).sqrt();
+    let s = lamb_oseen(x, y, 0.0, 0.0, gamma, rc);
+    Sample {
+        u: s.u - 0.5 * alpha * x,
+        v: s.v - 0.5 * alpha * y,
+        omega: s.omega,
+    }
+}
+
 /// A staggered double row of Lamb–Oseen vortices convecting over a uniform
 /// stream: our model of the wake behind a circular cylinder (diameter `d`,
 /// centre at the origin, stream `u_inf` along +x).

@@ -21,6 +21,12 @@
 //! - `taylor-green`: the decaying Taylor–Green array in water.
 //! - `uniform`: a uniform stream at 20 degrees to x (no gradients: any
 //!   derived value is pure error).
+//! - `diffusing-vortex`: a Lamb–Oseen vortex diffusing in still water, core
+//!   radius `sqrt(rc0² + 4 nu t)` (Saffman 1992); with `--frame-rate` high
+//!   enough, a time-resolved run whose budget is `d omega/dt = nu lap omega`.
+//! - `burgers`: the steady Burgers vortex (Burgers 1948) in water: radial
+//!   inflow, stretching and diffusion balance. Both write `viscosity` into
+//!   `[run.conditions]` and a `[budget]` of the middle frame.
 //!
 //! Options for the coverage study (`coverage`): the vortex's core radius in
 //! grid pitches (`core_pitches`), a pulsing vortex with phases (`pulse`),
@@ -213,3 +219,5 @@ pub fn generate(opts: &SynthOptions, out: &Path) -> Result<SynthSummary> {
 
 #[cfg(test)]
 mod tests;
+#[cfg(test)]
+mod tests_viscous;

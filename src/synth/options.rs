@@ -18,16 +18,22 @@ pub enum Scenario {
     TaylorGreen,
     /// A uniform stream (no gradients at all): the speed at 20 degrees to x.
     Uniform,
+    /// A Lamb–Oseen vortex diffusing in still water (its core grows with time).
+    DiffusingVortex,
+    /// The steady Burgers vortex: swirl, radial inflow and axial strain.
+    Burgers,
 }
 
 impl Scenario {
-    pub const NAMES: [&'static str; 6] = [
+    pub const NAMES: [&'static str; 8] = [
         "wake",
         "vortex",
         "solid-body",
         "cylinder",
         "taylor-green",
         "uniform",
+        "diffusing-vortex",
+        "burgers",
     ];
 
     pub fn name(self) -> &'static str {
@@ -38,6 +44,8 @@ impl Scenario {
             Scenario::Cylinder => "cylinder",
             Scenario::TaylorGreen => "taylor-green",
             Scenario::Uniform => "uniform",
+            Scenario::DiffusingVortex => "diffusing-vortex",
+            Scenario::Burgers => "burgers",
         }
     }
 
@@ -57,6 +65,8 @@ impl FromStr for Scenario {
             "cylinder" => Scenario::Cylinder,
             "taylor-green" => Scenario::TaylorGreen,
             "uniform" => Scenario::Uniform,
+            "diffusing-vortex" => Scenario::DiffusingVortex,
+            "burgers" => Scenario::Burgers,
             other => {
                 return Err(Error::usage(format!(
                     "scenario '{other}' is not known; expected one of {}",

@@ -67,6 +67,14 @@ pub fn describe(setup: &RunSetup) -> String {
             "decaying Taylor-Green array, amplitude {u0} m/s, wavelength {:.3} mm, nu = {nu:e} m^2/s",
             std::f64::consts::TAU / k * 1e3
         ),
+        Flow::Diffusing { gamma, rc0, nu } => format!(
+            "Lamb-Oseen vortex diffusing in still water, circulation {gamma:.4e} m^2/s, core radius {:.3} mm at t = 0 (rc^2 = rc0^2 + 4 nu t), nu = {nu:e} m^2/s",
+            rc0 * 1e3
+        ),
+        Flow::Burgers { gamma, alpha, nu } => format!(
+            "steady Burgers vortex, circulation {gamma:.4e} m^2/s, axial strain {alpha:.5} 1/s, core radius {:.3} mm, nu = {nu:e} m^2/s",
+            (4.0 * nu / alpha).sqrt() * 1e3
+        ),
     }
 }
 
@@ -153,6 +161,13 @@ pub fn pipeline_toml(opts: &SynthOptions, runs: &[RunSetup], prefix: &str) -> St
         t.push_str(&format!("\n[phase]\nbins = {}\n", opts.phase_bins));
     }
     t.push_str("\n[output]\nframe_fields = false\n");
+    if matches!(opts.scenario, Scenario::DiffusingVortex | Scenario::Burgers) {
+        // the instantaneous budget of the middle frame (and its neighbours)
+        t.push_str(&format!(
+            "\n[budget]                      # docs/budget.md\nframes = [{}]\n",
+            opts.frames / 2
+        ));
+    }
     // The validation this data was made for: the outliers synth plants are
     // random vectors, which the normalized median test (Westerweel &
     // Scarano 2005: threshold 2, eps 0.1 px, common practice) finds; eps is
@@ -174,6 +189,12 @@ pub fn pipeline_toml(opts: &SynthOptions, runs: &[RunSetup], prefix: &str) -> St
             describe(r),
             tidy(r.pulse_separation)
         ));
+        if let Flow::Diffusing { nu, .. } | Flow::Burgers { nu, .. } = r.flow {
+            t.push_str(&format!(
+                "[run.conditions]\nviscosity = {}          # m^2/s, as generated\n",
+                tidy(nu)
+            ));
+        }
     }
     t
 }

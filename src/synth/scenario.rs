@@ -48,6 +48,12 @@ pub enum Flow {
     Cylinder { radius: f64, u_inf: f64 },
     /// The decaying Taylor–Green array.
     TaylorGreen { u0: f64, k: f64, nu: f64 },
+    /// A Lamb–Oseen vortex at the origin diffusing in still fluid: core
+    /// radius `sqrt(rc0² + 4 nu t)` (`flows::diffusing_vortex`).
+    Diffusing { gamma: f64, rc0: f64, nu: f64 },
+    /// The steady Burgers vortex at the origin, axial strain `alpha`
+    /// (`flows::burgers`).
+    Burgers { gamma: f64, alpha: f64, nu: f64 },
 }
 
 /// Everything about one run that does not change from frame to frame.
@@ -135,6 +141,12 @@ impl RunSetup {
                     }
                     Flow::TaylorGreen { u0, k, nu } => {
                         Some(flows::taylor_green(x, y, t, u0, k, nu))
+                    }
+                    Flow::Diffusing { gamma, rc0, nu } => {
+                        Some(flows::diffusing_vortex(x, y, t, gamma, rc0, nu))
+                    }
+                    Flow::Burgers { gamma, alpha, nu } => {
+                        Some(flows::burgers(x, y, gamma, alpha, nu))
                     }
                 };
                 let s = s.unwrap_or(Sample {
@@ -284,6 +296,7 @@ pub fn setup_run(opts: &SynthOptions, speed: f64) -> Result<RunSetup> {
             },
             2.0 * speed,
         ),
+        Scenario::DiffusingVortex | Scenario::Burgers => viscous_vortex(opts, half_h, pitch, speed),
         Scenario::TaylorGreen => {
             // one wavelength across the domain height
             let k = std::f64::consts::TAU / (2.0 * half_h + pitch);
@@ -308,6 +321,26 @@ pub fn setup_run(opts: &SynthOptions, speed: f64) -> Result<RunSetup> {
         noise_sigma: opts.noise_px * px_velocity,
         flow,
     })
+}
+
+/// The diffusing Lamb–Oseen and Burgers vortices: core radius (at t = 0)
+/// an eighth of the domain height, or `core_pitches` pitches; peak swirl
+/// `speed`; water. The Burgers vortex's strain follows from its core,
+/// `alpha = 4 nu / rc²` (Burgers 1948).
+fn viscous_vortex(opts: &SynthOptions, half_h: f64, pitch: f64, speed: f64) -> (Flow, f64) {
+    let rc = opts.core_pitches.map_or(half_h / 4.0, |c| c * pitch);
+    let gamma = 2.0 * std::f64::consts::PI * rc * speed / flows::LAMB_OSEEN_PEAK_SWIRL;
+    let nu = NU_WATER;
+    let flow = if opts.scenario == Scenario::Burgers {
+        Flow::Burgers {
+            gamma,
+            alpha: 4.0 * nu / (rc * rc),
+            nu,
+        }
+    } else {
+        Flow::Diffusing { gamma, rc0: rc, nu }
+    };
+    (flow, speed)
 }
 
 #[cfg(test)]

@@ -17,6 +17,8 @@ mod reference;
 mod reliability;
 mod resolved;
 mod run;
+mod scales;
 mod spectra;
 mod truth;
 mod values;
+mod vortices;

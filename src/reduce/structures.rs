@@ -1,0 +1,133 @@
+//! Finishing a run's coherent structures and scales: the POD (`modes`),
+//! the two-point statistics at the probes (`scales`) and the spectra of a
+//! time-resolved run (`spectra::run`), with their tables in `<run>/`.
+//!
+//! Owns: which of them run and the series handed to the spectra. Does not
+//! own any numerics. Tables: `modes::output` (POD), `correlation.csv` and
+//! `scales.csv` (`scales::finish`), `spectra.csv` and `spectral-peaks.csv`
+//! (`spectra::run`); docs/modes.md describes every column.
+
+use std::path::Path;
+
+use crate::error::Result;
+use crate::io;
+use crate::modes::ModeSketch;
+use crate::plan::RunPlan;
+use crate::result::{RunResult, Structures};
+use crate::scales::CorrAcc;
+use crate::spectra::run as spec;
+use crate::stats::RunAccumulator;
+
+/// The run's accumulated parts that structures are made from.
+pub struct Parts<'a> {
+    pub acc: &'a RunAccumulator,
+    pub sketch: Option<&'a ModeSketch>,
+    pub corr: Option<&'a CorrAcc>,
+}
+
+/// Finishes and writes the structures of `rr` into `dir`; warnings are
+/// prefixed with the run.
+pub fn finish(
+    rp: &RunPlan,
+    rr: &RunResult,
+    parts: Parts,
+    dir: &Path,
+) -> Result<(Structures, Vec<String>)> {
+    let mut st = Structures {
+        figure_modes: rp.modes.figure_modes,
+        ..Structures::default()
+    };
+    let mut warnings = Vec::new();
+    if let Some(s) = parts.sketch {
+        let (pod, est, w) = crate::modes::write_run(s, rp, &rr.frames, &rr.grid, dir)?;
+        warnings.extend(w);
+        st.pod = Some(pod);
+        st.phase = est;
+    }
+    if let Some(c) = parts.corr {
+        let s = crate::scales::finish(c);
+        io::write_csv(
+            &dir.join("correlation.csv"),
+            &crate::scales::finish::correlation_table(&s),
+        )?;
+        io::write_csv(
+            &dir.join("scales.csv"),
+            &crate::scales::finish::scales_table(&s),
+        )?;
+        st.scales = Some(s);
+    }
+    let mut sw = Vec::new();
+    st.spectra = run_spectra(rp, rr, parts.acc, st.pod.as_ref(), &mut sw)?;
+    warnings.extend(sw.into_iter().map(|w| format!("run '{}': {w}", rr.id)));
+    if let Some(s) = &st.spectra {
+        io::write_csv(&dir.join("spectra.csv"), &spec::spectra_table(s))?;
+        io::write_csv(&dir.join("spectral-peaks.csv"), &spec::peaks_table(s))?;
+    }
+    Ok((st, warnings))
+}
+
+/// Whether the spectra run, and the series (see `spectra::run`).
+fn run_spectra(
+    rp: &RunPlan,
+    rr: &RunResult,
+    acc: &RunAccumulator,
+    pod: Option<&crate::modes::Pod>,
+    warnings: &mut Vec<String>,
+) -> Result<Option<spec::RunSpectra>> {
+    let p = &rp.spectra;
+    let probes = acc.probe_series();
+    if p.enabled == Some(false) || (p.enabled.is_none() && probes.is_empty() && pod.is_none()) {
+        return Ok(None);
+    }
+    let times: Vec<Option<f64>> = rr.frames.iter().map(|f| f.meta.time_s).collect();
+    let fs = match spec::clock(&times) {
+        Ok(fs) => fs,
+        Err(why) => {
+            if p.enabled == Some(true) {
+                warnings.push(format!("no spectra: {why}"));
+            }
+            return Ok(None);
+        }
+    };
+    // Position of each run-wide frame index on the clock.
+    let pos = |index: u64| rr.frames.iter().position(|f| f.meta.index as u64 == index);
+    let n = rr.frames.len();
+    let mut series = Vec::new();
+    for (k, (_, rows)) in probes.iter().enumerate() {
+        for (c, name) in ["u", "v"].iter().enumerate() {
+            let mut x = vec![f64::NAN; n];
+            for (idx, vals) in rows.iter() {
+                if let Some(i) = pos(*idx) {
+                    x[i] = vals[c];
+                }
+            }
+            series.push((format!("probe{k}_{name}"), "m/s".to_string(), x));
+        }
+    }
+    if let Some(pod) = pod {
+        for j in 0..p.modes.min(pod.energy.len()) {
+            let mut x = vec![f64::NAN; n];
+            for (f, &idx) in pod.frame_index.iter().enumerate() {
+                if let Some(i) = pos(idx) {
+                    x[i] = pod.coefficients[f][j];
+                }
+            }
+            series.push((format!("a{}", j + 1), "m/s".to_string(), x));
+        }
+    }
+    let mut out = spec::spectra(p, fs, rp.stats.coverage, series, warnings)?;
+    if let Some(s) = out.as_mut() {
+        s.scales = rr.conditions.scales();
+        s.reference = crate::report::conditions::run_frequency(rr).map(|(f, src)| {
+            use crate::report::conditions::FrequencySource;
+            (
+                f,
+                match src {
+                    FrequencySource::Given => "given",
+                    FrequencySource::Estimated => "frame table",
+                },
+            )
+        });
+    }
+    Ok(out)
+}

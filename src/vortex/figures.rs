@@ -1,0 +1,232 @@
+//! The vortex figures: the tracks over the mean vorticity, and the
+//! circulation and core radius along each track with uncertainty bands.
+//!
+//! Owns: which vortex figures a run gets. Does not own: pixels
+//! (`plot::draw`, `plot::lines`) or the numbers (`vortex`).
+//!
+//! Tracks are drawn as lines through the cores' centroids, anticlockwise
+//! ones (positive vorticity) dark red, clockwise ones dark blue, over the
+//! mean vorticity on the diverging map with symmetric limits; the mean
+//! field's own cores are ringed in black. The line charts show the six
+//! longest tracks (3 points or more) against time when the run has a
+//! frequency, against phase otherwise; bands are ±1 standard uncertainty.
+//! The radius is the Lamb-Oseen fit's `rc` where the fit succeeded.
+
+use std::path::Path;
+
+use plotters::coord::Shift;
+use plotters::prelude::*;
+
+use super::{SliceKind, Track, Vortices};
+use crate::error::Result;
+use crate::plot::colormap::TIDE;
+use crate::plot::draw::{
+    draw_colorbar, draw_map_over, write_figure, Curve, DrawResult, Figure, LineFigure, LinePanel,
+    MapLayout, MapPanel, Overlay, RUN_COLORS,
+};
+use crate::plot::{figure_ref, quantile, Params, Units};
+use crate::result::{FigureRef, RunResult};
+
+/// One map with an overlay and its colour bar.
+struct TrackMap<'a> {
+    panel: MapPanel<'a>,
+    over: Overlay,
+    axes: crate::plot::draw::Axes,
+    bar: String,
+    layout: MapLayout,
+}
+
+impl Figure for TrackMap<'_> {
+    fn size(&self) -> (u32, u32) {
+        self.layout.size(0)
+    }
+    fn draw<DB: DrawingBackend>(&self, root: &DrawingArea<DB, Shift>) -> DrawResult<DB> {
+        let (w, _) = self.size();
+        let (maps, bar) = root.split_horizontally(w - self.layout.bar_w);
+        let (cw, ch) = self.layout.cell();
+        let cell = maps.clone().shrink((0, 0), (cw, ch));
+        draw_map_over(
+            &cell,
+            &self.panel,
+            &self.axes,
+            &self.layout,
+            Some(&self.over),
+        )?;
+        let bar_area = bar.clone().shrink((0, 0), (self.layout.bar_w, ch));
+        draw_colorbar(
+            &bar_area,
+            self.panel.cmap,
+            self.panel.range,
+            &self.bar,
+            34,
+            self.layout.bottom,
+        )
+    }
+}
+
+const POSITIVE: RGBColor = RGBColor(150, 20, 30);
+const NEGATIVE: RGBColor = RGBColor(20, 40, 140);
+
+/// Writes the vortex figures of `run` into `out/<run id>/figures/`.
+pub fn draw(p: &Params, run: &RunResult, out: &Path) -> Result<Vec<FigureRef>> {
+    let Some(v) = &run.vortices else {
+        return Ok(Vec::new());
+    };
+    let dir = out.join(&run.id).join("figures");
+    let mut figs = Vec::new();
+    let units = Units::new(p, run);
+    if let Some(fig) = track_map(p, run, v, units) {
+        let paths = write_figure(&fig, &dir, "vortex-tracks")?;
+        let cap = format!(
+            "Vortex tracks over the mean vorticity: lines join each core's vorticity-weighted centroid from phase bin to phase bin (red anticlockwise, blue clockwise); rings mark the cores of the mean field. Cores are regions of |Gamma2| > {:.3} (Graftieaux et al. 2001).",
+            v.params.threshold
+        );
+        figs.push(figure_ref(out, paths, "Vortex tracks", cap));
+    }
+    if let Some(fig) = along_tracks(p, v) {
+        let paths = write_figure(&fig, &dir, "vortex-circulation")?;
+        let cap = "Circulation of each core's region and its Lamb-Oseen core radius along the longest tracks; bands are ±1 standard uncertainty (the circulation's carries the neighbour correlation of the vorticity errors). The region's circulation is that inside |Gamma2| > 2/pi, about 70 % of a Lamb-Oseen vortex's total.".to_string();
+        figs.push(figure_ref(
+            out,
+            paths,
+            "Circulation and radius along the tracks",
+            cap,
+        ));
+    }
+    Ok(figs)
+}
+
+fn track_map<'a>(
+    p: &Params,
+    run: &'a RunResult,
+    v: &Vortices,
+    units: Units,
+) -> Option<TrackMap<'a>> {
+    let e = &run.stats.ensemble;
+    let (wf, wu) = units.vorticity();
+    let vals: Vec<f64> = e.get("omega_mean")?.iter().map(|w| w * wf).collect();
+    let lim = p.vorticity_limit.map(|l| l * wf).unwrap_or_else(|| {
+        quantile(vals.iter().map(|x| x.abs()), 0.99)
+            .filter(|l| *l > 0.0)
+            .unwrap_or(1.0)
+    });
+    let colour = |s: i8| if s > 0 { POSITIVE } else { NEGATIVE };
+    let lines = v
+        .tracks
+        .iter()
+        .map(|t| {
+            let pts = t
+                .points
+                .iter()
+                .map(|q| {
+                    let c = &v.slices[q.slice].cores[q.core];
+                    (c.x, c.y)
+                })
+                .collect();
+            (pts, colour(t.sign))
+        })
+        .collect();
+    let points = v
+        .slices
+        .iter()
+        .filter(|s| s.kind == SliceKind::Mean)
+        .flat_map(|s| s.cores.iter().map(|c| ((c.x, c.y), BLACK)))
+        .collect();
+    let panel = MapPanel {
+        title: "Vortex tracks over the mean vorticity".into(),
+        grid: e.grid,
+        values: vals,
+        cmap: &TIDE,
+        range: (-lim, lim),
+        vectors: None,
+        faded: None,
+        mask: run.mask.clone(),
+    };
+    let layout = MapLayout::new(&e.grid, 1, 1, p.width);
+    Some(TrackMap {
+        panel,
+        over: Overlay { lines, points },
+        axes: units.axes(),
+        bar: format!("ω {wu}"),
+        layout,
+    })
+}
+
+fn along_tracks(p: &Params, v: &Vortices) -> Option<LineFigure> {
+    let mut long: Vec<&Track> = v.tracks.iter().filter(|t| t.points.len() >= 3).collect();
+    if long.is_empty() {
+        return None;
+    }
+    long.sort_by_key(|t| std::cmp::Reverse(t.points.len()));
+    long.truncate(6);
+    let timed = long
+        .iter()
+        .all(|t| t.points.iter().all(|q| q.time_s.is_finite()));
+    let x_of = |t: &Track, k: usize| {
+        let q = t.points[k];
+        if timed {
+            q.time_s
+        } else {
+            // phase unwrapped: bins in order, wrapping adds 360
+            let deg = match v.slices[q.slice].kind {
+                SliceKind::Bin { phase_deg, .. } => phase_deg,
+                _ => f64::NAN,
+            };
+            let wraps = t.points[..=k]
+                .windows(2)
+                .filter(|w| w[1].slice < w[0].slice)
+                .count();
+            deg + 360.0 * wraps as f64
+        }
+    };
+    let curve = |t: &Track, n: usize, f: &dyn Fn(&super::Core) -> (f64, f64)| {
+        let pts: Vec<(f64, f64, f64)> = (0..t.points.len())
+            .map(|k| {
+                let q = t.points[k];
+                let (val, unc) = f(&v.slices[q.slice].cores[q.core]);
+                (x_of(t, k), val, unc)
+            })
+            .collect();
+        Curve {
+            label: format!("track {} ({})", t.id, if t.sign > 0 { "+" } else { "−" }),
+            xy: pts.iter().map(|q| (q.0, q.1)).collect(),
+            band: Some(pts.iter().map(|q| (q.0, q.1 - q.2, q.1 + q.2)).collect()),
+            color: RUN_COLORS[n % RUN_COLORS.len()],
+            markers: false,
+        }
+    };
+    let x_label = if timed { "t (s)" } else { "phase (deg)" }.to_string();
+    let circ = LinePanel {
+        title: "Circulation of the core".into(),
+        x_label: x_label.clone(),
+        y_label: "Γ (m²/s)".into(),
+        curves: long
+            .iter()
+            .enumerate()
+            .map(|(n, t)| curve(t, n, &|c| (c.circulation, c.circulation_unc)))
+            .collect(),
+        x_names: None,
+    };
+    let rad = LinePanel {
+        title: "Lamb-Oseen core radius".into(),
+        x_label,
+        y_label: "rc (mm)".into(),
+        curves: long
+            .iter()
+            .enumerate()
+            .map(|(n, t)| {
+                curve(t, n, &|c| {
+                    c.fit
+                        .map_or((f64::NAN, f64::NAN), |f| (f.rc * 1e3, f.rc_unc * 1e3))
+                })
+            })
+            .collect(),
+        x_names: None,
+    };
+    Some(LineFigure {
+        heading: None,
+        panels: vec![circ, rad],
+        width: p.width,
+        height: p.width * 9 / 20,
+    })
+}

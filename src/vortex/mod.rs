@@ -1,0 +1,205 @@
+//! Vortex cores: found in a mean field, measured, and tracked across the
+//! phase bins (or frames) of a run.
+//!
+//! Owns: the one mechanism that turns a field (`Slice`: u, v, omega and
+//! its uncertainty on a grid) into cores, and cores into tracks.
+//! - `label`: connected regions of a node mask (4-connectivity by default).
+//! - `corr`: the spatial correlation of the omega errors that the run's
+//!   stencils and noise model imply (for the circulation's uncertainty).
+//! - `core`: each region's centre, circulation, radii, peak vorticity,
+//!   each with a propagated standard uncertainty; `fit`: a Lamb-Oseen fit.
+//! - `track`: cores matched from slice to slice by predicted position.
+//! - `budget`: the circulation budget of each core (issue 13) from the
+//!   vorticity transport budget's per-node terms.
+//! - `run`: the glue a run calls; `table`: the output tables;
+//!   `figures`: the figures.
+//!
+//! Does not own: the statistics that make the mean fields (`stats`), the
+//! budget's terms (`budget`), Gamma1/Gamma2 themselves
+//! (`derive::quantities::gamma`), files (`io`).
+//!
+//! Identification (Graftieaux, Michard & Grosjean 2001, Meas. Sci. Technol.
+//! 12:1422): a core is a connected region where `|Gamma2| > 2/pi` (the
+//! threshold at which rotation dominates strain in the disc around a node),
+//! all nodes of one sign, at least `min_nodes` nodes, every node with a
+//! finite omega. Gamma2 is taken from the slice's own mean velocity (the
+//! phase-mean field, not the mean of instantaneous Gamma2), over a disc of
+//! `[derivatives] gamma_radius` nodes. See docs/vortices.md.
+
+pub mod budget;
+pub mod core;
+pub mod corr;
+pub mod figures;
+pub mod fit;
+pub mod label;
+pub mod run;
+pub mod table;
+pub mod track;
+
+#[cfg(test)]
+mod tests;
+
+pub use self::core::Core;
+pub use label::Connectivity;
+pub use track::Track;
+
+use crate::field::Grid;
+
+/// Resolved `[vortices]` parameters.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct Params {
+    /// Threshold on |Gamma2| (default 2/pi).
+    pub threshold: f64,
+    /// Smallest region kept, in nodes (default 4).
+    pub min_nodes: usize,
+    /// Which neighbours join a region (default 4-connectivity).
+    pub connectivity: Connectivity,
+    /// Tracking gate: the largest distance between a core and the track's
+    /// predicted position, in grid pitches (default 3).
+    pub gate: f64,
+    /// Fit a Lamb-Oseen vortex to each core (default true).
+    pub fit: bool,
+}
+
+impl Default for Params {
+    fn default() -> Self {
+        Params {
+            threshold: 2.0 / std::f64::consts::PI,
+            min_nodes: 4,
+            connectivity: Connectivity::Four,
+            gate: 3.0,
+            fit: true,
+        }
+    }
+}
+
+impl Params {
+    /// The parameters in plain words, for `curlew check` and the report.
+    pub fn describe(&self) -> String {
+        format!(
+            "vortex cores: connected regions ({}) of |Gamma2| > {:.4} with at least {} nodes; circulation, centre, radii{}; tracked across slices within {} grid pitches of the predicted position",
+            self.connectivity.describe(),
+            self.threshold,
+            self.min_nodes,
+            if self.fit { ", Lamb-Oseen fit" } else { "" },
+            self.gate
+        )
+    }
+}
+
+/// What a slice is: the run's mean, a phase bin or a frame.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum SliceKind {
+    Mean,
+    /// Phase bin `bin` centred on `phase_deg`.
+    Bin {
+        bin: usize,
+        phase_deg: f64,
+    },
+    /// Frame `index` (run-wide, 0-based).
+    Frame {
+        index: u64,
+    },
+}
+
+/// One field in which cores are found. Arrays are row-major over `grid`
+/// (node `k = j nx + i`), NaN where there is no value. `omega_unc` is the
+/// standard uncertainty of `omega` (NaN: unknown).
+#[derive(Debug, Clone, Copy)]
+pub struct Slice<'a> {
+    pub kind: SliceKind,
+    /// Time of the slice in s: `phase / (2 pi f)` for a bin, the frame's
+    /// time for a frame, NaN when unknown (and for the mean).
+    pub time_s: f64,
+    pub grid: Grid,
+    pub u: &'a [f64],
+    pub v: &'a [f64],
+    pub omega: &'a [f64],
+    pub omega_unc: &'a [f64],
+}
+
+/// The cores of one slice.
+#[derive(Debug, Clone)]
+pub struct SliceCores {
+    pub kind: SliceKind,
+    pub time_s: f64,
+    pub cores: Vec<Core>,
+}
+
+/// Everything the vortex analysis found in a run.
+#[derive(Debug, Clone)]
+pub struct Vortices {
+    pub grid: Grid,
+    /// The mean field's cores first, then one entry per phase bin (or
+    /// frame), in order.
+    pub slices: Vec<SliceCores>,
+    /// Tracks over the phase bins (or frames).
+    pub tracks: Vec<Track>,
+    /// Per-core circulation budget, when the run has a budget.
+    pub budget: Vec<budget::CoreBudget>,
+    pub params: Params,
+    /// The error-correlation model the circulation's uncertainty used,
+    /// in words.
+    pub correlation: String,
+    pub warnings: Vec<String>,
+}
+
+/// Finds and measures the cores of `s`: the one entry point of the
+/// identification (used for mean fields, phase bins, frames and the budget's
+/// slices alike). `gamma_radius` is the Gamma1/Gamma2 disc radius in nodes.
+pub fn find_cores(
+    s: &Slice,
+    p: &Params,
+    gamma_radius: usize,
+    corr: &corr::OmegaCorrelation,
+) -> Vec<Core> {
+    let g = s.grid;
+    let arr = |d: &[f64]| {
+        ndarray::Array2::from_shape_vec(g.shape(), d.to_vec()).expect("slice has the grid's nodes")
+    };
+    let (u, v) = (arr(s.u), arr(s.v));
+    let ok = ndarray::Zip::from(&u)
+        .and(&v)
+        .map_collect(|a, b| a.is_finite() && b.is_finite());
+    let (g1, g2) = crate::derive::quantities::gamma(&u, &v, &ok, gamma_radius, g.dx, g.dy);
+    let mask: Vec<i8> = g2
+        .iter()
+        .zip(s.omega)
+        .map(|(&x, &w)| {
+            if !w.is_finite() || !x.is_finite() || x.abs() <= p.threshold {
+                0
+            } else if x > 0.0 {
+                1
+            } else {
+                -1
+            }
+        })
+        .collect();
+    let g1: Vec<f64> = g1.iter().copied().collect();
+    let g2: Vec<f64> = g2.iter().copied().collect();
+    label::regions(&mask, g.nx, g.ny, p.connectivity)
+        .into_iter()
+        .filter(|r| r.nodes.len() >= p.min_nodes)
+        .map(|r| {
+            let mut c = core::measure(&r, s, &g1, corr, p.fit);
+            c.edge = touches_edge(&r.nodes, g, s.omega, &g2);
+            c
+        })
+        .collect()
+}
+
+/// Does a region touch the end of the data: a node whose 4-neighbour is
+/// off the grid or has no vorticity or no Gamma2 (the field's edge, a mask,
+/// a gap)? Such a core is cut: its centroid is pulled inward and its
+/// circulation is low.
+fn touches_edge(nodes: &[usize], g: Grid, omega: &[f64], g2: &[f64]) -> bool {
+    nodes.iter().any(|&k| {
+        let (j, i) = (k / g.nx, k % g.nx);
+        if j == 0 || i == 0 || j + 1 == g.ny || i + 1 == g.nx {
+            return true;
+        }
+        [k - 1, k + 1, k - g.nx, k + g.nx]
+            .iter()
+            .any(|&n| !omega[n].is_finite() || !g2[n].is_finite())
+    })
+}

@@ -1,0 +1,173 @@
+//! The vortex analysis's place in a run: from the finished statistics (and
+//! budget) to `Vortices`, what `curlew check` says, and the report's words.
+//!
+//! Owns: the glue `reduce` calls (a few lines there). Does not own the
+//! numerics (`core`, `track`, `budget`) or the tables (`table`).
+//!
+//! Slices: the run's mean field (`ensemble`: u_mean, v_mean, omega_mean,
+//! omega_mean_unc), then each phase bin's mean field (`phase`), in bin
+//! order. Bin times are `phase / (2 pi f)` with f from `[run.conditions]
+//! frequency`; without f the tracks have no velocity.
+
+use super::corr::OmegaCorrelation;
+use super::{find_cores, track, Params, Slice, SliceCores, SliceKind, Vortices};
+use crate::field::NodeTable;
+use crate::plan::RunPlan;
+use crate::result::RunResult;
+
+/// The slice of a node table's mean columns, or `None` when one is missing.
+fn slice_of(t: &NodeTable, kind: SliceKind, time_s: f64) -> Option<Slice<'_>> {
+    Some(Slice {
+        kind,
+        time_s,
+        grid: t.grid,
+        u: t.get("u_mean")?,
+        v: t.get("v_mean")?,
+        omega: t.get("omega_mean")?,
+        omega_unc: t.get("omega_mean_unc")?,
+    })
+}
+
+/// The vortex analysis of a finished run, when the run asks for one.
+pub fn analyse(rr: &RunResult, rp: &RunPlan) -> Option<Vortices> {
+    let p: &Params = rp.vortices.as_ref()?;
+    let g = rr.grid;
+    let corr = OmegaCorrelation::for_run(&rp.derive, &g);
+    let radius = rp.derive.gamma_radius;
+    let f = rp.conditions.frequency;
+    let mut warnings = Vec::new();
+    let mut slices = Vec::new();
+    let find = |s: Option<Slice>| s.map(|s| find_cores(&s, p, radius, &corr));
+    match find(slice_of(&rr.stats.ensemble, SliceKind::Mean, f64::NAN)) {
+        Some(cores) => slices.push(SliceCores {
+            kind: SliceKind::Mean,
+            time_s: f64::NAN,
+            cores,
+        }),
+        None => warnings.push("vortices: the mean field has no u_mean, v_mean, omega_mean or omega_mean_unc column; no cores".into()),
+    }
+    for b in &rr.stats.phase {
+        let kind = SliceKind::Bin {
+            bin: b.bin,
+            phase_deg: b.centre_deg,
+        };
+        let t = f.map_or(f64::NAN, |f| b.centre_deg / 360.0 / f);
+        if let Some(cores) = find(slice_of(&b.table, kind, t)) {
+            slices.push(SliceCores {
+                kind,
+                time_s: t,
+                cores,
+            });
+        }
+    }
+    let seq: Vec<SliceCores> = slices
+        .iter()
+        .filter(|s| s.kind != SliceKind::Mean)
+        .cloned()
+        .collect();
+    let gate = p.gate * g.dx.max(g.dy);
+    let mut tracks = track::track(&seq, gate, f.map(|f| 1.0 / f));
+    // Track points index the sequence; the sequence is `slices` after the mean.
+    let offset = slices.len() - seq.len();
+    for t in &mut tracks {
+        for q in &mut t.points {
+            q.slice += offset;
+        }
+    }
+    if !rr.stats.phase.is_empty() && f.is_none() {
+        warnings.push("vortices: no [run.conditions] frequency: tracks have no convection speed or core growth".into());
+    }
+    let budget = rr
+        .budget
+        .as_ref()
+        .map(|b| super::budget::core_budgets(b, p, radius, f))
+        .unwrap_or_default();
+    Some(Vortices {
+        grid: g,
+        slices,
+        tracks,
+        budget,
+        params: p.clone(),
+        correlation: corr.description,
+        warnings,
+    })
+}
+
+/// What `curlew check` says about the vortex analysis of a run.
+pub fn check_lines(rp: &RunPlan, has_phase: bool) -> Vec<String> {
+    let Some(p) = &rp.vortices else {
+        return Vec::new();
+    };
+    let mut out = vec![format!("vortices: {}", p.describe())];
+    if has_phase {
+        out.push("vortices: cores in the mean field and in every phase-bin mean; tracks across the bins (periodic)".into());
+        if rp.conditions.frequency.is_none() {
+            out.push("vortices: no [run.conditions] frequency: tracks will have no convection speed or core growth".into());
+        }
+    } else {
+        out.push(
+            "vortices: the frames have no phases: cores in the mean field only, no tracks".into(),
+        );
+    }
+    if rp.budget.is_some() {
+        out.push("vortices: circulation budget of every core of every budget slice (circulation-budget.csv)".into());
+    }
+    out
+}
+
+/// The report's paragraph in plain words.
+pub fn words(v: &Vortices) -> String {
+    use crate::describe::num;
+    let n_mean = v
+        .slices
+        .iter()
+        .find(|s| s.kind == SliceKind::Mean)
+        .map_or(0, |s| s.cores.len());
+    let n_bins = v
+        .slices
+        .iter()
+        .filter(|s| s.kind != SliceKind::Mean)
+        .count();
+    let total: usize = v.slices.iter().map(|s| s.cores.len()).sum::<usize>() - n_mean;
+    let mut s = format!(
+        "The mean field holds {n_mean} vortex core{}; the {n_bins} phase-bin means hold {total} in all. ",
+        if n_mean == 1 { "" } else { "s" }
+    );
+    let long: Vec<&track::Track> = v.tracks.iter().filter(|t| t.points.len() >= 3).collect();
+    if !long.is_empty() {
+        s += &format!(
+            "{} track{} span three bins or more. ",
+            long.len(),
+            if long.len() == 1 { "" } else { "s" }
+        );
+    }
+    if let Some(t) = long
+        .iter()
+        .filter(|t| t.velocity.is_some())
+        .max_by_key(|t| t.points.len())
+    {
+        let [a, b] = t.velocity.expect("filtered");
+        s += &format!(
+            "The longest (track {}, {} points) convects at ({} ± {}, {} ± {}) m/s",
+            t.id,
+            t.points.len(),
+            num(a.value, 3),
+            num(a.unc, 2),
+            num(b.value, 3),
+            num(b.unc, 2)
+        );
+        if let Some(gr) = t.growth {
+            s += &format!(
+                "; its fitted core radius squared grows at {} ± {} m²/s (a Lamb-Oseen core in a fluid of viscosity nu grows at 4 nu)",
+                num(gr.value, 3),
+                num(gr.unc, 2)
+            );
+        }
+        s += ". ";
+    }
+    s += &format!(
+        "Circulation uncertainties carry the neighbour correlation: {}.",
+        v.correlation
+    );
+    s
+}
