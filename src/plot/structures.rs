@@ -325,6 +325,7 @@ fn mode_maps(p: &Params, run: &RunResult, pod: &Pod, out: &Path) -> Result<Optio
             range: (-lim, lim),
             vectors: Some((&pod.modes[j][..n], &pod.modes[j][n..], every)),
             faded: None,
+            marks: None,
             mask: run.mask.clone(),
         })
         .collect();

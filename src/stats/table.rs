@@ -27,8 +27,9 @@
 //!   ensemble, where the bins partition the circle, `s` is the stratified
 //!   within-bin one and the bins' imbalance is a further systematic part
 //!   (`strata`; nu = min(N_eff - 1, N - B)) — the truncation of the
-//!   mean of a derived quantity (`systematic`: the debiased mean of the
-//!   signed per-frame estimates; not corrected, nu = infinity), and the
+//!   mean of a derived quantity, or the smoothing bias of a smoothed u and
+//!   v (`systematic`: the debiased mean of the signed per-frame estimates;
+//!   not corrected, nu = infinity), and the
 //!   scale systematics:
 //!   a quantity of unit m^a s^b made from pixel displacements and positions
 //!   scales as M^a dt^b with the magnification M and the pulse separation
@@ -133,7 +134,9 @@ struct Stat {
 }
 
 /// The systematic (truncation) part of the uncertainty of the mean at node
-/// `k`, `ratio` = N_eff / N of the quantity there.
+/// `k`, `ratio` = N_eff / N of the quantity there. For a derived quantity
+/// it is the stencil's truncation; for u and v, when a smoother is set, the
+/// smoother's own bias (`derive::smoothing_bias`), handled the same way.
 ///
 /// The truncation of a mean is the mean of the per-frame truncations (the
 /// estimate is linear in the data), so the signed estimates are averaged:

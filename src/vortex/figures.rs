@@ -140,6 +140,7 @@ fn track_map<'a>(
         range: (-lim, lim),
         vectors: None,
         faded: None,
+        marks: None,
         mask: run.mask.clone(),
     };
     let layout = MapLayout::new(&e.grid, 1, 1, p.width);
