@@ -256,6 +256,7 @@ fn nothing_valid(reduced: &mut [Reduced]) -> Result<()> {
     let mut empty = 0;
     for r in reduced.iter_mut() {
         let valid: usize = r
+            .state
             .frames
             .iter()
             .map(|f| f.n_vectors.saturating_sub(f.validation.invalid_input))

@@ -179,9 +179,9 @@ fn reduce_replica(
             frame_fields_dir: fields.clone(),
         },
     )?;
-    let frames = red.frames.iter().filter(|f| !f.rejected).count();
+    let frames = red.state.frames.iter().filter(|f| !f.rejected).count();
     Ok(Replica {
-        stats: red.acc.finish(&rp.stats),
+        stats: red.state.acc.finish(&rp.stats),
         fields,
         frames,
     })

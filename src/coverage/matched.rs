@@ -137,7 +137,7 @@ pub fn measure(rp: &RunPlan) -> Result<Measured> {
             frame_fields_dir: None,
         },
     )?;
-    let stats = red.acc.finish(&rp.stats);
+    let stats = red.state.acc.finish(&rp.stats);
     let g = red.grid;
     let mut warnings = Vec::new();
     if (g.dy - g.dx).abs() > 1e-6 * g.dx {
@@ -146,13 +146,13 @@ pub fn measure(rp: &RunPlan) -> Result<Measured> {
             g.dx, g.dy
         ));
     }
-    let n = red.frames.len().max(1);
+    let n = red.state.frames.len().max(1);
     let nodes = (g.len() * n) as f64;
-    let replaced: usize = red.frames.iter().map(|f| f.fill.replaced).sum();
-    let filled: usize = red.frames.iter().map(|f| f.fill.filled).sum();
+    let replaced: usize = red.state.frames.iter().map(|f| f.fill.replaced).sum();
+    let filled: usize = red.state.frames.iter().map(|f| f.fill.filled).sum();
     let noise = match rp.derive.velocity_noise {
         crate::derive::VelocityNoise::Value(x) => x,
-        _ => reduce::mean_noise(&red.frames).ok_or_else(|| {
+        _ => reduce::mean_noise(&red.state.frames).ok_or_else(|| {
             Error::data(format!(
                 "run '{}': no noise estimate to match (set [uncertainty] velocity_noise)",
                 rp.id
@@ -164,7 +164,12 @@ pub fn measure(rp: &RunPlan) -> Result<Measured> {
         Correlation::Adjacent(r) => window_overlap(r),
         _ => 0.0,
     };
-    let times: Vec<f64> = red.frames.iter().filter_map(|f| f.meta.time_s).collect();
+    let times: Vec<f64> = red
+        .state
+        .frames
+        .iter()
+        .filter_map(|f| f.meta.time_s)
+        .collect();
     let frame_rate = median_step(&times).map_or(15.0, |dt| 1.0 / dt);
     let memory = match stats.n_eff {
         Some(ne) if ne.is_finite() && ne > 0.0 && times.len() == n => {
@@ -172,7 +177,12 @@ pub fn measure(rp: &RunPlan) -> Result<Measured> {
         }
         _ => 0.0,
     };
-    let phases: Vec<f64> = red.frames.iter().filter_map(|f| f.meta.phase_deg).collect();
+    let phases: Vec<f64> = red
+        .state
+        .frames
+        .iter()
+        .filter_map(|f| f.meta.phase_deg)
+        .collect();
     let phase = (phases.len() == n && !stats.phase.is_empty()).then(|| {
         let steps: Vec<f64> = phases
             .windows(2)

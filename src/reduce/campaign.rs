@@ -46,7 +46,7 @@ pub fn finish_campaign(
             .find(|p| p.id == r.id)
             .ok_or_else(|| Error::usage(format!("run '{}' is not in the pipeline", r.id)))?;
         let t = Instant::now();
-        let stats = r.acc.finish(&rp.stats);
+        let stats = r.state.acc.finish(&rp.stats);
         let mut timings = r.timings.clone();
         timings.push(("statistics".into(), t.elapsed().as_secs_f64()));
         let mut run_warnings = r.warnings.clone();
@@ -54,7 +54,7 @@ pub fn finish_campaign(
         let mut rr = RunResult {
             id: r.id.clone(),
             grid: r.grid,
-            frames: r.frames,
+            frames: r.state.frames,
             stats,
             warnings: Vec::new(),
             figures: Vec::new(),
@@ -70,8 +70,8 @@ pub fn finish_campaign(
                 .map(|m| m.iter().copied().collect()),
             structures: Default::default(),
         };
-        let sketch = r.modes.take();
-        if let Some(b) = &r.budget {
+        let sketch = r.state.modes.take();
+        if let Some(b) = &r.state.budget {
             let t = Instant::now();
             let tp: Vec<_> = rr
                 .frames
@@ -91,9 +91,9 @@ pub fn finish_campaign(
         outputs::write_run_tables(&out.join(&rr.id), &rr)?;
         outputs::write_run_netcdf(&out.join(&rr.id), &rr, &plan.text)?;
         let parts = super::structures::Parts {
-            acc: &r.acc,
+            acc: &r.state.acc,
             sketch: sketch.as_ref(),
-            corr: r.corr.as_ref(),
+            corr: r.state.corr.as_ref(),
         };
         let (st, w) = super::structures::finish(rp, &rr, parts, &out.join(&rr.id))?;
         run_warnings.extend(w);
@@ -149,13 +149,13 @@ pub fn finish_campaign(
             "resolved": rp.resolved_json()?,
             "resolved_in_words": rp.describe_json(),
             "warnings": rr.warnings,
-            "derivative_schemes": r.scheme_counts.iter().map(|(k, v)| (k.clone(), serde_json::json!(v))).collect::<serde_json::Map<_, _>>(),
+            "derivative_schemes": r.state.scheme_counts.iter().map(|(k, v)| (k.clone(), serde_json::json!(v))).collect::<serde_json::Map<_, _>>(),
             "peak_locking": r.peak_lock.as_ref().map(|p| serde_json::json!({
                 "n": p.n, "R": p.r, "p_value": p.p_value, "inconclusive": p.inconclusive,
                 "warning": p.warning, "histogram": p.histogram,
             })),
         }));
-        inputs.extend(r.inputs);
+        inputs.extend(r.state.inputs);
         runs.push(rr);
     }
 

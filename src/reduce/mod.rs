@@ -25,6 +25,7 @@ pub mod campaign;
 pub mod outputs;
 pub mod partial;
 pub mod seal;
+pub mod state;
 pub mod structures;
 
 use std::path::PathBuf;
@@ -33,13 +34,11 @@ use std::time::Instant;
 use crate::error::{Error, Result, WithPath};
 use crate::field::{FrameMeta, Grid, NodeTable};
 use crate::io::{self, FrameSource};
-use crate::modes::ModeSketch;
 use crate::plan::RunPlan;
 use crate::result::FrameRecord;
-use crate::stats::RunAccumulator;
-use crate::validate::peaklock::PeakLockAcc;
 use crate::validate::{self, EnsembleBuilder, EnsembleRef};
 use crate::{derive, fill};
+use state::{RunState, Templates};
 
 /// Frames per chunk. Fixed (not derived from the thread count) so that the
 /// merge order, and so every output byte, is the same for any `--jobs`.
@@ -147,46 +146,25 @@ pub struct Reduced {
     pub n_frames_run: usize,
     /// The frame range of this shard.
     pub range: (usize, usize),
-    pub frames: Vec<FrameRecord>,
-    pub acc: RunAccumulator,
-    /// The vorticity budget's accumulator, when the run asks for one.
-    pub budget: Option<crate::budget::BudgetAcc>,
-    pub inputs: Vec<InputFile>,
+    /// What the frames of the range add up to (`state`).
+    pub state: RunState,
     pub warnings: Vec<String>,
     pub timings: Vec<(String, f64)>,
-    /// Node-frames per derivative scheme (what `auto` chose, or the one fixed scheme).
-    pub scheme_counts: Vec<(String, usize)>,
     /// The peak-locking diagnostic of the valid displacements, when the
     /// calibration is known (of the whole run: a shard leaves it to `merge`).
     pub peak_lock: Option<validate::peaklock::PeakLock>,
-    /// Its accumulator, which shards carry to `merge`.
-    pub peak_acc: Option<PeakLockAcc>,
-    /// The POD sketch, when `[modes]` asks for it.
-    pub modes: Option<ModeSketch>,
-    /// The two-point co-moments at the probes, when the run names probes.
-    pub corr: Option<crate::scales::CorrAcc>,
 }
 
 impl Reduced {
     /// Finishes the peak-locking diagnostic from the accumulator and adds
     /// its warning, if any.
     pub fn finish_peak_lock(&mut self) {
-        if let Some(acc) = &self.peak_acc {
+        if let Some(acc) = &self.state.peak_acc {
             let p = acc.finish();
             if let Some(w) = &p.warning {
                 self.warnings.push(format!("run '{}': {w}", self.id));
             }
             self.peak_lock = Some(p);
-        }
-    }
-}
-
-/// Adds `names[k]` × `counts[k]` into `into`, keeping first-seen order.
-fn add_counts(into: &mut Vec<(String, usize)>, names: &[&str], counts: &[usize]) {
-    for (n, &c) in names.iter().zip(counts) {
-        match into.iter_mut().find(|(k, _)| k == n) {
-            Some(e) => e.1 += c,
-            None => into.push((n.to_string(), c)),
         }
     }
 }
@@ -421,44 +399,16 @@ pub fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
     let t = Instant::now();
     let names = derive::quantity_names(&run.derive);
     let mine = &frames[range.0..range.1];
-    struct ChunkOut {
-        acc: RunAccumulator,
-        records: Vec<FrameRecord>,
-        inputs: Vec<InputFile>,
-        schemes: Vec<(String, usize)>,
-        peak: Option<PeakLockAcc>,
-        budget: Option<crate::budget::BudgetAcc>,
-        modes: Option<ModeSketch>,
-        corr: Option<crate::scales::CorrAcc>,
-    }
-    let corr0 = crate::scales::CorrAcc::new(&run.stats, grid);
-    let mut corr = corr0.as_ref().map(crate::scales::CorrAcc::empty_like);
-    let mut budget = crate::budget::run::start(run, grid);
-    let modes0 = run
-        .modes
-        .enabled
-        .then(|| ModeSketch::new(&run.modes, grid.len()));
-    let mut modes = modes0.as_ref().map(ModeSketch::empty_like);
-    let mut schemes: Vec<(String, usize)> = Vec::new();
-    let mut peak: Option<PeakLockAcc> = run.px_velocity.map(PeakLockAcc::new);
-    let mut acc = RunAccumulator::new(&run.stats, grid, &names);
-    let mut records = Vec::with_capacity(mine.len());
-    let mut inputs = Vec::with_capacity(mine.len());
+    let templates = Templates::of(run, grid);
+    let mut state = RunState::empty(run, grid, &names, &templates);
+    let mut merge_error: Option<Error> = None;
     let mut seen_parquet: Vec<PathBuf> = Vec::new();
     fold_chunks(
         opts.jobs,
         mine,
         |chunk| {
-            let mut out = ChunkOut {
-                acc: RunAccumulator::new(&run.stats, grid, &names),
-                records: Vec::with_capacity(chunk.len()),
-                inputs: Vec::new(),
-                schemes: Vec::new(),
-                peak: run.px_velocity.map(PeakLockAcc::new),
-                budget: crate::budget::run::start(run, grid),
-                modes: modes0.as_ref().map(ModeSketch::empty_like),
-                corr: corr0.as_ref().map(crate::scales::CorrAcc::empty_like),
-            };
+            let mut out = RunState::empty(run, grid, &names, &templates);
+            out.frames.reserve(chunk.len());
             for (meta, src) in chunk {
                 let (mut field, hash) = read_on_grid_hashed(run, src, &on_grid, true)?;
                 if let (FrameSource::File(p), Some((bytes, sha256))) = (src, hash) {
@@ -470,17 +420,13 @@ pub fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
                 }
                 let vcounts = validate::validate_frame(&run.validation, &mut field, ens.as_ref());
                 let rejected = validate::frame_rejected(&run.validation, &vcounts, grid.len());
-                if let (Some(p), false) = (out.peak.as_mut(), rejected) {
+                if let (Some(p), false) = (out.peak_acc.as_mut(), rejected) {
                     // valid displacements only: after validation, before filling
                     p.push(&field);
                 }
                 let fcounts = fill::fill(&run.fill, &mut field);
                 let derived = derive::derive_with(&run.derive, &field, choice.as_ref(), None);
-                add_counts(
-                    &mut out.schemes,
-                    &derived.scheme_names,
-                    &derived.scheme_counts,
-                );
+                out.add_scheme_counts(&derived.scheme_names, &derived.scheme_counts);
                 if let Some((_, counts)) = &derived.inst_omega {
                     let names: Vec<String> = derived
                         .scheme_names
@@ -488,19 +434,10 @@ pub fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
                         .map(|n| format!("instantaneous fields: {n}"))
                         .collect();
                     let names: Vec<&str> = names.iter().map(String::as_str).collect();
-                    add_counts(&mut out.schemes, &names, counts);
+                    out.add_scheme_counts(&names, counts);
                 }
                 if !rejected {
-                    out.acc.push(meta, &field, &derived);
-                    if let Some(b) = out.budget.as_mut() {
-                        b.push(meta, &field, &derived);
-                    }
-                    if let Some(m) = out.modes.as_mut() {
-                        m.push_frame(meta, &derived);
-                    }
-                    if let Some(c) = out.corr.as_mut() {
-                        c.push(&field, &derived);
-                    }
+                    out.push(meta, &field, &derived);
                 }
                 if let Some(dir) = &opts.frame_fields_dir {
                     outputs::write_frame_field(
@@ -509,7 +446,7 @@ pub fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
                         &derived,
                     )?;
                 }
-                out.records.push(FrameRecord {
+                out.frames.push(FrameRecord {
                     meta: meta.clone(),
                     n_vectors: grid.len(),
                     validation: vcounts,
@@ -524,32 +461,20 @@ pub fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
             Ok(out)
         },
         |c| {
-            acc.merge(c.acc);
-            records.extend(c.records);
-            inputs.extend(c.inputs);
-            let names: Vec<&str> = c.schemes.iter().map(|(n, _)| n.as_str()).collect();
-            let counts: Vec<usize> = c.schemes.iter().map(|(_, k)| *k).collect();
-            add_counts(&mut schemes, &names, &counts);
-            if let (Some(p), Some(q)) = (peak.as_mut(), c.peak) {
-                p.merge(q);
-            }
-            if let (Some(b), Some(q)) = (budget.as_mut(), c.budget) {
-                b.merge(q);
-            }
-            if let (Some(m), Some(q)) = (modes.as_mut(), c.modes) {
-                m.merge(q);
-            }
-            if let (Some(m), Some(q)) = (corr.as_mut(), c.corr) {
-                m.merge(q);
+            if merge_error.is_none() {
+                merge_error = state.merge(c).err();
             }
         },
     )?;
+    if let Some(e) = merge_error {
+        return Err(e);
+    }
     for (_, src) in mine {
         if let FrameSource::Parquet { path, .. } = src {
             if !seen_parquet.contains(path) {
                 seen_parquet.push(path.clone());
                 let (bytes, sha256) = io::hash_file(path)?;
-                inputs.push(InputFile {
+                state.inputs.push(InputFile {
                     path: path.display().to_string(),
                     bytes,
                     sha256,
@@ -559,37 +484,30 @@ pub fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
     }
     if let Some(ft) = &run.frame_table {
         let (bytes, sha256) = io::hash_file(ft).with_path(ft)?;
-        inputs.push(InputFile {
+        state.inputs.push(InputFile {
             path: ft.display().to_string(),
             bytes,
             sha256,
         });
     }
     timings.push(("reduce".to_string(), t.elapsed().as_secs_f64()));
-    let n_rej = records.iter().filter(|r| r.rejected).count();
+    let n_rej = state.frames.iter().filter(|r| r.rejected).count();
     if n_rej > 0 {
         warnings.push(format!(
             "run '{}': {n_rej} of {} frames rejected as a whole and left out of the statistics (see frames.csv)",
             run.id,
-            records.len()
+            state.frames.len()
         ));
     }
     let mut out = Reduced {
-        scheme_counts: schemes,
-        peak_lock: None,
-        peak_acc: peak,
-        modes,
-        corr,
         id: run.id.clone(),
         grid,
         n_frames_run: n,
         range,
-        frames: records,
-        acc,
-        budget,
-        inputs,
+        state,
         warnings,
         timings,
+        peak_lock: None,
     };
     // A shard's part of the run is finished by `merge`, over all shards.
     if opts.shard.is_none() {

@@ -34,6 +34,7 @@ use std::path::{Path, PathBuf};
 use serde::{Deserialize, Serialize};
 
 use super::seal::{self, exact, exact_opt, Fingerprint};
+use super::state::RunState;
 use super::{InputFile, Reduced, Shard};
 use crate::error::{Error, Result, WithPath};
 use crate::field::{FrameMeta, Grid};
@@ -133,22 +134,22 @@ pub fn write(dir: &Path, plan: &Plan, shard: Shard, runs: &[Reduced]) -> Result<
         let rd = dir.join(&r.id);
         std::fs::create_dir_all(&rd).with_path(&rd)?;
         let p = rd.join("accumulator.bin");
-        std::fs::write(&p, r.acc.to_bytes()).with_path(&p)?;
+        std::fs::write(&p, r.state.acc.to_bytes()).with_path(&p)?;
         let run_plan = plan
             .runs
             .iter()
             .find(|p| p.id == r.id)
             .ok_or_else(|| Error::data(format!("run '{}' is not in the pipeline", r.id)))?;
         let g = r.grid;
-        if let Some(b) = &r.budget {
+        if let Some(b) = &r.state.budget {
             let p = rd.join("budget.bin");
             std::fs::write(&p, b.to_bytes()).with_path(&p)?;
         }
-        if let Some(m) = &r.modes {
+        if let Some(m) = &r.state.modes {
             let p = rd.join(MODES_FILE);
             std::fs::write(&p, m.to_bytes()).with_path(&p)?;
         }
-        if let Some(c) = &r.corr {
+        if let Some(c) = &r.state.corr {
             let p = rd.join(CORR_FILE);
             std::fs::write(&p, c.to_bytes()).with_path(&p)?;
         }
@@ -166,6 +167,7 @@ pub fn write(dir: &Path, plan: &Plan, shard: Shard, runs: &[Reduced]) -> Result<
             n_frames_run: r.n_frames_run,
             range: r.range,
             frames: r
+                .state
                 .frames
                 .iter()
                 .map(|f| FrameRow {
@@ -180,11 +182,11 @@ pub fn write(dir: &Path, plan: &Plan, shard: Shard, runs: &[Reduced]) -> Result<
                     noise: f.noise,
                 })
                 .collect(),
-            inputs: r.inputs.clone(),
+            inputs: r.state.inputs.clone(),
             warnings: r.warnings.clone(),
             timings: r.timings.clone(),
-            scheme_counts: r.scheme_counts.clone(),
-            peak_acc: r.peak_acc.clone(),
+            scheme_counts: r.state.scheme_counts.clone(),
+            peak_acc: r.state.peak_acc.clone(),
         });
     }
     let pf = PartialFile {
@@ -270,33 +272,35 @@ pub fn read(dir: &Path) -> Result<Partial> {
             },
             n_frames_run: r.n_frames_run,
             range: r.range,
-            frames: r
-                .frames
-                .into_iter()
-                .map(|f| FrameRecord {
-                    meta: FrameMeta {
-                        index: f.index,
-                        name: f.name,
-                        time_s: f.time_s,
-                        phase_deg: f.phase_deg,
-                    },
-                    n_vectors: f.n_vectors,
-                    validation: f.validation,
-                    fill: f.fill,
-                    rejected: f.rejected,
-                    noise: f.noise,
-                })
-                .collect(),
-            acc,
-            budget,
-            inputs: r.inputs,
+            state: RunState {
+                frames: r
+                    .frames
+                    .into_iter()
+                    .map(|f| FrameRecord {
+                        meta: FrameMeta {
+                            index: f.index,
+                            name: f.name,
+                            time_s: f.time_s,
+                            phase_deg: f.phase_deg,
+                        },
+                        n_vectors: f.n_vectors,
+                        validation: f.validation,
+                        fill: f.fill,
+                        rejected: f.rejected,
+                        noise: f.noise,
+                    })
+                    .collect(),
+                acc,
+                budget,
+                inputs: r.inputs,
+                scheme_counts: r.scheme_counts,
+                peak_acc: r.peak_acc,
+                modes,
+                corr,
+            },
             warnings: r.warnings,
             timings: r.timings,
-            scheme_counts: r.scheme_counts,
             peak_lock: None,
-            peak_acc: r.peak_acc,
-            modes,
-            corr,
         });
     }
     Ok(Partial {
@@ -354,7 +358,7 @@ pub fn merge(mut parts: Vec<Partial>) -> Result<(Partial, Vec<Reduced>)> {
         .fingerprints
         .iter()
         .cloned()
-        .zip(runs.iter().map(|r| r.inputs.clone()))
+        .zip(runs.iter().map(|r| r.state.inputs.clone()))
         .collect();
     for p in iter {
         let dir = p.dir.clone();
@@ -363,8 +367,8 @@ pub fn merge(mut parts: Vec<Partial>) -> Result<(Partial, Vec<Reduced>)> {
                 Error::data(format!("run '{}' is not in the first partial", r.id)).with_path(&dir)
             })?;
             let prev = &last[at];
-            seal::check_follows(&r.id, (&prev.0, &prev.1), (&fp, &r.inputs), &dir)?;
-            last[at] = (fp, r.inputs.clone());
+            seal::check_follows(&r.id, (&prev.0, &prev.1), (&fp, &r.state.inputs), &dir)?;
+            last[at] = (fp, r.state.inputs.clone());
             let into = &mut runs[at];
             if into.range.1 != r.range.0 || into.grid != r.grid {
                 return Err(Error::data(format!(
@@ -373,67 +377,11 @@ pub fn merge(mut parts: Vec<Partial>) -> Result<(Partial, Vec<Reduced>)> {
                 ))
                 .with_path(&dir));
             }
-            into.acc.try_merge(r.acc).map_err(|e| e.with_path(&dir))?;
-            match (&mut into.budget, r.budget) {
-                (Some(a), Some(b)) => a.merge(b),
-                (None, None) => {}
-                _ => {
-                    return Err(Error::data(format!(
-                        "run '{}': some shards have a budget (budget.bin) and some not",
-                        r.id
-                    ))
-                    .with_path(&dir))
-                }
-            }
-            match (&mut into.peak_acc, r.peak_acc) {
-                (Some(a), Some(b)) => a.merge(b),
-                (None, None) => {}
-                _ => {
-                    return Err(Error::data(format!(
-                        "run '{}': some shards have a peak-locking accumulator and some not",
-                        r.id
-                    ))
-                    .with_path(&dir))
-                }
-            }
-            match (&mut into.modes, r.modes) {
-                (Some(a), Some(b)) => {
-                    a.compatible(&b).map_err(|e| e.with_path(&dir))?;
-                    a.merge(b)
-                }
-                (None, None) => {}
-                _ => {
-                    return Err(Error::data(format!(
-                        "run '{}': some shards have a POD sketch ({MODES_FILE}) and some not",
-                        r.id
-                    ))
-                    .with_path(&dir))
-                }
-            }
-            match (&mut into.corr, r.corr) {
-                (Some(a), Some(b)) => {
-                    a.compatible(&b).map_err(|e| e.with_path(&dir))?;
-                    a.merge(b)
-                }
-                (None, None) => {}
-                _ => {
-                    return Err(Error::data(format!(
-                    "run '{}': some shards have two-point correlations ({CORR_FILE}) and some not",
-                    r.id
-                ))
-                    .with_path(&dir))
-                }
-            }
+            into.state
+                .merge(r.state)
+                .map_err(|e| Error::data(format!("run '{}': {e}", r.id)).with_path(&dir))?;
             into.range.1 = r.range.1;
-            into.frames.extend(r.frames);
-            into.inputs.extend(r.inputs);
             into.warnings.extend(r.warnings);
-            for (k, c) in r.scheme_counts {
-                match into.scheme_counts.iter_mut().find(|(n, _)| *n == k) {
-                    Some(e) => e.1 += c,
-                    None => into.scheme_counts.push((k, c)),
-                }
-            }
             for (k, v) in r.timings {
                 match into.timings.iter_mut().find(|(n, _)| *n == k) {
                     Some(t) => t.1 += v,

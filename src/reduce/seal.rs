@@ -153,17 +153,17 @@ pub fn write_checksums(dir: &Path, runs: &[Reduced]) -> Result<()> {
     files.extend(runs.iter().map(|r| format!("{}/accumulator.bin", r.id)));
     files.extend(
         runs.iter()
-            .filter(|r| r.budget.is_some())
+            .filter(|r| r.state.budget.is_some())
             .map(|r| format!("{}/budget.bin", r.id)),
     );
     files.extend(
         runs.iter()
-            .filter(|r| r.modes.is_some())
+            .filter(|r| r.state.modes.is_some())
             .map(|r| format!("{}/modes.bin", r.id)),
     );
     files.extend(
         runs.iter()
-            .filter(|r| r.corr.is_some())
+            .filter(|r| r.state.corr.is_some())
             .map(|r| format!("{}/{}", r.id, super::partial::CORR_FILE)),
     );
     for f in &files {

@@ -155,11 +155,13 @@ fn results_do_not_depend_on_the_number_of_threads() {
     write_frames(&w.path("frames"), G1, 40, Units::MmMs, drifting_vortex);
     w.write("p.toml", &mm_pipeline(""));
     w.ok(&["run", "p.toml", "--out", "j1", "--jobs", "1", "--quiet"]);
-    w.ok(&["run", "p.toml", "--out", "j2", "--jobs", "2", "--quiet"]);
+    w.ok(&["run", "p.toml", "--out", "j3", "--jobs", "3", "--quiet"]);
+    // 40 frames are 3 chunks, merged by `RunState::merge` in frame order
+    // whichever thread finishes first
     for f in ["a/ensemble.csv", "a/frames.csv", "campaign.csv"] {
         let a = std::fs::read(w.path(&format!("j1/{f}"))).unwrap();
-        let b = std::fs::read(w.path(&format!("j2/{f}"))).unwrap();
-        assert!(a == b, "{f} differs between --jobs 1 and --jobs 2");
+        let b = std::fs::read(w.path(&format!("j3/{f}"))).unwrap();
+        assert!(a == b, "{f} differs between --jobs 1 and --jobs 3");
     }
 }
 

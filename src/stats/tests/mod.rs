@@ -268,32 +268,8 @@ fn pushing_equals_merging_single_frames_bit_for_bit() {
     );
 }
 
-#[test]
-fn thread_count_does_not_change_a_bit() {
-    // The driver's scheme: fixed chunks of 16 frames, accumulated in
-    // parallel, merged in frame order.
-    use rayon::prelude::*;
-    let g = grid(4, 3);
-    let frames = random_frames(g, 100, 50, true);
-    let p = params();
-    let run = |threads: usize| {
-        let pool = rayon::ThreadPoolBuilder::new()
-            .num_threads(threads)
-            .build()
-            .unwrap();
-        pool.install(|| {
-            let parts: Vec<RunAccumulator> = frames
-                .par_chunks(16)
-                .map(|c| accumulate(&p, g, c))
-                .collect();
-            let mut it = parts.into_iter();
-            let mut a = it.next().unwrap();
-            it.for_each(|c| a.merge(c));
-            a.to_bytes()
-        })
-    };
-    assert_eq!(run(1), run(4));
-}
+// Thread counts: tests/it/run.rs `results_do_not_depend_on_the_number_of_threads`
+// runs the driver itself (`reduce::state::RunState::merge` of its chunks).
 
 #[test]
 fn an_empty_run_finishes_with_empty_columns() {
