@@ -242,7 +242,7 @@ impl RunAccumulator {
 
     /// Each probe's node and its rows (run-wide frame index; u, v, omega,
     /// NaN where the node had no sample), in frame order.
-    pub fn probe_series(&self) -> Vec<(usize, &[(u64, [f64; 3])])> {
+    pub fn probe_series(&self) -> Vec<(usize, &[ProbeRow])> {
         self.traces
             .iter()
             .map(|t| (t.node, t.rows.as_slice()))
@@ -562,6 +562,12 @@ pub struct RunStats {
     pub summary: Vec<(String, f64)>,
     pub warnings: Vec<String>,
 }
+
+/// One row of a probe's series: the run-wide frame index and u, v, omega
+/// (NaN where the node had no sample).
+pub type ProbeRow = (u64, [f64; 3]);
+
+pub use phase::bin_index as phase_bin_index;
 
 /// The phase bin a frame of phase `phase_deg` falls in under `p`'s binning
 /// (`None`: no phase, or outside every window).

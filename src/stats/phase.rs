@@ -67,16 +67,32 @@ pub fn centre_deg(bins: usize, k: usize) -> f64 {
     (k as f64 + 0.5) * 360.0 / bins as f64
 }
 
+/// A phase in degrees taken into [0, 360).
+fn folded(phase_deg: f64) -> f64 {
+    let ph = phase_deg.rem_euclid(360.0);
+    // rem_euclid can return 360.0 for tiny negative inputs; fold it back.
+    if ph >= 360.0 {
+        0.0
+    } else {
+        ph
+    }
+}
+
+/// The bin of a finite phase in degrees among `bins` equal bins: bin k
+/// holds [k 360/K, (k+1) 360/K) after folding into [0, 360)
+/// (docs/interface.md). The one rule for the reduction and `synth`'s truth.
+pub fn bin_index(phase_deg: f64, bins: usize) -> usize {
+    let spacing = 360.0 / bins as f64;
+    ((folded(phase_deg) / spacing).floor() as usize).min(bins - 1)
+}
+
 pub(super) fn bin_of(p: &Params, phase: Option<f64>) -> Binned {
     let Some(ph) = phase.filter(|x| x.is_finite()) else {
         return Binned::NoPhase;
     };
     let kb = p.phase_bins;
-    let spacing = 360.0 / kb as f64;
-    let ph = ph.rem_euclid(360.0);
-    // rem_euclid can return 360.0 for tiny negative inputs; fold it back.
-    let ph = if ph >= 360.0 { 0.0 } else { ph };
-    let k = ((ph / spacing).floor() as usize).min(kb - 1);
+    let k = bin_index(ph, kb);
+    let ph = folded(ph);
     if let Some(w) = p.phase_width_deg {
         let off = ph - centre_deg(kb, k);
         if !(off >= -0.5 * w && off < 0.5 * w) {

@@ -1,34 +1,35 @@
 //! The ground-truth statistics of a run: per-node moments of the noise-free
 //! fields over the frames, and per-phase-bin means.
 //!
-//! Method: Welford's running mean and sum of squared deviations, and the
-//! co-moment of (u, v) by the same update (Welford 1962; Chan, Golub &
-//! LeVeque 1983), added in frame order, so the result does not depend on
-//! how frames were made. Standard deviations and the covariance use N - 1;
-//! with one frame they are NaN (printed as empty cells). Nodes inside a
-//! body carry NaN throughout. A phase bin with no frame has NaN means.
+//! Method: the reduction's own accumulator (`stats::moments::Moments`:
+//! Welford's running mean and central moments, the co-moment of (u, v) by
+//! the same update; Welford 1962; Chan, Golub & LeVeque 1983), added in
+//! frame order, so the truth and the reduction differ only by the noise,
+//! not by how they sum. Phase bins by the reduction's rule
+//! (`stats::phase_bin_index`). Standard deviations and the covariance use
+//! N - 1; with one frame they are NaN (printed as empty cells). Nodes
+//! inside a body carry NaN throughout. A phase bin with no frame has NaN
+//! means.
 
 use super::numfmt::{decimals_for, push};
 use super::scenario::TruthFrame;
 use crate::field::Grid;
+use crate::stats::moments::Moments;
 
 /// Running moments of the noise-free fields of one run.
 #[derive(Debug, Clone)]
 pub struct TruthStats {
     pub grid: Grid,
+    /// Frames added.
     pub n: usize,
-    pub mean_u: Vec<f64>,
-    pub mean_v: Vec<f64>,
-    pub mean_w: Vec<f64>,
-    m2_u: Vec<f64>,
-    m2_v: Vec<f64>,
-    m2_w: Vec<f64>,
-    c_uv: Vec<f64>,
+    /// u, v and (as the one quantity) omega over every frame.
+    all: Moments,
     pub body: Vec<bool>,
-    /// Phase bins: frames per bin, and sums of u, v, omega (bin-major).
+    /// Phase bins: frames per bin, and the moments of each bin (made at
+    /// its first frame, so a run without phases holds none).
     pub bins: usize,
     pub bin_n: Vec<usize>,
-    bin_sum: [Vec<f64>; 3],
+    bin: Vec<Option<Moments>>,
 }
 
 impl TruthStats {
@@ -37,33 +38,26 @@ impl TruthStats {
         TruthStats {
             grid,
             n: 0,
-            mean_u: vec![0.0; n],
-            mean_v: vec![0.0; n],
-            mean_w: vec![0.0; n],
-            m2_u: vec![0.0; n],
-            m2_v: vec![0.0; n],
-            m2_w: vec![0.0; n],
-            c_uv: vec![0.0; n],
+            all: Moments::new(n, 1),
             body: vec![false; n],
             bins,
             bin_n: vec![0; bins],
-            bin_sum: [
-                vec![0.0; n * bins],
-                vec![0.0; n * bins],
-                vec![0.0; n * bins],
-            ],
+            bin: vec![None; bins],
         }
     }
 
     /// Adds one frame; `phase_deg` in [0, 360) when the flow is periodic.
     pub fn add(&mut self, tf: &TruthFrame, phase_deg: Option<f64>) {
         self.n += 1;
-        let nf = self.n as f64;
+        self.all.frames += 1.0;
         let bin = phase_deg.map(|p| phase_bin(p, self.bins));
         if let Some(b) = bin {
             self.bin_n[b] += 1;
+            let nodes = self.grid.len();
+            self.bin[b]
+                .get_or_insert_with(|| Moments::new(nodes, 1))
+                .frames += 1.0;
         }
-        let nn = self.grid.len();
         for (k, (((u, v), w), body)) in
             tf.u.iter()
                 .zip(tf.v.iter())
@@ -72,20 +66,11 @@ impl TruthStats {
                 .enumerate()
         {
             self.body[k] |= *body;
-            let du = u - self.mean_u[k];
-            self.mean_u[k] += du / nf;
-            self.m2_u[k] += du * (u - self.mean_u[k]);
-            let dv = v - self.mean_v[k];
-            self.mean_v[k] += dv / nf;
-            self.m2_v[k] += dv * (v - self.mean_v[k]);
-            self.c_uv[k] += du * (v - self.mean_v[k]);
-            let dw = w - self.mean_w[k];
-            self.mean_w[k] += dw / nf;
-            self.m2_w[k] += dw * (w - self.mean_w[k]);
-            if let Some(b) = bin {
-                self.bin_sum[0][b * nn + k] += u;
-                self.bin_sum[1][b * nn + k] += v;
-                self.bin_sum[2][b * nn + k] += w;
+            self.all.add_velocity(k, *u, *v);
+            self.all.q[0].add(k, *w);
+            if let Some(m) = bin.and_then(|b| self.bin[b].as_mut()) {
+                m.add_velocity(k, *u, *v);
+                m.q[0].add(k, *w);
             }
         }
     }
@@ -98,26 +83,38 @@ impl TruthStats {
         }
     }
 
+    /// Mean of u, v, omega at node `k` over every frame.
+    pub fn mean_u(&self, k: usize) -> f64 {
+        self.all.u.mean[k]
+    }
+    pub fn mean_v(&self, k: usize) -> f64 {
+        self.all.v.mean[k]
+    }
+    pub fn mean_w(&self, k: usize) -> f64 {
+        self.all.q[0].mean[k]
+    }
     pub fn std_u(&self, k: usize) -> f64 {
-        self.var(self.m2_u[k]).sqrt()
+        self.var(self.all.u.m2[k]).sqrt()
     }
     pub fn std_v(&self, k: usize) -> f64 {
-        self.var(self.m2_v[k]).sqrt()
+        self.var(self.all.v.m2[k]).sqrt()
     }
     pub fn std_w(&self, k: usize) -> f64 {
-        self.var(self.m2_w[k]).sqrt()
+        self.var(self.all.q[0].m2[k]).sqrt()
     }
     pub fn cov_uv(&self, k: usize) -> f64 {
-        self.var(self.c_uv[k])
+        self.var(self.all.cuv[k])
     }
 
     /// Mean of `u`, `v`, omega (component 0, 1, 2) in bin `b` at node `k`.
     pub fn bin_mean(&self, c: usize, b: usize, k: usize) -> f64 {
-        let n = self.bin_n[b];
-        if n == 0 {
-            f64::NAN
-        } else {
-            self.bin_sum[c][b * self.grid.len() + k] / n as f64
+        let Some(m) = &self.bin[b] else {
+            return f64::NAN;
+        };
+        match c {
+            0 => m.u.mean[k],
+            1 => m.v.mean[k],
+            _ => m.q[0].mean[k],
         }
     }
 
@@ -138,12 +135,12 @@ impl TruthStats {
                 push(&mut out, g.y(j), dxy);
                 out.extend_from_slice(if self.body[k] { b",1," } else { b",0," });
                 let cells = [
-                    (self.mean_u[k], dvel),
-                    (self.mean_v[k], dvel),
+                    (self.mean_u(k), dvel),
+                    (self.mean_v(k), dvel),
                     (self.std_u(k), dvel),
                     (self.std_v(k), dvel),
                     (self.cov_uv(k), dcov),
-                    (self.mean_w[k], dw),
+                    (self.mean_w(k), dw),
                     (self.std_w(k), dw),
                 ];
                 for (c, (v, d)) in cells.iter().enumerate() {
@@ -192,11 +189,10 @@ impl TruthStats {
     }
 }
 
-/// The bin of a phase in degrees: bin k holds [k 360/K, (k+1) 360/K)
-/// (docs/interface.md), after taking the phase modulo 360.
+/// The bin of a phase in degrees: the reduction's rule
+/// (`stats::phase_bin_index`; docs/interface.md).
 pub fn phase_bin(phase_deg: f64, bins: usize) -> usize {
-    let p = phase_deg.rem_euclid(360.0);
-    ((p / 360.0 * bins as f64).floor() as usize).min(bins - 1)
+    crate::stats::phase_bin_index(phase_deg, bins)
 }
 
 fn truth_decimals(g: &Grid, speed: f64, digits: u32) -> (Option<u32>, Option<u32>, Option<u32>) {
@@ -243,7 +239,7 @@ mod tests {
             st.add(&tf, Some(k as f64 * 90.0 + 10.0));
         }
         // two-pass: mean 3.5, sample variance of u = (6.25+2.25+0.25+12.25)/3 = 7
-        assert!((st.mean_u[0] - 3.5).abs() < 1e-15);
+        assert!((st.mean_u(0) - 3.5).abs() < 1e-15);
         assert!((st.std_u(1) - 7f64.sqrt()).abs() < 1e-14);
         // cov: mean v = 1.125; sum (u-3.5)(v-1.125) = 1.5625+3.1875+0.9375+3.0625 = 8.75 -> /3
         // (numpy.cov gives 2.9166667)
@@ -253,5 +249,8 @@ mod tests {
         assert_eq!(phase_bin(359.9999, 12), 11);
         assert_eq!(phase_bin(-30.0, 12), 11);
         assert_eq!(phase_bin(30.0, 12), 1);
+        // a phase a hair below 0 folds to 360.0 by rem_euclid: bin 0, as
+        // the reduction bins it (it once landed in the last bin here)
+        assert_eq!(phase_bin(-1e-17, 12), 0);
     }
 }
