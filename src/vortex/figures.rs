@@ -93,6 +93,16 @@ pub fn draw(p: &Params, run: &RunResult, out: &Path) -> Result<Vec<FigureRef>> {
             cap,
         ));
     }
+    if let Some(fig) = budget_along_tracks(p, v) {
+        let paths = write_figure(&fig, &dir, "vortex-budget")?;
+        let cap = "The circulation budget along the longest track of each sign: the terms of dΓ/dt integrated over the core's region (|Gamma2| > 2/pi) in each phase bin, with ±1 standard uncertainty bands; points mark the residual (unsteady + advection - stretching - diffusion - turbulent), which holds what a plane cannot see and the measurement error (docs/vortices.md).".to_string();
+        figs.push(figure_ref(
+            out,
+            paths,
+            "Circulation budget along the tracks",
+            cap,
+        ));
+    }
     Ok(figs)
 }
 
@@ -163,23 +173,7 @@ fn along_tracks(p: &Params, v: &Vortices) -> Option<LineFigure> {
     let timed = long
         .iter()
         .all(|t| t.points.iter().all(|q| q.time_s.is_finite()));
-    let x_of = |t: &Track, k: usize| {
-        let q = t.points[k];
-        if timed {
-            q.time_s
-        } else {
-            // phase unwrapped: bins in order, wrapping adds 360
-            let deg = match v.slices[q.slice].kind {
-                SliceKind::Bin { phase_deg, .. } => phase_deg,
-                _ => f64::NAN,
-            };
-            let wraps = t.points[..=k]
-                .windows(2)
-                .filter(|w| w[1].slice < w[0].slice)
-                .count();
-            deg + 360.0 * wraps as f64
-        }
-    };
+    let x_of = |t: &Track, k: usize| track_x(v, t, k, timed);
     let curve = |t: &Track, n: usize, f: &dyn Fn(&super::Core) -> (f64, f64)| {
         let pts: Vec<(f64, f64, f64)> = (0..t.points.len())
             .map(|k| {
@@ -227,6 +221,117 @@ fn along_tracks(p: &Params, v: &Vortices) -> Option<LineFigure> {
     Some(LineFigure {
         heading: None,
         panels: vec![circ, rad],
+        width: p.width,
+        height: p.width * 9 / 20,
+    })
+}
+
+/// The abscissa of point `k` of `t`: its time, or its bin's phase unwrapped
+/// over the cycles (bins in order, each wrap adds 360 degrees).
+fn track_x(v: &Vortices, t: &Track, k: usize, timed: bool) -> f64 {
+    let q = t.points[k];
+    if timed {
+        return q.time_s;
+    }
+    let deg = match v.slices[q.slice].kind {
+        SliceKind::Bin { phase_deg, .. } => phase_deg,
+        _ => f64::NAN,
+    };
+    let wraps = t.points[..=k]
+        .windows(2)
+        .filter(|w| w[1].slice < w[0].slice)
+        .count();
+    deg + 360.0 * wraps as f64
+}
+
+/// The circulation budget along the longest track of each sign: per track
+/// point, the budget row of the same slice whose centroid is nearest the
+/// core's (within two grid pitches; the budget finds its cores on the same
+/// phase-mean fields), each integrated term and the residual with ±1
+/// standard uncertainty bands. None without a budget or a track of 3 or
+/// more points that meets budget rows.
+fn budget_along_tracks(p: &Params, v: &Vortices) -> Option<LineFigure> {
+    if v.budget.is_empty() {
+        return None;
+    }
+    let reach = 2.0 * v.grid.dx.max(v.grid.dy);
+    let timed = v
+        .tracks
+        .iter()
+        .all(|t| t.points.iter().all(|q| q.time_s.is_finite()));
+    let mut panels = Vec::new();
+    for sign in [1i8, -1] {
+        let Some(t) = v
+            .tracks
+            .iter()
+            .filter(|t| t.sign == sign && t.points.len() >= 3)
+            .max_by_key(|t| t.points.len())
+        else {
+            continue;
+        };
+        // (x, row) per point that meets a budget row
+        let rows: Vec<(f64, &super::budget::CoreBudget)> = (0..t.points.len())
+            .filter_map(|k| {
+                let q = t.points[k];
+                let sl = &v.slices[q.slice];
+                let c = &sl.cores[q.core];
+                v.budget
+                    .iter()
+                    .filter(|b| b.kind == sl.kind && b.sign == sign)
+                    .map(|b| (b, (b.x - c.x).hypot(b.y - c.y)))
+                    .filter(|(_, d)| *d <= reach)
+                    .min_by(|a, b| a.1.total_cmp(&b.1))
+                    .map(|(b, _)| (track_x(v, t, k, timed), b))
+            })
+            .collect();
+        if rows.len() < 3 {
+            continue;
+        }
+        let names = crate::budget::terms::TERMS;
+        let mut curves: Vec<Curve> = names
+            .iter()
+            .enumerate()
+            .map(|(j, name)| Curve {
+                label: (*name).to_string(),
+                xy: rows.iter().map(|(x, b)| (*x, b.value[j])).collect(),
+                band: Some(
+                    rows.iter()
+                        .map(|(x, b)| (*x, b.value[j] - b.unc[j], b.value[j] + b.unc[j]))
+                        .collect(),
+                ),
+                color: RUN_COLORS[j % RUN_COLORS.len()],
+                markers: false,
+            })
+            .collect();
+        curves.push(Curve {
+            label: "residual".into(),
+            xy: rows.iter().map(|(x, b)| (*x, b.residual)).collect(),
+            band: Some(
+                rows.iter()
+                    .map(|(x, b)| (*x, b.residual - b.residual_unc, b.residual + b.residual_unc))
+                    .collect(),
+            ),
+            color: BLACK,
+            markers: true,
+        });
+        panels.push(LinePanel {
+            title: format!(
+                "Track {} ({}): integrated terms",
+                t.id,
+                if sign > 0 { "+" } else { "−" }
+            ),
+            x_label: if timed { "t (s)" } else { "phase (deg)" }.to_string(),
+            y_label: "dΓ/dt terms (m²/s²)".into(),
+            curves,
+            x_names: None,
+        });
+    }
+    if panels.is_empty() {
+        return None;
+    }
+    Some(LineFigure {
+        heading: None,
+        panels,
         width: p.width,
         height: p.width * 9 / 20,
     })

@@ -103,4 +103,7 @@ fn wake_cores_are_tracked_at_the_street_speed_and_their_budget_is_written() {
     assert_eq!(b.header.last().unwrap(), "residual_unc");
     assert!(w.path("out/u015/figures/vortex-tracks.png").exists());
     assert!(w.path("out/u015/figures/vortex-circulation.svg").exists());
+    // the budget along the longest track of each sign: drawn only when the
+    // track's points meet budget rows of the same bins (within 2 pitches)
+    assert!(w.path("out/u015/figures/vortex-budget.svg").exists());
 }
