@@ -152,8 +152,8 @@ impl CorrAcc {
             if !counts[k] {
                 continue;
             }
-            for c in 0..2 {
-                let s = unc[c][k];
+            for (c, u) in unc.iter().enumerate() {
+                let s = u[k];
                 if s.is_finite() {
                     self.unc2[p * 2 + c] += s * s;
                     self.unc_n[p * 2 + c] += 1.0;

@@ -173,6 +173,10 @@ struct Trace {
     rows: Vec<(u64, [f64; 3])>,
 }
 
+/// One frame's row of a probe trace: the run-wide frame index and u, v,
+/// omega at the probe's node (NaN where the node had no sample).
+pub type ProbeRow = (u64, [f64; 3]);
+
 /// The accumulators of one run (ensemble, phase bins, lags, probes). One per
 /// chunk of frames; chunks merge in frame order.
 #[derive(Debug, Clone)]
@@ -242,7 +246,7 @@ impl RunAccumulator {
 
     /// Each probe's node and its rows (run-wide frame index; u, v, omega,
     /// NaN where the node had no sample), in frame order.
-    pub fn probe_series(&self) -> Vec<(usize, &[(u64, [f64; 3])])> {
+    pub fn probe_series(&self) -> Vec<(usize, &[ProbeRow])> {
         self.traces
             .iter()
             .map(|t| (t.node, t.rows.as_slice()))
