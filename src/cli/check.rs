@@ -118,6 +118,10 @@ fn check_run(plan: &Plan, r: &RunPlan) -> Result<()> {
     for line in curlew::budget::run::check_lines(r, &tp)? {
         println!("  {line}");
     }
+    let times: Vec<Option<f64>> = tp.iter().map(|t| t.0).collect();
+    for line in reduce::structures::check_lines(r, &times) {
+        println!("  {line}");
+    }
     Ok(())
 }
 

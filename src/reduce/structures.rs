@@ -5,10 +5,12 @@
 //! Owns: which of them run and the series handed to the spectra. Does not
 //! own any numerics. Tables: `modes::output` (POD), `correlation.csv` and
 //! `scales.csv` (`scales::finish`), `spectra.csv` and `spectral-peaks.csv`
-//! (`spectra::run`); docs/modes.md describes every column.
+//! (`spectra::run`); docs/interface.md lists every column and unit,
+//! docs/modes.md the methods.
 
 use std::path::Path;
 
+use crate::describe::num;
 use crate::error::Result;
 use crate::io;
 use crate::modes::ModeSketch;
@@ -66,6 +68,88 @@ pub fn finish(
     Ok((st, warnings))
 }
 
+/// Whether `[spectra]` asks for spectra of a run with (or without) probe
+/// series and a POD: `psd = true`, or by default when there is a series to
+/// take (`spectra::run::Params::enabled`). Time-resolution is checked
+/// apart (`spectra::run::clock`).
+fn spectra_asked(p: &spec::Params, probes: bool, pod: bool) -> bool {
+    match p.enabled {
+        Some(on) => on,
+        None => probes || pod,
+    }
+}
+
+/// `curlew check`'s lines on the POD, the two-point correlations and the
+/// spectra of a run: whether each will run, and what it needs. `times`:
+/// every frame's time, in frame order (from the frame table).
+pub fn check_lines(rp: &RunPlan, times: &[Option<f64>]) -> Vec<String> {
+    let mut out = Vec::new();
+    let m = &rp.modes;
+    out.push(if m.enabled {
+        format!(
+            "POD: on, {} modes reported from a one-pass sketch of {} columns{} (pod.csv, pod-coefficients.csv, modes.csv)",
+            m.modes,
+            m.modes + m.oversampling,
+            if m.phase {
+                "; each frame's phase from modes 1 and 2 (phase-from-modes.csv)"
+            } else {
+                ""
+            }
+        )
+    } else {
+        "POD: off ([modes] pod = true turns it on; needs nothing else)".into()
+    });
+    let np = rp.stats.probes.len();
+    out.push(if np > 0 {
+        format!(
+            "correlations: two-point correlations of u' and v' about {np} probe(s) and integral length scales along x and y (correlation.csv, scales.csv)"
+        )
+    } else {
+        "correlations: off (needs [statistics] probes)".into()
+    });
+    let p = &rp.spectra;
+    if !spectra_asked(p, np > 0, m.enabled) {
+        out.push(if p.enabled == Some(false) {
+            "spectra: off ([spectra] psd = false)".into()
+        } else {
+            "spectra: off (needs [statistics] probes or [modes] pod = true, and a time-resolved run)".into()
+        });
+        return out;
+    }
+    match spec::clock(times) {
+        Ok(fs) => {
+            let n = times.len();
+            let nper = spec::segment_length(p, n).min(n);
+            let nover = ((p.overlap * nper as f64).round() as usize).min(nper - 1);
+            let k = (n - nper) / (nper - nover) + 1;
+            let mut what = Vec::new();
+            if np > 0 {
+                what.push(format!("u and v at {np} probe(s)"));
+            }
+            if m.enabled {
+                what.push(format!(
+                    "POD coefficients a1..a{}",
+                    p.modes.min(m.modes)
+                ));
+            }
+            if what.is_empty() {
+                out.push("spectra: [spectra] psd = true, but there is no series to take (needs [statistics] probes or [modes] pod = true)".into());
+                return out;
+            }
+            out.push(format!(
+                "spectra: Welch PSD of {} from {n} frames at {} Hz: {k} segments of {nper} samples overlapping by {nover}, resolution {} Hz (spectra.csv, spectral-peaks.csv)",
+                what.join(" and "),
+                num(fs, 4),
+                num(fs / nper as f64, 4)
+            ));
+        }
+        Err(why) => out.push(format!(
+            "spectra: off: the run is not time-resolved ({why}); spectra need every frame's time_s in the frame table, evenly spaced"
+        )),
+    }
+    out
+}
+
 /// Whether the spectra run, and the series (see `spectra::run`).
 fn run_spectra(
     rp: &RunPlan,
@@ -76,7 +160,7 @@ fn run_spectra(
 ) -> Result<Option<spec::RunSpectra>> {
     let p = &rp.spectra;
     let probes = acc.probe_series();
-    if p.enabled == Some(false) || (p.enabled.is_none() && probes.is_empty() && pod.is_none()) {
+    if !spectra_asked(p, !probes.is_empty(), pod.is_some()) {
         return Ok(None);
     }
     let times: Vec<Option<f64>> = rr.frames.iter().map(|f| f.meta.time_s).collect();

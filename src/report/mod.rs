@@ -13,6 +13,7 @@ mod budget;
 pub mod conditions;
 mod html;
 mod sections;
+pub mod structures;
 
 use std::path::Path;
 

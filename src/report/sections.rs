@@ -270,6 +270,7 @@ fn run_section(out: &mut String, r: &RunResult) {
         table(out, &["quantity (SI)", "value"], &srows);
     }
     super::budget::section(out, r);
+    super::structures::section(out, r);
     if let Some(v) = &r.vortices {
         let _ = writeln!(
             out,

@@ -228,7 +228,8 @@ pub fn integrate_to_zero(side: &[f64], d: f64, rho0: f64) -> (f64, bool) {
     (area, false)
 }
 
-/// `scales.csv`: one row per probe and component (docs/modes.md).
+/// `scales.csv`: one row per probe and component (columns and units in
+/// docs/interface.md).
 pub fn scales_table(s: &Scales) -> Table {
     let mut t = Table::new();
     let mut cols: Vec<(&str, Vec<f64>)> = [

@@ -173,6 +173,10 @@ struct Trace {
     rows: Vec<(u64, [f64; 3])>,
 }
 
+/// One frame's row of a probe trace: the run-wide frame index and u, v,
+/// omega at the probe's node (NaN where the node had no sample).
+pub type ProbeRow = (u64, [f64; 3]);
+
 /// The accumulators of one run (ensemble, phase bins, lags, probes). One per
 /// chunk of frames; chunks merge in frame order.
 #[derive(Debug, Clone)]
@@ -562,10 +566,6 @@ pub struct RunStats {
     pub summary: Vec<(String, f64)>,
     pub warnings: Vec<String>,
 }
-
-/// One row of a probe's series: the run-wide frame index and u, v, omega
-/// (NaN where the node had no sample).
-pub type ProbeRow = (u64, [f64; 3]);
 
 pub use phase::bin_index as phase_bin_index;
 

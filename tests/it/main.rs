@@ -15,6 +15,7 @@ mod modes;
 mod netcdf_out;
 mod reference;
 mod reliability;
+mod report_numbers;
 mod resolved;
 mod run;
 mod scales;

@@ -133,11 +133,7 @@ fn phase_from_the_modes_of_the_wake_matches_the_withheld_phases() {
         "synth", "wake", "--out", "c", "--frames", "96", "--speeds", "0.2", "--seed", "7",
     ]);
     let text = std::fs::read_to_string(w.path("c/pipeline.toml")).unwrap();
-    let blind: String = text
-        .lines()
-        .filter(|l| !l.starts_with("frame_table"))
-        .map(|l| format!("{l}\n"))
-        .collect();
+    let blind = without_frame_table(&text);
     w.write(
         "c/blind.toml",
         &format!("{blind}\n[modes]\nphase = true\nmodes = 6\n"),

@@ -124,6 +124,15 @@ pub fn pipeline(units: Units, extra: &str) -> String {
     )
 }
 
+/// A pipeline's text without its `frame_table` lines (runs with no times
+/// and no phases).
+pub fn without_frame_table(text: &str) -> String {
+    text.lines()
+        .filter(|l| !l.starts_with("frame_table"))
+        .map(|l| format!("{l}\n"))
+        .collect()
+}
+
 /// A decoded CSV table: header and rows of numbers (empty cells as NaN).
 pub struct Csv {
     pub header: Vec<String>,
