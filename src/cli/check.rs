@@ -108,13 +108,19 @@ fn check_run(plan: &Plan, r: &RunPlan) -> Result<()> {
         println!("  {label:<13} {text}");
         last = stage;
     }
-    for line in curlew::vortex::run::check_lines(r, with_phase > 0) {
-        println!("  {line}");
-    }
     let tp: Vec<_> = frames
         .iter()
         .map(|(m, _)| (m.time_s, m.phase_deg))
         .collect();
+    let f = match r.vortices.is_some() && with_phase > 0 {
+        true => {
+            curlew::budget::run::frequency(r, &curlew::budget::run::time_phase(&tp))?.map(|f| f.hz)
+        }
+        false => None,
+    };
+    for line in curlew::vortex::run::check_lines(r, with_phase > 0, f) {
+        println!("  {line}");
+    }
     for line in curlew::budget::run::check_lines(r, &tp)? {
         println!("  {line}");
     }

@@ -83,7 +83,20 @@ pub fn finish_campaign(
             rr.budget = Some(bud);
             timings.push(("budget".into(), t.elapsed().as_secs_f64()));
         }
-        if let Some(v) = crate::vortex::run::analyse(&rr, rp) {
+        // the cycle's frequency by the budget's one resolution
+        let f = match rp.vortices.is_some() && !rr.stats.phase.is_empty() {
+            true => {
+                let tp: Vec<_> = rr
+                    .frames
+                    .iter()
+                    .map(|f| (f.meta.time_s, f.meta.phase_deg))
+                    .collect();
+                crate::budget::run::frequency(rp, &crate::budget::run::time_phase(&tp))?
+                    .map(|f| f.hz)
+            }
+            false => None,
+        };
+        if let Some(v) = crate::vortex::run::analyse(&rr, rp, f) {
             run_warnings.extend(v.warnings.iter().map(|w| format!("run '{}': {w}", rr.id)));
             rr.vortices = Some(v);
         }

@@ -29,12 +29,15 @@ fn slice_of(t: &NodeTable, kind: SliceKind, time_s: f64) -> Option<Slice<'_>> {
 }
 
 /// The vortex analysis of a finished run, when the run asks for one.
-pub fn analyse(rr: &RunResult, rp: &RunPlan) -> Option<Vortices> {
+/// `frequency` is the run's cycle frequency in Hz, from the one resolution
+/// the budget uses too (`budget::run::frequency`: given, the frame table's
+/// column, or fitted to the frames' phases and times).
+pub fn analyse(rr: &RunResult, rp: &RunPlan, frequency: Option<f64>) -> Option<Vortices> {
     let p: &Params = rp.vortices.as_ref()?;
     let g = rr.grid;
     let corr = OmegaCorrelation::for_run(&rp.derive, &g);
     let radius = rp.derive.gamma_radius;
-    let f = rp.conditions.frequency;
+    let f = frequency;
     let mut warnings = Vec::new();
     let mut slices = Vec::new();
     let find = |s: Option<Slice>| s.map(|s| find_cores(&s, p, radius, &corr));
@@ -75,7 +78,7 @@ pub fn analyse(rr: &RunResult, rp: &RunPlan) -> Option<Vortices> {
         }
     }
     if !rr.stats.phase.is_empty() && f.is_none() {
-        warnings.push("vortices: no [run.conditions] frequency: tracks have no convection speed or core growth".into());
+        warnings.push("vortices: no frequency (none in [run.conditions] or the frame table, and the phases and times fit none): tracks have no convection speed or core growth".into());
     }
     let budget = rr
         .budget
@@ -94,15 +97,15 @@ pub fn analyse(rr: &RunResult, rp: &RunPlan) -> Option<Vortices> {
 }
 
 /// What `curlew check` says about the vortex analysis of a run.
-pub fn check_lines(rp: &RunPlan, has_phase: bool) -> Vec<String> {
+pub fn check_lines(rp: &RunPlan, has_phase: bool, frequency: Option<f64>) -> Vec<String> {
     let Some(p) = &rp.vortices else {
         return Vec::new();
     };
     let mut out = vec![format!("vortices: {}", p.describe())];
     if has_phase {
         out.push("vortices: cores in the mean field and in every phase-bin mean; tracks across the bins (periodic)".into());
-        if rp.conditions.frequency.is_none() {
-            out.push("vortices: no [run.conditions] frequency: tracks will have no convection speed or core growth".into());
+        if frequency.is_none() {
+            out.push("vortices: no frequency (none in [run.conditions] or the frame table, and the phases and times fit none): tracks will have no convection speed or core growth".into());
         }
     } else {
         out.push(
