@@ -15,6 +15,7 @@ mod frame_table;
 pub mod grid;
 mod gridded;
 pub mod inspect;
+pub mod mat;
 mod natural;
 pub mod netcdf;
 pub mod orient;
@@ -48,6 +49,9 @@ pub enum Format {
     Parquet,
     /// NetCDF-3 (classic or 64-bit offset), one frame per file.
     NetCdf,
+    /// MATLAB MAT file of version 5 or 7 (level 5, not HDF5), one frame
+    /// per file.
+    Mat,
 }
 
 impl Format {
@@ -59,6 +63,7 @@ impl Format {
             Format::Text => "text",
             Format::Parquet => "parquet",
             Format::NetCdf => "netcdf",
+            Format::Mat => "mat",
         }
     }
 }
@@ -176,6 +181,9 @@ impl FrameSource {
     }
 }
 
+/// A reader of the formats that store named arrays (`gridded`).
+type ArrayReader = fn(&[u8], &Path, &ColumnMap) -> Result<grid::RawRows>;
+
 /// The size and SHA-256 of a frame file, when the frame came from one.
 pub type FileHash = Option<(u64, String)>;
 
@@ -214,8 +222,13 @@ fn read_rows_as_written(
             READ_BUF.with(|buf| {
                 let mut bytes = buf.borrow_mut();
                 text::read_into(path, &mut bytes)?;
-                if spec.format == Format::NetCdf {
-                    let rows = gridded::netcdf_rows(&bytes, path, &spec.columns)?;
+                let arrays = match spec.format {
+                    Format::NetCdf => Some(gridded::netcdf_rows as ArrayReader),
+                    Format::Mat => Some(gridded::mat_rows as ArrayReader),
+                    _ => None,
+                };
+                if let Some(read) = arrays {
+                    let rows = read(&bytes, path, &spec.columns)?;
                     return Ok((rows, hash.then(|| hash_bytes(&bytes))));
                 }
                 let rows = text::parse_frame(
@@ -393,3 +406,5 @@ pub fn node_table_to_table(nt: &NodeTable) -> Table {
 mod tests;
 #[cfg(test)]
 mod tests_gridded;
+#[cfg(test)]
+mod tests_mat;

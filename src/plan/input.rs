@@ -93,9 +93,10 @@ impl RawInput {
             "text" => Format::Text,
             "parquet" => Format::Parquet,
             "netcdf" => Format::NetCdf,
+            "mat" => Format::Mat,
             other => {
                 return Err(Error::usage(format!(
-                    "{what}: format = '{other}' is not known; expected csv, tsv, text, parquet or netcdf"
+                    "{what}: format = '{other}' is not known; expected csv, tsv, text, parquet, netcdf or mat"
                 )))
             }
         };

@@ -9,6 +9,7 @@ mod budget;
 mod coverage_command;
 mod coverage_study;
 mod detection;
+mod formats;
 mod fuzz;
 mod masks_axes;
 mod modes;
