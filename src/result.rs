@@ -42,7 +42,9 @@ pub struct RunResult {
     /// The vorticity transport budget, when `[budget]` asked for it.
     pub budget: Option<crate::budget::Budget>,
     /// Nodes of `grid` (node order) masked by the pipeline's geometry mask
-    /// (`crate::mask`); `None` when nothing is masked. Figures draw them grey.
+    /// or in every frame by the frames' mask column
+    /// (`crate::mask::figure_mask`); `None` when nothing is masked. Figures
+    /// draw them grey.
     pub mask: Option<Vec<bool>>,
 }
 

@@ -61,13 +61,10 @@ pub fn finish_campaign(
             conditions: rp.conditions.clone(),
             description: rp.description.clone(),
             budget: None,
-            mask: rp
-                .mask
-                .nodes(&r.grid, rp.input.grid_tolerance)
-                .ok()
-                .filter(|m| m.iter().any(|&b| b))
-                .map(|m| m.iter().copied().collect()),
+            mask: None,
         };
+        let geometry = rp.mask.nodes(&r.grid, rp.input.grid_tolerance).ok();
+        rr.mask = crate::mask::figure_mask(geometry.as_ref(), &rr.stats.ensemble);
         let sketch = r.modes.take();
         if let Some(b) = &r.budget {
             let t = Instant::now();
