@@ -16,7 +16,7 @@
 //! Not accepted (errors naming the file and the variable): a missing
 //! variable (listing those present), a shape that fits neither layout, a
 //! third dimension (in NetCDF, a time dimension is split into frames
-//! before this: `netcdf_time`), a non-numeric MAT variable.
+//! before this: `nctime`), a non-numeric MAT variable.
 //! NaN (or a NetCDF variable's `_FillValue`) marks an invalid vector, as an
 //! empty cell does in text.
 

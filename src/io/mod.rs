@@ -6,7 +6,9 @@
 //!
 //! Rooms: `text` (csv, tsv, whitespace text and the frame table, parsed
 //! from bytes), `parquet` (long tables and parquet outputs), `grid` (grid
-//! inference and placing rows on nodes), `write` (CSV output, atomic files,
+//! inference and placing rows on nodes), `gridded` (named arrays to rows:
+//! NetCDF-3 via `netcdf`, MATLAB MAT via `mat`; `nctime` splits a NetCDF
+//! time dimension into frames), `write` (CSV output, atomic files,
 //! hashes), `outdir` (output folders: safety, leftovers, signals), `inspect` (summaries for `curlew inspect`), `natural` (natural sort order of frame files), `frame_table` (time and
 //! phase per frame).
 
@@ -17,6 +19,7 @@ mod gridded;
 pub mod inspect;
 pub mod mat;
 mod natural;
+mod nctime;
 pub mod netcdf;
 pub mod orient;
 pub mod outdir;
@@ -47,7 +50,8 @@ pub enum Format {
     /// Whitespace-separated, `#` comment lines.
     Text,
     Parquet,
-    /// NetCDF-3 (classic or 64-bit offset), one frame per file.
+    /// NetCDF-3 (classic or 64-bit offset), one frame per file or one per
+    /// index of a time dimension.
     NetCdf,
     /// MATLAB MAT file of version 5 or 7 (level 5, not HDF5), one frame
     /// per file.
@@ -110,6 +114,9 @@ pub enum FrameSource {
     File(PathBuf),
     /// One frame id of a parquet long table.
     Parquet { path: PathBuf, frame: i64 },
+    /// One index (0-based) of the time dimension of a NetCDF-3 file
+    /// (`nctime`).
+    Indexed { path: PathBuf, index: usize },
 }
 
 /// Expands a run's `frames` pattern (a glob in natural sort order, or one
@@ -148,7 +155,19 @@ pub fn list_frames(spec: &InputSpec, pattern: &str) -> Result<Vec<(String, Frame
                 .file_stem()
                 .map(|s| s.to_string_lossy().into_owned())
                 .unwrap_or_default();
-            out.push((name, FrameSource::File(p)));
+            let times = match spec.format {
+                Format::NetCdf => nctime::frame_count(&p, &spec.columns)?,
+                _ => None,
+            };
+            match times {
+                None => out.push((name, FrameSource::File(p))),
+                Some(n) => {
+                    for (index, name) in nctime::frame_names(&name, n).into_iter().enumerate() {
+                        let path = p.clone();
+                        out.push((name, FrameSource::Indexed { path, index }));
+                    }
+                }
+            }
         }
     }
     let mut seen: std::collections::HashMap<&str, &FrameSource> = Default::default();
@@ -168,6 +187,9 @@ fn source_label(s: &FrameSource) -> String {
     match s {
         FrameSource::File(p) => p.display().to_string(),
         FrameSource::Parquet { path, frame } => format!("{} frame {frame}", path.display()),
+        FrameSource::Indexed { path, index } => {
+            format!("{} time index {index}", path.display())
+        }
     }
 }
 
@@ -176,8 +198,15 @@ impl FrameSource {
     pub fn path(&self) -> &Path {
         match self {
             FrameSource::File(p) => p,
-            FrameSource::Parquet { path, .. } => path,
+            FrameSource::Parquet { path, .. } | FrameSource::Indexed { path, .. } => path,
         }
+    }
+
+    /// Whether the file holds other frames too (a parquet long table, a
+    /// NetCDF time dimension): such a file is hashed and checked once,
+    /// not once per frame.
+    pub fn shares_file(&self) -> bool {
+        !matches!(self, FrameSource::File(_))
     }
 }
 
@@ -246,6 +275,9 @@ fn read_rows_as_written(
             parquet::read_rows(path, *frame, &spec.columns, grid_only)?,
             None,
         )),
+        FrameSource::Indexed { path, index } => {
+            Ok((nctime::rows(path, &spec.columns, *index)?, None))
+        }
     }
 }
 
@@ -267,10 +299,10 @@ pub fn read_frame_hashed(
     hash: bool,
 ) -> Result<(Field, FileHash)> {
     let (rows, h) = read_rows(spec, source, false, hash)?;
-    let what = if matches!(source, FrameSource::Parquet { .. }) {
-        "row"
-    } else {
-        "line"
+    let what = match (source, spec.format) {
+        (FrameSource::File(_), Format::Csv | Format::Tsv | Format::Text) => "line",
+        (FrameSource::Parquet { .. }, _) => "row",
+        _ => "value",
     };
     let mut f = grid::assemble(
         &rows,

@@ -65,3 +65,30 @@ fn mat_frames_reduce_to_the_csv_outputs_byte_for_byte() {
         "{err}"
     );
 }
+
+/// A NetCDF-3 file of four frames on a record dimension reduces to the
+/// very outputs of the same four frames written one per file (names
+/// `run_t0..run_t3` both ways), streamed one frame at a time.
+#[test]
+fn a_netcdf_time_dimension_reduces_like_one_file_per_frame() {
+    let w = Work::new();
+    let cols = "x = \"x\", y = \"y\", u = \"u\", v = \"v\"";
+    w.write(
+        "many.toml",
+        &pipeline("netcdf", &reference("nc_time/run.nc"), cols),
+    );
+    w.write(
+        "one.toml",
+        &pipeline("netcdf", &reference("nc_time/frames/run_t*.nc"), cols),
+    );
+    w.ok(&["run", "many.toml", "--out", "o_many", "--quiet"]);
+    w.ok(&["run", "one.toml", "--out", "o_one", "--quiet"]);
+    same_bytes(&w, "o_many/a", "o_one/a", &["ensemble.csv", "frames.csv"]);
+    let f = crate::util::Csv::read(&w.path("o_many/a/frames.csv"));
+    assert_eq!(f.rows.len(), 4);
+    let check = w.ok(&["check", "many.toml"]);
+    assert!(
+        check.contains("; 4 from the time dimension of 1 file(s), named <file>_t<index>)"),
+        "{check}"
+    );
+}
