@@ -94,6 +94,7 @@ fn check_run(plan: &Plan, r: &RunPlan) -> Result<()> {
         num(r.input.length_scale, 6),
         num(r.input.velocity_scale, 6)
     );
+    println!("  unit source   {}", io::units::describe(&r.input));
     println!("  orientation   {}", r.input.orientation.describe());
     if !r.mask.is_empty() {
         let m = r.mask.nodes(&first, r.input.grid_tolerance)?;

@@ -26,6 +26,7 @@ pub mod outdir;
 pub mod parquet;
 pub mod table;
 mod text;
+pub mod units;
 mod write;
 
 use std::path::{Path, PathBuf};
@@ -105,6 +106,15 @@ pub struct InputSpec {
     pub grid_tolerance: f64,
     /// Which way y and v point in the files (`orient`).
     pub orientation: Orientation,
+    /// The units the pipeline states (`m`, `mm`, `px`; `m/s`, `mm/s`,
+    /// `px`), `None` where it states none: a text header's units are then
+    /// taken (`units`), else metres and metres per second are assumed.
+    pub length_unit: Option<String>,
+    pub velocity_unit: Option<String>,
+    /// What the first frame's header settled where the pipeline states no
+    /// unit (`units::settle`; the unit is then also in `length_unit` or
+    /// `velocity_unit`); `None` where nothing was read.
+    pub units_from_header: Option<units::Settled>,
 }
 
 /// Where one frame comes from.
@@ -299,6 +309,7 @@ pub fn read_frame_hashed(
     hash: bool,
 ) -> Result<(Field, FileHash)> {
     let (rows, h) = read_rows(spec, source, false, hash)?;
+    let (length_scale, velocity_scale) = units::scales(spec, &rows.units, source.path())?;
     let what = match (source, spec.format) {
         (FrameSource::File(_), Format::Csv | Format::Tsv | Format::Text) => "line",
         (FrameSource::Parquet { .. }, _) => "row",
@@ -307,12 +318,12 @@ pub fn read_frame_hashed(
     let mut f = grid::assemble(
         &rows,
         spec.grid_tolerance,
-        spec.length_scale,
-        spec.velocity_scale,
+        length_scale,
+        velocity_scale,
         what,
     )
     .map_err(|e| e.with_path(source.path()))?;
-    mask_rows(&rows, spec.length_scale, &mut f);
+    mask_rows(&rows, length_scale, &mut f);
     Ok((f, h))
 }
 
@@ -331,9 +342,10 @@ fn mask_rows(rows: &grid::RawRows, length_scale: f64, f: &mut Field) {
 /// Reads only what `check` needs: the grid of one frame (header and x, y).
 pub fn read_grid(spec: &InputSpec, source: &FrameSource) -> Result<Grid> {
     let (rows, _) = read_rows(spec, source, true, false)?;
+    let (length_scale, _) = units::scales(spec, &rows.units, source.path())?;
     let (ax, ay) =
         grid::infer_grid(&rows, spec.grid_tolerance).map_err(|e| e.with_path(source.path()))?;
-    Ok(grid::grid_si(ax, ay, spec.length_scale))
+    Ok(grid::grid_si(ax, ay, length_scale))
 }
 
 /// Time and phase of frames, keyed by frame name (file stem or parquet id).
@@ -440,3 +452,5 @@ mod tests;
 mod tests_gridded;
 #[cfg(test)]
 mod tests_mat;
+#[cfg(test)]
+mod tests_units;

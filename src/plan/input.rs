@@ -173,6 +173,9 @@ impl RawInput {
             velocity_scale,
             skip_lines: self.skip_lines.unwrap_or(0),
             grid_tolerance,
+            length_unit: self.length_unit.clone(),
+            velocity_unit: self.velocity_unit.clone(),
+            units_from_header: None,
         })
     }
 

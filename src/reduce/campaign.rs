@@ -124,6 +124,7 @@ pub fn finish_campaign(
             "frames_in_run": r.n_frames_run,
             "grid": rr.grid,
             "orientation": rp.input.orientation.describe(),
+            "units": crate::io::units::describe(&rp.input),
             "timings_s": timings.iter().map(|(k, v)| (k.clone(), serde_json::json!(v))).collect::<serde_json::Map<_, _>>(),
             "resolved": rp.resolved_json()?,
             "resolved_in_words": rp.describe_json(),

@@ -11,6 +11,7 @@ mod coverage_study;
 mod detection;
 mod formats;
 mod fuzz;
+mod header_units;
 mod masks_axes;
 mod modes;
 mod netcdf_out;
