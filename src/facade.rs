@@ -24,7 +24,7 @@
 use std::path::{Path, PathBuf};
 
 use crate::error::{Error, ErrorKind, Result};
-use crate::io::{FrameSource, OutputDir};
+use crate::io::OutputDir;
 use crate::plan::{Plan, RunPlan};
 use crate::reduce::{self, campaign, partial, Options, Reduced, Shard};
 use crate::result::CampaignResult;
@@ -147,10 +147,7 @@ impl Campaign {
         let mut inputs = vec![self.plan.path.clone()];
         for r in self.plan.select_runs(&opts.runs)? {
             for (_, src) in reduce::list_run_frames(r)? {
-                match src {
-                    FrameSource::File(p) => inputs.push(p),
-                    FrameSource::Parquet { path, .. } => inputs.push(path),
-                }
+                inputs.push(src.path().to_path_buf());
             }
             inputs.extend(r.frame_table.iter().cloned());
         }

@@ -218,6 +218,32 @@ pub fn mask_node(field: &mut Field, j: usize, i: usize) {
     field.sigma_v[[j, i]] = f64::NAN;
 }
 
+/// The nodes a run's figures draw grey (node order), `None` when there is
+/// none: the geometry mask's nodes and every node masked in every frame
+/// the statistics counted (a mask column of the frame files), read from
+/// the ensemble's status counts: a node that was never valid, replaced or
+/// filled in any of its frames was masked in all of them. A node masked
+/// in some frames only (a moving body) keeps its statistics of the others
+/// and is drawn as data.
+pub fn figure_mask(
+    geometry: Option<&NodeMask>,
+    ensemble: &crate::field::NodeTable,
+) -> Option<Vec<bool>> {
+    let n = ensemble.grid.len();
+    let mut m: Vec<bool> = geometry.map_or_else(|| vec![false; n], |g| g.iter().copied().collect());
+    if let (Some(nv), Some(fo), Some(ff)) = (
+        ensemble.get("n_valid"),
+        ensemble.get("outlier_frac"),
+        ensemble.get("filled_frac"),
+    ) {
+        for (k, b) in m.iter_mut().enumerate() {
+            // fractions are NaN when no frame was counted: nothing to say
+            *b |= nv[k] == 0.0 && fo[k] == 0.0 && ff[k] == 0.0;
+        }
+    }
+    m.iter().any(|&b| b).then_some(m)
+}
+
 /// The node `(i, j)` within `tol` pitches of `(x, y)` (SI), if any.
 pub fn node_of(grid: &Grid, x: f64, y: f64, tol: f64) -> Option<(usize, usize)> {
     let fi = (x - grid.x0) / grid.dx;

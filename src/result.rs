@@ -44,7 +44,9 @@ pub struct RunResult {
     /// Vortex cores and tracks, when `[vortices]` asked for them.
     pub vortices: Option<crate::vortex::Vortices>,
     /// Nodes of `grid` (node order) masked by the pipeline's geometry mask
-    /// (`crate::mask`); `None` when nothing is masked. Figures draw them grey.
+    /// or in every frame by the frames' mask column
+    /// (`crate::mask::figure_mask`); `None` when nothing is masked. Figures
+    /// draw them grey.
     pub mask: Option<Vec<bool>>,
     /// POD, spectra and two-point statistics, where computed.
     pub structures: Structures,

@@ -18,10 +18,7 @@ pub struct Args {
 }
 
 fn path_of(src: &FrameSource) -> &std::path::Path {
-    match src {
-        FrameSource::File(p) => p,
-        FrameSource::Parquet { path, .. } => path,
-    }
+    src.path()
 }
 
 fn check_run(plan: &Plan, r: &RunPlan) -> Result<()> {
@@ -36,7 +33,7 @@ fn check_run(plan: &Plan, r: &RunPlan) -> Result<()> {
             .map(|(_, s)| s)
             .filter(|s| match s {
                 FrameSource::File(_) => true,
-                FrameSource::Parquet { path, .. } => {
+                FrameSource::Parquet { path, .. } | FrameSource::Indexed { path, .. } => {
                     let new = !seen.contains(&path.as_path());
                     seen.push(path);
                     new
@@ -59,7 +56,21 @@ fn check_run(plan: &Plan, r: &RunPlan) -> Result<()> {
     let with_time = frames.iter().filter(|(m, _)| m.time_s.is_some()).count();
     let with_phase = frames.iter().filter(|(m, _)| m.phase_deg.is_some()).count();
     println!("run '{}'", r.id);
-    println!("  frames        {} ({})", frames.len(), r.frames);
+    let files = {
+        let mut p: Vec<&std::path::Path> = frames.iter().map(|(_, s)| s.path()).collect();
+        p.dedup();
+        p.len()
+    };
+    let timed = frames
+        .iter()
+        .filter(|(_, s)| matches!(s, FrameSource::Indexed { .. }))
+        .count();
+    let split = if timed > 0 {
+        format!("; {timed} from the time dimension of {files} file(s), named <file>_t<index>")
+    } else {
+        String::new()
+    };
+    println!("  frames        {} ({}{split})", frames.len(), r.frames);
     if let Some(t) = &r.frame_table {
         println!(
             "  frame table   {} ({with_time} with time, {with_phase} with phase)",
@@ -83,6 +94,7 @@ fn check_run(plan: &Plan, r: &RunPlan) -> Result<()> {
         num(r.input.length_scale, 6),
         num(r.input.velocity_scale, 6)
     );
+    println!("  unit source   {}", io::units::describe(&r.input));
     println!("  orientation   {}", r.input.orientation.describe());
     if !r.mask.is_empty() {
         let m = r.mask.nodes(&first, r.input.grid_tolerance)?;

@@ -88,7 +88,7 @@ pub fn run(args: Args) -> Result<()> {
         print!("{}", curlew::io::cf::summary(&args.file)?);
         return Ok(());
     }
-    let raw = RawInput {
+    let mut raw = RawInput {
         format: Some(
             args.format
                 .clone()
@@ -103,17 +103,30 @@ pub fn run(args: Args) -> Result<()> {
         grid_tolerance: None,
         ..Default::default()
     };
-    let spec = raw.resolve("inspect")?;
+    let mut spec = raw.resolve("inspect")?;
+    // units the options leave open, as the file's header states them
+    let pattern = glob::Pattern::escape(&args.file.to_string_lossy());
+    if let Some(st) = curlew::io::units::settle(&spec, &pattern) {
+        if let Some(l) = &st.length {
+            raw.length_unit = Some(l.unit.to_string());
+        }
+        if let Some(v) = &st.velocity {
+            raw.velocity_unit = Some(v.unit.to_string());
+        }
+        spec = raw.resolve("inspect")?;
+        spec.units_from_header = Some(st);
+    }
     let mut text = curlew::io::inspect::describe(&args.file, &spec)?;
-    if text.contains("kind       frame")
-        && (args.length_unit.is_none() || args.velocity_unit.is_none())
-    {
+    if text.contains("kind       frame") {
         text.push_str(&format!(
-            "units      read as x, y in {} and u, v in {} (the defaults); give --length-unit and \
-             --velocity-unit if the file is in other units\n",
-            args.length_unit.as_deref().unwrap_or("m"),
-            args.velocity_unit.as_deref().unwrap_or("m/s"),
+            "units      {}\n",
+            curlew::io::units::describe(&spec)
         ));
+        if spec.length_unit.is_none() || spec.velocity_unit.is_none() {
+            text.push_str(
+                "           give --length-unit and --velocity-unit if the file is in other units\n",
+            );
+        }
     }
     use std::io::Write;
     std::io::stdout()

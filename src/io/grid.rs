@@ -251,6 +251,8 @@ pub struct RawRows {
     pub line: Vec<usize>,
     /// Rows the input's mask column marks as masked (`crate::mask`).
     pub masked: Option<Vec<bool>>,
+    /// Units the header states (text frames; `super::units`).
+    pub units: super::units::HeaderUnits,
 }
 
 impl RawRows {

@@ -6,7 +6,9 @@
 //!
 //! Rooms: `text` (csv, tsv, whitespace text and the frame table, parsed
 //! from bytes), `parquet` (long tables and parquet outputs), `grid` (grid
-//! inference and placing rows on nodes), `write` (CSV output, atomic files,
+//! inference and placing rows on nodes), `gridded` (named arrays to rows:
+//! NetCDF-3 via `netcdf`, MATLAB MAT via `mat`; `nctime` splits a NetCDF
+//! time dimension into frames), `write` (CSV output, atomic files,
 //! hashes), `outdir` (output folders: safety, leftovers, signals), `inspect` (summaries for `curlew inspect`), `natural` (natural sort order of frame files), `frame_table` (time and
 //! phase per frame).
 
@@ -15,13 +17,16 @@ mod frame_table;
 pub mod grid;
 mod gridded;
 pub mod inspect;
+pub mod mat;
 mod natural;
+mod nctime;
 pub mod netcdf;
 pub mod orient;
 pub mod outdir;
 pub mod parquet;
 pub mod table;
 mod text;
+pub mod units;
 mod write;
 
 use std::path::{Path, PathBuf};
@@ -46,8 +51,12 @@ pub enum Format {
     /// Whitespace-separated, `#` comment lines.
     Text,
     Parquet,
-    /// NetCDF-3 (classic or 64-bit offset), one frame per file.
+    /// NetCDF-3 (classic or 64-bit offset), one frame per file or one per
+    /// index of a time dimension.
     NetCdf,
+    /// MATLAB MAT file of version 5 or 7 (level 5, not HDF5), one frame
+    /// per file.
+    Mat,
 }
 
 impl Format {
@@ -59,6 +68,7 @@ impl Format {
             Format::Text => "text",
             Format::Parquet => "parquet",
             Format::NetCdf => "netcdf",
+            Format::Mat => "mat",
         }
     }
 }
@@ -96,6 +106,15 @@ pub struct InputSpec {
     pub grid_tolerance: f64,
     /// Which way y and v point in the files (`orient`).
     pub orientation: Orientation,
+    /// The units the pipeline states (`m`, `mm`, `px`; `m/s`, `mm/s`,
+    /// `px`), `None` where it states none: a text header's units are then
+    /// taken (`units`), else metres and metres per second are assumed.
+    pub length_unit: Option<String>,
+    pub velocity_unit: Option<String>,
+    /// What the first frame's header settled where the pipeline states no
+    /// unit (`units::settle`; the unit is then also in `length_unit` or
+    /// `velocity_unit`); `None` where nothing was read.
+    pub units_from_header: Option<units::Settled>,
 }
 
 /// Where one frame comes from.
@@ -105,6 +124,9 @@ pub enum FrameSource {
     File(PathBuf),
     /// One frame id of a parquet long table.
     Parquet { path: PathBuf, frame: i64 },
+    /// One index (0-based) of the time dimension of a NetCDF-3 file
+    /// (`nctime`).
+    Indexed { path: PathBuf, index: usize },
 }
 
 /// Expands a run's `frames` pattern (a glob in natural sort order, or one
@@ -143,7 +165,19 @@ pub fn list_frames(spec: &InputSpec, pattern: &str) -> Result<Vec<(String, Frame
                 .file_stem()
                 .map(|s| s.to_string_lossy().into_owned())
                 .unwrap_or_default();
-            out.push((name, FrameSource::File(p)));
+            let times = match spec.format {
+                Format::NetCdf => nctime::frame_count(&p, &spec.columns)?,
+                _ => None,
+            };
+            match times {
+                None => out.push((name, FrameSource::File(p))),
+                Some(n) => {
+                    for (index, name) in nctime::frame_names(&name, n).into_iter().enumerate() {
+                        let path = p.clone();
+                        out.push((name, FrameSource::Indexed { path, index }));
+                    }
+                }
+            }
         }
     }
     let mut seen: std::collections::HashMap<&str, &FrameSource> = Default::default();
@@ -163,6 +197,9 @@ fn source_label(s: &FrameSource) -> String {
     match s {
         FrameSource::File(p) => p.display().to_string(),
         FrameSource::Parquet { path, frame } => format!("{} frame {frame}", path.display()),
+        FrameSource::Indexed { path, index } => {
+            format!("{} time index {index}", path.display())
+        }
     }
 }
 
@@ -171,10 +208,20 @@ impl FrameSource {
     pub fn path(&self) -> &Path {
         match self {
             FrameSource::File(p) => p,
-            FrameSource::Parquet { path, .. } => path,
+            FrameSource::Parquet { path, .. } | FrameSource::Indexed { path, .. } => path,
         }
     }
+
+    /// Whether the file holds other frames too (a parquet long table, a
+    /// NetCDF time dimension): such a file is hashed and checked once,
+    /// not once per frame.
+    pub fn shares_file(&self) -> bool {
+        !matches!(self, FrameSource::File(_))
+    }
 }
+
+/// A reader of the formats that store named arrays (`gridded`).
+type ArrayReader = fn(&[u8], &Path, &ColumnMap) -> Result<grid::RawRows>;
 
 /// The size and SHA-256 of a frame file, when the frame came from one.
 pub type FileHash = Option<(u64, String)>;
@@ -214,8 +261,13 @@ fn read_rows_as_written(
             READ_BUF.with(|buf| {
                 let mut bytes = buf.borrow_mut();
                 text::read_into(path, &mut bytes)?;
-                if spec.format == Format::NetCdf {
-                    let rows = gridded::netcdf_rows(&bytes, path, &spec.columns)?;
+                let arrays = match spec.format {
+                    Format::NetCdf => Some(gridded::netcdf_rows as ArrayReader),
+                    Format::Mat => Some(gridded::mat_rows as ArrayReader),
+                    _ => None,
+                };
+                if let Some(read) = arrays {
+                    let rows = read(&bytes, path, &spec.columns)?;
                     return Ok((rows, hash.then(|| hash_bytes(&bytes))));
                 }
                 let rows = text::parse_frame(
@@ -233,6 +285,9 @@ fn read_rows_as_written(
             parquet::read_rows(path, *frame, &spec.columns, grid_only)?,
             None,
         )),
+        FrameSource::Indexed { path, index } => {
+            Ok((nctime::rows(path, &spec.columns, *index)?, None))
+        }
     }
 }
 
@@ -254,20 +309,21 @@ pub fn read_frame_hashed(
     hash: bool,
 ) -> Result<(Field, FileHash)> {
     let (rows, h) = read_rows(spec, source, false, hash)?;
-    let what = if matches!(source, FrameSource::Parquet { .. }) {
-        "row"
-    } else {
-        "line"
+    let (length_scale, velocity_scale) = units::scales(spec, &rows.units, source.path())?;
+    let what = match (source, spec.format) {
+        (FrameSource::File(_), Format::Csv | Format::Tsv | Format::Text) => "line",
+        (FrameSource::Parquet { .. }, _) => "row",
+        _ => "value",
     };
     let mut f = grid::assemble(
         &rows,
         spec.grid_tolerance,
-        spec.length_scale,
-        spec.velocity_scale,
+        length_scale,
+        velocity_scale,
         what,
     )
     .map_err(|e| e.with_path(source.path()))?;
-    mask_rows(&rows, spec.length_scale, &mut f);
+    mask_rows(&rows, length_scale, &mut f);
     Ok((f, h))
 }
 
@@ -286,9 +342,10 @@ fn mask_rows(rows: &grid::RawRows, length_scale: f64, f: &mut Field) {
 /// Reads only what `check` needs: the grid of one frame (header and x, y).
 pub fn read_grid(spec: &InputSpec, source: &FrameSource) -> Result<Grid> {
     let (rows, _) = read_rows(spec, source, true, false)?;
+    let (length_scale, _) = units::scales(spec, &rows.units, source.path())?;
     let (ax, ay) =
         grid::infer_grid(&rows, spec.grid_tolerance).map_err(|e| e.with_path(source.path()))?;
-    Ok(grid::grid_si(ax, ay, spec.length_scale))
+    Ok(grid::grid_si(ax, ay, length_scale))
 }
 
 /// Time and phase of frames, keyed by frame name (file stem or parquet id).
@@ -408,3 +465,7 @@ pub fn node_table_to_table(nt: &NodeTable) -> Table {
 mod tests;
 #[cfg(test)]
 mod tests_gridded;
+#[cfg(test)]
+mod tests_mat;
+#[cfg(test)]
+mod tests_units;

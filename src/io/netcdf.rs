@@ -193,6 +193,32 @@ impl Dataset {
     /// Decodes a NetCDF-3 file. The error says what is wrong; the caller
     /// adds the file's name.
     pub fn from_bytes(bytes: &[u8]) -> Result<Dataset, String> {
+        let (mut ds, layout) = Self::header(bytes, bytes.len())?;
+        for (k, l) in layout.iter().enumerate() {
+            let n = if l.rec { ds.shape(&ds.vars[k])[0] } else { 1 };
+            let mut out = Vec::with_capacity(l.per * n);
+            for rec in 0..n {
+                let raw = bytes.get(l.range(rec)).ok_or_else(|| {
+                    format!(
+                        "variable '{}' runs past the end of the file",
+                        ds.vars[k].name
+                    )
+                })?;
+                decode(l.ty, raw, &mut out);
+            }
+            if l.ty == NC_CHAR {
+                out.clear();
+            }
+            ds.vars[k].data = Data::F64(out);
+        }
+        Ok(ds)
+    }
+
+    /// Decodes the header at the start of `bytes` (a prefix of a file of
+    /// `file_len` bytes): the dataset without values, and where each
+    /// variable's values lie. A prefix too short is an error saying the
+    /// header is truncated.
+    pub fn header(bytes: &[u8], file_len: usize) -> Result<(Dataset, Vec<Layout>), String> {
         let mut r = Reader { b: bytes, p: 0 };
         let magic = r
             .take(4)
@@ -276,7 +302,7 @@ impl Dataset {
                     .map(|(_, l)| l.2)
                     .min();
                 match first {
-                    Some(b) if rec_size > 0 => bytes.len().saturating_sub(b) / rec_size,
+                    Some(b) if rec_size > 0 => file_len.saturating_sub(b) / rec_size,
                     _ => 0,
                 }
             } else {
@@ -284,6 +310,7 @@ impl Dataset {
             };
             ds.dims[u].1 = recs;
         }
+        let mut out = Vec::with_capacity(layout.len());
         for (k, &(ty, _, begin)) in layout.iter().enumerate() {
             let v = &ds.vars[k];
             let shape = ds.shape(v);
@@ -295,33 +322,56 @@ impl Dataset {
             } else {
                 shape.iter().product()
             };
-            let nrec = if rec { shape[0] } else { 1 };
             // a lone record variable is not padded between records
-            let stride = if rec {
-                if n_rec_vars == 1 {
-                    per * size
-                } else {
-                    rec_size
-                }
-            } else {
-                0
+            let stride = match (rec, n_rec_vars) {
+                (false, _) => 0,
+                (true, 1) => per * size,
+                (true, _) => rec_size,
             };
-            let mut out = Vec::with_capacity(per * nrec);
-            for rec_k in 0..nrec {
-                let at = begin + rec_k * stride;
-                let raw = bytes.get(at..at + per * size).ok_or_else(|| {
-                    format!("variable '{}' runs past the end of the file", v.name)
-                })?;
-                decode(ty, raw, &mut out);
-            }
-            let data = if ty == NC_CHAR {
-                Data::F64(Vec::new())
-            } else {
-                Data::F64(out)
-            };
-            ds.vars[k].data = data;
+            out.push(Layout {
+                ty,
+                size,
+                begin,
+                per,
+                rec,
+                stride,
+            });
         }
-        Ok(ds)
+        Ok((ds, out))
+    }
+}
+
+/// Where a variable's values lie in the file.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Layout {
+    ty: u32,
+    size: usize,
+    begin: usize,
+    /// Values per record (record variables) or in all (fixed ones).
+    pub per: usize,
+    /// Whether the variable's first dimension is the record dimension.
+    pub rec: bool,
+    stride: usize,
+}
+
+impl Layout {
+    /// The bytes of record `rec` (of the whole variable when fixed: `rec`
+    /// 0).
+    pub fn range(&self, rec: usize) -> std::ops::Range<usize> {
+        let at = self.begin + rec * self.stride;
+        at..at + self.per * self.size
+    }
+
+    /// The bytes of values `first..first + n` of a fixed variable (in
+    /// row-major order), or of record `rec`'s values `first..first + n`.
+    pub fn values(&self, rec: usize, first: usize, n: usize) -> std::ops::Range<usize> {
+        let at = self.begin + rec * self.stride + first * self.size;
+        at..at + n * self.size
+    }
+
+    /// Decodes raw bytes of this variable's type into `out`.
+    pub fn decode(&self, raw: &[u8], out: &mut Vec<f64>) {
+        decode(self.ty, raw, out)
     }
 }
 

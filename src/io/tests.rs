@@ -26,6 +26,9 @@ pub(crate) fn spec(format: Format) -> InputSpec {
         skip_lines: 0,
         grid_tolerance: 0.05,
         orientation: Default::default(),
+        length_unit: None,
+        velocity_unit: None,
+        units_from_header: None,
     }
 }
 

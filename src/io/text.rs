@@ -30,6 +30,7 @@ use super::grid::RawRows;
 use super::{ColumnMap, Format};
 
 /// A line of the file: its 1-based number and its bytes (no line ending).
+#[derive(Clone)]
 pub(super) struct Lines<'a> {
     rest: &'a [u8],
     number: usize,
@@ -468,7 +469,24 @@ pub(crate) fn parse_frame(
     grid_only: bool,
 ) -> Result<RawRows> {
     let mut it = lines(bytes);
-    let (hline, names) = header(&mut it, format, skip_lines, path)?;
+    let (hline, mut names) = header(&mut it, format, skip_lines, path)?;
+    let mut units = super::units::strip(&mut names, &super::units::mapped(cols));
+    let mut uline = hline;
+    // a units line right below the header
+    let mut peek = it.clone();
+    if let Some((no, line)) = peek.find(|(_, l)| !is_comment_or_blank(l)) {
+        let mut cells = Vec::new();
+        for_cells(line, format, |_, c| cells.push(show(c)));
+        if super::units::is_units_line(&cells, &names, cols) {
+            units = cells
+                .iter()
+                .map(|c| Some(super::units::unit_cell(c)).filter(|u| !u.is_empty()))
+                .collect();
+            uline = no;
+            it = peek;
+        }
+    }
+    let header_units = super::units::collect(&names, &units, cols, path, uline)?;
     let mut wanted: Vec<(usize, &str)> = vec![(X, &cols.x), (Y, &cols.y)];
     if let Some(c) = &cols.mask {
         wanted.push((MASK, c));
@@ -517,6 +535,7 @@ pub(crate) fn parse_frame(
         invalid: Vec::with_capacity(cap),
         line: Vec::with_capacity(cap),
         masked: has(MASK).then(|| Vec::with_capacity(cap)),
+        units: header_units,
     };
     let ncol = names.len();
     let mut vals: [Option<f64>; 8] = [None; 8];

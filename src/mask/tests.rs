@@ -244,3 +244,37 @@ fn the_outline_of_masked_cells_is_their_border_with_unmasked_cells() {
     m[5] = true; // two cells side by side: 6 edges, the shared one left out
     assert_eq!(crate::plot::draw::mask_outline(&g, &m, 1e-3).len(), 6);
 }
+
+/// The figures' mask: the geometry's nodes, plus nodes masked in every
+/// frame (no valid, replaced or filled vector in any); a node masked in
+/// some frames only, and a node never counted (NaN fractions), are data.
+#[test]
+fn figure_mask_is_geometry_and_nodes_masked_in_every_frame() {
+    use crate::field::NodeTable;
+    let g = Grid {
+        x0: 0.0,
+        y0: 0.0,
+        dx: 1.0,
+        dy: 1.0,
+        nx: 4,
+        ny: 1,
+    };
+    let mut t = NodeTable::new(g);
+    // node 0 always valid, 1 masked in every frame, 2 masked in some
+    // frames and filled in one, 3 in no counted frame
+    t.push("n_valid", vec![4.0, 0.0, 0.0, 0.0]);
+    t.push("outlier_frac", vec![0.0, 0.0, 0.0, f64::NAN]);
+    t.push("filled_frac", vec![0.0, 0.0, 0.25, f64::NAN]);
+    assert_eq!(
+        crate::mask::figure_mask(None, &t),
+        Some(vec![false, true, false, false])
+    );
+    let mut geo = NodeMask::from_elem((1, 4), false);
+    geo[[0, 3]] = true;
+    assert_eq!(
+        crate::mask::figure_mask(Some(&geo), &t),
+        Some(vec![false, true, false, true])
+    );
+    t.columns[0].1[1] = 1.0;
+    assert_eq!(crate::mask::figure_mask(None, &t), None);
+}

@@ -93,9 +93,10 @@ impl RawInput {
             "text" => Format::Text,
             "parquet" => Format::Parquet,
             "netcdf" => Format::NetCdf,
+            "mat" => Format::Mat,
             other => {
                 return Err(Error::usage(format!(
-                    "{what}: format = '{other}' is not known; expected csv, tsv, text, parquet or netcdf"
+                    "{what}: format = '{other}' is not known; expected csv, tsv, text, parquet, netcdf or mat"
                 )))
             }
         };
@@ -172,6 +173,9 @@ impl RawInput {
             velocity_scale,
             skip_lines: self.skip_lines.unwrap_or(0),
             grid_tolerance,
+            length_unit: self.length_unit.clone(),
+            velocity_unit: self.velocity_unit.clone(),
+            units_from_header: None,
         })
     }
 

@@ -226,11 +226,24 @@ impl Plan {
                 )));
             }
             let what = format!("run '{}'", r.id);
-            let raw_input = match &r.input {
+            let mut raw_input = match &r.input {
                 Some(o) => raw.input.overridden_by(o),
                 None => raw.input.clone(),
             };
-            let spec = raw_input.resolve(&what)?;
+            let mut spec = raw_input.resolve(&what)?;
+            // units the pipeline leaves open, settled by the first frame's
+            // header (`io::units`); every key in the input's units follows
+            let frames_abs = resolve_path(base_dir, &r.frames);
+            if let Some(st) = crate::io::units::settle(&spec, &frames_abs.to_string_lossy()) {
+                if let Some(l) = &st.length {
+                    raw_input.length_unit = Some(l.unit.to_string());
+                }
+                if let Some(v) = &st.velocity {
+                    raw_input.velocity_unit = Some(v.unit.to_string());
+                }
+                spec = raw_input.resolve(&what)?;
+                spec.units_from_header = Some(st);
+            }
             let ctx = ResolveCtx {
                 base_dir: base_dir.to_path_buf(),
                 velocity_scale: spec.velocity_scale,

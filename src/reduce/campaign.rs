@@ -62,14 +62,11 @@ pub fn finish_campaign(
             description: rp.description.clone(),
             budget: None,
             vortices: None,
-            mask: rp
-                .mask
-                .nodes(&r.grid, rp.input.grid_tolerance)
-                .ok()
-                .filter(|m| m.iter().any(|&b| b))
-                .map(|m| m.iter().copied().collect()),
+            mask: None,
             structures: Default::default(),
         };
+        let geometry = rp.mask.nodes(&r.grid, rp.input.grid_tolerance).ok();
+        rr.mask = crate::mask::figure_mask(geometry.as_ref(), &rr.stats.ensemble);
         let sketch = r.state.modes.take();
         if let Some(b) = &r.state.budget {
             let t = Instant::now();
@@ -158,6 +155,7 @@ pub fn finish_campaign(
             "frames_in_run": r.n_frames_run,
             "grid": rr.grid,
             "orientation": rp.input.orientation.describe(),
+            "units": crate::io::units::describe(&rp.input),
             "timings_s": timings.iter().map(|(k, v)| (k.clone(), serde_json::json!(v))).collect::<serde_json::Map<_, _>>(),
             "resolved": rp.resolved_json()?,
             "resolved_in_words": rp.describe_json(),

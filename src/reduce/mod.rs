@@ -202,10 +202,7 @@ pub fn list_run_frames(run: &RunPlan) -> Result<Vec<(FrameMeta, FrameSource)>> {
 }
 
 fn source_path(src: &FrameSource) -> &std::path::Path {
-    match src {
-        FrameSource::File(p) => p,
-        FrameSource::Parquet { path, .. } => path,
-    }
+    src.path()
 }
 
 /// The run's grid and its geometry mask (`None` when nothing is masked).
@@ -470,7 +467,8 @@ pub fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
         return Err(e);
     }
     for (_, src) in mine {
-        if let FrameSource::Parquet { path, .. } = src {
+        if src.shares_file() {
+            let path = &src.path().to_path_buf();
             if !seen_parquet.contains(path) {
                 seen_parquet.push(path.clone());
                 let (bytes, sha256) = io::hash_file(path)?;

@@ -70,10 +70,7 @@ pub struct Fingerprint {
 }
 
 fn path_of(src: &FrameSource) -> &Path {
-    match src {
-        FrameSource::File(p) => p,
-        FrameSource::Parquet { path, .. } => path,
-    }
+    src.path()
 }
 
 fn file_name(p: &str) -> String {

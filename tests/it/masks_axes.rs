@@ -315,3 +315,48 @@ fn a_mask_column_masks_its_nodes() {
     let frames = Csv::read(&w.path("o/u020/frames.csv"));
     assert_eq!(frames.col("n_invalid_input")[0], gaps as f64);
 }
+
+/// A mask column takes the figures' path of the geometry masks: the nodes
+/// the run's figures draw grey (`RunResult::mask`) are the body's, the
+/// same set a `[mask]` circle of the same body gives.
+#[test]
+fn a_mask_column_is_drawn_grey_like_a_geometry_mask() {
+    let w = Work::new();
+    let common = ["--frames", "3", "--speeds", "0.2", "--seed", "5"];
+    let mut col = vec!["synth", "cylinder", "--out", "col", "--mask-column"];
+    col.extend(common);
+    w.ok(&col);
+    let mut geo = vec!["synth", "cylinder", "--out", "geo"];
+    geo.extend(common);
+    w.ok(&geo);
+    let drawn = |dir: &str| {
+        let c = curlew::Campaign::load(w.path(&format!("{dir}/pipeline.toml"))).unwrap();
+        let r = c
+            .run(&curlew::RunOptions {
+                out: Some(w.path(&format!("o_{dir}"))),
+                ..Default::default()
+            })
+            .unwrap();
+        let run = &r.runs[0];
+        (run.mask.clone(), run.grid)
+    };
+    let (m_col, g) = drawn("col");
+    let (m_geo, _) = drawn("geo");
+    let m_col = m_col.expect("the mask column is drawn");
+    assert_eq!(Some(&m_col), m_geo.as_ref(), "same grey nodes both ways");
+    // the grey nodes are the body: within the radius (5 mm) of the origin
+    let mut n = 0;
+    for j in 0..g.ny {
+        for i in 0..g.nx {
+            let r = g.x(i).hypot(g.y(j));
+            let k = j * g.nx + i;
+            if r < 5e-3 * (1.0 - 1e-9) {
+                assert!(m_col[k], "node ({i}, {j}) at r = {r} is in the body");
+                n += 1;
+            } else if r > 5e-3 * (1.0 + 1e-9) {
+                assert!(!m_col[k], "node ({i}, {j}) at r = {r} is flow");
+            }
+        }
+    }
+    assert!(n > 50, "{n} body nodes");
+}
