@@ -3,8 +3,11 @@
 //! Owns: the budget's parameters (`Params`), its per-frame fields (`ops`),
 //! its accumulator (`acc`, merged in frame order across chunks and shards
 //! like the statistics), its serialised partial state (`codec`), the terms
-//! per slice and node (`terms`) and the circulation budget of vortex cores
-//! (`cores`), its plain-words reading (`reading`), and the frequency of the phase bins (`freq`). Does not own: the statistics (`stats`), files or figures.
+//! per slice and node (`terms`), the variance of their area integrals
+//! (`integral`; the circulation budget of vortex cores is
+//! `vortex::budget`), its plain-words reading (`reading`), and the
+//! frequency of the phase bins (`freq`). Does not own: the statistics
+//! (`stats`), files or figures.
 //!
 //! For the out-of-plane vorticity w of a planar, incompressible,
 //! constant-density flow (docs/budget.md):
@@ -18,6 +21,7 @@
 pub mod acc;
 pub mod codec;
 pub mod freq;
+pub mod integral;
 pub mod ops;
 pub mod reading;
 pub mod run;

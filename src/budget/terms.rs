@@ -36,8 +36,10 @@
 //! Nodes without two samples in the bin, or without every tap, get NaN.
 
 use super::acc::{BinSums, BudgetAcc, Slice};
-use super::ops::{apply, tri, F_DIV, F_LAP, F_Q, F_U, F_V, F_W, F_WX, F_WY, NF, NT};
+use super::integral::Noise;
+use super::ops::{apply, tri, Ops, F_DIV, F_LAP, F_Q, F_U, F_V, F_W, F_WX, F_WY, NF, NT};
 use crate::field::Grid;
+use crate::stencil::Stencil;
 use ndarray::Array2;
 
 /// Term names, in column order.
@@ -74,6 +76,24 @@ pub struct SliceBudget {
     pub unc: [Vec<f64>; 5],
     pub residual: Vec<f64>,
     pub residual_unc: Vec<f64>,
+    /// What the uncertainty of an area integral of the terms needs
+    /// (`integral`); `None` for a slice without the inputs.
+    pub lin: Option<Linear>,
+}
+
+/// The inputs of the linear propagation of a slice's area integrals
+/// (`integral`, `vortex::budget`).
+#[derive(Debug, Clone)]
+pub struct Linear {
+    /// Field means, node-major (`mean[k * NF + f]`): the point about which
+    /// advection and stretching are linearised.
+    pub mean: Vec<f64>,
+    /// Velocity variances of the slice: a bin's, of its means (type A,
+    /// `C_uu / (n (n - 1))`); a frame's, its noise.
+    pub noise: Noise,
+    /// The unsteady term's earlier and later slices' velocity variances and
+    /// its factor: unsteady = factor (W_later - W_earlier).
+    pub unsteady: Option<(Noise, Noise, f64)>,
 }
 
 /// The budget of a run.
@@ -81,6 +101,11 @@ pub struct SliceBudget {
 pub struct Budget {
     pub grid: Grid,
     pub slices: Vec<SliceBudget>,
+    /// The stencils of the terms, the smoother before them and the
+    /// viscosity (NaN when missing): what `integral` needs.
+    pub ops: Ops,
+    pub smoother: Option<Stencil>,
+    pub nu: f64,
     /// Coverage factor of the significance test.
     pub k: f64,
     /// The frequency of the phase bins and its source (set by `run::finish`).
@@ -105,6 +130,7 @@ impl SliceBudget {
             unc: std::array::from_fn(|_| nan()),
             residual: nan(),
             residual_unc: nan(),
+            lin: None,
         }
     }
 
@@ -136,16 +162,7 @@ fn quad(j: &[f64; NF], s: &[f64]) -> f64 {
 /// to the stencil's truncation), so its variance and its covariance with
 /// the other terms follow from the same covariance matrix.
 fn local(m: &[f64], s: &[f64], nu: f64, turb: bool) -> ([f64; 4], [f64; 4], f64) {
-    let mut ja = [0.0; NF];
-    ja[F_U] = m[F_WX];
-    ja[F_V] = m[F_WY];
-    ja[F_WX] = m[F_U];
-    ja[F_WY] = m[F_V];
-    let mut js = [0.0; NF];
-    js[F_W] = -m[F_DIV];
-    js[F_DIV] = -m[F_W];
-    let mut jd = [0.0; NF];
-    jd[F_LAP] = nu;
+    let [ja, js, jd] = jacobians(m, nu);
     let mut jt = [0.0; NF];
     if turb {
         jt[F_Q] = -1.0;
@@ -167,6 +184,24 @@ fn local(m: &[f64], s: &[f64], nu: f64, turb: bool) -> ([f64; 4], [f64; 4], f64)
         [quad(&ja, s), quad(&js, s), quad(&jd, s), quad(&jt, s)],
         quad(&jr, s),
     )
+}
+
+/// The first-order dependence of advection, stretching and diffusion at a
+/// node on its fields (`ops`), the means `m` as coefficients: advection
+/// `U Wx + V Wy` varies as `dU Wx + dV Wy + U dWx + V dWy`, stretching
+/// `-W DIV` as `-dW DIV - W dDIV`, diffusion `nu LAP` as `nu dLAP`.
+pub fn jacobians(m: &[f64], nu: f64) -> [[f64; NF]; 3] {
+    let mut ja = [0.0; NF];
+    ja[F_U] = m[F_WX];
+    ja[F_V] = m[F_WY];
+    ja[F_WX] = m[F_U];
+    ja[F_WY] = m[F_V];
+    let mut js = [0.0; NF];
+    js[F_W] = -m[F_DIV];
+    js[F_DIV] = -m[F_W];
+    let mut jd = [0.0; NF];
+    jd[F_LAP] = nu;
+    [ja, js, jd]
 }
 
 /// Fills advection, stretching, diffusion, the turbulent uncertainty and
@@ -206,7 +241,16 @@ pub fn finish(acc: &BudgetAcc, nu: Option<f64>, freq: Option<f64>) -> Budget {
         let prev = acc.bins[(b + kb - 1) % kb].as_ref().filter(|_| kb >= 3);
         let next = acc.bins[(b + 1) % kb].as_ref().filter(|_| kb >= 3);
         let rate = freq.map_or(f64::NAN, |f| kb as f64 * f / 2.0);
-        slices.push(phase_slice(acc, kind, bin, prev.zip(next), rate, nu));
+        let mut s = phase_slice(acc, kind, bin, prev.zip(next), rate, nu);
+        let gain = gain(acc);
+        s.lin = Some(Linear {
+            mean: bin.mean.clone(),
+            noise: bin_noise(bin, gain),
+            unsteady: prev
+                .zip(next)
+                .map(|(p, q)| (bin_noise(p, gain), bin_noise(q, gain), rate)),
+        });
+        slices.push(s);
     }
     for (i, s) in acc.slices.iter().enumerate() {
         if !acc.params.frames.contains(&s.index) {
@@ -217,7 +261,20 @@ pub fn finish(acc: &BudgetAcc, nu: Option<f64>, freq: Option<f64>) -> Budget {
         let pair = prev
             .zip(next)
             .filter(|(p, q)| p.index + 1 == s.index && q.index == s.index + 1);
-        slices.push(frame_slice(acc, s, pair, nu));
+        let mut out = frame_slice(acc, s, pair, nu);
+        let noise = |x: &Slice| Noise {
+            var_u: x.var_u.clone(),
+            var_v: x.var_v.clone(),
+            cov_uv: vec![0.0; nodes],
+        };
+        out.lin = Some(Linear {
+            mean: (0..nodes * NF)
+                .map(|t| s.fields[(t % NF) * nodes + t / NF])
+                .collect(),
+            noise: noise(s),
+            unsteady: pair.map(|(p, q)| (noise(p), noise(q), 1.0 / (q.time_s - p.time_s))),
+        });
+        slices.push(out);
     }
     let mut warnings = Vec::new();
     for &f in &acc.params.frames {
@@ -231,11 +288,43 @@ pub fn finish(acc: &BudgetAcc, nu: Option<f64>, freq: Option<f64>) -> Budget {
     Budget {
         grid: acc.grid,
         slices,
+        ops: acc.ops.clone(),
+        smoother: acc.smoother.clone(),
+        nu,
         k: acc.params.k,
         frequency: None,
         figure_bin: acc.params.figure_bin,
         reading: None,
         warnings,
+    }
+}
+
+/// The smoother's noise factor (1 without one): a smoothed variance over
+/// its square is the raw-equivalent variance (`acc::push`).
+fn gain(acc: &BudgetAcc) -> f64 {
+    acc.smoother.as_ref().map_or(1.0, |s| s.noise_factor())
+}
+
+/// The raw-equivalent variances and u-v covariance of a bin's velocity
+/// means per node (NaN below two samples).
+fn bin_noise(b: &BinSums, gain: f64) -> Noise {
+    let g2 = gain * gain;
+    let at = |t: usize| -> Vec<f64> {
+        (0..b.n.len())
+            .map(|k| {
+                let n = b.n[k];
+                if n < 2.0 {
+                    f64::NAN
+                } else {
+                    b.cm[k * NT + t] / (n * (n - 1.0)) / g2
+                }
+            })
+            .collect()
+    };
+    Noise {
+        var_u: at(tri(F_U, F_U)),
+        var_v: at(tri(F_V, F_V)),
+        cov_uv: at(tri(F_U, F_V)),
     }
 }
 

@@ -12,19 +12,37 @@
 //! `find_cores`, on the slice's own mean fields, and every term, and the
 //! residual, is summed over each core's nodes times `dA = dx dy`.
 //!
-//! Uncertainty: `dA sqrt(sum_k u_k^2)`, the node errors of a term taken as
-//! independent between nodes. This neglects their spatial covariance: the
-//! diffusion and turbulent terms are divergences, whose area integrals
-//! telescope into boundary fluxes, so their node errors anticorrelate and
-//! the independent sum overstates their uncertainty; advection and
-//! stretching are products of smooth fields and may correlate positively
-//! (understated). The correlation between terms at one node is carried in
-//! the residual's own uncertainty (`budget::terms`). A term that is NaN at
-//! any node of the core is NaN for the core (no partial integrals).
+//! Uncertainty (`budget::integral`; GUM, JCGM 100:2008, eq. 13): each
+//! integrated term is, to first order, one linear functional of the
+//! velocity samples: the core's nodes' composite stencils (vorticity for
+//! the unsteady term, on the neighbouring slices; Laplacian after the
+//! vorticity stencils for diffusion; for advection and stretching the
+//! linearised fields, with the slice's mean fields as coefficients),
+//! scattered into one weight map, whose variance follows from the per-node
+//! velocity variances the budget keeps (a bin's: of its means; a frame's:
+//! its noise) and the run's velocity error correlation `vel`. Neighbouring
+//! nodes' weights cancel where the operators telescope, so the diffusion's
+//! integral carries only its boundary flux's uncertainty. The residual's
+//! linear part (advection - stretching - diffusion, one map) and the
+//! unsteady term (other slices: independent) give its variance with the
+//! terms' correlation carried.
+//! Not carried: the turbulent term (phase bins) is a divergence of
+//! co-moments, whose cross-node covariances the one-pass accumulator does
+//! not keep; its uncertainty is still `dA sqrt(sum_k u_k^2)` (nodes taken
+//! as independent: overstated where the divergence telescopes), and it
+//! enters the residual's variance as independent of the other terms. In
+//! phase bins the spatial correlation of the turbulent scatter of the bin
+//! means is taken as that of the noise (`vel`), as for the circulation
+//! (docs/vortices.md). A term that is NaN at any node of the core is NaN
+//! for the core (no partial integrals), and so is its uncertainty.
 
 use super::corr::OmegaCorrelation;
 use super::{find_cores, Params, Slice, SliceKind};
+use crate::budget::integral::Weights;
+use crate::budget::ops::{F_W, NF};
+use crate::budget::terms::{jacobians, SliceBudget};
 use crate::budget::{Budget, SliceKind as BudgetKind, TERMS};
+use crate::stencil::correlation::Correlation;
 
 /// The circulation budget of one core of one budget slice.
 #[derive(Debug, Clone, PartialEq)]
@@ -47,12 +65,14 @@ pub struct CoreBudget {
     pub residual_unc: f64,
 }
 
-/// The circulation budget of every core of every slice of `b`.
+/// The circulation budget of every core of every slice of `b`; `vel` the
+/// run's velocity error correlation between nodes.
 pub fn core_budgets(
     b: &Budget,
     p: &Params,
     gamma_radius: usize,
     frequency: Option<f64>,
+    vel: Correlation,
 ) -> Vec<CoreBudget> {
     let g = b.grid;
     let da = g.dx * g.dy;
@@ -91,6 +111,22 @@ pub fn core_budgets(
         for (ci, c) in cores.iter().enumerate() {
             let sum = |v: &[f64]| c.nodes.iter().map(|&k| v[k]).sum::<f64>() * da;
             let rss = |v: &[f64]| c.nodes.iter().map(|&k| v[k] * v[k]).sum::<f64>().sqrt() * da;
+            let value: [f64; 5] = std::array::from_fn(|t| sum(&s.value[t]));
+            let residual = sum(&s.residual);
+            let (lin, var_lin) = integrated(b, s, &c.nodes, vel);
+            let mut unc: [f64; 5] = std::array::from_fn(|t| {
+                if t < 4 && value[t].is_finite() {
+                    lin[t].max(0.0).sqrt()
+                } else {
+                    f64::NAN
+                }
+            });
+            unc[4] = rss(&s.unc[4]);
+            let var_t = if value[4].is_finite() {
+                unc[4] * unc[4]
+            } else {
+                0.0
+            };
             out.push(CoreBudget {
                 kind,
                 time_s,
@@ -100,13 +136,61 @@ pub fn core_budgets(
                 y: c.y,
                 n_nodes: c.nodes.len(),
                 circulation: c.circulation,
-                value: std::array::from_fn(|t| sum(&s.value[t])),
-                unc: std::array::from_fn(|t| rss(&s.unc[t])),
-                residual: sum(&s.residual),
-                residual_unc: rss(&s.residual_unc),
+                value,
+                unc,
+                residual,
+                residual_unc: if residual.is_finite() {
+                    (lin[0] + var_lin + var_t).max(0.0).sqrt()
+                } else {
+                    f64::NAN
+                },
             });
         }
     }
     debug_assert_eq!(TERMS.len(), 5);
     out
+}
+
+/// The variances of the integrals over `nodes` (times dA) of unsteady,
+/// advection, stretching and diffusion, and of the residual's linear part
+/// (advection - stretching - diffusion), by `budget::integral`. NaN where
+/// the slice lacks the inputs or a stencil leaves the grid.
+fn integrated(b: &Budget, s: &SliceBudget, nodes: &[usize], vel: Correlation) -> ([f64; 4], f64) {
+    let nan = ([f64::NAN; 4], f64::NAN);
+    let Some(lin) = &s.lin else { return nan };
+    let g = b.grid;
+    let da = g.dx * g.dy;
+    let mut w: [Weights; 5] = std::array::from_fn(|_| Weights::new(&g));
+    let mut ok = true;
+    let mut cw = [0.0; NF];
+    cw[F_W] = da;
+    for &k in nodes {
+        let [ja, js, jd] = jacobians(&lin.mean[k * NF..(k + 1) * NF], b.nu);
+        let jr: [f64; NF] = std::array::from_fn(|f| (ja[f] - js[f] - jd[f]) * da);
+        let scaled = |j: [f64; NF]| j.map(|x| x * da);
+        ok &= w[0].add_fields(&b.ops, k, &cw);
+        ok &= w[1].add_fields(&b.ops, k, &scaled(ja));
+        ok &= w[2].add_fields(&b.ops, k, &scaled(js));
+        ok &= w[3].add_fields(&b.ops, k, &scaled(jd));
+        ok &= w[4].add_fields(&b.ops, k, &jr);
+    }
+    if !ok {
+        return nan;
+    }
+    let var = |w: &Weights, n| match &b.smoother {
+        Some(m) => w.after(m).variance(n, vel),
+        None => w.variance(n, vel),
+    };
+    let unst = lin.unsteady.as_ref().map_or(f64::NAN, |(p, q, f)| {
+        f * f * (var(&w[0], p) + var(&w[0], q))
+    });
+    (
+        [
+            unst,
+            var(&w[1], &lin.noise),
+            var(&w[2], &lin.noise),
+            var(&w[3], &lin.noise),
+        ],
+        var(&w[4], &lin.noise),
+    )
 }

@@ -14,6 +14,7 @@ use super::{find_cores, track, Params, Slice, SliceCores, SliceKind, Vortices};
 use crate::field::NodeTable;
 use crate::plan::RunPlan;
 use crate::result::RunResult;
+use crate::stencil::correlation::Correlation;
 
 /// The slice of a node table's mean columns, or `None` when one is missing.
 fn slice_of(t: &NodeTable, kind: SliceKind, time_s: f64) -> Option<Slice<'_>> {
@@ -36,6 +37,13 @@ pub fn analyse(rr: &RunResult, rp: &RunPlan, frequency: Option<f64>) -> Option<V
     let p: &Params = rp.vortices.as_ref()?;
     let g = rr.grid;
     let corr = OmegaCorrelation::for_run(&rp.derive, &g);
+    // the velocity error correlation the circulation budget's integrals carry
+    // (none when the overlap is estimated per frame, as in `for_run`)
+    let vel = if rp.derive.correlation_from_data {
+        Correlation::Independent
+    } else {
+        rp.derive.correlation
+    };
     let radius = rp.derive.gamma_radius;
     let f = frequency;
     let mut warnings = Vec::new();
@@ -83,7 +91,7 @@ pub fn analyse(rr: &RunResult, rp: &RunPlan, frequency: Option<f64>) -> Option<V
     let budget = rr
         .budget
         .as_ref()
-        .map(|b| super::budget::core_budgets(b, p, radius, f))
+        .map(|b| super::budget::core_budgets(b, p, radius, f, vel))
         .unwrap_or_default();
     Some(Vortices {
         grid: g,

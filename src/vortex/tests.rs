@@ -308,6 +308,12 @@ fn lamb_oseen_circulation_within_its_uncertainty_and_what_the_window_misses() {
     );
 }
 
+/// Per seed, (value, reported uncertainty) of five integrated terms.
+type Row = [(f64, f64); 5];
+
+/// Seeds of the diffusing core's Monte Carlo.
+const SEEDS: u64 = 200;
+
 #[test]
 fn circulation_budget_of_a_diffusing_lamb_oseen_core_sums_to_zero() {
     // A Lamb-Oseen vortex diffusing in still fluid (Saffman 1992 §1.3):
@@ -318,9 +324,10 @@ fn circulation_budget_of_a_diffusing_lamb_oseen_core_sums_to_zero() {
     let nu = 1e-6;
     let (g0, rc0, h) = (2e-4, 4e-3, 0.5e-3);
     let g = square(41, h);
-    let mut worst: f64 = 0.0;
-    let (mut res, mut res_u, mut dif, mut dif_u) = (Vec::new(), Vec::new(), Vec::new(), Vec::new());
-    for seed in 0..20u64 {
+    // per seed: (value, reported uncertainty) of unsteady, advection,
+    // stretching, diffusion and the residual
+    let mut mc: Vec<[(f64, f64); 5]> = Vec::new();
+    for seed in 0..SEEDS {
         let p = crate::budget::Params {
             frames: vec![1],
             ..crate::budget::Params::default()
@@ -342,50 +349,80 @@ fn circulation_budget_of_a_diffusing_lamb_oseen_core_sums_to_zero() {
             acc.push_fields(&frame, &arr(&s.u), &arr(&s.v), &var, &var);
         }
         let b = crate::budget::terms::finish(&acc, Some(nu), None);
-        let rows = super::budget::core_budgets(&b, &Params::default(), 2, None);
+        let rows =
+            super::budget::core_budgets(&b, &Params::default(), 2, None, Correlation::Independent);
         assert_eq!(rows.len(), 1, "one core");
         let c = &rows[0];
-        let z = c.residual / c.residual_unc;
-        res.push(c.residual);
-        res_u.push(c.residual_unc);
-        dif.push(c.value[3]);
-        dif_u.push(c.unc[3]);
-        eprintln!(
-            "seed {seed}: circulation {:.3e}, unsteady {:.3e} ± {:.1e}, diffusion {:.3e} ± {:.1e}, advection {:.1e} ± {:.1e}, residual {:.2e} ± {:.1e} (z {z:.2})",
-            c.circulation, c.value[0], c.unc[0], c.value[3], c.unc[3], c.value[1], c.unc[1], c.residual, c.residual_unc
-        );
+        mc.push([
+            (c.value[0], c.unc[0]),
+            (c.value[1], c.unc[1]),
+            (c.value[2], c.unc[2]),
+            (c.value[3], c.unc[3]),
+            (c.residual, c.residual_unc),
+        ]);
+        if seed < 3 {
+            eprintln!(
+                "seed {seed}: circulation {:.3e}, unsteady {:.3e} ± {:.1e}, diffusion {:.3e} ± {:.1e}, advection {:.1e} ± {:.1e}, stretching {:.1e} ± {:.1e}, residual {:.2e} ± {:.1e}",
+                c.circulation, c.value[0], c.unc[0], c.value[3], c.unc[3], c.value[1], c.unc[1], c.value[2], c.unc[2], c.residual, c.residual_unc
+            );
+        }
         assert!(c.residual_unc > 0.0 && c.residual_unc.is_finite());
-        assert!(
-            z.abs() < 3.0,
-            "residual {} ± {}",
-            c.residual,
-            c.residual_unc
-        );
-        worst = worst.max(z.abs());
-        // the diffusion the analytic core loses through the region's edge:
-        // dGamma/dt = -G0 (R²/rc⁴)(4 nu) exp(-R²/rc²)... checked as the
-        // balance unsteady = diffusion within the combined uncertainty
-        let d = c.value[0] - c.value[3];
-        assert!(
-            d.abs() < 3.0 * (c.unc[0].powi(2) + c.unc[3].powi(2)).sqrt(),
-            "unsteady vs diffusion"
-        );
-        assert!(c.value[1].abs() < 3.0 * c.unc[1], "advection");
     }
-    // Monte Carlo: with node errors taken as independent (the documented
-    // assumption) the integrated diffusion's and residual's uncertainties
-    // overstate their scatter over seeds, never understate it (the
-    // Laplacian's area integral telescopes to a boundary flux).
-    let ratio = |v: &[f64], u: &[f64]| {
-        let n = v.len() as f64;
-        let m = v.iter().sum::<f64>() / n;
-        let sd = (v.iter().map(|x| (x - m).powi(2)).sum::<f64>() / (n - 1.0)).sqrt();
-        sd / (u.iter().sum::<f64>() / n)
-    };
-    let (rr, rd) = (ratio(&res, &res_u), ratio(&dif, &dif_u));
-    eprintln!("largest |residual| / u over 20 seeds: {worst:.2}; scatter / reported: residual {rr:.3}, diffusion {rd:.3}");
-    assert!(
-        rr < 1.0 && rd < 1.0,
-        "scatter / reported: residual {rr}, diffusion {rd}"
+    // The residual and unsteady - diffusion within k = 2 and 3 of their
+    // uncertainties; advection (zero in the flow) within k = 3.
+    let within = |f: &dyn Fn(&Row) -> f64, k: f64| mc.iter().filter(|x| f(x).abs() < k).count();
+    let z_res = |x: &[(f64, f64); 5]| x[4].0 / x[4].1;
+    let z_bal = |x: &[(f64, f64); 5]| (x[0].0 - x[3].0) / x[0].1.hypot(x[3].1);
+    let z_adv = |x: &[(f64, f64); 5]| x[1].0 / x[1].1;
+    let worst = mc.iter().map(|x| z_res(x).abs()).fold(0.0, f64::max);
+    let mean_z = mc.iter().map(z_res).sum::<f64>() / mc.len() as f64;
+    eprintln!(
+        "residual within k=2: {}, k=3: {}; balance within k=2: {}, k=3: {}; advection within k=3: {}; mean residual / u {mean_z:.3}",
+        within(&z_res, 2.0),
+        within(&z_res, 3.0),
+        within(&z_bal, 2.0),
+        within(&z_bal, 3.0),
+        within(&z_adv, 3.0)
     );
+    // Measured: residual 184 and 200 of 200 within k = 2 and 3 (normal:
+    // 191 and 199.5), balance 186 and 200, advection 200 within k = 3; the
+    // mean residual is +0.35 u (the stencils' truncation, constant over seeds).
+    assert!(within(&z_res, 2.0) >= 180 && within(&z_res, 3.0) >= 197);
+    assert!(within(&z_bal, 2.0) >= 180 && within(&z_bal, 3.0) >= 197);
+    assert!(within(&z_adv, 3.0) >= 197);
+    // Monte Carlo (GUM Supplement 1, JCGM 101:2008, checks a first-order
+    // propagation by sampling): each integrated term's reported uncertainty
+    // against its scatter over the seeds. The uncertainty is the variance of
+    // the term's linear functional of the velocity samples (budget::integral),
+    // so the telescoping of the Laplacian's area integral into a boundary
+    // flux is carried. With node errors taken as independent the diffusion's
+    // and residual's scatter were 0.16 and 0.15 of the reported uncertainty.
+    // The scatter of a standard deviation over SEEDS samples is about
+    // 1/sqrt(2 (SEEDS - 1)) = 5 %, so 15 % is three of its standard errors.
+    // Measured (200 seeds, noise 1e-5 m/s, rc = 8 pitches, central
+    // differences): unsteady 1.008, advection 0.909, stretching 0.933,
+    // diffusion 1.073, residual 1.057.
+    let names = [
+        "unsteady",
+        "advection",
+        "stretching",
+        "diffusion",
+        "residual",
+    ];
+    let ratios = mc_ratios(&mc);
+    eprintln!("largest |residual| / u over {SEEDS} seeds: {worst:.2}; scatter / reported: {names:?} {ratios:.3?}");
+    for (name, r) in names.iter().zip(ratios) {
+        assert!((r - 1.0).abs() < 0.15, "{name}: scatter / reported {r}");
+    }
+}
+
+/// Scatter over seeds / root-mean-square reported uncertainty, per column.
+fn mc_ratios<const N: usize>(mc: &[[(f64, f64); N]]) -> [f64; N] {
+    let n = mc.len() as f64;
+    std::array::from_fn(|t| {
+        let m = mc.iter().map(|x| x[t].0).sum::<f64>() / n;
+        let sd = (mc.iter().map(|x| (x[t].0 - m).powi(2)).sum::<f64>() / (n - 1.0)).sqrt();
+        let u = (mc.iter().map(|x| x[t].1 * x[t].1).sum::<f64>() / n).sqrt();
+        sd / u
+    })
 }
