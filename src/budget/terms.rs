@@ -38,6 +38,7 @@
 use super::acc::{BinSums, BudgetAcc, Slice};
 use super::integral::Noise;
 use super::ops::{apply, tri, Ops, F_DIV, F_LAP, F_Q, F_U, F_V, F_W, F_WX, F_WY, NF, NT};
+use crate::derive::quantities::clip0;
 use crate::field::Grid;
 use crate::stencil::Stencil;
 use ndarray::Array2;
@@ -215,14 +216,14 @@ fn close(out: &mut SliceBudget, k: usize, m: &[f64], s: &[f64], nu: f64, var_uns
     out.omega[k] = m[F_W];
     for t in 0..3 {
         out.value[t + 1][k] = val[t];
-        out.unc[t + 1][k] = vars[t].max(0.0).sqrt();
+        out.unc[t + 1][k] = clip0(vars[t]).sqrt();
     }
     if !turb.is_nan() {
-        out.unc[4][k] = vars[3].max(0.0).sqrt();
+        out.unc[4][k] = clip0(vars[3]).sqrt();
     }
     let turb = if turb.is_nan() { 0.0 } else { turb };
     out.residual[k] = out.value[0][k] + val[0] - val[1] - val[2] - turb;
-    out.residual_unc[k] = (var_unst + var_r).max(0.0).sqrt();
+    out.residual_unc[k] = clip0(var_unst + var_r).sqrt();
 }
 
 /// The finished budget. `nu` (m²/s) and `freq` (Hz) may be missing: the

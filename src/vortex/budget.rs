@@ -42,6 +42,7 @@ use crate::budget::integral::Weights;
 use crate::budget::ops::{F_W, NF};
 use crate::budget::terms::{jacobians, SliceBudget};
 use crate::budget::{Budget, SliceKind as BudgetKind, TERMS};
+use crate::derive::quantities::clip0;
 use crate::stencil::correlation::Correlation;
 
 /// The circulation budget of one core of one budget slice.
@@ -114,9 +115,19 @@ pub fn core_budgets(
             let value: [f64; 5] = std::array::from_fn(|t| sum(&s.value[t]));
             let residual = sum(&s.residual);
             let (lin, var_lin) = integrated(b, s, &c.nodes, vel);
+            // The linear functional where every stencil fits; next to the
+            // field's edge or a gap (the integral kernel refuses a cut
+            // stencil: NaN) the node uncertainties' root sum of squares,
+            // the independent-node rule, which overstates a divergence's
+            // integral (docs/vortices.md). Never f64::max(NaN, 0), which
+            // is 0: a zero uncertainty.
             let mut unc: [f64; 5] = std::array::from_fn(|t| {
                 if t < 4 && value[t].is_finite() {
-                    lin[t].max(0.0).sqrt()
+                    if lin[t].is_finite() {
+                        clip0(lin[t]).sqrt()
+                    } else {
+                        rss(&s.unc[t])
+                    }
                 } else {
                     f64::NAN
                 }
@@ -139,10 +150,12 @@ pub fn core_budgets(
                 value,
                 unc,
                 residual,
-                residual_unc: if residual.is_finite() {
-                    (lin[0] + var_lin + var_t).max(0.0).sqrt()
-                } else {
+                residual_unc: if !residual.is_finite() {
                     f64::NAN
+                } else if (lin[0] + var_lin).is_finite() {
+                    clip0(lin[0] + var_lin + var_t).sqrt()
+                } else {
+                    rss(&s.residual_unc)
                 },
             });
         }
