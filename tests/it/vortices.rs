@@ -101,6 +101,14 @@ fn wake_cores_are_tracked_at_the_street_speed_and_their_budget_is_written() {
     let b = Csv::read(&w.path("out/u015/circulation-budget.csv"));
     assert!(!b.rows.is_empty());
     assert_eq!(b.header.last().unwrap(), "residual_unc");
+    // an uncertainty is NaN where it cannot be made, never 0 (f64::max once
+    // turned the kernel's NaN at edge cores into 0)
+    for name in b.header.iter().filter(|h| h.ends_with("_unc")) {
+        assert!(
+            b.col(name).iter().all(|&u| u != 0.0),
+            "{name}: a zero uncertainty"
+        );
+    }
     assert!(w.path("out/u015/figures/vortex-tracks.png").exists());
     assert!(w.path("out/u015/figures/vortex-circulation.svg").exists());
     // the budget along the longest track of each sign: drawn only when the
