@@ -12,6 +12,7 @@
 //! hashes), `outdir` (output folders: safety, leftovers, signals), `inspect` (summaries for `curlew inspect`), `natural` (natural sort order of frame files), `frame_table` (time and
 //! phase per frame).
 
+pub mod blob;
 pub mod cf;
 mod frame_table;
 pub mod grid;

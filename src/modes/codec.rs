@@ -12,7 +12,7 @@ use serde::{Deserialize, Serialize};
 
 use super::sketch::{psi_matrix, FrameSketch, ModeSketch};
 use super::Params;
-use crate::error::{Error, Result};
+use crate::error::Result;
 
 const MAGIC: &[u8] = b"curlew-modes\n";
 const VERSION: u32 = 1;
@@ -60,49 +60,29 @@ impl ModeSketch {
 
     /// Reads `to_bytes` back; a truncated or foreign file is an error.
     pub fn from_bytes(b: &[u8]) -> Result<ModeSketch> {
-        let bad = |what: &str| Error::data(format!("mode sketch: {what}"));
-        if !b.starts_with(MAGIC) {
-            return Err(bad("not a curlew mode sketch (wrong magic)"));
-        }
-        let mut at = MAGIC.len();
-        let mut take = |n: usize| -> Result<&[u8]> {
-            let s = b.get(at..at + n).ok_or_else(|| bad("file ends early"))?;
-            at += n;
-            Ok(s)
-        };
-        let version = u32::from_le_bytes(take(4)?.try_into().unwrap());
-        if version != VERSION {
-            return Err(bad(&format!("version {version} is not {VERSION}")));
-        }
-        let len = u64::from_le_bytes(take(8)?.try_into().unwrap()) as usize;
-        let h: Header = serde_json::from_slice(take(len)?)
-            .map_err(|e| bad(&format!("header cannot be read: {e}")))?;
-        let mut floats = |n: usize| -> Result<Vec<f64>> {
-            Ok(
-                take(n.checked_mul(8).ok_or_else(|| bad("size overflows"))?)?
-                    .chunks_exact(8)
-                    .map(|c| f64::from_le_bytes(c.try_into().unwrap()))
-                    .collect(),
-            )
-        };
+        let (mut r, h): (_, Header) = crate::io::blob::BlobReader::open(
+            b,
+            MAGIC,
+            VERSION,
+            "mode sketch",
+            "a curlew mode sketch",
+        )?;
         let k = h.params.modes + h.params.oversampling;
         let l = 2 * k + 1;
         let (n, d) = (h.nodes, 2 * h.nodes);
-        let count = floats(n)?.into_iter().map(|c| c as u64).collect();
-        let (mean, m2, unc2) = (floats(d)?, floats(d)?, floats(d)?);
-        let (y, w) = (floats(d * k)?, floats(n * k)?);
+        let count = r.floats(n)?.into_iter().map(|c| c as u64).collect();
+        let (mean, m2, unc2) = (r.floats(d)?, r.floats(d)?, r.floats(d)?);
+        let (y, w) = (r.floats(d * k)?, r.floats(n * k)?);
         let mut frames = Vec::with_capacity(h.frames.len());
         for (index, time_s, gaps) in h.frames {
             frames.push(FrameSketch {
                 index,
                 time_s,
-                z: floats(l)?,
+                z: r.floats(l)?,
                 gaps,
             });
         }
-        if at != b.len() {
-            return Err(bad("trailing bytes after the last frame"));
-        }
+        r.finish("trailing bytes after the last frame")?;
         let psi = std::sync::Arc::new(psi_matrix(h.params.seed, l, d));
         Ok(ModeSketch {
             params: h.params,

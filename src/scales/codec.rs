@@ -10,7 +10,7 @@
 use serde::{Deserialize, Serialize};
 
 use super::{CorrAcc, Layout};
-use crate::error::{Error, Result};
+use crate::error::Result;
 use crate::field::Grid;
 
 const MAGIC: &[u8] = b"curlew-corr\n";
@@ -56,33 +56,15 @@ impl CorrAcc {
 
     /// Reads `to_bytes` back.
     pub fn from_bytes(b: &[u8]) -> Result<CorrAcc> {
-        let bad = |what: &str| Error::data(format!("two-point correlation accumulator: {what}"));
-        if !b.starts_with(MAGIC) {
-            return Err(bad("not a curlew correlation accumulator (wrong magic)"));
-        }
-        let mut at = MAGIC.len();
-        let mut take = |n: usize| -> Result<&[u8]> {
-            let s = b.get(at..at + n).ok_or_else(|| bad("file ends early"))?;
-            at += n;
-            Ok(s)
-        };
-        let version = u32::from_le_bytes(take(4)?.try_into().unwrap());
-        if version != VERSION {
-            return Err(bad(&format!("version {version} is not {VERSION}")));
-        }
-        let len = u64::from_le_bytes(take(8)?.try_into().unwrap()) as usize;
-        let h: Header = serde_json::from_slice(take(len)?)
-            .map_err(|e| bad(&format!("header cannot be read: {e}")))?;
-        let mut floats = |n: usize| -> Result<Vec<f64>> {
-            Ok(
-                take(n.checked_mul(8).ok_or_else(|| bad("size overflows"))?)?
-                    .chunks_exact(8)
-                    .map(|c| f64::from_le_bytes(c.try_into().unwrap()))
-                    .collect(),
-            )
-        };
+        let (mut r, h): (_, Header) = crate::io::blob::BlobReader::open(
+            b,
+            MAGIC,
+            VERSION,
+            "two-point correlation accumulator",
+            "a curlew correlation accumulator",
+        )?;
         let np = h.nodes.len();
-        let head = floats(4 + 2 * np + 1)?;
+        let head = r.floats(4 + 2 * np + 1)?;
         let grid = Grid {
             nx: h.nx,
             ny: h.ny,
@@ -93,7 +75,7 @@ impl CorrAcc {
         };
         let nn = grid.len();
         if h.nodes.iter().any(|&k| k >= nn) {
-            return Err(bad("a probe node lies outside the grid"));
+            return Err(r.bad("a probe node lies outside the grid"));
         }
         let points = (0..np)
             .map(|p| (head[4 + 2 * p], head[5 + 2 * p]))
@@ -106,13 +88,11 @@ impl CorrAcc {
         };
         let mut acc = CorrAcc::with_layout(layout);
         acc.frames = head[4 + 2 * np] as u64;
-        acc.n = floats(acc.n.len())?;
-        acc.sums = floats(acc.sums.len())?;
-        acc.unc2 = floats(2 * np)?;
-        acc.unc_n = floats(2 * np)?;
-        if at != b.len() {
-            return Err(bad("trailing bytes"));
-        }
+        acc.n = r.floats(acc.n.len())?;
+        acc.sums = r.floats(acc.sums.len())?;
+        acc.unc2 = r.floats(2 * np)?;
+        acc.unc_n = r.floats(2 * np)?;
+        r.finish("trailing bytes")?;
         Ok(acc)
     }
 }
