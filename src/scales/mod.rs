@@ -41,7 +41,7 @@ use serde::{Deserialize, Serialize};
 
 use crate::derive::Derived;
 use crate::error::{Error, Result};
-use crate::field::{Field, Grid, FILLED, REPLACED, VALID};
+use crate::field::{Field, Grid};
 
 pub use finish::{finish, AxisScale, Scales};
 
@@ -124,17 +124,7 @@ impl CorrAcc {
     /// Adds one frame (`field` for the status, `d` for the velocity as the
     /// statistics see it). Frames come in frame order.
     pub fn push(&mut self, field: &Field, d: &Derived) {
-        let filled = self.layout.include_filled;
-        let counts: Vec<bool> = field
-            .status
-            .iter()
-            .zip(d.u.iter().zip(d.v.iter()))
-            .map(|(&s, (u, v))| {
-                (s == VALID || (filled && (s == REPLACED || s == FILLED)))
-                    && u.is_finite()
-                    && v.is_finite()
-            })
-            .collect();
+        let counts = crate::stats::sample_mask(field, d, self.layout.include_filled);
         let sl = |a: &ndarray::Array2<f64>| a.iter().copied().collect::<Vec<f64>>();
         self.push_values(
             &counts,

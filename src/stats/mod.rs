@@ -376,19 +376,8 @@ impl RunAccumulator {
     }
 
     /// Per node: does this frame's vector count as a sample?
-    /// (The status counts and u, v are finite; the one sample rule.)
     fn sample_mask(&self, field: &Field, d: &Derived) -> Vec<bool> {
-        let filled = self.params.include_filled;
-        field
-            .status
-            .iter()
-            .zip(d.u.iter().zip(d.v.iter()))
-            .map(|(&s, (u, v))| {
-                (s == VALID || (filled && (s == REPLACED || s == FILLED)))
-                    && u.is_finite()
-                    && v.is_finite()
-            })
-            .collect()
+        sample_mask(field, d, self.params.include_filled)
     }
 
     /// Merges the accumulator of the frames that follow `self`'s. Panics
@@ -568,6 +557,23 @@ pub struct RunStats {
 }
 
 pub use phase::bin_index as phase_bin_index;
+
+/// Per node: does this frame's vector count as a sample? Its status counts
+/// (valid, or replaced or filled when `include_filled`) and u, v are
+/// finite: the one sample rule of the statistics and the two-point
+/// correlations alike.
+pub fn sample_mask(field: &Field, d: &Derived, include_filled: bool) -> Vec<bool> {
+    field
+        .status
+        .iter()
+        .zip(d.u.iter().zip(d.v.iter()))
+        .map(|(&s, (u, v))| {
+            (s == VALID || (include_filled && (s == REPLACED || s == FILLED)))
+                && u.is_finite()
+                && v.is_finite()
+        })
+        .collect()
+}
 
 /// The phase bin a frame of phase `phase_deg` falls in under `p`'s binning
 /// (`None`: no phase, or outside every window).
