@@ -251,6 +251,8 @@ impl Plan {
                 length_scale: spec.length_scale,
             };
             let smoother: Smoother = validation::resolve_smoothing(&raw.smoothing, &ctx)?;
+            let stats = statistics::resolve_stats(&raw.statistics, &raw.phase, &ctx)?;
+            let vortices = vortices::resolve_vortices(raw.vortices.as_ref(), stats.coverage)?;
             runs.push(RunPlan {
                 id: r.id.clone(),
                 frames: resolve_path(base_dir, &r.frames)
@@ -266,7 +268,7 @@ impl Plan {
                     smoother,
                     &ctx,
                 )?,
-                stats: statistics::resolve_stats(&raw.statistics, &raw.phase, &ctx)?,
+                stats,
                 plot: report::resolve_figures(&raw.figures, &ctx)?,
                 modes: modes::resolve_modes(&raw.modes)?,
                 spectra: modes::resolve_spectra(&raw.spectra)?,
@@ -286,7 +288,7 @@ impl Plan {
                 )?,
                 input: spec,
                 budget: budget::resolve_budget(raw.budget.as_ref())?,
-                vortices: vortices::resolve_vortices(raw.vortices.as_ref())?,
+                vortices,
             });
         }
         Ok(Plan {

@@ -8,7 +8,7 @@
 use serde::{Deserialize, Serialize};
 
 use crate::error::{Error, Result};
-use crate::vortex::{self, Connectivity};
+use crate::vortex::{self, Connectivity, Criterion};
 
 /// `[vortices]` as written.
 #[derive(Debug, Clone, Default, Deserialize, Serialize, PartialEq)]
@@ -29,10 +29,20 @@ pub struct RawVortices {
     pub gate: Option<f64>,
     /// Fit a Lamb-Oseen vortex to each core (default true).
     pub fit: Option<bool>,
+    /// Which nodes are core: "gamma2" (default), "swirl" (a swirling
+    /// strength significant at `[statistics] coverage`) or "both".
+    pub criterion: Option<String>,
+    /// Also find cores in every used frame (default false), tracked across
+    /// frames when the run is time-resolved.
+    pub frames: Option<bool>,
 }
 
-/// The resolved vortex analysis, or `None` when it is off.
-pub fn resolve_vortices(raw: Option<&RawVortices>) -> Result<Option<vortex::Params>> {
+/// The resolved vortex analysis, or `None` when it is off; `coverage` is
+/// the run's `[statistics] coverage` (the swirl test's probability).
+pub fn resolve_vortices(
+    raw: Option<&RawVortices>,
+    coverage: f64,
+) -> Result<Option<vortex::Params>> {
     let Some(r) = raw else { return Ok(None) };
     if r.enabled == Some(false) {
         return Ok(None);
@@ -63,12 +73,27 @@ pub fn resolve_vortices(raw: Option<&RawVortices>) -> Result<Option<vortex::Para
     if min_nodes == 0 {
         return Err(Error::usage("[vortices] min_nodes = 0 must be at least 1"));
     }
+    let criterion = match r.criterion.as_deref() {
+        None | Some("gamma2") => Criterion::Gamma2,
+        Some("swirl") => Criterion::Swirl,
+        Some("both") => Criterion::Both,
+        Some(c) => {
+            return Err(Error::usage(format!(
+                "[vortices] criterion = \"{c}\" must be \"gamma2\", \"swirl\" or \"both\""
+            )))
+        }
+    };
+    // two-sided: the interval lambda ± k u at `coverage` excludes zero
+    let swirl_k = crate::stats::gum::coverage_factor(coverage, f64::INFINITY);
     Ok(Some(vortex::Params {
         threshold,
         min_nodes,
         connectivity,
         gate,
         fit: r.fit.unwrap_or(d.fit),
+        criterion,
+        swirl_k,
+        frames: r.frames.unwrap_or(d.frames),
     }))
 }
 
@@ -78,18 +103,18 @@ mod tests {
 
     #[test]
     fn absent_or_disabled_is_off_and_bad_values_name_the_key() {
-        assert_eq!(resolve_vortices(None).unwrap(), None);
+        assert_eq!(resolve_vortices(None, 0.95).unwrap(), None);
         let off = RawVortices {
             enabled: Some(false),
             ..RawVortices::default()
         };
-        assert_eq!(resolve_vortices(Some(&off)).unwrap(), None);
-        let on = resolve_vortices(Some(&RawVortices::default()))
+        assert_eq!(resolve_vortices(Some(&off), 0.95).unwrap(), None);
+        let on = resolve_vortices(Some(&RawVortices::default()), 0.95)
             .unwrap()
             .unwrap();
         assert_eq!(on, vortex::Params::default());
         let bad = |r: RawVortices, want: &str| {
-            let e = resolve_vortices(Some(&r)).unwrap_err();
+            let e = resolve_vortices(Some(&r), 0.95).unwrap_err();
             assert!(e.message.contains(want), "{e}");
         };
         bad(

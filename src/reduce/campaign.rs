@@ -93,7 +93,7 @@ pub fn finish_campaign(
             }
             false => None,
         };
-        if let Some(v) = crate::vortex::run::analyse(&rr, rp, f) {
+        if let Some(v) = crate::vortex::run::analyse(&rr, rp, f, r.state.frame_cores.take()) {
             run_warnings.extend(v.warnings.iter().map(|w| format!("run '{}': {w}", rr.id)));
             rr.vortices = Some(v);
         }

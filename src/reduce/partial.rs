@@ -18,6 +18,8 @@
 //!                              (modes::codec's own versioned bytes)
 //!   <run id>/correlation.bin   the two-point co-moments at the probes, when the
 //!                              run names probes (scales::codec's own bytes)
+//!   <run id>/frame-cores.bin   the cores of every frame, with `[vortices] frames = true`
+//!                              (vortex::codec)
 //! ```
 //!
 //! Version 2: floats of frame records and grids are exact strings, and
@@ -51,6 +53,9 @@ pub const VERSION: u32 = 2;
 const MODES_FILE: &str = "modes.bin";
 /// The two-point co-moments of a run with probes (absent otherwise).
 pub const CORR_FILE: &str = "correlation.bin";
+/// The cores of every frame, only with `[vortices] frames = true`
+/// (`vortex::codec`).
+pub const FRAME_CORES_FILE: &str = "frame-cores.bin";
 
 #[derive(Debug, Clone, Serialize, Deserialize)]
 struct FrameRow {
@@ -151,6 +156,10 @@ pub fn write(dir: &Path, plan: &Plan, shard: Shard, runs: &[Reduced]) -> Result<
         }
         if let Some(c) = &r.state.corr {
             let p = rd.join(CORR_FILE);
+            std::fs::write(&p, c.to_bytes()).with_path(&p)?;
+        }
+        if let Some(c) = &r.state.frame_cores {
+            let p = rd.join(FRAME_CORES_FILE);
             std::fs::write(&p, c.to_bytes()).with_path(&p)?;
         }
         parts.push(RunPart {
@@ -260,6 +269,12 @@ pub fn read(dir: &Path) -> Result<Partial> {
             Err(e) if e.kind() == std::io::ErrorKind::NotFound => None,
             Err(e) => return Err(Error::io(&cp, e)),
         };
+        let fp = dir.join(&r.id).join(FRAME_CORES_FILE);
+        let frame_cores = match std::fs::read(&fp) {
+            Ok(b) => Some(crate::vortex::frames::FrameCores::from_bytes(&b).with_path(&fp)?),
+            Err(e) if e.kind() == std::io::ErrorKind::NotFound => None,
+            Err(e) => return Err(Error::io(&fp, e)),
+        };
         runs.push(Reduced {
             id: r.id,
             grid: Grid {
@@ -297,6 +312,7 @@ pub fn read(dir: &Path) -> Result<Partial> {
                 peak_acc: r.peak_acc,
                 modes,
                 corr,
+                frame_cores,
             },
             warnings: r.warnings,
             timings: r.timings,

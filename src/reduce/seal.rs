@@ -143,7 +143,7 @@ pub fn check_follows(
 }
 
 /// Writes `dir/partial.sha256`: the SHA-256 of `partial.json` and of every
-/// run's `accumulator.bin` (and `budget.bin`, `modes.bin`, `correlation.bin`), one `hash  path` line each.
+/// run's `accumulator.bin` (and `budget.bin`, `modes.bin`, `correlation.bin`, `frame-cores.bin`), one `hash  path` line each.
 pub fn write_checksums(dir: &Path, runs: &[Reduced]) -> Result<()> {
     let mut text = String::new();
     let mut files = vec!["partial.json".to_string()];
@@ -162,6 +162,11 @@ pub fn write_checksums(dir: &Path, runs: &[Reduced]) -> Result<()> {
         runs.iter()
             .filter(|r| r.state.corr.is_some())
             .map(|r| format!("{}/{}", r.id, super::partial::CORR_FILE)),
+    );
+    files.extend(
+        runs.iter()
+            .filter(|r| r.state.frame_cores.is_some())
+            .map(|r| format!("{}/{}", r.id, super::partial::FRAME_CORES_FILE)),
     );
     for f in &files {
         let (_, sha) = io::hash_file(&dir.join(f))?;

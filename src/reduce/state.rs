@@ -25,6 +25,8 @@ use crate::result::FrameRecord;
 use crate::scales::CorrAcc;
 use crate::stats::RunAccumulator;
 use crate::validate::peaklock::PeakLockAcc;
+use crate::vortex::frames::{Finder, FrameCores};
+use std::sync::Arc;
 
 use super::InputFile;
 
@@ -47,6 +49,8 @@ pub struct RunState {
     pub modes: Option<ModeSketch>,
     /// The two-point co-moments at the probes, when the run names probes.
     pub corr: Option<CorrAcc>,
+    /// The cores of every used frame, when `[vortices] frames = true`.
+    pub frame_cores: Option<FrameCores>,
 }
 
 /// The empty shapes of the accumulators that need a first pass to size
@@ -57,6 +61,8 @@ pub struct Templates {
     pub modes: Option<ModeSketch>,
     /// The probes' co-moments, when the run names probes.
     pub corr: Option<CorrAcc>,
+    /// What finds a frame's cores, when `[vortices] frames = true`.
+    pub cores: Option<Arc<Finder>>,
 }
 
 impl Templates {
@@ -68,6 +74,7 @@ impl Templates {
                 .enabled
                 .then(|| ModeSketch::new(&run.modes, grid.len())),
             corr: CorrAcc::new(&run.stats, grid),
+            cores: Finder::of(run, grid),
         }
     }
 }
@@ -85,6 +92,7 @@ impl RunState {
             budget: crate::budget::run::start(run, grid),
             modes: t.modes.as_ref().map(ModeSketch::empty_like),
             corr: t.corr.as_ref().map(CorrAcc::empty_like),
+            frame_cores: t.cores.clone().map(FrameCores::new),
         }
     }
 
@@ -99,6 +107,9 @@ impl RunState {
         }
         if let Some(c) = self.corr.as_mut() {
             c.push(field, derived);
+        }
+        if let Some(c) = self.frame_cores.as_mut() {
+            c.push(meta, field.grid, derived);
         }
     }
 
@@ -142,6 +153,15 @@ impl RunState {
             later.corr,
             |a, b| {
                 a.compatible(&b)?;
+                a.merge(b);
+                Ok(())
+            },
+        )?;
+        both(
+            "cores in every frame (frame-cores.bin)",
+            &mut self.frame_cores,
+            later.frame_cores,
+            |a, b| {
                 a.merge(b);
                 Ok(())
             },

@@ -94,6 +94,15 @@ pub fn core_budgets(
             ),
             BudgetKind::Frame { index, time_s } => (SliceKind::Frame { index }, time_s),
         };
+        // the velocity uncertainty the budget keeps (a bin's of its means,
+        // a frame's noise), for the swirl criterion
+        let sd = |var: Option<&Vec<f64>>| {
+            var.map_or_else(|| nan.clone(), |v| v.iter().map(|x| x.sqrt()).collect())
+        };
+        let (u_unc, v_unc) = (
+            sd(s.lin.as_ref().map(|l| &l.noise.var_u)),
+            sd(s.lin.as_ref().map(|l| &l.noise.var_v)),
+        );
         let slice = Slice {
             kind,
             time_s,
@@ -102,6 +111,8 @@ pub fn core_budgets(
             v: &s.v,
             omega: &s.omega,
             omega_unc: &nan,
+            u_unc: &u_unc,
+            v_unc: &v_unc,
         };
         let cores = find_cores(
             &slice,

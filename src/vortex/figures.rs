@@ -78,14 +78,14 @@ pub fn draw(p: &Params, run: &RunResult, out: &Path) -> Result<Vec<FigureRef>> {
     if let Some(fig) = track_map(p, run, v, units) {
         let paths = write_figure(&fig, &dir, "vortex-tracks")?;
         let cap = format!(
-            "Vortex tracks over the mean vorticity: lines join each core's vorticity-weighted centroid from phase bin to phase bin (red anticlockwise, blue clockwise); rings mark the cores of the mean field. Cores are regions of |Gamma2| > {:.3} (Graftieaux et al. 2001).",
-            v.params.threshold
+            "Vortex tracks over the mean vorticity: lines join each core's vorticity-weighted centroid from slice to slice (phase bin, or frame of a time-resolved run; red anticlockwise, blue clockwise); rings mark the cores of the mean field. Cores are regions of {} (Graftieaux et al. 2001; Zhou et al. 1999 for the swirling strength).",
+            v.params.rule()
         );
         figs.push(figure_ref(out, paths, "Vortex tracks", cap));
     }
     if let Some(fig) = along_tracks(p, v) {
         let paths = write_figure(&fig, &dir, "vortex-circulation")?;
-        let cap = "Circulation of each core's region and its Lamb-Oseen core radius along the longest tracks; bands are ±1 standard uncertainty (the circulation's carries the neighbour correlation of the vorticity errors). The region's circulation is that inside |Gamma2| > 2/pi, about 70 % of a Lamb-Oseen vortex's total.".to_string();
+        let cap = format!("Circulation of each core's region and its Lamb-Oseen core radius along the longest tracks (across frames when the run's frames were tracked, else across phase bins); bands are ±1 standard uncertainty (the circulation's carries the neighbour correlation of the vorticity errors). The region's circulation is that inside {}: for |Gamma2| > 2/pi about 70 % of a Lamb-Oseen vortex's total.", v.params.rule());
         figs.push(figure_ref(
             out,
             paths,
@@ -164,7 +164,14 @@ fn track_map<'a>(
 }
 
 fn along_tracks(p: &Params, v: &Vortices) -> Option<LineFigure> {
-    let mut long: Vec<&Track> = v.tracks.iter().filter(|t| t.points.len() >= 3).collect();
+    // one family: the frames' tracks when there are long ones, else the bins'
+    let of_frames = |t: &Track| matches!(v.slices[t.points[0].slice].kind, SliceKind::Frame { .. });
+    let frames = v.tracks.iter().any(|t| t.points.len() >= 3 && of_frames(t));
+    let mut long: Vec<&Track> = v
+        .tracks
+        .iter()
+        .filter(|t| t.points.len() >= 3 && of_frames(t) == frames)
+        .collect();
     if long.is_empty() {
         return None;
     }

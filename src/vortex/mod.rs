@@ -27,12 +27,15 @@
 //! `[derivatives] gamma_radius` nodes. See docs/vortices.md.
 
 pub mod budget;
+pub mod codec;
 pub mod core;
 pub mod corr;
 pub mod figures;
 pub mod fit;
+pub mod frames;
 pub mod label;
 pub mod run;
+pub mod swirl;
 pub mod table;
 pub mod track;
 
@@ -59,6 +62,38 @@ pub struct Params {
     pub gate: f64,
     /// Fit a Lamb-Oseen vortex to each core (default true).
     pub fit: bool,
+    /// Which nodes are core (default `Gamma2`).
+    pub criterion: Criterion,
+    /// Coverage factor of the swirl's significance test: the two-sided
+    /// normal quantile of `[statistics] coverage` (1.96 for 0.95).
+    pub swirl_k: f64,
+    /// Also find cores in every used frame (default false: it costs a
+    /// Gamma2 pass per frame), tracked across frames when the run is
+    /// time-resolved.
+    pub frames: bool,
+}
+
+/// Which nodes are core.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
+pub enum Criterion {
+    /// `|Gamma2| > threshold` (Graftieaux et al. 2001); the sign is Gamma2's.
+    Gamma2,
+    /// The swirling strength is significant at the run's coverage
+    /// (`swirl`); the sign is omega's.
+    Swirl,
+    /// Both: `|Gamma2| > threshold` and a significant swirl.
+    Both,
+}
+
+impl Criterion {
+    /// The pipeline's word for it.
+    pub fn key(self) -> &'static str {
+        match self {
+            Criterion::Gamma2 => "gamma2",
+            Criterion::Swirl => "swirl",
+            Criterion::Both => "both",
+        }
+    }
 }
 
 impl Default for Params {
@@ -69,20 +104,37 @@ impl Default for Params {
             connectivity: Connectivity::Four,
             gate: 3.0,
             fit: true,
+            criterion: Criterion::Gamma2,
+            swirl_k: crate::stats::gum::coverage_factor(0.95, f64::INFINITY),
+            frames: false,
         }
     }
 }
 
 impl Params {
+    /// What makes a node core, in words ("|Gamma2| > 0.6366").
+    pub fn rule(&self) -> String {
+        let swirl = format!(
+            "a swirling strength above {:.2} times its standard uncertainty",
+            self.swirl_k
+        );
+        match self.criterion {
+            Criterion::Gamma2 => format!("|Gamma2| > {:.4}", self.threshold),
+            Criterion::Swirl => swirl,
+            Criterion::Both => format!("|Gamma2| > {:.4} and {swirl}", self.threshold),
+        }
+    }
+
     /// The parameters in plain words, for `curlew check` and the report.
     pub fn describe(&self) -> String {
+        let rule = self.rule();
         format!(
-            "vortex cores: connected regions ({}) of |Gamma2| > {:.4} with at least {} nodes; circulation, centre, radii{}; tracked across slices within {} grid pitches of the predicted position",
+            "vortex cores: connected regions ({}) of {rule} with at least {} nodes; circulation, centre, radii{}; tracked across slices within {} grid pitches of the predicted position{}",
             self.connectivity.describe(),
-            self.threshold,
             self.min_nodes,
             if self.fit { ", Lamb-Oseen fit" } else { "" },
-            self.gate
+            self.gate,
+            if self.frames { "; also in every frame" } else { "" }
         )
     }
 }
@@ -103,8 +155,9 @@ pub enum SliceKind {
 }
 
 /// One field in which cores are found. Arrays are row-major over `grid`
-/// (node `k = j nx + i`), NaN where there is no value. `omega_unc` is the
-/// standard uncertainty of `omega` (NaN: unknown).
+/// (node `k = j nx + i`), NaN where there is no value. `omega_unc`,
+/// `u_unc` and `v_unc` are the standard uncertainties of `omega`, `u` and
+/// `v` (NaN: unknown; the swirl criterion then finds nothing).
 #[derive(Debug, Clone, Copy)]
 pub struct Slice<'a> {
     pub kind: SliceKind,
@@ -116,6 +169,8 @@ pub struct Slice<'a> {
     pub v: &'a [f64],
     pub omega: &'a [f64],
     pub omega_unc: &'a [f64],
+    pub u_unc: &'a [f64],
+    pub v_unc: &'a [f64],
 }
 
 /// The cores of one slice.
@@ -162,37 +217,67 @@ pub fn find_cores(
         .and(&v)
         .map_collect(|a, b| a.is_finite() && b.is_finite());
     let (g1, g2) = crate::derive::quantities::gamma(&u, &v, &ok, gamma_radius, g.dx, g.dy);
-    let mask: Vec<i8> = g2
-        .iter()
-        .zip(s.omega)
-        .map(|(&x, &w)| {
-            if !w.is_finite() || !x.is_finite() || x.abs() <= p.threshold {
-                0
-            } else if x > 0.0 {
-                1
-            } else {
-                -1
-            }
-        })
-        .collect();
     let g1: Vec<f64> = g1.iter().copied().collect();
     let g2: Vec<f64> = g2.iter().copied().collect();
+    let (mask, judged) = core_mask(s, p, &g2);
     label::regions(&mask, g.nx, g.ny, p.connectivity)
         .into_iter()
         .filter(|r| r.nodes.len() >= p.min_nodes)
         .map(|r| {
             let mut c = core::measure(&r, s, &g1, corr, p.fit);
-            c.edge = touches_edge(&r.nodes, g, s.omega, &g2);
+            c.edge = touches_edge(&r.nodes, g, &judged);
             c
         })
         .collect()
 }
 
-/// Does a region touch the end of the data: a node whose 4-neighbour is
-/// off the grid or has no vorticity or no Gamma2 (the field's edge, a mask,
-/// a gap)? Such a core is cut: its centroid is pulled inward and its
-/// circulation is low.
-fn touches_edge(nodes: &[usize], g: Grid, omega: &[f64], g2: &[f64]) -> bool {
+/// The sign of every node that is core under `p.criterion` (0: not core)
+/// and whether the criterion can be judged at each node. Gamma2's sign for
+/// the Gamma2 rules, omega's for the swirl alone. A node is judged where
+/// omega and Gamma2 are finite and, for the swirl rules, the swirl and its
+/// uncertainty are (the end of the data for `touches_edge`).
+fn core_mask(s: &Slice, p: &Params, g2: &[f64]) -> (Vec<i8>, Vec<bool>) {
+    let sw = (p.criterion != Criterion::Gamma2)
+        .then(|| swirl::swirl(s.grid, s.u, s.v, s.u_unc, s.v_unc));
+    let judged: Vec<bool> = (0..g2.len())
+        .map(|k| {
+            s.omega[k].is_finite()
+                && g2[k].is_finite()
+                && sw
+                    .as_ref()
+                    .is_none_or(|(l, u)| l[k].is_finite() && u[k].is_finite())
+        })
+        .collect();
+    let mask = (0..g2.len())
+        .map(|k| {
+            if !judged[k] {
+                return 0;
+            }
+            let (w, x) = (s.omega[k], g2[k]);
+            let gamma = x.abs() > p.threshold;
+            let swirls = sw
+                .as_ref()
+                .is_some_and(|(l, u)| swirl::significant(l[k], u[k], p.swirl_k));
+            let (core, sign) = match p.criterion {
+                Criterion::Gamma2 => (gamma, x),
+                Criterion::Swirl => (swirls, w),
+                Criterion::Both => (gamma && swirls, x),
+            };
+            match (core, sign > 0.0, sign < 0.0) {
+                (true, true, _) => 1,
+                (true, _, true) => -1,
+                _ => 0,
+            }
+        })
+        .collect();
+    (mask, judged)
+}
+
+/// Does a region touch the end of the data: a node on the grid's edge or
+/// whose 4-neighbour cannot be judged (no vorticity, no Gamma2, or no swirl
+/// under the swirl rules: the field's edge, a mask, a gap)? Such a core is
+/// cut: its centroid is pulled inward and its circulation is low.
+fn touches_edge(nodes: &[usize], g: Grid, judged: &[bool]) -> bool {
     nodes.iter().any(|&k| {
         let (j, i) = (k / g.nx, k % g.nx);
         if j == 0 || i == 0 || j + 1 == g.ny || i + 1 == g.nx {
@@ -200,6 +285,6 @@ fn touches_edge(nodes: &[usize], g: Grid, omega: &[f64], g2: &[f64]) -> bool {
         }
         [k - 1, k + 1, k - g.nx, k + g.nx]
             .iter()
-            .any(|&n| !omega[n].is_finite() || !g2[n].is_finite())
+            .any(|&n| !judged[n])
     })
 }

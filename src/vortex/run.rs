@@ -10,14 +10,22 @@
 //! frequency`; without f the tracks have no velocity.
 
 use super::corr::OmegaCorrelation;
+use super::frames::FrameCores;
 use super::{find_cores, track, Params, Slice, SliceCores, SliceKind, Vortices};
 use crate::field::NodeTable;
 use crate::plan::RunPlan;
 use crate::result::RunResult;
 use crate::stencil::correlation::Correlation;
 
-/// The slice of a node table's mean columns, or `None` when one is missing.
-fn slice_of(t: &NodeTable, kind: SliceKind, time_s: f64) -> Option<Slice<'_>> {
+/// The slice of a node table's mean columns, or `None` when one of u, v,
+/// omega and omega's uncertainty is missing (the velocity's uncertainties,
+/// which only the swirl criterion needs, are NaN when missing).
+fn slice_of<'a>(
+    t: &'a NodeTable,
+    kind: SliceKind,
+    time_s: f64,
+    nan: &'a [f64],
+) -> Option<Slice<'a>> {
     Some(Slice {
         kind,
         time_s,
@@ -26,14 +34,23 @@ fn slice_of(t: &NodeTable, kind: SliceKind, time_s: f64) -> Option<Slice<'_>> {
         v: t.get("v_mean")?,
         omega: t.get("omega_mean")?,
         omega_unc: t.get("omega_mean_unc")?,
+        u_unc: t.get("u_mean_unc").unwrap_or(nan),
+        v_unc: t.get("v_mean_unc").unwrap_or(nan),
     })
 }
 
 /// The vortex analysis of a finished run, when the run asks for one.
 /// `frequency` is the run's cycle frequency in Hz, from the one resolution
 /// the budget uses too (`budget::run::frequency`: given, the frame table's
-/// column, or fitted to the frames' phases and times).
-pub fn analyse(rr: &RunResult, rp: &RunPlan, frequency: Option<f64>) -> Option<Vortices> {
+/// column, or fitted to the frames' phases and times). `frame_cores` are
+/// the cores the reduction found in every used frame (`frames`), when the
+/// run asked for them.
+pub fn analyse(
+    rr: &RunResult,
+    rp: &RunPlan,
+    frequency: Option<f64>,
+    frame_cores: Option<FrameCores>,
+) -> Option<Vortices> {
     let p: &Params = rp.vortices.as_ref()?;
     let g = rr.grid;
     let corr = OmegaCorrelation::for_run(&rp.derive, &g);
@@ -49,7 +66,8 @@ pub fn analyse(rr: &RunResult, rp: &RunPlan, frequency: Option<f64>) -> Option<V
     let mut warnings = Vec::new();
     let mut slices = Vec::new();
     let find = |s: Option<Slice>| s.map(|s| find_cores(&s, p, radius, &corr));
-    match find(slice_of(&rr.stats.ensemble, SliceKind::Mean, f64::NAN)) {
+    let nan = vec![f64::NAN; g.len()];
+    match find(slice_of(&rr.stats.ensemble, SliceKind::Mean, f64::NAN, &nan)) {
         Some(cores) => slices.push(SliceCores {
             kind: SliceKind::Mean,
             time_s: f64::NAN,
@@ -63,7 +81,7 @@ pub fn analyse(rr: &RunResult, rp: &RunPlan, frequency: Option<f64>) -> Option<V
             phase_deg: b.centre_deg,
         };
         let t = f.map_or(f64::NAN, |f| b.centre_deg / 360.0 / f);
-        if let Some(cores) = find(slice_of(&b.table, kind, t)) {
+        if let Some(cores) = find(slice_of(&b.table, kind, t, &nan)) {
             slices.push(SliceCores {
                 kind,
                 time_s: t,
@@ -71,22 +89,34 @@ pub fn analyse(rr: &RunResult, rp: &RunPlan, frequency: Option<f64>) -> Option<V
             });
         }
     }
-    let seq: Vec<SliceCores> = slices
-        .iter()
-        .filter(|s| s.kind != SliceKind::Mean)
-        .cloned()
-        .collect();
     let gate = p.gate * g.dx.max(g.dy);
-    let mut tracks = track::track(&seq, gate, f.map(|f| 1.0 / f));
-    // Track points index the sequence; the sequence is `slices` after the mean.
-    let offset = slices.len() - seq.len();
-    for t in &mut tracks {
-        for q in &mut t.points {
-            q.slice += offset;
-        }
-    }
+    // the bins, periodic
+    let first = slices
+        .iter()
+        .position(|s| s.kind != SliceKind::Mean)
+        .unwrap_or(slices.len());
+    let mut tracks = track_range(&slices, first, gate, f.map(|f| 1.0 / f));
     if !rr.stats.phase.is_empty() && f.is_none() {
         warnings.push("vortices: no frequency (none in [run.conditions] or the frame table, and the phases and times fit none): tracks have no convection speed or core growth".into());
+    }
+    // the frames, in order, when the run is time-resolved
+    if let Some(fc) = frame_cores {
+        let start = slices.len();
+        slices.extend(fc.slices);
+        let times: Vec<Option<f64>> = rr.frames.iter().map(|r| r.meta.time_s).collect();
+        match crate::spectra::run::clock(&times) {
+            Ok(_) => {
+                let n = tracks.len();
+                let mut more = track_range(&slices, start, gate, None);
+                for t in &mut more {
+                    t.id += n;
+                }
+                tracks.extend(more);
+            }
+            Err(why) => warnings.push(format!(
+                "vortices: cores were found in every frame but not tracked across frames: the run is not time-resolved ({why})"
+            )),
+        }
     }
     let budget = rr
         .budget
@@ -104,6 +134,28 @@ pub fn analyse(rr: &RunResult, rp: &RunPlan, frequency: Option<f64>) -> Option<V
     })
 }
 
+/// Tracks the slices `slices[start..]` up to the first slice of another
+/// kind (bins, or frames), with track points indexing `slices`.
+fn track_range(
+    slices: &[SliceCores],
+    start: usize,
+    gate: f64,
+    period: Option<f64>,
+) -> Vec<track::Track> {
+    let frames = |s: &SliceCores| matches!(s.kind, SliceKind::Frame { .. });
+    let kind = slices.get(start).map(frames);
+    let end = (start..slices.len())
+        .find(|&k| Some(frames(&slices[k])) != kind)
+        .unwrap_or(slices.len());
+    let mut tracks = track::track(&slices[start..end], gate, period);
+    for t in &mut tracks {
+        for q in &mut t.points {
+            q.slice += start;
+        }
+    }
+    tracks
+}
+
 /// What `curlew check` says about the vortex analysis of a run.
 pub fn check_lines(rp: &RunPlan, has_phase: bool, frequency: Option<f64>) -> Vec<String> {
     let Some(p) = &rp.vortices else {
@@ -115,10 +167,13 @@ pub fn check_lines(rp: &RunPlan, has_phase: bool, frequency: Option<f64>) -> Vec
         if frequency.is_none() {
             out.push("vortices: no frequency (none in [run.conditions] or the frame table, and the phases and times fit none): tracks will have no convection speed or core growth".into());
         }
-    } else {
+    } else if !p.frames {
         out.push(
             "vortices: the frames have no phases: cores in the mean field only, no tracks".into(),
         );
+    }
+    if p.frames {
+        out.push("vortices: cores in every used frame as well (frame rows of vortices.csv); tracked across frames when every frame has an evenly spaced time (a time-resolved run)".into());
     }
     if rp.budget.is_some() {
         out.push("vortices: circulation budget of every core of every budget slice (circulation-budget.csv)".into());
@@ -134,20 +189,39 @@ pub fn words(v: &Vortices) -> String {
         .iter()
         .find(|s| s.kind == SliceKind::Mean)
         .map_or(0, |s| s.cores.len());
-    let n_bins = v
-        .slices
-        .iter()
-        .filter(|s| s.kind != SliceKind::Mean)
-        .count();
-    let total: usize = v.slices.iter().map(|s| s.cores.len()).sum::<usize>() - n_mean;
+    let count = |frames: bool| {
+        let of = |s: &&SliceCores| {
+            s.kind != SliceKind::Mean && matches!(s.kind, SliceKind::Frame { .. }) == frames
+        };
+        let n = v.slices.iter().filter(of).count();
+        (
+            n,
+            v.slices
+                .iter()
+                .filter(of)
+                .map(|s| s.cores.len())
+                .sum::<usize>(),
+        )
+    };
+    let ((n_bins, in_bins), (n_frames, in_frames)) = (count(false), count(true));
     let mut s = format!(
-        "The mean field holds {n_mean} vortex core{}; the {n_bins} phase-bin means hold {total} in all. ",
+        "The mean field holds {n_mean} vortex core{}",
         if n_mean == 1 { "" } else { "s" }
     );
+    if n_bins > 0 {
+        s += &format!("; the {n_bins} phase-bin means hold {in_bins} in all");
+    }
+    if n_frames > 0 {
+        s += &format!(
+            "; the {n_frames} frames hold {in_frames}, {} per frame on average",
+            num(in_frames as f64 / n_frames as f64, 3)
+        );
+    }
+    s += ". ";
     let long: Vec<&track::Track> = v.tracks.iter().filter(|t| t.points.len() >= 3).collect();
     if !long.is_empty() {
         s += &format!(
-            "{} track{} span three bins or more. ",
+            "{} track{} span three slices (bins or frames) or more. ",
             long.len(),
             if long.len() == 1 { "" } else { "s" }
         );

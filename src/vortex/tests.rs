@@ -24,6 +24,8 @@ struct Sampled {
     v: Vec<f64>,
     omega: Vec<f64>,
     omega_unc: Vec<f64>,
+    /// The velocity noise `sigma` at every node.
+    vel_unc: Vec<f64>,
     truth: Vec<f64>,
 }
 
@@ -52,6 +54,7 @@ fn sample(g: Grid, f: &dyn Fn(f64, f64) -> Sample, sigma: f64, r: &mut impl Rng)
         v,
         omega,
         omega_unc: vec![sigma / h; g.len()],
+        vel_unc: vec![sigma; g.len()],
         truth,
     }
 }
@@ -73,6 +76,8 @@ fn slice(s: &Sampled, kind: SliceKind, time_s: f64) -> Slice<'_> {
         v: &s.v,
         omega: &s.omega,
         omega_unc: &s.omega_unc,
+        u_unc: &s.vel_unc,
+        v_unc: &s.vel_unc,
     }
 }
 
