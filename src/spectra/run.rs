@@ -12,9 +12,12 @@
 //! frames agree within 1 % of their median. The series is laid on that
 //! clock, frame by frame; a sample missing at a probe (no valid vector, or
 //! a rejected frame) is filled by linear interpolation between its
-//! neighbours in time, and a series with more than 10 % of its samples
-//! missing is skipped with a warning (Welch needs an even clock; filling a
-//! few holes lowers the PSD at high frequency slightly).
+//! neighbours in time (Welch needs an even clock; filling a few holes
+//! lowers the PSD at high frequency slightly). A series with more than 10 %
+//! of its samples missing is not filled: its spectrum averages only the
+//! segments without a missing sample (`welch_gapped`, with the degrees of
+//! freedom of the segments kept), with a warning; none when no segment is
+//! whole.
 //!
 //! Strouhal number St = f L / U with the run's `[run.conditions]` velocity
 //! and length (common practice), its standard uncertainty u(f) L / U (U and
@@ -24,7 +27,7 @@
 
 use serde::{Deserialize, Serialize};
 
-use super::{dominant, welch, Psd};
+use super::{dominant, welch, welch_gapped, Psd};
 use crate::error::Result;
 use crate::io::{Table, Values};
 
@@ -162,15 +165,31 @@ pub fn spectra(
     let mut out = Vec::new();
     for (name, unit, mut x) in series {
         let missing = x.iter().filter(|v| !v.is_finite()).count();
-        if missing * 10 > x.len() {
-            warnings.push(format!(
-                "{name}: {missing} of {} samples missing (more than 10 %); no spectrum",
-                x.len()
-            ));
-            continue;
-        }
-        let filled = fill_gaps(&mut x).unwrap_or(0);
-        let psd = welch(&name, &x, fs, nperseg, noverlap, coverage)?;
+        let (psd, filled) = if missing * 10 > x.len() {
+            // too many holes to fill: only the segments without one
+            match welch_gapped(&name, &x, fs, nperseg, noverlap, coverage) {
+                Ok(p) => {
+                    let all = (n - nperseg) / (nperseg - noverlap) + 1;
+                    warnings.push(format!(
+                        "{name}: {missing} of {} samples missing (more than 10 %); the spectrum averages the {} of {all} segments without a missing sample",
+                        x.len(),
+                        p.segments
+                    ));
+                    (p, 0)
+                }
+                Err(e) => {
+                    warnings.push(format!(
+                        "{name}: {missing} of {} samples missing (more than 10 %) and {}; no spectrum",
+                        x.len(),
+                        e.message.trim_start_matches(&format!("{name}: "))
+                    ));
+                    continue;
+                }
+            }
+        } else {
+            let filled = fill_gaps(&mut x).unwrap_or(0);
+            (welch(&name, &x, fs, nperseg, noverlap, coverage)?, filled)
+        };
         let peak = dominant(&psd);
         out.push(SeriesSpectrum {
             name,
