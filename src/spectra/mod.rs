@@ -154,8 +154,8 @@ pub fn welch_gapped(
     let psd: Vec<f64> = acc.iter().map(|a| a / k as f64).collect();
     let mut dof = 0.0;
     let mut run = 0;
-    for s in 0..=k_all {
-        if s < k_all && whole[s] {
+    for kept in whole.iter().copied().chain([false]) {
+        if kept {
             run += 1;
         } else if run > 0 {
             dof += dof_welch(&w, step, run);
