@@ -396,7 +396,7 @@ pub fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
     let t = Instant::now();
     let names = derive::quantity_names(&run.derive);
     let mine = &frames[range.0..range.1];
-    let templates = Templates::of(run, grid);
+    let templates = Templates::of(run, grid, frames.len() as u64);
     let mut state = RunState::empty(run, grid, &names, &templates);
     let mut merge_error: Option<Error> = None;
     let mut seen_parquet: Vec<PathBuf> = Vec::new();

@@ -66,14 +66,14 @@ pub struct Templates {
 }
 
 impl Templates {
-    /// The templates of `run` on `grid`.
-    pub fn of(run: &RunPlan, grid: Grid) -> Templates {
+    /// The templates of `run` on `grid`, a run of `total` frames.
+    pub fn of(run: &RunPlan, grid: Grid, total: u64) -> Templates {
         Templates {
             modes: run
                 .modes
                 .enabled
                 .then(|| ModeSketch::new(&run.modes, grid.len())),
-            corr: CorrAcc::new(&run.stats, grid),
+            corr: CorrAcc::new(&run.stats, grid, total),
             cores: Finder::of(run, grid),
         }
     }
@@ -106,7 +106,7 @@ impl RunState {
             m.push_frame(meta, derived);
         }
         if let Some(c) = self.corr.as_mut() {
-            c.push(field, derived);
+            c.push(meta.index as u64, field, derived);
         }
         if let Some(c) = self.frame_cores.as_mut() {
             c.push(meta, field.grid, derived);

@@ -39,6 +39,15 @@ fn mm(x: f64) -> String {
     }
 }
 
+/// A length in mm with its standard uncertainty when it has one.
+fn mm_pm(x: f64, u: f64) -> String {
+    if x.is_finite() && u.is_finite() {
+        format!("{} ± {}", mm(x), mm(u))
+    } else {
+        mm(x)
+    }
+}
+
 /// The POD in words (see the module doc).
 pub fn pod_words(pod: &Pod) -> Vec<String> {
     let tot = pod.total_energy;
@@ -152,8 +161,8 @@ pub fn scales_words(sc: &Scales) -> Vec<String> {
                 "Probe {k} at ({} mm, {} mm), {name}: integral length scale {} mm along x and {} mm along y ({} and {} mm with the noise spike removed); the noise spike holds {} % of the variance{}, the propagated noise {} %.",
                 mm(p.point.0),
                 mm(p.point.1),
-                mm(cs.x.length),
-                mm(cs.y.length),
+                mm_pm(cs.x.length, cs.x.length_unc),
+                mm_pm(cs.y.length, cs.y.length_unc),
                 mm(cs.x.length_noise_removed),
                 mm(cs.y.length_noise_removed),
                 p3(spike),

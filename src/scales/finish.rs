@@ -42,6 +42,11 @@ pub struct AxisScale {
     pub reached_zero: bool,
     /// ρ extrapolated to zero separation.
     pub rho0: f64,
+    /// Standard uncertainties of `length`, `length_noise_removed` and
+    /// `rho0` by batch means (`blocks`); NaN without blocks.
+    pub length_unc: f64,
+    pub length_noise_removed_unc: f64,
+    pub rho0_unc: f64,
     /// Signed separation (m) and ρ along the axis through the probe.
     pub profile: Vec<(f64, f64)>,
 }
@@ -109,10 +114,13 @@ pub fn finish(acc: &CorrAcc) -> Scales {
                 } else {
                     f64::NAN
                 };
-                let (x, y) = (
+                let (mut x, mut y) = (
                     axis(&g, node, &rho[c], true),
                     axis(&g, node, &rho[c], false),
                 );
+                if let Some(b) = &acc.blocks {
+                    block_uncertainties(b, &g, p, c, node, &mut x, &mut y);
+                }
                 let rho0 = mean_finite(&[x.rho0, y.rho0]);
                 let un = acc.unc_n[p * 2 + c];
                 CompScale {
@@ -138,6 +146,32 @@ pub fn finish(acc: &CorrAcc) -> Scales {
         })
         .collect();
     Scales { grid: g, probes }
+}
+
+/// The batch-means uncertainties of the scales of probe `p`, component
+/// `c` (`blocks`): each block's axes computed as the run's.
+fn block_uncertainties(
+    b: &super::blocks::LineBlocks,
+    g: &Grid,
+    p: usize,
+    c: usize,
+    node: usize,
+    x: &mut AxisScale,
+    y: &mut AxisScale,
+) {
+    use super::blocks::scale_unc;
+    let (bx, by): (Vec<AxisScale>, Vec<AxisScale>) = (0..b.blocks)
+        .map(|k| {
+            let rho = b.rho(g, p, k, c);
+            (axis(g, node, &rho, true), axis(g, node, &rho, false))
+        })
+        .unzip();
+    for (out, per) in [(x, &bx), (y, &by)] {
+        let of = |f: fn(&AxisScale) -> f64| -> Vec<f64> { per.iter().map(f).collect() };
+        out.length_unc = scale_unc(&of(|a| a.length));
+        out.length_noise_removed_unc = scale_unc(&of(|a| a.length_noise_removed));
+        out.rho0_unc = scale_unc(&of(|a| a.rho0));
+    }
 }
 
 /// Mean of the finite values (NaN when none).
@@ -205,6 +239,9 @@ fn axis(g: &Grid, node: usize, rho: &[f64], along_x: bool) -> AxisScale {
         length_noise_removed,
         reached_zero,
         rho0,
+        length_unc: f64::NAN,
+        length_noise_removed_unc: f64::NAN,
+        rho0_unc: f64::NAN,
         profile,
     }
 }
@@ -249,6 +286,12 @@ pub fn scales_table(s: &Scales) -> Table {
         "rho0_y",
         "noise_var_spike",
         "noise_var_propagated",
+        "length_x_unc",
+        "length_y_unc",
+        "length_x_noise_removed_unc",
+        "length_y_noise_removed_unc",
+        "rho0_x_unc",
+        "rho0_y_unc",
     ]
     .into_iter()
     .map(|n| (n, Vec::new()))
@@ -276,6 +319,12 @@ pub fn scales_table(s: &Scales) -> Table {
                 cs.y.rho0,
                 cs.noise_var_spike,
                 cs.noise_var_propagated,
+                cs.x.length_unc,
+                cs.y.length_unc,
+                cs.x.length_noise_removed_unc,
+                cs.y.length_noise_removed_unc,
+                cs.x.rho0_unc,
+                cs.y.rho0_unc,
             ];
             for (col, v) in cols.iter_mut().zip(vals) {
                 col.1.push(v);

@@ -32,6 +32,7 @@
 //! work per frame about 12 operations per probe and node. On for every run
 //! that names probes.
 
+pub mod blocks;
 pub mod codec;
 pub mod finish;
 #[cfg(test)]
@@ -73,12 +74,17 @@ pub struct CorrAcc {
     /// uncertainty at the probe node, and the number of terms.
     pub unc2: Vec<f64>,
     pub unc_n: Vec<f64>,
+    /// The co-moments along each probe's row and column in blocks of the
+    /// run's frames, for the scales' uncertainty (`blocks`); `None` for a
+    /// run of fewer than 40 frames and for the blocks' own accumulators.
+    pub blocks: Option<blocks::LineBlocks>,
 }
 
 impl CorrAcc {
-    /// An empty accumulator for the probes of `stats` on `grid`; `None`
+    /// An empty accumulator for the probes of `stats` on `grid`, for a run
+    /// of `total` frames (the blocks of the scales' uncertainty); `None`
     /// when the run names no probe.
-    pub fn new(stats: &crate::stats::Params, grid: Grid) -> Option<CorrAcc> {
+    pub fn new(stats: &crate::stats::Params, grid: Grid, total: u64) -> Option<CorrAcc> {
         if stats.probes.is_empty() {
             return None;
         }
@@ -87,12 +93,14 @@ impl CorrAcc {
             .iter()
             .map(|&(x, y)| crate::stats::nearest_node(&grid, x, y))
             .collect();
-        Some(CorrAcc::with_layout(Layout {
+        let mut acc = CorrAcc::with_layout(Layout {
             grid,
             points: stats.probes.clone(),
             nodes,
             include_filled: stats.include_filled,
-        }))
+        });
+        acc.blocks = blocks::LineBlocks::new(grid, &acc.layout.nodes, stats.include_filled, total);
+        Some(acc)
     }
 
     /// An empty accumulator of a given layout.
@@ -105,12 +113,15 @@ impl CorrAcc {
             unc2: vec![0.0; np * 2],
             unc_n: vec![0.0; np * 2],
             layout,
+            blocks: None,
         }
     }
 
-    /// An empty accumulator of the same layout (for a chunk).
+    /// An empty accumulator of the same layout and blocks (for a chunk).
     pub fn empty_like(&self) -> CorrAcc {
-        CorrAcc::with_layout(self.layout.clone())
+        let mut acc = CorrAcc::with_layout(self.layout.clone());
+        acc.blocks = self.blocks.as_ref().map(blocks::LineBlocks::empty_like);
+        acc
     }
 
     /// The values of `part` (0..5, see `PARTS`) of probe `p`, component
@@ -121,16 +132,27 @@ impl CorrAcc {
         &self.sums[start..start + nn]
     }
 
-    /// Adds one frame (`field` for the status, `d` for the velocity as the
-    /// statistics see it). Frames come in frame order.
-    pub fn push(&mut self, field: &Field, d: &Derived) {
+    /// Adds run-wide frame `index` (`field` for the status, `d` for the
+    /// velocity as the statistics see it). Frames come in frame order.
+    pub fn push(&mut self, index: u64, field: &Field, d: &Derived) {
         let counts = crate::stats::sample_mask(field, d, self.layout.include_filled);
         let sl = |a: &ndarray::Array2<f64>| a.iter().copied().collect::<Vec<f64>>();
-        self.push_values(
-            &counts,
-            [&sl(&d.u), &sl(&d.v)],
-            [&sl(&d.u_unc), &sl(&d.v_unc)],
-        );
+        let (u, v, su, sv) = (sl(&d.u), sl(&d.v), sl(&d.u_unc), sl(&d.v_unc));
+        self.push_values_at(index, &counts, [&u, &v], [&su, &sv]);
+    }
+
+    /// `push_values` of run-wide frame `index`, into the blocks too.
+    pub fn push_values_at(
+        &mut self,
+        index: u64,
+        counts: &[bool],
+        uv: [&[f64]; 2],
+        unc: [&[f64]; 2],
+    ) {
+        self.push_values(counts, uv, unc);
+        if let Some(b) = self.blocks.as_mut() {
+            b.push(index, counts, uv, unc);
+        }
     }
 
     /// Adds one frame given node by node: which nodes count, u and v, and
@@ -220,10 +242,21 @@ impl CorrAcc {
             *a += x;
         }
         self.frames += b.frames;
+        if let (Some(a), Some(x)) = (self.blocks.as_mut(), b.blocks) {
+            a.merge(x);
+        }
     }
 
     /// Checks that `b` can merge into `self` (shards of one pipeline).
     pub fn compatible(&self, b: &CorrAcc) -> Result<()> {
+        let shape = |x: &CorrAcc| x.blocks.as_ref().map(|k| (k.total, k.blocks));
+        if shape(self) != shape(b) {
+            return Err(Error::data(format!(
+                "two-point correlation accumulators have different frame blocks ({:?} vs {:?}: frames of the run, blocks)",
+                shape(self),
+                shape(b)
+            )));
+        }
         if self.layout != b.layout {
             return Err(Error::data(format!(
                 "two-point correlation accumulators differ (probes {:?} on a {}x{} grid vs {:?} on {}x{})",

@@ -234,7 +234,9 @@ fn report_words_say_the_numbers_of_the_pod_spectra_and_scales_tables() {
             1e3 * s("length_x")[r],
             "L_x mm",
         );
+        same(c.next(" ± "), 1e3 * s("length_x_unc")[r], "u(L_x) mm");
         same(c.next("along x and "), 1e3 * s("length_y")[r], "L_y mm");
+        same(c.next(" ± "), 1e3 * s("length_y_unc")[r], "u(L_y) mm");
         same(
             c.next("along y ("),
             1e3 * s("length_x_noise_removed")[r],
