@@ -250,6 +250,26 @@ pub fn words(v: &Vortices) -> String {
         }
         s += ". ";
     }
+    let frame_speeds: Vec<f64> = long
+        .iter()
+        .filter(|t| matches!(v.slices[t.points[0].slice].kind, SliceKind::Frame { .. }))
+        .filter_map(|t| t.velocity.map(|[a, _]| a.value))
+        .collect();
+    if !frame_speeds.is_empty() {
+        let (lo, hi) = frame_speeds
+            .iter()
+            .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &x| {
+                (a.min(x), b.max(x))
+            });
+        s += &format!(
+            "Across frames, {} track{} of three frames or more convect along x at a median {} m/s (from {} to {}). ",
+            frame_speeds.len(),
+            if frame_speeds.len() == 1 { "" } else { "s" },
+            num(crate::robust::quantile_of(frame_speeds.iter().copied(), 0.5), 4),
+            num(lo, 4),
+            num(hi, 4)
+        );
+    }
     s += &format!(
         "Circulation uncertainties carry the neighbour correlation: {}.",
         v.correlation
