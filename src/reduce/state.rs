@@ -82,7 +82,7 @@ impl RunState {
             inputs: Vec::new(),
             scheme_counts: Vec::new(),
             peak_acc: run.px_velocity.map(PeakLockAcc::new),
-            budget: crate::budget::run::start(run, grid),
+            budget: crate::reduce::budget::start(run, grid),
             modes: t.modes.as_ref().map(ModeSketch::empty_like),
             corr: t.corr.as_ref().map(CorrAcc::empty_like),
         }

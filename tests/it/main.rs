@@ -21,6 +21,7 @@ mod report_numbers;
 mod resolved;
 mod run;
 mod scales;
+mod smoothing;
 mod spectra;
 mod truth;
 mod values;

@@ -1,20 +1,21 @@
 //! The vortex analysis's place in a run: from the finished statistics (and
-//! budget) to `Vortices`, what `curlew check` says, and the report's words.
+//! budget) to `Vortices`, and what `curlew check` says.
 //!
 //! Owns: the glue `reduce` calls (a few lines there). Does not own the
-//! numerics (`core`, `track`, `budget`) or the tables (`table`).
+//! numerics (`vortex::core`, `track`, `budget`), the tables
+//! (`vortex::table`) or the report's words (`report::vortices`).
 //!
 //! Slices: the run's mean field (`ensemble`: u_mean, v_mean, omega_mean,
 //! omega_mean_unc), then each phase bin's mean field (`phase`), in bin
 //! order. Bin times are `phase / (2 pi f)` with f from `[run.conditions]
 //! frequency`; without f the tracks have no velocity.
 
-use super::corr::OmegaCorrelation;
-use super::{find_cores, track, Params, Slice, SliceCores, SliceKind, Vortices};
 use crate::field::NodeTable;
 use crate::plan::RunPlan;
 use crate::result::RunResult;
 use crate::stencil::correlation::Correlation;
+use crate::vortex::corr::OmegaCorrelation;
+use crate::vortex::{find_cores, track, Params, Slice, SliceCores, SliceKind, Vortices};
 
 /// The slice of a node table's mean columns, or `None` when one is missing.
 fn slice_of(t: &NodeTable, kind: SliceKind, time_s: f64) -> Option<Slice<'_>> {
@@ -91,7 +92,7 @@ pub fn analyse(rr: &RunResult, rp: &RunPlan, frequency: Option<f64>) -> Option<V
     let budget = rr
         .budget
         .as_ref()
-        .map(|b| super::budget::core_budgets(b, p, radius, f, vel))
+        .map(|b| crate::vortex::budget::core_budgets(b, p, radius, f, vel))
         .unwrap_or_default();
     Some(Vortices {
         grid: g,
@@ -124,61 +125,4 @@ pub fn check_lines(rp: &RunPlan, has_phase: bool, frequency: Option<f64>) -> Vec
         out.push("vortices: circulation budget of every core of every budget slice (circulation-budget.csv)".into());
     }
     out
-}
-
-/// The report's paragraph in plain words.
-pub fn words(v: &Vortices) -> String {
-    use crate::describe::num;
-    let n_mean = v
-        .slices
-        .iter()
-        .find(|s| s.kind == SliceKind::Mean)
-        .map_or(0, |s| s.cores.len());
-    let n_bins = v
-        .slices
-        .iter()
-        .filter(|s| s.kind != SliceKind::Mean)
-        .count();
-    let total: usize = v.slices.iter().map(|s| s.cores.len()).sum::<usize>() - n_mean;
-    let mut s = format!(
-        "The mean field holds {n_mean} vortex core{}; the {n_bins} phase-bin means hold {total} in all. ",
-        if n_mean == 1 { "" } else { "s" }
-    );
-    let long: Vec<&track::Track> = v.tracks.iter().filter(|t| t.points.len() >= 3).collect();
-    if !long.is_empty() {
-        s += &format!(
-            "{} track{} span three bins or more. ",
-            long.len(),
-            if long.len() == 1 { "" } else { "s" }
-        );
-    }
-    if let Some(t) = long
-        .iter()
-        .filter(|t| t.velocity.is_some())
-        .max_by_key(|t| t.points.len())
-    {
-        let [a, b] = t.velocity.expect("filtered");
-        s += &format!(
-            "The longest (track {}, {} points) convects at ({} ± {}, {} ± {}) m/s",
-            t.id,
-            t.points.len(),
-            num(a.value, 3),
-            num(a.unc, 2),
-            num(b.value, 3),
-            num(b.unc, 2)
-        );
-        if let Some(gr) = t.growth {
-            s += &format!(
-                "; its fitted core radius squared grows at {} ± {} m²/s (a Lamb-Oseen core in a fluid of viscosity nu grows at 4 nu)",
-                num(gr.value, 3),
-                num(gr.unc, 2)
-            );
-        }
-        s += ". ";
-    }
-    s += &format!(
-        "Circulation uncertainties carry the neighbour correlation: {}.",
-        v.correlation
-    );
-    s
 }
