@@ -12,6 +12,7 @@ mod detection;
 mod formats;
 mod fuzz;
 mod header_units;
+mod layers;
 mod masks_axes;
 mod modes;
 mod netcdf_out;
