@@ -1,5 +1,6 @@
 //! Plain words for resolved parameters: the number formatting shared by
-//! the stages' `describe` functions (`curlew check`, the report).
+//! the stages' `describe` functions (`curlew check`, the report), and the
+//! tick labels of figures (`tick`), which the stages' messages use too.
 //!
 //! Owns no parameters: each stage describes its own `Params` beside their
 //! definition, in SI with the unit written out.
@@ -39,6 +40,30 @@ fn trim(s: &str) -> &str {
         s.trim_end_matches('0').trim_end_matches('.')
     } else {
         s
+    }
+}
+
+/// A tick label: at most six decimals, trailing zeros dropped; scientific
+/// notation outside 1e-3..1e5.
+pub fn tick(v: f64) -> String {
+    tick_in(v, 0.0)
+}
+
+/// `tick` on an axis spanning `span`: values below 1e-9·span print as 0
+/// (the floating-point residue of a tick at zero).
+pub fn tick_in(v: f64, span: f64) -> String {
+    if v == 0.0 || !v.is_finite() || v.abs() < 1e-9 * span.abs() {
+        return "0".into();
+    }
+    if !(1e-3..1e5).contains(&v.abs()) {
+        return format!("{v:.1e}");
+    }
+    let s = format!("{v:.6}");
+    let s = s.trim_end_matches('0').trim_end_matches('.');
+    if s == "-0" {
+        "0".into()
+    } else {
+        s.to_string()
     }
 }
 

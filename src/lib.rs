@@ -5,7 +5,9 @@
 //! `derive` → `stats` (accumulate) → `io` (write) / `plot` / `report`.
 //! `reduce` drives a run through them; `synth` makes campaigns with known
 //! truth. The binary (`src/main.rs`, `src/cli/`) only parses arguments and
-//! maps errors to exit codes.
+//! maps errors to exit codes. The modules depend on each other downwards
+//! only, through fixed layers (data, kernels, files, analyses, results,
+//! figures, plan, report, driver: DEVELOPERS.md, "The house").
 //!
 //! A whole campaign is one call: `Campaign::load(path)?.run(&RunOptions)`
 //! (see [`facade`]). The stages are also usable one by one; from two

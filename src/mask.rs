@@ -38,7 +38,8 @@ use ndarray::Array2;
 use serde::{Deserialize, Serialize};
 
 use crate::error::{Error, Result};
-use crate::field::{Field, Grid, MASKED};
+pub use crate::field::{mask_node, node_of};
+use crate::field::{Field, Grid};
 use crate::io::Orientation;
 
 /// `[mask]` / `[run.mask]` as written.
@@ -126,7 +127,7 @@ impl MaskSpec {
                 spec.circles.push((cx, cy, r * length_scale));
             }
             if let Some(f) = &raw.file {
-                let path = crate::plan::resolve_path(base_dir, f);
+                let path = crate::io::resolve_path(base_dir, f);
                 let fm = read_file(&path, length_scale, orientation)?;
                 spec.files.push((path, fm));
             }
@@ -209,15 +210,6 @@ pub fn apply(mask: &NodeMask, field: &mut Field) {
     }
 }
 
-/// One node to status `MASKED`, NaN values and uncertainties.
-pub fn mask_node(field: &mut Field, j: usize, i: usize) {
-    field.status[[j, i]] = MASKED;
-    field.u[[j, i]] = f64::NAN;
-    field.v[[j, i]] = f64::NAN;
-    field.sigma_u[[j, i]] = f64::NAN;
-    field.sigma_v[[j, i]] = f64::NAN;
-}
-
 /// The nodes a run's figures draw grey (node order), `None` when there is
 /// none: the geometry mask's nodes and every node masked in every frame
 /// the statistics counted (a mask column of the frame files), read from
@@ -242,20 +234,6 @@ pub fn figure_mask(
         }
     }
     m.iter().any(|&b| b).then_some(m)
-}
-
-/// The node `(i, j)` within `tol` pitches of `(x, y)` (SI), if any.
-pub fn node_of(grid: &Grid, x: f64, y: f64, tol: f64) -> Option<(usize, usize)> {
-    let fi = (x - grid.x0) / grid.dx;
-    let fj = (y - grid.y0) / grid.dy;
-    let (ri, rj) = (fi.round(), fj.round());
-    let ok = (fi - ri).abs() <= tol
-        && (fj - rj).abs() <= tol
-        && ri >= 0.0
-        && rj >= 0.0
-        && (ri as usize) < grid.nx
-        && (rj as usize) < grid.ny;
-    ok.then_some((ri as usize, rj as usize))
 }
 
 /// Even–odd rule: is `(x, y)` inside the closed polygon `p`?

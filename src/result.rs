@@ -18,6 +18,19 @@ pub struct FrameRecord {
     pub noise: Option<f64>,
 }
 
+/// The mean of the per-frame noise estimates over the frames the statistics
+/// used (a rejected frame, a bad laser shot, would inflate it), when the
+/// frames carry one.
+pub fn mean_noise(frames: &[FrameRecord]) -> Option<f64> {
+    let v: Vec<f64> = frames
+        .iter()
+        .filter(|f| !f.rejected)
+        .filter_map(|f| f.noise)
+        .filter(|x| x.is_finite())
+        .collect();
+    (!v.is_empty()).then(|| v.iter().sum::<f64>() / v.len() as f64)
+}
+
 /// A figure written for a run or a comparison; paths relative to the
 /// campaign output folder.
 #[derive(Debug, Clone)]
@@ -37,7 +50,7 @@ pub struct RunResult {
     pub stats: stats::RunStats,
     pub warnings: Vec<String>,
     pub figures: Vec<FigureRef>,
-    pub conditions: crate::plan::report::Conditions,
+    pub conditions: crate::field::Conditions,
     pub description: Option<String>,
     /// The vorticity transport budget, when `[budget]` asked for it.
     pub budget: Option<crate::budget::Budget>,
@@ -64,6 +77,42 @@ pub struct Structures {
     pub figure_modes: usize,
 }
 
+/// What one comparison produced; paths relative to the campaign folder.
+#[derive(Debug, Clone)]
+pub struct ComparisonResult {
+    pub title: String,
+    pub slug: String,
+    pub runs: Vec<String>,
+    /// Made by curlew without a `[[compare]]` (first two runs).
+    pub automatic: bool,
+    pub quantity: String,
+    pub coverage: f64,
+    pub figures: Vec<FigureRef>,
+    /// CSV tables written (difference, profiles, scalars).
+    pub tables: Vec<std::path::PathBuf>,
+    pub scalars: Vec<Scalar>,
+    /// Nodes where Δ and its uncertainty are known.
+    pub n_compared: usize,
+    pub n_significant: usize,
+    /// n_significant / n_compared, when anything was compared.
+    pub significant_fraction: Option<f64>,
+    /// True when the second run's grid differed and it was interpolated.
+    pub interpolated: bool,
+    pub warnings: Vec<String>,
+}
+
+/// One scalar of one run in a comparison's table across conditions
+/// (`compare::scalars` computes them).
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct Scalar {
+    pub run: String,
+    pub name: String,
+    pub value: f64,
+    /// Standard uncertainty (k = 1); NaN when unknown.
+    pub uncertainty: f64,
+    pub unit: String,
+}
+
 /// A reduced campaign.
 #[derive(Debug, Clone)]
 pub struct CampaignResult {
@@ -73,5 +122,5 @@ pub struct CampaignResult {
     pub manifest: serde_json::Value,
     pub warnings: Vec<String>,
     /// The comparisons between runs (`[[compare]]`, or the automatic one).
-    pub comparisons: Vec<crate::compare::ComparisonResult>,
+    pub comparisons: Vec<ComparisonResult>,
 }

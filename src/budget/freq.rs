@@ -61,7 +61,7 @@ impl Frequency {
                 "fitted to the phases and times of {frames} frames (assumes more than two frames per period)"
             ),
         };
-        format!("{} Hz, {what}", crate::plot::draw::tick(self.hz))
+        format!("{} Hz, {what}", crate::describe::tick(self.hz))
     }
 }
 
@@ -99,7 +99,7 @@ pub fn fitted(tp: &[(f64, f64)]) -> Option<Frequency> {
         .copied()
         .filter(|(t, p)| t.is_finite() && p.is_finite())
         .collect();
-    let hz = crate::report::conditions::estimate_frequency(&mut v)?;
+    let hz = crate::stats::frequency::estimate_frequency(&mut v)?;
     Some(Frequency {
         hz,
         source: FreqSource::PhasesAndTimes { frames: v.len() },
@@ -116,8 +116,8 @@ pub fn disagreement(f: &Frequency, tp: &[(f64, f64)]) -> Option<String> {
     ((e.hz - f.hz).abs() > 0.01 * f.hz).then(|| {
         format!(
             "the phases and times of the frames give {} Hz, not {} Hz: check the frequency (or the sampling aliases)",
-            crate::plot::draw::tick(e.hz),
-            crate::plot::draw::tick(f.hz)
+            crate::describe::tick(e.hz),
+            crate::describe::tick(f.hz)
         )
     })
 }

@@ -7,7 +7,8 @@
 //! (`integral`; the circulation budget of vortex cores is
 //! `vortex::budget`), its plain-words reading (`reading`), and the
 //! frequency of the phase bins (`freq`). Does not own: the statistics
-//! (`stats`), files or figures.
+//! (`stats`), the run plan, files or figures (its place in a run, its
+//! table and `check` lines are `reduce::budget`'s).
 //!
 //! For the out-of-plane vorticity w of a planar, incompressible,
 //! constant-density flow (docs/budget.md):
@@ -24,7 +25,6 @@ pub mod freq;
 pub mod integral;
 pub mod ops;
 pub mod reading;
-pub mod run;
 pub mod terms;
 #[cfg(test)]
 mod tests;

@@ -157,7 +157,7 @@ pub fn ranked(m: &[f64; 5]) -> Vec<(&'static str, f64)> {
 impl Reading {
     /// The reading in plain words, one sentence per string.
     pub fn sentences(&self) -> Vec<String> {
-        let t = crate::plot::draw::tick;
+        let t = crate::describe::tick;
         if self.nodes == 0 {
             return vec!["The budget has no node with a residual (a missing viscosity or frequency, or too few frames per bin): nothing to read.".into()];
         }

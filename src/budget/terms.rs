@@ -109,11 +109,11 @@ pub struct Budget {
     pub nu: f64,
     /// Coverage factor of the significance test.
     pub k: f64,
-    /// The frequency of the phase bins and its source (set by `run::finish`).
+    /// The frequency of the phase bins and its source (set by `reduce::budget::finish`).
     pub frequency: Option<super::freq::Frequency>,
     /// Phase bin of the term figure (`[budget] figure_bin`).
     pub figure_bin: Option<usize>,
-    /// The plain-words reading (set by `run::finish`).
+    /// The plain-words reading (set by `reduce::budget::finish`).
     pub reading: Option<super::reading::Reading>,
     pub warnings: Vec<String>,
 }

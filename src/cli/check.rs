@@ -125,15 +125,14 @@ fn check_run(plan: &Plan, r: &RunPlan) -> Result<()> {
         .map(|(m, _)| (m.time_s, m.phase_deg))
         .collect();
     let f = match r.vortices.is_some() && with_phase > 0 {
-        true => {
-            curlew::budget::run::frequency(r, &curlew::budget::run::time_phase(&tp))?.map(|f| f.hz)
-        }
+        true => curlew::reduce::budget::frequency(r, &curlew::reduce::budget::time_phase(&tp))?
+            .map(|f| f.hz),
         false => None,
     };
-    for line in curlew::vortex::run::check_lines(r, with_phase > 0, f) {
+    for line in curlew::reduce::vortices::check_lines(r, with_phase > 0, f) {
         println!("  {line}");
     }
-    for line in curlew::budget::run::check_lines(r, &tp)? {
+    for line in curlew::reduce::budget::check_lines(r, &tp)? {
         println!("  {line}");
     }
     let times: Vec<Option<f64>> = tp.iter().map(|t| t.0).collect();

@@ -17,12 +17,13 @@ mod figures;
 pub mod interp;
 pub mod scalars;
 
-use std::path::{Path, PathBuf};
+use std::path::Path;
 
 use crate::error::{Error, Result};
 use crate::plan::report::ComparePlan;
-use crate::result::{FigureRef, RunResult};
+use crate::result::RunResult;
 
+pub use crate::result::ComparisonResult;
 pub use scalars::Scalar;
 
 /// A profile of one run at one station.
@@ -35,30 +36,6 @@ pub struct Profile {
     pub s: Vec<f64>,
     pub value: Vec<f64>,
     pub uncertainty: Vec<f64>,
-}
-
-/// What one comparison produced; paths relative to the campaign folder.
-#[derive(Debug, Clone)]
-pub struct ComparisonResult {
-    pub title: String,
-    pub slug: String,
-    pub runs: Vec<String>,
-    /// Made by curlew without a `[[compare]]` (first two runs).
-    pub automatic: bool,
-    pub quantity: String,
-    pub coverage: f64,
-    pub figures: Vec<FigureRef>,
-    /// CSV tables written (difference, profiles, scalars).
-    pub tables: Vec<PathBuf>,
-    pub scalars: Vec<Scalar>,
-    /// Nodes where Δ and its uncertainty are known.
-    pub n_compared: usize,
-    pub n_significant: usize,
-    /// n_significant / n_compared, when anything was compared.
-    pub significant_fraction: Option<f64>,
-    /// True when the second run's grid differed and it was interpolated.
-    pub interpolated: bool,
-    pub warnings: Vec<String>,
 }
 
 /// Runs every comparison; `runs` are the reduced runs (any order).
@@ -256,7 +233,7 @@ pub fn profiles(p: &ComparePlan, sel: &[&RunResult]) -> Vec<Profile> {
             let (v, u): (Vec<f64>, Vec<f64>) = (0..g.ny).map(|j| sample(x, g.y(j))).unzip();
             out.push(Profile {
                 run: r.id.clone(),
-                station: format!("x = {} mm", crate::plot::draw::tick(x * 1e3)),
+                station: format!("x = {} mm", crate::describe::tick(x * 1e3)),
                 s: (0..g.ny).map(|j| g.y(j)).collect(),
                 value: v,
                 uncertainty: u,
@@ -266,7 +243,7 @@ pub fn profiles(p: &ComparePlan, sel: &[&RunResult]) -> Vec<Profile> {
             let (v, u): (Vec<f64>, Vec<f64>) = (0..g.nx).map(|i| sample(g.x(i), y)).unzip();
             out.push(Profile {
                 run: r.id.clone(),
-                station: format!("y = {} mm", crate::plot::draw::tick(y * 1e3)),
+                station: format!("y = {} mm", crate::describe::tick(y * 1e3)),
                 s: (0..g.nx).map(|i| g.x(i)).collect(),
                 value: v,
                 uncertainty: u,

@@ -29,19 +29,9 @@
 //! row.
 
 use super::interp::sample;
+use crate::field::Conditions;
 use crate::field::NodeTable;
-use crate::plan::report::Conditions;
-
-/// One scalar of one run.
-#[derive(Debug, Clone, PartialEq, serde::Serialize)]
-pub struct Scalar {
-    pub run: String,
-    pub name: String,
-    pub value: f64,
-    /// Standard uncertainty (k = 1); NaN when unknown.
-    pub uncertainty: f64,
-    pub unit: String,
-}
+pub use crate::result::Scalar;
 
 pub use crate::stats::finish::peak_node;
 

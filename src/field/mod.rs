@@ -12,6 +12,12 @@
 
 use ndarray::Array2;
 
+pub mod conditions;
+pub mod table;
+
+pub use conditions::{Conditions, Extra};
+pub use table::{Table, Values};
+
 /// A regular rectangular grid, in metres.
 #[derive(Debug, Clone, Copy, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct Grid {
@@ -234,6 +240,44 @@ impl NodeTable {
         self.get(name)
             .map(|d| Array2::from_shape_vec(self.grid.shape(), d.to_vec()).expect("column length"))
     }
+}
+
+/// Makes every array of `field` row-major contiguous (a no-op for fields
+/// built by io), so kernels can index flat slices by `k = j*nx + i`.
+pub(crate) fn ensure_standard_layout(field: &mut Field) {
+    fn fix<T: Clone>(a: &mut ndarray::Array2<T>) {
+        if !a.is_standard_layout() {
+            *a = a.as_standard_layout().to_owned();
+        }
+    }
+    fix(&mut field.u);
+    fix(&mut field.v);
+    fix(&mut field.sigma_u);
+    fix(&mut field.sigma_v);
+    fix(&mut field.status);
+}
+
+/// One node to status `MASKED`, NaN values and uncertainties.
+pub fn mask_node(field: &mut Field, j: usize, i: usize) {
+    field.status[[j, i]] = MASKED;
+    field.u[[j, i]] = f64::NAN;
+    field.v[[j, i]] = f64::NAN;
+    field.sigma_u[[j, i]] = f64::NAN;
+    field.sigma_v[[j, i]] = f64::NAN;
+}
+
+/// The node `(i, j)` within `tol` pitches of `(x, y)` (SI), if any.
+pub fn node_of(grid: &Grid, x: f64, y: f64, tol: f64) -> Option<(usize, usize)> {
+    let fi = (x - grid.x0) / grid.dx;
+    let fj = (y - grid.y0) / grid.dy;
+    let (ri, rj) = (fi.round(), fj.round());
+    let ok = (fi - ri).abs() <= tol
+        && (fj - rj).abs() <= tol
+        && ri >= 0.0
+        && rj >= 0.0
+        && (ri as usize) < grid.nx
+        && (rj as usize) < grid.ny;
+    ok.then_some((ri as usize, rj as usize))
 }
 
 #[cfg(test)]

@@ -16,7 +16,7 @@
 //!   with values. A node with 8 valid neighbours is thus filled before one at
 //!   the rim of a gap, and gaps close from their rim inwards.
 //! - **Inpainting** (`Method::Inpaint`): the DCT penalized least squares of
-//!   Garcia 2010 (`pls`), started from the neighbour-mean fill, with the
+//!   Garcia 2010 (`stencil::pls`), started from the neighbour-mean fill, with the
 //!   known values held fixed.
 //!
 //! Either way a hole further than `max_distance` nodes (Chebyshev distance,
@@ -58,7 +58,7 @@
 //! map. Inpainting costs about 2 x `inpaint_iterations` 2-D DCTs per
 //! component and frame with holes.
 
-pub mod pls;
+pub use crate::stencil::pls;
 
 use std::collections::HashMap;
 
@@ -149,7 +149,7 @@ const NB: [(isize, isize); 8] = [
 
 /// Fills the holes of `field` (see the module docs); returns the counts.
 pub fn fill(p: &Params, field: &mut Field) -> Counts {
-    crate::validate::ensure_standard_layout(field);
+    crate::field::ensure_standard_layout(field);
     let (ny, nx) = field.status.dim();
     let is_hole = |s: u8| s == REPLACED || s == FILLED;
     let holes: Vec<usize> = field

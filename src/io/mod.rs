@@ -25,7 +25,6 @@ pub mod netcdf;
 pub mod orient;
 pub mod outdir;
 pub mod parquet;
-pub mod table;
 mod text;
 pub mod units;
 mod write;
@@ -33,11 +32,11 @@ mod write;
 use std::path::{Path, PathBuf};
 
 use crate::error::{Error, Result};
+pub use crate::field::table::{self, Table, Values};
 use crate::field::{Field, Grid, NodeTable};
 pub use orient::Orientation;
 pub use outdir::OutputDir;
 pub use parquet::write_frames_parquet;
-pub use table::{Table, Values};
 pub use text::clip as clip_text;
 pub use write::{
     atomic_bytes, atomic_file, atomic_path, hash_bytes, hash_file, write_csv, write_csv_rows,
@@ -334,8 +333,8 @@ fn mask_rows(rows: &grid::RawRows, length_scale: f64, f: &mut Field) {
     let Some(masked) = &rows.masked else { return };
     for (k, _) in masked.iter().enumerate().filter(|(_, &m)| m) {
         let (x, y) = (rows.x[k] * length_scale, rows.y[k] * length_scale);
-        if let Some((i, j)) = crate::mask::node_of(&f.grid, x, y, 0.5) {
-            crate::mask::mask_node(f, j, i);
+        if let Some((i, j)) = crate::field::node_of(&f.grid, x, y, 0.5) {
+            crate::field::mask_node(f, j, i);
         }
     }
 }
@@ -460,6 +459,16 @@ pub fn node_table_to_table(nt: &NodeTable) -> Table {
         t.push(name.clone(), Values::F64(data.clone()));
     }
     t
+}
+
+/// `p` if absolute, else `base/p`.
+pub fn resolve_path(base: &Path, p: &str) -> PathBuf {
+    let pb = PathBuf::from(p);
+    if pb.is_absolute() {
+        pb
+    } else {
+        base.join(pb)
+    }
 }
 
 #[cfg(test)]

@@ -1,4 +1,5 @@
 use super::*;
+use crate::field::MASKED;
 
 fn grid() -> Grid {
     // 11 x 9 nodes at 1 mm, origin (0, 0)

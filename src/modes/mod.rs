@@ -70,39 +70,3 @@ impl ModeSketch {
 /// A run's finished POD, its phase estimate (with `phase = true`) and
 /// warnings.
 pub type RunPod = (Pod, Option<phase::PhaseEstimate>, Vec<String>);
-
-/// Finishes the POD of a run and writes its tables (and the phase frame
-/// table when asked) into `dir`.
-pub fn write_run(
-    sketch: &ModeSketch,
-    run: &crate::plan::RunPlan,
-    frames: &[crate::result::FrameRecord],
-    grid: &crate::field::Grid,
-    dir: &std::path::Path,
-) -> crate::error::Result<RunPod> {
-    let pod = finish(sketch, run.stats.max_lag)?;
-    let names = |i: u64| {
-        frames
-            .iter()
-            .find(|f| f.meta.index as u64 == i)
-            .map_or_else(|| i.to_string(), |f| f.meta.name.clone())
-    };
-    let mut warnings = Vec::new();
-    let est = if run.modes.phase {
-        let e = phase::estimate(&pod)?;
-        if e.failed.is_empty() {
-            phase::write_frame_table(&dir.join("phase-from-modes.csv"), &pod, &e, &names)?;
-        } else {
-            warnings.push(format!(
-                "run '{}': modes 1 and 2 are not a pair, so no phase is estimated: {}",
-                run.id,
-                e.failed.join("; ")
-            ));
-        }
-        Some(e)
-    } else {
-        None
-    };
-    output::write_tables(dir, &pod, grid, &names, est.as_ref())?;
-    Ok((pod, est, warnings))
-}

@@ -25,6 +25,7 @@ use std::path::{Path, PathBuf};
 use serde::{Deserialize, Serialize};
 
 use crate::error::{Error, Result};
+pub use crate::io::resolve_path;
 use crate::io::InputSpec;
 use crate::stencil::smooth::Smoother;
 use crate::{derive, fill, plot, stats, validate};
@@ -380,16 +381,6 @@ fn with_place(e: Error, text: &str, path: &Path) -> Error {
     match line {
         Some(l) => e.with_line(l),
         None => e,
-    }
-}
-
-/// `p` if absolute, else `base/p`.
-pub fn resolve_path(base: &Path, p: &str) -> PathBuf {
-    let pb = PathBuf::from(p);
-    if pb.is_absolute() {
-        pb
-    } else {
-        base.join(pb)
     }
 }
 

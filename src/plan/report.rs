@@ -20,6 +20,8 @@ use super::ResolveCtx;
 use crate::error::{Error, Result};
 use crate::plot;
 
+pub use crate::field::conditions::{Conditions, Extra};
+
 /// `[figures]` as written.
 #[derive(Debug, Clone, Default, Deserialize, Serialize, PartialEq)]
 #[serde(deny_unknown_fields)]
@@ -51,40 +53,6 @@ pub struct RawConditions {
     /// Anything else the lab records (temperature, angle of attack…).
     #[serde(flatten)]
     pub extra: BTreeMap<String, toml::Value>,
-}
-
-/// A free condition value: a number (goes into campaign.csv) or text.
-#[derive(Debug, Clone, PartialEq, Serialize)]
-pub enum Extra {
-    Number(f64),
-    Text(String),
-}
-
-/// A run's resolved flow conditions (SI).
-#[derive(Debug, Clone, Default, PartialEq, Serialize)]
-pub struct Conditions {
-    pub velocity: Option<f64>,
-    pub length: Option<f64>,
-    pub viscosity: Option<f64>,
-    pub frequency: Option<f64>,
-    pub extra: Vec<(String, Extra)>,
-}
-
-impl Conditions {
-    /// Reynolds number Re = U L / ν (common practice), when all three are
-    /// given.
-    pub fn reynolds(&self) -> Option<f64> {
-        Some(self.velocity? * self.length? / self.viscosity?)
-    }
-    /// Strouhal number St = f L / U (common practice) for a frequency `f`
-    /// in Hz.
-    pub fn strouhal(&self, f: f64) -> Option<f64> {
-        Some(f * self.length? / self.velocity?)
-    }
-    /// (U, L) when both are given: the scales of nondimensional figures.
-    pub fn scales(&self) -> Option<(f64, f64)> {
-        Some((self.velocity?, self.length?))
-    }
 }
 
 /// One `[[compare]]` entry as written.

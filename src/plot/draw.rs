@@ -16,6 +16,7 @@ use plotters::prelude::*;
 use plotters::style::FontStyle;
 
 use super::colormap::{Colormap, NO_DATA};
+pub use crate::describe::{tick, tick_in};
 use crate::error::{Error, ErrorKind, Result};
 use crate::field::Grid;
 
@@ -169,30 +170,6 @@ impl MapLayout {
     pub fn size(&self, header: u32) -> (u32, u32) {
         let (cw, ch) = self.cell();
         (cw * self.cols + self.bar_w, ch * self.rows + header)
-    }
-}
-
-/// A tick label: at most six decimals, trailing zeros dropped; scientific
-/// notation outside 1e-3..1e5.
-pub fn tick(v: f64) -> String {
-    tick_in(v, 0.0)
-}
-
-/// `tick` on an axis spanning `span`: values below 1e-9·span print as 0
-/// (the floating-point residue of a tick at zero).
-pub fn tick_in(v: f64, span: f64) -> String {
-    if v == 0.0 || !v.is_finite() || v.abs() < 1e-9 * span.abs() {
-        return "0".into();
-    }
-    if !(1e-3..1e5).contains(&v.abs()) {
-        return format!("{v:.1e}");
-    }
-    let s = format!("{v:.6}");
-    let s = s.trim_end_matches('0').trim_end_matches('.');
-    if s == "-0" {
-        "0".into()
-    } else {
-        s.to_string()
     }
 }
 

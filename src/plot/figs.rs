@@ -14,8 +14,8 @@ use super::draw::{
 };
 use super::{figure_ref, magnitude_limit, symmetric_limit, Params};
 use crate::error::Result;
+use crate::field::table::Values;
 use crate::field::NodeTable;
-use crate::io::table::Values;
 use crate::result::{FigureRef, RunResult};
 
 /// Display units of a run's figures: dimensional (mm, m/s, 1/s) or

@@ -6,8 +6,8 @@
 //! Vortex Dynamics §2.3): u_θ(r) = Γ/(2πr)·(1 − exp(−r²/r_c²)),
 //! ω(r) = Γ/(π r_c²)·exp(−r²/r_c²); total circulation Γ.
 
+use crate::field::table::{Table, Values};
 use crate::field::{FrameMeta, Grid, NodeTable};
-use crate::io::table::{Table, Values};
 use crate::result::{FrameRecord, RunResult};
 use crate::stats::{PhaseBin, RunStats};
 use crate::{fill, validate};
@@ -179,7 +179,7 @@ pub fn run(id: &str, v: &Vortex, g: Grid) -> RunResult {
         },
         warnings: vec!["2 frames had more than 5 % outliers".into()],
         figures: vec![],
-        conditions: crate::plan::report::Conditions {
+        conditions: crate::field::Conditions {
             velocity: Some(0.3),
             length: Some(0.01),
             viscosity: Some(1.0e-6),

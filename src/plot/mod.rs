@@ -2,7 +2,7 @@
 //! and an embedded font (DejaVu Sans) so text renders without system fonts.
 //!
 //! Owns: which figures a run gets, their units and limits (`figs`; the
-//! vorticity budget's in `budget`), the
+//! vorticity budget's in `budget`, the vortex tracks' in `vortices`), the
 //! colour maps (`colormap`) and the drawing layer (`draw`). Does not own:
 //! the numbers (stats), nor the comparison arithmetic (`compare`).
 //!
@@ -19,6 +19,7 @@ pub mod draw;
 mod figs;
 pub mod lines;
 pub mod structures;
+pub mod vortices;
 
 use std::path::Path;
 

@@ -75,7 +75,7 @@ pub fn finish_campaign(
                 .iter()
                 .map(|f| (f.meta.time_s, f.meta.phase_deg))
                 .collect();
-            let bud = crate::budget::run::finish(b, rp, &tp)?;
+            let bud = crate::reduce::budget::finish(b, rp, &tp)?;
             run_warnings.extend(bud.warnings.iter().map(|w| format!("run '{}': {w}", rr.id)));
             rr.budget = Some(bud);
             timings.push(("budget".into(), t.elapsed().as_secs_f64()));
@@ -88,12 +88,12 @@ pub fn finish_campaign(
                     .iter()
                     .map(|f| (f.meta.time_s, f.meta.phase_deg))
                     .collect();
-                crate::budget::run::frequency(rp, &crate::budget::run::time_phase(&tp))?
+                crate::reduce::budget::frequency(rp, &crate::reduce::budget::time_phase(&tp))?
                     .map(|f| f.hz)
             }
             false => None,
         };
-        if let Some(v) = crate::vortex::run::analyse(&rr, rp, f, r.state.frame_cores.take()) {
+        if let Some(v) = crate::reduce::vortices::analyse(&rr, rp, f, r.state.frame_cores.take()) {
             run_warnings.extend(v.warnings.iter().map(|w| format!("run '{}': {w}", rr.id)));
             rr.vortices = Some(v);
         }
@@ -112,7 +112,7 @@ pub fn finish_campaign(
         if plan.figures {
             let t = Instant::now();
             match plot::run_figures(&rp.plot, &rr, out).and_then(|mut f| {
-                f.extend(crate::vortex::figures::draw(&rp.plot, &rr, out)?);
+                f.extend(crate::plot::vortices::draw(&rp.plot, &rr, out)?);
                 Ok(f)
             }) {
                 Ok(f) => rr.figures = f,

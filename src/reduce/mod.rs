@@ -21,12 +21,14 @@
 //! spurious is *rejected* (counted, listed in frames.csv, left out of the
 //! statistics) when the validation chain sets a limit for that.
 
+pub mod budget;
 pub mod campaign;
 pub mod outputs;
 pub mod partial;
 pub mod seal;
 pub mod state;
 pub mod structures;
+pub mod vortices;
 
 use std::path::PathBuf;
 use std::time::Instant;
@@ -35,6 +37,7 @@ use crate::error::{Error, Result, WithPath};
 use crate::field::{FrameMeta, Grid, NodeTable};
 use crate::io::{self, FrameSource};
 use crate::plan::RunPlan;
+pub use crate::result::mean_noise;
 use crate::result::FrameRecord;
 use crate::validate::{self, EnsembleBuilder, EnsembleRef};
 use crate::{derive, fill};
@@ -540,19 +543,6 @@ fn scheme_choice(
         derive::derive_with(&run.derive, &field, None, Some(&mut pilot));
     }
     Ok(Some(pilot.finish(frames.len())))
-}
-
-/// The mean of the per-frame noise estimates over the frames the statistics
-/// used (a rejected frame, a bad laser shot, would inflate it), when the
-/// frames carry one.
-pub fn mean_noise(frames: &[FrameRecord]) -> Option<f64> {
-    let v: Vec<f64> = frames
-        .iter()
-        .filter(|f| !f.rejected)
-        .filter_map(|f| f.noise)
-        .filter(|x| x.is_finite())
-        .collect();
-    (!v.is_empty()).then(|| v.iter().sum::<f64>() / v.len() as f64)
 }
 
 /// Keeps a NodeTable's column order stable for writing: docs/interface.md columns

@@ -136,7 +136,7 @@ pub fn write_run_tables(dir: &Path, run: &RunResult) -> Result<()> {
         io::write_csv(&dir.join("convergence.csv"), c)?;
     }
     if let Some(b) = &run.budget {
-        let t = crate::budget::run::table(b);
+        let t = crate::reduce::budget::table(b);
         io::write_csv(&dir.join("budget.csv"), &t)?;
         io::write_parquet(&dir.join("budget.parquet"), &t)?;
     }

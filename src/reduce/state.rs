@@ -74,7 +74,7 @@ impl Templates {
                 .enabled
                 .then(|| ModeSketch::new(&run.modes, grid.len())),
             corr: CorrAcc::new(&run.stats, grid, total),
-            cores: Finder::of(run, grid),
+            cores: Finder::of(run.vortices.as_ref(), &run.derive, grid),
         }
     }
 }
@@ -89,7 +89,7 @@ impl RunState {
             inputs: Vec::new(),
             scheme_counts: Vec::new(),
             peak_acc: run.px_velocity.map(PeakLockAcc::new),
-            budget: crate::budget::run::start(run, grid),
+            budget: crate::reduce::budget::start(run, grid),
             modes: t.modes.as_ref().map(ModeSketch::empty_like),
             corr: t.corr.as_ref().map(CorrAcc::empty_like),
             frame_cores: t.cores.clone().map(FrameCores::new),

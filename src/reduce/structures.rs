@@ -12,10 +12,11 @@ use std::path::Path;
 
 use crate::describe::num;
 use crate::error::Result;
+use crate::field::Grid;
 use crate::io;
-use crate::modes::ModeSketch;
+use crate::modes::{self, phase, ModeSketch, RunPod};
 use crate::plan::RunPlan;
-use crate::result::{RunResult, Structures};
+use crate::result::{FrameRecord, RunResult, Structures};
 use crate::scales::CorrAcc;
 use crate::spectra::run as spec;
 use crate::stats::RunAccumulator;
@@ -41,7 +42,7 @@ pub fn finish(
     };
     let mut warnings = Vec::new();
     if let Some(s) = parts.sketch {
-        let (pod, est, w) = crate::modes::write_run(s, rp, &rr.frames, &rr.grid, dir)?;
+        let (pod, est, w) = write_pod(s, rp, &rr.frames, &rr.grid, dir)?;
         warnings.extend(w);
         st.pod = Some(pod);
         st.phase = est;
@@ -214,4 +215,40 @@ fn run_spectra(
         });
     }
     Ok(out)
+}
+
+/// Finishes the POD of a run and writes its tables (and the phase frame
+/// table when asked) into `dir`.
+pub fn write_pod(
+    sketch: &ModeSketch,
+    run: &RunPlan,
+    frames: &[FrameRecord],
+    grid: &Grid,
+    dir: &Path,
+) -> Result<RunPod> {
+    let pod = modes::finish(sketch, run.stats.max_lag)?;
+    let names = |i: u64| {
+        frames
+            .iter()
+            .find(|f| f.meta.index as u64 == i)
+            .map_or_else(|| i.to_string(), |f| f.meta.name.clone())
+    };
+    let mut warnings = Vec::new();
+    let est = if run.modes.phase {
+        let e = phase::estimate(&pod)?;
+        if e.failed.is_empty() {
+            phase::write_frame_table(&dir.join("phase-from-modes.csv"), &pod, &e, &names)?;
+        } else {
+            warnings.push(format!(
+                "run '{}': modes 1 and 2 are not a pair, so no phase is estimated: {}",
+                run.id,
+                e.failed.join("; ")
+            ));
+        }
+        Some(e)
+    } else {
+        None
+    };
+    modes::output::write_tables(dir, &pod, grid, &names, est.as_ref())?;
+    Ok((pod, est, warnings))
 }

@@ -14,6 +14,7 @@ pub mod conditions;
 mod html;
 mod sections;
 pub mod structures;
+mod vortices;
 
 use std::path::Path;
 

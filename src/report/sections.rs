@@ -5,7 +5,7 @@ use std::fmt::Write;
 use super::conditions::{run_frequency, FrequencySource};
 use super::html::{anchor, esc, json, num, table, url};
 use crate::compare::ComparisonResult;
-use crate::plan::report::Extra;
+use crate::field::Extra;
 use crate::result::{CampaignResult, FigureRef, RunResult};
 
 const CSS: &str = r#"
@@ -113,7 +113,7 @@ fn totals(r: &RunResult) -> Totals {
         replaced: f.iter().map(|x| x.fill.replaced).sum(),
         filled: f.iter().map(|x| x.fill.filled).sum(),
         unfilled: f.iter().map(|x| x.fill.unfilled).sum(),
-        noise: crate::reduce::mean_noise(f).unwrap_or(f64::NAN),
+        noise: crate::result::mean_noise(f).unwrap_or(f64::NAN),
     }
 }
 
@@ -275,7 +275,7 @@ fn run_section(out: &mut String, r: &RunResult) {
         let _ = writeln!(
             out,
             "<h3>Vortex cores</h3>\n<p>{}</p>",
-            esc(&crate::vortex::run::words(v))
+            esc(&super::vortices::words(v))
         );
     }
     out.push_str("<h3>Figures</h3>\n");

@@ -26,6 +26,7 @@
 
 mod codec;
 pub mod finish;
+pub mod frequency;
 pub mod gum;
 pub mod lags;
 pub mod moments;
@@ -39,8 +40,8 @@ mod tests;
 
 use crate::derive::Derived;
 use crate::error::{Error, Result};
+use crate::field::Table;
 use crate::field::{Field, FrameMeta, Grid, NodeTable, FILLED, REPLACED, VALID};
-use crate::io::Table;
 
 use lags::{Clock, Lags};
 use moments::Moments;

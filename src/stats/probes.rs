@@ -25,8 +25,8 @@
 //! `probe_x, probe_y` (the point asked for), `x, y` (the node traced).
 
 use super::gum;
+use crate::field::table::{Table, Values};
 use crate::field::Grid;
-use crate::io::table::{Table, Values};
 
 /// The node nearest (x, y): indices clamped to the grid.
 pub fn nearest_node(g: &Grid, x: f64, y: f64) -> usize {

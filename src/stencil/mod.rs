@@ -1,7 +1,9 @@
 //! The one stencil type: a set of weights on a neighbourhood of grid nodes.
 //!
 //! Owns: `Stencil`, its application at a node, composition (a smoother
-//! followed by a derivative is one stencil), and its noise factor.
+//! followed by a derivative is one stencil), and its noise factor; and
+//! the DCT penalized least squares solver (`pls`) that the smoothing spline
+//! and the inpainting fill share.
 //! Does not own: which stencil a stage uses (the plan decides).
 //!
 //! Convention: a stencil's weights act on node values, `out[j,i] =
@@ -12,6 +14,7 @@ pub mod correlation;
 pub mod cut;
 pub mod derivatives;
 pub mod lsq;
+pub mod pls;
 pub mod second;
 pub mod smooth;
 

@@ -1,5 +1,5 @@
 //! Smoothers: Gaussian and 2-D local least-squares (Savitzky-Golay) as
-//! stencils, and the robust DCT penalized least squares of `fill::pls`
+//! stencils, and the robust DCT penalized least squares of `stencil::pls`
 //! seen through its equivalent kernel.
 //!
 //! Owns: building smoothing stencils, applying a smoother to one component
@@ -23,8 +23,8 @@
 use ndarray::Array2;
 
 use super::cut::{cut, reproduced_degree, Cut};
+use super::pls::Pls;
 use super::{Stencil, Tap};
-use crate::fill::pls::Pls;
 
 /// The smoother the plan chose, resolved.
 #[derive(Debug, Clone, PartialEq, Default)]

@@ -149,7 +149,7 @@ pub fn frame_rejected(p: &Params, c: &Counts, n_nodes: usize) -> bool {
 /// `Some` (the run driver provides it when `p.needs_ensemble_pass()`).
 pub fn validate_frame(p: &Params, field: &mut Field, ens: Option<&EnsembleRef>) -> Counts {
     let mut c = Counts::default();
-    ensure_standard_layout(field);
+    crate::field::ensure_standard_layout(field);
     // 1. input
     for ((s, u), v) in field
         .status
@@ -202,21 +202,6 @@ fn reject_pointwise(field: &mut Field, bad: impl Fn(usize, f64, f64) -> bool) ->
         }
     }
     n
-}
-
-/// Makes every array of `field` row-major contiguous (a no-op for fields
-/// built by io), so kernels can index flat slices by `k = j*nx + i`.
-pub(crate) fn ensure_standard_layout(field: &mut Field) {
-    fn fix<T: Clone>(a: &mut ndarray::Array2<T>) {
-        if !a.is_standard_layout() {
-            *a = a.as_standard_layout().to_owned();
-        }
-    }
-    fix(&mut field.u);
-    fix(&mut field.v);
-    fix(&mut field.sigma_u);
-    fix(&mut field.sigma_v);
-    fix(&mut field.status);
 }
 
 #[cfg(test)]

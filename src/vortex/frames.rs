@@ -23,7 +23,6 @@ use super::corr::OmegaCorrelation;
 use super::{find_cores, Params, Slice, SliceCores, SliceKind};
 use crate::derive::Derived;
 use crate::field::{FrameMeta, Grid};
-use crate::plan::RunPlan;
 
 /// What every chunk of a run needs to find a frame's cores.
 #[derive(Debug)]
@@ -35,13 +34,14 @@ pub struct Finder {
 }
 
 impl Finder {
-    /// The finder of `run` on `grid`, when it asks for cores in every frame.
-    pub fn of(run: &RunPlan, grid: Grid) -> Option<Arc<Finder>> {
-        let p = run.vortices.as_ref().filter(|p| p.frames)?;
+    /// The finder of a run with vortex parameters `p` and derivative
+    /// parameters `d` on `grid`, when it asks for cores in every frame.
+    pub fn of(p: Option<&Params>, d: &crate::derive::Params, grid: Grid) -> Option<Arc<Finder>> {
+        let p = p.filter(|p| p.frames)?;
         Some(Arc::new(Finder {
             params: p.clone(),
-            gamma_radius: run.derive.gamma_radius,
-            corr: OmegaCorrelation::for_run(&run.derive, &grid),
+            gamma_radius: d.gamma_radius,
+            corr: OmegaCorrelation::for_run(d, &grid),
         }))
     }
 }

@@ -11,8 +11,9 @@
 //! - `track`: cores matched from slice to slice by predicted position.
 //! - `budget`: the circulation budget of each core (issue 13) from the
 //!   vorticity transport budget's per-node terms.
-//! - `run`: the glue a run calls; `table`: the output tables;
-//!   `figures`: the figures.
+//! - `table`: the output tables. The glue a run calls is
+//!   `reduce::vortices`, the figures `plot::vortices`, the report's words
+//!   `report::vortices`.
 //!
 //! Does not own: the statistics that make the mean fields (`stats`), the
 //! budget's terms (`budget`), Gamma1/Gamma2 themselves
@@ -30,11 +31,9 @@ pub mod budget;
 pub mod codec;
 pub mod core;
 pub mod corr;
-pub mod figures;
 pub mod fit;
 pub mod frames;
 pub mod label;
-pub mod run;
 pub mod swirl;
 pub mod table;
 pub mod track;

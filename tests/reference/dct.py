@@ -1,5 +1,5 @@
 #!/usr/bin/env python3
-"""Reference for fill::pls: the orthonormal 2-D DCT-II by scipy.
+"""Reference for stencil::pls: the orthonormal 2-D DCT-II by scipy.
 
 A 5 x 7 array of uniform values in [-1, 1) (numpy PCG64, seed 41), row
 major, and its scipy.fft.dctn(type=2, norm="ortho"), row major.

@@ -2,7 +2,7 @@
 //! circulation and core radius along each track with uncertainty bands.
 //!
 //! Owns: which vortex figures a run gets. Does not own: pixels
-//! (`plot::draw`, `plot::lines`) or the numbers (`vortex`).
+//! (`draw`, `lines`) or the numbers (`vortex`).
 //!
 //! Tracks are drawn as lines through the cores' centroids, anticlockwise
 //! ones (positive vorticity) dark red, clockwise ones dark blue, over the
@@ -17,7 +17,6 @@ use std::path::Path;
 use plotters::coord::Shift;
 use plotters::prelude::*;
 
-use super::{SliceKind, Track, Vortices};
 use crate::error::Result;
 use crate::plot::colormap::TIDE;
 use crate::plot::draw::{
@@ -26,6 +25,7 @@ use crate::plot::draw::{
 };
 use crate::plot::{figure_ref, quantile, Params, Units};
 use crate::result::{FigureRef, RunResult};
+use crate::vortex::{Core, SliceKind, Track, Vortices};
 
 /// One map with an overlay and its colour bar.
 struct TrackMap<'a> {
@@ -181,7 +181,7 @@ fn along_tracks(p: &Params, v: &Vortices) -> Option<LineFigure> {
         .iter()
         .all(|t| t.points.iter().all(|q| q.time_s.is_finite()));
     let x_of = |t: &Track, k: usize| track_x(v, t, k, timed);
-    let curve = |t: &Track, n: usize, f: &dyn Fn(&super::Core) -> (f64, f64)| {
+    let curve = |t: &Track, n: usize, f: &dyn Fn(&Core) -> (f64, f64)| {
         let pts: Vec<(f64, f64, f64)> = (0..t.points.len())
             .map(|k| {
                 let q = t.points[k];
@@ -277,7 +277,7 @@ fn budget_along_tracks(p: &Params, v: &Vortices) -> Option<LineFigure> {
             continue;
         };
         // (x, row) per point that meets a budget row
-        let rows: Vec<(f64, &super::budget::CoreBudget)> = (0..t.points.len())
+        let rows: Vec<(f64, &crate::vortex::budget::CoreBudget)> = (0..t.points.len())
             .filter_map(|k| {
                 let q = t.points[k];
                 let sl = &v.slices[q.slice];

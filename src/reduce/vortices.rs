@@ -1,21 +1,22 @@
 //! The vortex analysis's place in a run: from the finished statistics (and
-//! budget) to `Vortices`, what `curlew check` says, and the report's words.
+//! budget) to `Vortices`, and what `curlew check` says.
 //!
 //! Owns: the glue `reduce` calls (a few lines there). Does not own the
-//! numerics (`core`, `track`, `budget`) or the tables (`table`).
+//! numerics (`vortex::core`, `track`, `budget`), the tables
+//! (`vortex::table`) or the report's words (`report::vortices`).
 //!
 //! Slices: the run's mean field (`ensemble`: u_mean, v_mean, omega_mean,
 //! omega_mean_unc), then each phase bin's mean field (`phase`), in bin
 //! order. Bin times are `phase / (2 pi f)` with f from `[run.conditions]
 //! frequency`; without f the tracks have no velocity.
 
-use super::corr::OmegaCorrelation;
-use super::frames::FrameCores;
-use super::{find_cores, track, Params, Slice, SliceCores, SliceKind, Vortices};
 use crate::field::NodeTable;
 use crate::plan::RunPlan;
 use crate::result::RunResult;
 use crate::stencil::correlation::Correlation;
+use crate::vortex::corr::OmegaCorrelation;
+use crate::vortex::frames::FrameCores;
+use crate::vortex::{find_cores, track, Params, Slice, SliceCores, SliceKind, Vortices};
 
 /// The slice of a node table's mean columns, or `None` when one of u, v,
 /// omega and omega's uncertainty is missing (the velocity's uncertainties,
@@ -121,7 +122,7 @@ pub fn analyse(
     let budget = rr
         .budget
         .as_ref()
-        .map(|b| super::budget::core_budgets(b, p, radius, f, vel))
+        .map(|b| crate::vortex::budget::core_budgets(b, p, radius, f, vel))
         .unwrap_or_default();
     Some(Vortices {
         grid: g,
@@ -179,100 +180,4 @@ pub fn check_lines(rp: &RunPlan, has_phase: bool, frequency: Option<f64>) -> Vec
         out.push("vortices: circulation budget of every core of every budget slice (circulation-budget.csv)".into());
     }
     out
-}
-
-/// The report's paragraph in plain words.
-pub fn words(v: &Vortices) -> String {
-    use crate::describe::num;
-    let n_mean = v
-        .slices
-        .iter()
-        .find(|s| s.kind == SliceKind::Mean)
-        .map_or(0, |s| s.cores.len());
-    let count = |frames: bool| {
-        let of = |s: &&SliceCores| {
-            s.kind != SliceKind::Mean && matches!(s.kind, SliceKind::Frame { .. }) == frames
-        };
-        let n = v.slices.iter().filter(of).count();
-        (
-            n,
-            v.slices
-                .iter()
-                .filter(of)
-                .map(|s| s.cores.len())
-                .sum::<usize>(),
-        )
-    };
-    let ((n_bins, in_bins), (n_frames, in_frames)) = (count(false), count(true));
-    let mut s = format!(
-        "The mean field holds {n_mean} vortex core{}",
-        if n_mean == 1 { "" } else { "s" }
-    );
-    if n_bins > 0 {
-        s += &format!("; the {n_bins} phase-bin means hold {in_bins} in all");
-    }
-    if n_frames > 0 {
-        s += &format!(
-            "; the {n_frames} frames hold {in_frames}, {} per frame on average",
-            num(in_frames as f64 / n_frames as f64, 3)
-        );
-    }
-    s += ". ";
-    let long: Vec<&track::Track> = v.tracks.iter().filter(|t| t.points.len() >= 3).collect();
-    if !long.is_empty() {
-        s += &format!(
-            "{} track{} span three slices (bins or frames) or more. ",
-            long.len(),
-            if long.len() == 1 { "" } else { "s" }
-        );
-    }
-    if let Some(t) = long
-        .iter()
-        .filter(|t| t.velocity.is_some())
-        .max_by_key(|t| t.points.len())
-    {
-        let [a, b] = t.velocity.expect("filtered");
-        s += &format!(
-            "The longest (track {}, {} points) convects at ({} ± {}, {} ± {}) m/s",
-            t.id,
-            t.points.len(),
-            num(a.value, 3),
-            num(a.unc, 2),
-            num(b.value, 3),
-            num(b.unc, 2)
-        );
-        if let Some(gr) = t.growth {
-            s += &format!(
-                "; its fitted core radius squared grows at {} ± {} m²/s (a Lamb-Oseen core in a fluid of viscosity nu grows at 4 nu)",
-                num(gr.value, 3),
-                num(gr.unc, 2)
-            );
-        }
-        s += ". ";
-    }
-    let frame_speeds: Vec<f64> = long
-        .iter()
-        .filter(|t| matches!(v.slices[t.points[0].slice].kind, SliceKind::Frame { .. }))
-        .filter_map(|t| t.velocity.map(|[a, _]| a.value))
-        .collect();
-    if !frame_speeds.is_empty() {
-        let (lo, hi) = frame_speeds
-            .iter()
-            .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &x| {
-                (a.min(x), b.max(x))
-            });
-        s += &format!(
-            "Across frames, {} track{} of three frames or more convect along x at a median {} m/s (from {} to {}). ",
-            frame_speeds.len(),
-            if frame_speeds.len() == 1 { "" } else { "s" },
-            num(crate::robust::quantile_of(frame_speeds.iter().copied(), 0.5), 4),
-            num(lo, 4),
-            num(hi, 4)
-        );
-    }
-    s += &format!(
-        "Circulation uncertainties carry the neighbour correlation: {}.",
-        v.correlation
-    );
-    s
 }

@@ -1,5 +1,5 @@
 //! A plain column table for outputs that are not node tables (frames.csv,
-//! campaign.csv, convergence traces), and the writers for it.
+//! campaign.csv, convergence traces); `io` writes it.
 
 /// The values of one column.
 #[derive(Debug, Clone, PartialEq)]

@@ -3,7 +3,7 @@
 //!
 //! Owns: the glue `reduce` calls (a few lines there) and the columns of
 //! `budget.csv` / `budget.parquet` (docs/budget.md). Does not own the
-//! numerics (`ops`, `acc`, `terms`) or the writing (`io`).
+//! numerics (`budget::ops`, `acc`, `terms`) or the writing (`io`).
 //!
 //! Columns (one row per slice and node, slices in order, nodes row by row):
 //! `slice` (phase bin or frame number), `phase_deg` (bin centre; NaN for a
@@ -13,9 +13,9 @@
 //! uncertainty), `residual`, `residual_unc`, and `significant` (1 where
 //! |residual| > k residual_unc, 0 where not, NaN where the residual is).
 
-use super::freq::{self, Frequency};
-use super::terms::{Budget, SliceKind, TERMS};
-use super::{BudgetAcc, Params};
+use crate::budget::freq::{self, Frequency};
+use crate::budget::terms::{self, Budget, SliceBudget, SliceKind, TERMS};
+use crate::budget::{reading, BudgetAcc, Params};
 use crate::error::Result;
 use crate::field::Grid;
 use crate::io::{Table, Values};
@@ -58,7 +58,7 @@ pub fn check_lines(run: &RunPlan, frames: &[(Option<f64>, Option<f64>)]) -> Resu
         p.scheme, p.k
     )];
     match c.viscosity {
-        Some(nu) => out.push(format!("budget: viscosity {} m²/s, given in [run.conditions]", crate::plot::draw::tick(nu))),
+        Some(nu) => out.push(format!("budget: viscosity {} m²/s, given in [run.conditions]", crate::describe::tick(nu))),
         None => out.push("budget: no [run.conditions] viscosity: the diffusion term and the residual will be empty".into()),
     }
     if has_phase {
@@ -101,9 +101,9 @@ pub fn finish(
     } else {
         None
     };
-    let mut b = super::terms::finish(acc, run.conditions.viscosity, f.as_ref().map(|f| f.hz));
+    let mut b = terms::finish(acc, run.conditions.viscosity, f.as_ref().map(|f| f.hz));
     b.frequency = f;
-    b.reading = Some(super::reading::read(&b, run.derive.gamma_radius));
+    b.reading = Some(reading::read(&b, run.derive.gamma_radius));
     Ok(b)
 }
 
@@ -111,7 +111,7 @@ pub fn finish(
 pub fn table(b: &Budget) -> Table {
     let g = b.grid;
     let rows = b.slices.len() * g.len();
-    let col = |f: &dyn Fn(&super::SliceBudget, usize) -> f64| -> Values {
+    let col = |f: &dyn Fn(&SliceBudget, usize) -> f64| -> Values {
         let mut v = Vec::with_capacity(rows);
         for s in &b.slices {
             v.extend((0..g.len()).map(|k| f(s, k)));
