@@ -220,7 +220,7 @@ mod tests {
     /// 1) while the uncertainty used a renormalised cut kernel (0.35-0.51).
     #[test]
     fn smoothed_values_and_their_uncertainty_describe_one_operator_at_edges() {
-        use crate::derive::{derive, Params, VelocityNoise};
+        use crate::derive::{derive_with, Params, VelocityNoise, Workspace};
         use crate::field::{Field, Grid};
         use crate::stencil::smooth::Smoother;
         use crate::testutil::rng;
@@ -254,10 +254,11 @@ mod tests {
             };
             let (mut s1, mut s2, mut rep) = ([0.0; 6], [0.0; 6], [0.0; 6]);
             let reps = 1500;
+            let mut ws = Workspace::new();
             for _ in 0..reps {
                 let mut f = Field::from_fn(g, |_, _| (0.3, 0.1));
                 f.u.iter_mut().for_each(|x| *x += n.sample(&mut r));
-                let d = derive(&p, &f);
+                let d = derive_with(&mut ws, &p, &f, None, None);
                 for (k, &(j, i)) in nodes.iter().enumerate() {
                     s1[k] += d.u[[j, i]];
                     s2[k] += d.u[[j, i]].powi(2);
