@@ -36,7 +36,8 @@
 use ndarray::Array2;
 
 use super::gradient::Grad;
-use super::quantities::{clip0, linear, Node};
+use super::quantities::{clip0, debias, linear, Node};
+use super::workspace::Workspace;
 
 /// Frames the pilot uses at most.
 pub const PILOT_FRAMES: usize = 32;
@@ -204,6 +205,245 @@ pub struct Choice {
     /// Whether per-frame fields are written: only then is the
     /// instantaneous map applied (`derive_with`), and counted.
     pub fields: bool,
+}
+
+/// The tensor kept at each node of one frame, with the scheme map applied.
+pub(super) struct Kept {
+    pub grad: Grad,
+    /// The scheme at each node (`u8::MAX`: none).
+    pub map: Array2<u8>,
+    /// Nodes per scheme.
+    pub counts: Vec<usize>,
+    /// The instantaneous vorticity under the run's instantaneous map, with
+    /// its counts (`Derived::inst_omega`).
+    pub inst_omega: Option<([Array2<f64>; 2], Vec<usize>)>,
+}
+
+/// Keeps, per node, one of the candidates' tensors `grads`: the run's
+/// choice where there is one (`keep_map`), else this frame's least
+/// estimated error (`choose`).
+pub(super) fn keep(
+    ws: &mut Workspace,
+    grads: Vec<Grad>,
+    ok: &Array2<bool>,
+    choice: Option<&Choice>,
+) -> Kept {
+    let n = grads.len();
+    let counts = |map: &Array2<u8>| {
+        let mut c = vec![0usize; n];
+        for &m in map.iter() {
+            if (m as usize) < c.len() {
+                c[m as usize] += 1;
+            }
+        }
+        c
+    };
+    let choice = choice.filter(|_| n > 1);
+    let inst_omega = choice.filter(|c| c.fields && c.inst != c.mean).map(|c| {
+        let (om, map) = omega_from_map(&grads, ok, &c.inst);
+        (om, counts(&map))
+    });
+    let (grad, map) = match choice {
+        Some(c) => keep_map(ws, grads, ok, &c.mean),
+        None => choose(ws, grads, ok),
+    };
+    Kept {
+        counts: counts(&map),
+        grad,
+        map,
+        inst_omega,
+    }
+}
+
+/// Whether `g` has both vorticity components at a node.
+fn has_omega(g: &Grad, j: usize, i: usize) -> bool {
+    g.val[1][[j, i]].is_finite() && g.val[2][[j, i]].is_finite()
+}
+
+/// The scheme a fixed map gives at a node: the map's, where that
+/// candidate has a value there, else the first candidate that has one
+/// (`u8::MAX`: none).
+fn scheme_at(grads: &[Grad], map: &Array2<u8>, j: usize, i: usize) -> u8 {
+    let m = map[[j, i]] as usize;
+    if m < grads.len() && has_omega(&grads[m], j, i) {
+        return m as u8;
+    }
+    grads
+        .iter()
+        .position(|g| has_omega(g, j, i))
+        .map_or(u8::MAX, |k| k as u8)
+}
+
+/// The vorticity and its standard uncertainty under a fixed scheme map,
+/// with the map as applied.
+fn omega_from_map(
+    grads: &[Grad],
+    ok: &Array2<bool>,
+    map: &Array2<u8>,
+) -> ([Array2<f64>; 2], Array2<u8>) {
+    let sh = ok.dim();
+    let mut om = Array2::from_elem(sh, f64::NAN);
+    let mut unc = Array2::from_elem(sh, f64::NAN);
+    let mut used = Array2::from_elem(sh, u8::MAX);
+    for ((j, i), &o) in ok.indexed_iter() {
+        if !o {
+            continue;
+        }
+        let m = scheme_at(grads, map, j, i);
+        if m == u8::MAX {
+            continue;
+        }
+        let n = Node::load(&grads[m as usize], j, i);
+        let (val, var, _, _) = linear(&n, [0.0, -1.0, 1.0, 0.0]);
+        om[[j, i]] = val;
+        unc[[j, i]] = var.sqrt();
+        used[[j, i]] = m;
+    }
+    ([om, unc], used)
+}
+
+/// Keeps, per node, the scheme of a fixed map (`scheme_at`).
+///
+/// Truncation of a scheme other than the first candidate (the reference,
+/// least squares by default) is measured against the reference where the
+/// reference has a value and an estimate: `b = (T_c - T_ref) + b_ref`, the
+/// difference of the two schemes applied to the same data plus the
+/// reference's own estimate, with noise variance `var_c + var_ref +
+/// bvar_ref` (an upper bound: the two schemes' errors are positively
+/// correlated). The degree-5 fit (`gradient`) estimates a second-order
+/// scheme's leading error well but a fourth-order scheme's poorly where a
+/// core spans few nodes: on a Lamb-Oseen core of 1.5 pitches, 60 frames,
+/// the fit gave Richardson's mean truncation as 4 1/s where it was 25 1/s,
+/// the reference route 27 1/s.
+fn keep_map(
+    ws: &mut Workspace,
+    mut grads: Vec<Grad>,
+    ok: &Array2<bool>,
+    map: &Array2<u8>,
+) -> (Grad, Array2<u8>) {
+    let sh = ok.dim();
+    let mut used = Array2::from_elem(sh, u8::MAX);
+    for ((j, i), m) in used.indexed_iter_mut() {
+        if ok[[j, i]] {
+            *m = scheme_at(&grads, map, j, i);
+        }
+    }
+    if grads[0].has_truncation() {
+        let (reference, others) = grads.split_first_mut().expect("candidates");
+        for ((j, i), &m) in used.indexed_iter() {
+            if m == u8::MAX || m == 0 {
+                continue;
+            }
+            let g = &mut others[m as usize - 1];
+            for c in 0..4 {
+                let (tr, br) = (reference.val[c][[j, i]], reference.bias[c][[j, i]]);
+                let (vr, bvr) = (reference.var[c][[j, i]], reference.bvar[c][[j, i]]);
+                if tr.is_finite() && br.is_finite() && g.val[c][[j, i]].is_finite() {
+                    g.bias[c][[j, i]] = g.val[c][[j, i]] - tr + br;
+                    g.bvar[c][[j, i]] = g.var[c][[j, i]] + vr + bvr;
+                }
+            }
+        }
+    }
+    let out = merge_by_map(ws, &mut grads, &used);
+    (out, used)
+}
+
+/// The first gradient with every node the map gives to another candidate
+/// copied in from that candidate; recycles the others.
+fn merge_by_map(ws: &mut Workspace, grads: &mut Vec<Grad>, map: &Array2<u8>) -> Grad {
+    let mut out = grads.remove(0);
+    for ((j, i), &m) in map.indexed_iter() {
+        if m == u8::MAX || m == 0 {
+            continue;
+        }
+        let src = &grads[m as usize - 1];
+        for c in 0..4 {
+            out.val[c][[j, i]] = src.val[c][[j, i]];
+            out.var[c][[j, i]] = src.var[c][[j, i]];
+            if out.has_truncation() {
+                out.bias[c][[j, i]] = src.bias[c][[j, i]];
+                out.bvar[c][[j, i]] = src.bvar[c][[j, i]];
+            }
+        }
+    }
+    for g in grads.drain(..) {
+        g.recycle(ws);
+    }
+    out
+}
+
+/// The estimated total squared error of the vorticity of `g` at a node:
+/// propagated variance plus the squared debiased truncation (the latter
+/// taken as 0 where it could not be estimated).
+fn omega_error2(g: &Grad, j: usize, i: usize) -> f64 {
+    let n = Node::load(g, j, i);
+    let (_, var, b, vb) = linear(&n, [0.0, -1.0, 1.0, 0.0]);
+    let t = debias(b, vb);
+    var + if t.is_finite() { t * t } else { 0.0 }
+}
+
+/// Keeps, per node, the scheme with the least estimated error averaged over
+/// the node's 3 x 3 neighbourhood (a single scheme is kept whole).
+fn choose(ws: &mut Workspace, mut grads: Vec<Grad>, ok: &Array2<bool>) -> (Grad, Array2<u8>) {
+    let sh = ok.dim();
+    let has =
+        |g: &Grad, j: usize, i: usize| g.val[1][[j, i]].is_finite() && g.val[2][[j, i]].is_finite();
+    let mut map = Array2::from_elem(sh, u8::MAX);
+    if grads.len() == 1 {
+        let g = grads.pop().unwrap();
+        for ((j, i), m) in map.indexed_iter_mut() {
+            if ok[[j, i]] && has(&g, j, i) {
+                *m = 0;
+            }
+        }
+        return (g, map);
+    }
+    // Each scheme's estimated error, then its mean over the 3 x 3
+    // neighbourhood: choosing by a node's own noisy estimate alone would
+    // favour, node by node, whichever scheme's truncation happens to be
+    // underestimated there (a selection bias that erodes coverage).
+    let err: Vec<Array2<f64>> = grads
+        .iter()
+        .map(|g| {
+            Array2::from_shape_fn(sh, |(j, i)| {
+                if ok[[j, i]] && has(g, j, i) {
+                    omega_error2(g, j, i)
+                } else {
+                    f64::NAN
+                }
+            })
+        })
+        .collect();
+    let (ny, nx) = sh;
+    for ((j, i), m) in map.indexed_iter_mut() {
+        if !ok[[j, i]] {
+            continue;
+        }
+        let mut best = (f64::INFINITY, u8::MAX);
+        for (k, e) in err.iter().enumerate() {
+            if !e[[j, i]].is_finite() {
+                continue;
+            }
+            let (mut s, mut n) = (0.0, 0);
+            for jj in j.saturating_sub(1)..(j + 2).min(ny) {
+                for ii in i.saturating_sub(1)..(i + 2).min(nx) {
+                    let x = e[[jj, ii]];
+                    if x.is_finite() {
+                        s += x;
+                        n += 1;
+                    }
+                }
+            }
+            let mean = s / n as f64;
+            if mean < best.0 || best.1 == u8::MAX {
+                best = (mean, k as u8);
+            }
+        }
+        *m = best.1;
+    }
+    let out = merge_by_map(ws, &mut grads, &map);
+    (out, map)
 }
 
 #[cfg(test)]

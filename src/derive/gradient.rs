@@ -29,21 +29,14 @@
 //! fit needs carry values, the degree drops to 3; below that the estimate
 //! is NaN.
 
-use std::cell::RefCell;
-use std::collections::hash_map::DefaultHasher;
-use std::collections::HashMap;
-use std::hash::{Hash, Hasher};
-use std::rc::Rc;
-
-use super::cache::{cached, corr_fingerprint, fingerprint, pooled, Shared};
-
 use ndarray::Array2;
 
+use super::ops::{bias_stencil, window, OpSpec, Shared};
+use super::workspace::Workspace;
 use crate::stencil::correlation::Correlation;
 use crate::stencil::cut::{cut, Cut};
-use crate::stencil::derivatives::{chain, Axis, DiffScheme};
-use crate::stencil::lsq::PolyFit;
-use crate::stencil::{Stencil, Tap};
+use crate::stencil::derivatives::{Axis, DiffScheme};
+use crate::stencil::Stencil;
 
 /// One scheme's gradient tensor: `[a, b, c, d]` each.
 #[derive(Debug, Clone)]
@@ -64,6 +57,17 @@ impl Grad {
     /// Whether the truncation slots hold an estimate (else they are empty).
     pub fn has_truncation(&self) -> bool {
         !self.bias[0].is_empty()
+    }
+
+    /// Gives the tensor's buffers back to the workspace for later frames.
+    pub fn recycle(self, ws: &mut Workspace) {
+        ws.give_back(
+            self.val
+                .into_iter()
+                .chain(self.var)
+                .chain(self.bias)
+                .chain(self.bvar),
+        );
     }
 }
 
@@ -99,295 +103,6 @@ pub struct Inputs<'a> {
     pub dx: f64,
     pub dy: f64,
     pub truncation: bool,
-}
-
-/// A stencil flattened to linear offsets for a row-major `(ny, nx)` array.
-struct Flat {
-    off: Vec<isize>,
-    w: Vec<f64>,
-}
-
-impl Flat {
-    fn new(s: &Stencil, nx: usize) -> Flat {
-        Flat {
-            off: s
-                .taps
-                .iter()
-                .map(|t| t.dj as isize * nx as isize + t.di as isize)
-                .collect(),
-            w: s.taps.iter().map(|t| t.w).collect(),
-        }
-    }
-    /// `sum_t w_t a[k + off_t]`, in tap order.
-    #[inline(always)]
-    fn apply1(&self, a: &[f64], k: usize) -> f64 {
-        let mut s = 0.0;
-        for (o, w) in self.off.iter().zip(&self.w) {
-            s += w * a[(k as isize + o) as usize];
-        }
-        s
-    }
-    /// `apply1` to the u and v arrays (`nu`, `nv`: which are wanted; the
-    /// other comes back NaN), both in one loop when both are.
-    #[inline(always)]
-    fn apply_uv(&self, a: &[f64], b: &[f64], k: usize, nu: bool, nv: bool) -> (f64, f64) {
-        match (nu, nv) {
-            (true, true) => self.apply2(a, b, k),
-            (true, false) => (self.apply1(a, k), f64::NAN),
-            (false, true) => (f64::NAN, self.apply1(b, k)),
-            (false, false) => (f64::NAN, f64::NAN),
-        }
-    }
-    /// `sum_t w_t a[k + off_t]` for two arrays at once, in tap order.
-    #[inline(always)]
-    fn apply2(&self, a: &[f64], b: &[f64], k: usize) -> (f64, f64) {
-        let (mut s, mut t) = (0.0, 0.0);
-        for (o, w) in self.off.iter().zip(&self.w) {
-            let q = (k as isize + o) as usize;
-            s += w * a[q];
-            t += w * b[q];
-        }
-        (s, t)
-    }
-}
-
-/// `Correlation::variance_at` of one stencil at nodes where it fits, with
-/// the flat offsets and the pairs of taps that correlate precomputed: the
-/// same sums in the same order (so bit-identical), without re-evaluating the
-/// correlation model or checking bounds per tap.
-struct FlatVar {
-    off: Vec<isize>,
-    w: Vec<f64>,
-    /// `(a, b, rho_ab)` for every ordered pair with `rho_ab != 0`.
-    pairs: Vec<(usize, usize, f64)>,
-    gain: f64,
-    independent: bool,
-}
-
-impl FlatVar {
-    fn new(s: &Stencil, gain: f64, corr: &Correlation, nx: usize) -> FlatVar {
-        let mut pairs = Vec::new();
-        for (ia, a) in s.taps.iter().enumerate() {
-            for (ib, b) in s.taps.iter().enumerate() {
-                let r = corr.rho(a.dj - b.dj, a.di - b.di);
-                if r != 0.0 {
-                    pairs.push((ia, ib, r));
-                }
-            }
-        }
-        FlatVar {
-            off: Flat::new(s, nx).off,
-            w: s.taps.iter().map(|t| t.w).collect(),
-            pairs,
-            gain,
-            independent: corr.is_independent(),
-        }
-    }
-
-    /// The variance at flat index `k` (every tap inside the grid).
-    #[inline]
-    fn at(&self, sig: &[f64], k: usize) -> f64 {
-        let at = |o: isize| sig[(k as isize + o) as usize];
-        let s0 = sig[k];
-        if self.off.iter().all(|&o| at(o) == s0) {
-            return self.gain * s0 * s0;
-        }
-        if self.independent {
-            return self
-                .off
-                .iter()
-                .zip(&self.w)
-                .map(|(&o, &w)| {
-                    let e = w * at(o);
-                    e * e
-                })
-                .sum();
-        }
-        let mut v = 0.0;
-        for &(a, b, r) in &self.pairs {
-            let ea = self.w[a] * at(self.off[a]);
-            v += ea * self.w[b] * at(self.off[b]) * r;
-        }
-        v
-    }
-}
-
-/// One axis of one scheme, with everything precomputed for the interior.
-struct AxisOp {
-    axis: Axis,
-    h: f64,
-    chain: Vec<Stencil>,
-    /// `chain[k]` composed with the smoother (or `chain[k]` itself), with
-    /// its correlation gain.
-    comp: Vec<Shared>,
-    /// Half-widths of the box the composite depends on.
-    comp_box: Vec<(i32, i32)>,
-    /// Interior truncation stencil of `comp[k]` and its correlation gain.
-    bias: Vec<Option<Shared>>,
-    /// Cache fingerprints of `comp[k]` (slow paths).
-    fp_comp: Vec<u64>,
-    fp_bias: Vec<u64>,
-    /// Half-widths (along y, along x) of the truncation fit window.
-    fit_half: Vec<(i32, i32)>,
-    flat_d: Flat,
-    flat_b: Option<Flat>,
-    /// Variance of `comp[0]` and of `bias[0]` where every node has a value
-    /// (uncertainties not uniform).
-    var_d: FlatVar,
-    var_b: Option<FlatVar>,
-    /// Half-widths of the box that must be plain for the fast path.
-    box_r: (usize, usize),
-}
-
-const FIT_DEGREE: u32 = 5;
-const FIT_DEGREE_LOW: u32 = 3;
-
-/// Half-widths of the fit window for a stencil of the given reach.
-fn fit_half(reach: (usize, usize)) -> (i32, i32) {
-    let (ry, rx) = (reach.0 as i32, reach.1 as i32);
-    match (ry, rx) {
-        (0, r) => (0, (r + 2).max(4)),
-        (r, 0) => ((r + 2).max(4), 0),
-        (a, b) => ((a + 1).max(3), (b + 1).max(3)),
-    }
-}
-
-/// Monomials of total degree <= `deg` that a window of half-widths `half`
-/// can determine (no y terms in a one-row window).
-fn terms(deg: u32, half: (i32, i32)) -> Vec<(u32, u32)> {
-    crate::stencil::lsq::monomials(deg)
-        .into_iter()
-        .filter(|&(p, q)| (q == 0 || half.0 > 0) && (p == 0 || half.1 > 0))
-        .collect()
-}
-
-/// `T[p] - dp/daxis(0)` as a stencil of the data, for the fit on `offsets`.
-fn bias_stencil(
-    t: &Stencil,
-    axis: Axis,
-    h: f64,
-    offsets: Vec<(i32, i32)>,
-    half: (i32, i32),
-) -> Option<Stencil> {
-    let n = offsets.len();
-    for deg in [FIT_DEGREE, FIT_DEGREE_LOW] {
-        let tm = terms(deg, half);
-        if n < tm.len() + 2 {
-            continue;
-        }
-        if let Some(fit) = PolyFit::with_terms(offsets.clone(), tm) {
-            let (p, q) = match axis {
-                Axis::X => (1, 0),
-                Axis::Y => (0, 1),
-            };
-            let mut taps: Vec<Tap> = Vec::new();
-            for tap in &t.taps {
-                taps.extend(fit.value_at(tap.dj, tap.di).scaled(tap.w).taps);
-            }
-            let d = fit.coefficient(p, q)?.scaled(-1.0 / h);
-            taps.extend(d.taps);
-            return Some(Stencil::new(taps));
-        }
-    }
-    None
-}
-
-fn window(half: (i32, i32)) -> Vec<(i32, i32)> {
-    (-half.0..=half.0)
-        .flat_map(|j| (-half.1..=half.1).map(move |i| (j, i)))
-        .collect()
-}
-
-impl AxisOp {
-    fn new(scheme: DiffScheme, axis: Axis, inp: &Inputs, nx: usize) -> AxisOp {
-        let h = match axis {
-            Axis::X => inp.dx,
-            Axis::Y => inp.dy,
-        };
-        let chain = chain(scheme, axis, h);
-        let comp: Vec<Stencil> = chain
-            .iter()
-            .map(|d| inp.smoother.map_or_else(|| d.clone(), |s| d.after(s)))
-            .collect();
-        let sr = inp.smoother.map_or((0, 0), |s| s.reach());
-        let comp_box: Vec<(i32, i32)> = chain
-            .iter()
-            .map(|d| {
-                let r = d.reach();
-                ((r.0 + sr.0) as i32, (r.1 + sr.1) as i32)
-            })
-            .collect();
-        // The fit window covers the box the composite depends on, so the
-        // fit window's validity pattern determines the whole slow path.
-        let fit_half: Vec<(i32, i32)> = comp_box
-            .iter()
-            .map(|&(a, b)| fit_half((a as usize, b as usize)))
-            .collect();
-        let bias: Vec<Option<Shared>> = comp
-            .iter()
-            .zip(&fit_half)
-            .map(|(c, &fh)| {
-                if !inp.truncation {
-                    return None;
-                }
-                bias_stencil(c, axis, h, window(fh), fh).map(|b| {
-                    let g = inp.corr.gain(&b);
-                    Rc::new((b, g))
-                })
-            })
-            .collect();
-        // The cached entries hold correlation gains: the model is part of
-        // every key.
-        let ax = axis as u64;
-        let cf = corr_fingerprint(&inp.corr);
-        let sm_fp = inp.smoother.map_or(0, |s| fingerprint(0, s, &[]));
-        let fp_comp = chain
-            .iter()
-            .map(|d| fingerprint(1, d, &[ax, sm_fp, cf]))
-            .collect();
-        let fp_bias = comp
-            .iter()
-            .zip(&fit_half)
-            .map(|(c, fh)| fingerprint(2, c, &[ax, h.to_bits(), fh.0 as u64, fh.1 as u64, cf]))
-            .collect();
-        let flat_d = Flat::new(&chain[0], nx);
-        let flat_b = bias[0].as_ref().map(|b| Flat::new(&b.0, nx));
-        let mut r = chain[0].reach();
-        for s in [Some(&comp[0]), bias[0].as_ref().map(|b| &b.0)]
-            .into_iter()
-            .flatten()
-        {
-            let q = s.reach();
-            r = (r.0.max(q.0), r.1.max(q.1));
-        }
-        let comp: Vec<Shared> = comp
-            .into_iter()
-            .map(|c| {
-                let g = inp.corr.gain(&c);
-                Rc::new((c, g))
-            })
-            .collect();
-        let var_d = FlatVar::new(&comp[0].0, comp[0].1, &inp.corr, nx);
-        let var_b = bias[0]
-            .as_ref()
-            .map(|b| FlatVar::new(&b.0, b.1, &inp.corr, nx));
-        AxisOp {
-            axis,
-            h,
-            chain,
-            comp,
-            comp_box,
-            bias,
-            fp_comp,
-            fp_bias,
-            fit_half,
-            flat_d,
-            flat_b,
-            var_d,
-            var_b,
-            box_r: r,
-        }
-    }
 }
 
 /// True when the box of half-widths `r` around `(j, i)` lies inside the grid
@@ -444,50 +159,29 @@ fn pattern(ok: &Array2<bool>, j: usize, i: usize, r: (i32, i32)) -> Option<u128>
     Some(m)
 }
 
-thread_local! {
-    /// The axis operators made so far on this thread: building one fits a
-    /// polynomial per fallback stencil, which frames of one run share.
-    static OPS: RefCell<HashMap<u64, Rc<AxisOp>>> = RefCell::new(HashMap::new());
-}
-
-/// The (cached) operator of `scheme` along `axis` for these inputs.
-fn axis_op(scheme: DiffScheme, axis: Axis, inp: &Inputs, nx: usize) -> Rc<AxisOp> {
-    let mut h = DefaultHasher::new();
-    format!("{scheme:?}{axis:?}{:?}{}", inp.corr, inp.truncation).hash(&mut h);
-    (inp.dx.to_bits(), inp.dy.to_bits(), nx).hash(&mut h);
-    let sm = inp.smoother.map_or(0, |s| fingerprint(0, s, &[]));
-    sm.hash(&mut h);
-    let key = h.finish();
-    OPS.with(|c| {
-        if let Some(op) = c.borrow().get(&key) {
-            return op.clone();
-        }
-        let op = Rc::new(AxisOp::new(scheme, axis, inp, nx));
-        let mut c = c.borrow_mut();
-        if c.len() > 64 {
-            c.clear();
-        }
-        c.insert(key, op.clone());
-        op
-    })
-}
-
 /// The gradient tensor of `scheme` at every node.
-pub fn gradient(scheme: DiffScheme, inp: &Inputs) -> Grad {
+pub fn gradient(ws: &mut Workspace, scheme: DiffScheme, inp: &Inputs) -> Grad {
     let (ny, nx) = inp.ok.dim();
-    let nan = || pooled(ny * nx);
+    let mut nan = || ws.buffer(ny * nx);
     let mut val = [nan(), nan(), nan(), nan()];
     let mut var = [nan(), nan(), nan(), nan()];
     // Without a truncation estimate the truncation slots are empty (shape
     // (0, 0)): nothing reads them then (`Grad::has_truncation`).
-    let nb = || if inp.truncation { nan() } else { Vec::new() };
+    let mut nb = || if inp.truncation { nan() } else { Vec::new() };
     let mut bias_ = [nb(), nb(), nb(), nb()];
     let mut bvar = [nb(), nb(), nb(), nb()];
     let mut fallback = 0usize;
-    let ops = [
-        axis_op(scheme, Axis::X, inp, nx),
-        axis_op(scheme, Axis::Y, inp, nx),
-    ];
+    let spec = |axis| OpSpec {
+        scheme,
+        axis,
+        dx: inp.dx,
+        dy: inp.dy,
+        smoother: inp.smoother,
+        corr: inp.corr,
+        truncation: inp.truncation,
+        nx,
+    };
+    let ops = [ws.axis_op(&spec(Axis::X)), ws.axis_op(&spec(Axis::Y))];
     let ops = [&*ops[0], &*ops[1]];
     let us = inp.us.as_slice().expect("standard layout");
     let vs = inp.vs.as_slice().expect("standard layout");
@@ -569,7 +263,7 @@ pub fn gradient(scheme: DiffScheme, inp: &Inputs) -> Grad {
                     Some(op.comp[c].clone())
                 } else {
                     let key = pattern(inp.ok, j, i, op.comp_box[c]).map(|m| (op.fp_comp[c], m));
-                    cached(key, || effective_composite(d, inp, j, i), &inp.corr)
+                    ws.stencil(key, || effective_composite(d, inp, j, i), &inp.corr)
                 };
                 if let Some(cs) = &comp {
                     let (s, gain) = (&cs.0, cs.1);
@@ -596,7 +290,7 @@ pub fn gradient(scheme: DiffScheme, inp: &Inputs) -> Grad {
                                 .collect();
                             bias_stencil(comp_s, op.axis, op.h, offs, fh)
                         };
-                        cached(key, make, &inp.corr)
+                        ws.stencil(key, make, &inp.corr)
                     }
                 };
                 if let Some(bs) = &bias {

@@ -7,7 +7,7 @@ use ndarray::Array2;
 
 use super::flows::{cylinder, lamb_oseen, lamb_oseen_omega, linear, taylor_green};
 use super::*;
-use crate::field::{Grid, FILLED};
+use crate::field::{Grid, FILLED, MASKED};
 use crate::stencil::derivatives::{one_sided2, Axis};
 use crate::testutil::assert_close;
 
@@ -474,7 +474,7 @@ fn auto_prefers_wide_low_noise_stencils_in_calm_flow_and_narrow_ones_in_a_tight_
 #[test]
 fn edge_caches_do_not_mix_correlation_models() {
     // The operator and slow-path caches hold correlation gains and key on the
-    // model, so runs with other models on the same thread stay apart. At
+    // model, so runs with other models on the same workspace stay apart. At
     // the corner (one-sided 2nd order in both axes) with 50 % overlap,
     // u(omega)^2 = 2 sigma^2 sum_ab w_a w_b rho(d_ab) / h^2 with weights
     // (-1.5, 2, -0.5) and rho (1, 0.5, 0): 2 (6.5 - 2 * 1.5 * 2 * 0.5 - 2 * 2 * 0.5 * 0.5)
@@ -482,6 +482,7 @@ fn edge_caches_do_not_mix_correlation_models() {
     let h = 1e-3;
     let fld = Field::from_fn(grid(12, h), linear(1.0, 0.0, 0.0, 0.0));
     let s = 0.01;
+    let mut ws = Workspace::new();
     for (corr, want) in [
         (Correlation::Independent, 6.5),
         (Correlation::Window(0.5), 2.5),
@@ -492,7 +493,7 @@ fn edge_caches_do_not_mix_correlation_models() {
             correlation_from_data: false,
             ..params(LS, s)
         };
-        let d = derive(&p, &fld);
+        let d = derive_with(&mut ws, &p, &fld, None, None);
         let u = d.get("omega").unwrap().unc.as_ref().unwrap()[[0, 0]];
         assert_close(
             u,

@@ -9,6 +9,7 @@ use super::flows::{lamb_oseen, lamb_oseen_omega};
 use super::*;
 use crate::field::Grid;
 use crate::stencil::derivatives::{central, least_squares, Axis};
+use crate::stencil::Stencil;
 use crate::testutil::{assert_close, rng};
 
 type Rng = rand_chacha::ChaCha8Rng;
@@ -99,11 +100,18 @@ fn propagated_uncertainty_matches_monte_carlo_scatter() {
             truncation: false,
             ..Params::default()
         };
-        let truth = derive(&p, &clean);
+        let mut ws = Workspace::new();
+        let truth = derive_with(&mut ws, &p, &clean, None, None);
         let (mut s_in, mut s_co) = ([0.0; 2], [0.0; 2]);
         let reps = 2000;
         for _ in 0..reps {
-            let d = derive(&p, &noisy(&mut rng, &clean, sigma, overlap));
+            let d = derive_with(
+                &mut ws,
+                &p,
+                &noisy(&mut rng, &clean, sigma, overlap),
+                None,
+                None,
+            );
             for (k, name) in ["omega", "div"].into_iter().enumerate() {
                 let e = &d.get(name).unwrap().value - &truth.get(name).unwrap().value;
                 s_in[k] += interior.iter().map(|&ji| e[ji] * e[ji]).sum::<f64>();
@@ -202,8 +210,15 @@ fn coverage(scheme: Scheme, reps: usize, seed: u64) -> (f64, f64, Vec<usize>) {
     let mut rng = rng(seed);
     let (mut inside, mut total, mut se) = (0usize, 0usize, 0.0);
     let mut counts = vec![0usize; p.candidates.len()];
+    let mut ws = Workspace::new();
     for _ in 0..reps {
-        let d = derive(&p, &noisy(&mut rng, &clean, sigma, false));
+        let d = derive_with(
+            &mut ws,
+            &p,
+            &noisy(&mut rng, &clean, sigma, false),
+            None,
+            None,
+        );
         let om = d.get("omega").unwrap();
         let (u, b) = (om.unc.as_ref().unwrap(), om.bias.as_ref().unwrap());
         for j in 3..n - 3 {
@@ -292,6 +307,7 @@ fn smoothed_gradient_uncertainty_matches_monte_carlo_at_edges_and_inside() {
         let mut acc = [[0.0f64; 2]; 3];
         let reps = 4000;
         let mut pred = [[0.0f64; 2]; 3];
+        let mut ws = Workspace::new();
         for r in 0..reps {
             let e = noise(&mut rng, (n, n), 1.0, false);
             let es = smooth(&e);
@@ -315,6 +331,7 @@ fn smoothed_gradient_uncertainty_matches_monte_carlo_at_edges_and_inside() {
                 truncation: false,
             };
             let g = gradient(
+                &mut ws,
                 DiffScheme::LeastSquares {
                     window: 5,
                     order: 1,

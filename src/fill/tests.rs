@@ -162,7 +162,7 @@ fn holes_far_from_data_are_masked() {
 #[test]
 fn filled_vector_uncertainty_matches_monte_carlo() {
     use crate::derive::noise::tests::box_noise;
-    use crate::derive::{derive, Params as DParams};
+    use crate::derive::{derive_with, Params as DParams, Workspace};
     let g = grid(28, 28);
     let holes: Vec<(usize, usize)> = (4..24)
         .flat_map(|j| (4..24).map(move |i| (j, i)))
@@ -179,6 +179,7 @@ fn filled_vector_uncertainty_matches_monte_carlo() {
         let (mut e2, mut u2, mut n) = (0.0, 0.0, 0usize);
         let (mut o1, mut o2, mut ou2) = (vec![0.0; near.len()], vec![0.0; near.len()], 0.0);
         let reps = 300;
+        let mut ws = Workspace::new();
         for _ in 0..reps {
             let mut f = Field::from_fn(g, |_, _| (0.3, 0.1));
             f.u = &f.u + &(box_noise(&mut r, 28, 28, w) * 0.02);
@@ -187,13 +188,16 @@ fn filled_vector_uncertainty_matches_monte_carlo() {
                 hole(&mut f, j, i, REPLACED);
             }
             fill(&Params::default(), &mut f);
-            let d = derive(
+            let d = derive_with(
+                &mut ws,
                 &DParams {
                     quantities: vec![],
                     truncation: false,
                     ..DParams::default()
                 },
                 &f,
+                None,
+                None,
             );
             for &(j, i) in &holes {
                 e2 += (d.u[[j, i]] - 0.3).powi(2);

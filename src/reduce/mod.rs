@@ -236,18 +236,20 @@ fn read_on_grid_hashed(
     Ok((f, h))
 }
 
-/// Runs `per_chunk` over fixed chunks of `items` on `jobs` worker threads
-/// and folds the results with `merge` in chunk order, on the calling thread,
+/// Runs `per_chunk` over fixed chunks of `items` on `jobs` worker threads,
+/// each worker with its own state `W` (made once per worker, handed to
+/// every chunk it takes: the gradient engine, `derive::Workspace`), and
+/// folds the results with `merge` in chunk order, on the calling thread,
 /// as soon as each next result is there: workers never wait for a batch to
 /// finish, only when `2 × jobs` chunks are taken and not yet merged (the
 /// memory bound). The first error in chunk order is returned, as a
 /// sequential loop would return it: chunks are taken in order, so every
 /// chunk before a failing one has been taken and is reduced; after a
 /// failure no new chunk is started.
-fn fold_chunks<T: Sync, A: Send>(
+fn fold_chunks<T: Sync, A: Send, W: Default>(
     jobs: usize,
     items: &[T],
-    per_chunk: impl Fn(&[T]) -> Result<A> + Sync,
+    per_chunk: impl Fn(&mut W, &[T]) -> Result<A> + Sync,
     mut merge: impl FnMut(A),
 ) -> Result<()> {
     use std::collections::BTreeMap;
@@ -288,6 +290,7 @@ fn fold_chunks<T: Sync, A: Send>(
             let (taken, wake, chunks, per_chunk) = (&taken, &wake, &chunks, &per_chunk);
             s.spawn(move || {
                 let _guard = StopOnPanic(taken, wake);
+                let mut state = W::default();
                 loop {
                     let c = {
                         let mut t = taken.lock().unwrap_or_else(|e| e.into_inner());
@@ -300,7 +303,7 @@ fn fold_chunks<T: Sync, A: Send>(
                         t.next += 1;
                         t.next - 1
                     };
-                    let r = per_chunk(chunks[c]);
+                    let r = per_chunk(&mut state, chunks[c]);
                     let failed = r.is_err();
                     if tx.send((c, r)).is_err() || failed {
                         let mut t = taken.lock().unwrap_or_else(|e| e.into_inner());
@@ -364,7 +367,7 @@ pub fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
         fold_chunks(
             opts.jobs,
             &frames,
-            |chunk| {
+            |_: &mut (), chunk| {
                 let mut b = EnsembleBuilder::new(&run.validation, grid);
                 for (_, src) in chunk {
                     b.push(&read_on_grid(run, src, &on_grid)?);
@@ -406,7 +409,7 @@ pub fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
     fold_chunks(
         opts.jobs,
         mine,
-        |chunk| {
+        |ws: &mut derive::Workspace, chunk| {
             let mut out = RunState::empty(run, grid, &names, &templates);
             out.frames.reserve(chunk.len());
             for (meta, src) in chunk {
@@ -425,7 +428,7 @@ pub fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
                     p.push(&field);
                 }
                 let fcounts = fill::fill(&run.fill, &mut field);
-                let derived = derive::derive_with(&run.derive, &field, choice.as_ref(), None);
+                let derived = derive::derive_with(ws, &run.derive, &field, choice.as_ref(), None);
                 out.add_scheme_counts(&derived.scheme_names, &derived.scheme_counts);
                 if let Some((_, counts)) = &derived.inst_omega {
                     let names: Vec<String> = derived
@@ -533,6 +536,7 @@ fn scheme_choice(
     }
     let grid = on_grid.0;
     let mut pilot = derive::choice::Pilot::new(run.derive.candidates.len(), grid.shape());
+    let mut ws = derive::Workspace::new();
     for k in derive::choice::pilot_indices(frames.len()) {
         let mut field = read_on_grid(run, &frames[k].1, on_grid)?;
         let vcounts = validate::validate_frame(&run.validation, &mut field, ens);
@@ -540,7 +544,7 @@ fn scheme_choice(
             continue;
         }
         fill::fill(&run.fill, &mut field);
-        derive::derive_with(&run.derive, &field, None, Some(&mut pilot));
+        derive::derive_with(&mut ws, &run.derive, &field, None, Some(&mut pilot));
     }
     Ok(Some(pilot.finish(frames.len())))
 }
