@@ -11,6 +11,10 @@
 //! - `track`: cores matched from slice to slice by predicted position.
 //! - `budget`: the circulation budget of each core (issue 13) from the
 //!   vorticity transport budget's per-node terms.
+//! - `swirl`: the second core criterion, a swirling strength significant
+//!   at the run's coverage.
+//! - `frames`: the cores of every frame as part of a run's state;
+//!   `codec`: their bytes for shards.
 //! - `table`: the output tables. The glue a run calls is
 //!   `reduce::vortices`, the figures `plot::vortices`, the report's words
 //!   `report::vortices`.
@@ -19,7 +23,7 @@
 //! budget's terms (`budget`), Gamma1/Gamma2 themselves
 //! (`derive::quantities::gamma`), files (`io`).
 //!
-//! Identification (Graftieaux, Michard & Grosjean 2001, Meas. Sci. Technol.
+//! Identification (default; Graftieaux, Michard & Grosjean 2001, Meas. Sci. Technol.
 //! 12:1422): a core is a connected region where `|Gamma2| > 2/pi` (the
 //! threshold at which rotation dominates strain in the disc around a node),
 //! all nodes of one sign, at least `min_nodes` nodes, every node with a
