@@ -478,4 +478,6 @@ mod tests_gridded;
 #[cfg(test)]
 mod tests_mat;
 #[cfg(test)]
+mod tests_parquet;
+#[cfg(test)]
 mod tests_units;
