@@ -78,12 +78,10 @@ pub fn welch(
 }
 
 /// Welch's PSD over the segments of `x` that hold no NaN (a series with
-/// holes: the segments that touch one are left out). The segments kept
-/// form runs of consecutive segments; segments of different runs are at
-/// least two steps apart, which for an overlap up to 50 % means they share
-/// no sample, so the equivalent degrees of freedom are the sum of each
-/// run's (`dof_welch`). With no hole this is `welch` exactly. An error when
-/// no segment is whole.
+/// holes: the segments that touch one are left out), with the equivalent
+/// degrees of freedom of the segments kept (`dof_segments`, which for
+/// consecutive segments is `dof_welch`). With no hole this is `welch`
+/// exactly. An error when no segment is whole.
 pub fn welch_gapped(
     name: &str,
     x: &[f64],
@@ -152,16 +150,8 @@ pub fn welch_gapped(
         }
     }
     let psd: Vec<f64> = acc.iter().map(|a| a / k as f64).collect();
-    let mut dof = 0.0;
-    let mut run = 0;
-    for kept in whole.iter().copied().chain([false]) {
-        if kept {
-            run += 1;
-        } else if run > 0 {
-            dof += dof_welch(&w, step, run);
-            run = 0;
-        }
-    }
+    let starts: Vec<usize> = (0..k_all).filter(|&s| whole[s]).map(|s| s * step).collect();
+    let dof = dof_segments(&w, &starts);
     let chi = ChiSquared::new(dof).map_err(|e| Error::data(format!("{name}: {e}")))?;
     let (hi_q, lo_q) = (
         chi.inverse_cdf(0.5 + 0.5 * coverage),
@@ -198,6 +188,38 @@ pub fn dof_welch(w: &[f64], step: usize, k: usize) -> f64 {
         sum += (1.0 - m as f64 / k as f64) * rho * rho;
     }
     2.0 * k as f64 / (1.0 + 2.0 * sum)
+}
+
+/// Equivalent degrees of freedom of the equal-weight mean of the
+/// periodograms of segments of window `w` starting at `starts` (samples):
+/// `2 K² / Σ_i Σ_j ρ(s_i − s_j)²`, ρ the window's overlap correlation at
+/// that shift (0 beyond the window; `starts` ascending). The variance of a mean of K
+/// periodograms correlated as ρ² (Welch 1967, from memory, as in the
+/// module doc); for K consecutive segments it is `dof_welch`'s formula.
+pub fn dof_segments(w: &[f64], starts: &[usize]) -> f64 {
+    let e: f64 = w.iter().map(|v| v * v).sum();
+    let mut memo: std::collections::HashMap<usize, f64> = Default::default();
+    let mut rho = |shift: usize| -> f64 {
+        *memo.entry(shift).or_insert_with(|| {
+            w[..w.len() - shift]
+                .iter()
+                .zip(&w[shift..])
+                .map(|(a, b)| a * b)
+                .sum::<f64>()
+                / e
+        })
+    };
+    // starts ascend; pairs a window or more apart do not correlate
+    let mut sum = 0.0;
+    for (i, &a) in starts.iter().enumerate() {
+        sum += 1.0;
+        for &b in starts[i + 1..].iter().take_while(|&&b| b - a < w.len()) {
+            let r = rho(b - a);
+            sum += 2.0 * r * r;
+        }
+    }
+    let k = starts.len() as f64;
+    2.0 * k * k / sum
 }
 
 /// The largest bin above 0 Hz of `psd` refined by a parabola through the
@@ -393,13 +415,22 @@ mod tests {
         );
         // a hole in the middle splits the segments into two runs: 15
         // segments of 64 by 32 in 512 samples; sample 256 spoils segments
-        // 7 and 8 (starting at 224 and 256), leaving runs of 7 and 6
+        // 7 and 8 (starting at 224 and 256), leaving runs of 7 and 6 that
+        // share no sample. The equal-weight mean of 13 periodograms has
+        // variance (S_7 + S_6) / 13², S_K = 2 K² / dof_welch(K) the summed
+        // correlations of a run, so dof = 2 · 13² / (S_7 + S_6).
         let mut mid = x.clone();
         mid[256] = f64::NAN;
         let c = welch_gapped("x", &mid, 10.0, 64, 32, 0.95).unwrap();
         assert_eq!(c.segments, 13);
         let w = hann(64);
-        assert_eq!(c.dof, dof_welch(&w, 32, 7) + dof_welch(&w, 32, 6));
+        let s_of = |k: usize| 2.0 * (k * k) as f64 / dof_welch(&w, 32, k);
+        let want = 2.0 * 169.0 / (s_of(7) + s_of(6));
+        assert!((c.dof - want).abs() < 1e-12 * want, "{} {want}", c.dof);
+        // consecutive segments: the general rule is dof_welch's
+        let starts: Vec<usize> = (0..7).map(|s| 32 * s).collect();
+        let (a, b) = (dof_segments(&w, &starts), dof_welch(&w, 32, 7));
+        assert!((a - b).abs() < 1e-12 * b, "{a} {b}");
         assert!(welch("x", &mid, 10.0, 64, 32, 0.95).is_err());
         let none = vec![f64::NAN; 100];
         assert!(welch_gapped("x", &none, 10.0, 64, 32, 0.95).is_err());
