@@ -130,6 +130,16 @@ pub struct Partial {
     pub fingerprints: Vec<Fingerprint>,
 }
 
+/// The state in an optional file of a partial folder: `None` when the file
+/// is absent (the stage was off), its parse otherwise; errors name the file.
+fn optional<T>(p: &Path, parse: impl FnOnce(&[u8]) -> Result<T>) -> Result<Option<T>> {
+    match std::fs::read(p) {
+        Ok(b) => Ok(Some(parse(&b).with_path(p)?)),
+        Err(e) if e.kind() == std::io::ErrorKind::NotFound => Ok(None),
+        Err(e) => Err(Error::io(p, e)),
+    }
+}
+
 /// Writes the partial result of one shard into `dir` (a fresh folder).
 pub fn write(dir: &Path, plan: &Plan, shard: Shard, runs: &[Reduced]) -> Result<()> {
     use sha2::{Digest, Sha256};
@@ -257,24 +267,13 @@ pub fn read(dir: &Path) -> Result<Partial> {
             }
             false => None,
         };
-        let mp = dir.join(&r.id).join(MODES_FILE);
-        let modes = match std::fs::read(&mp) {
-            Ok(b) => Some(ModeSketch::from_bytes(&b).with_path(&mp)?),
-            Err(e) if e.kind() == std::io::ErrorKind::NotFound => None,
-            Err(e) => return Err(Error::io(&mp, e)),
-        };
-        let cp = dir.join(&r.id).join(CORR_FILE);
-        let corr = match std::fs::read(&cp) {
-            Ok(b) => Some(crate::scales::CorrAcc::from_bytes(&b).with_path(&cp)?),
-            Err(e) if e.kind() == std::io::ErrorKind::NotFound => None,
-            Err(e) => return Err(Error::io(&cp, e)),
-        };
-        let fp = dir.join(&r.id).join(FRAME_CORES_FILE);
-        let frame_cores = match std::fs::read(&fp) {
-            Ok(b) => Some(crate::vortex::frames::FrameCores::from_bytes(&b).with_path(&fp)?),
-            Err(e) if e.kind() == std::io::ErrorKind::NotFound => None,
-            Err(e) => return Err(Error::io(&fp, e)),
-        };
+        let rd = dir.join(&r.id);
+        let modes = optional(&rd.join(MODES_FILE), ModeSketch::from_bytes)?;
+        let corr = optional(&rd.join(CORR_FILE), crate::scales::CorrAcc::from_bytes)?;
+        let frame_cores = optional(
+            &rd.join(FRAME_CORES_FILE),
+            crate::vortex::frames::FrameCores::from_bytes,
+        )?;
         runs.push(Reduced {
             id: r.id,
             grid: Grid {

@@ -9,16 +9,16 @@ const U: f64 = 0.15;
 const UC: f64 = 0.85 * U;
 const F: f64 = 0.21 * U / 0.01;
 
-#[test]
-fn wake_cores_are_tracked_at_the_street_speed_and_their_budget_is_written() {
-    let w = Work::new();
-    w.ok(&[
+/// synth's street at U into `c/` on a 1 mm grid of 81 x 41 nodes (20 to
+/// 100 mm downstream), seed 3, no outliers or gaps, with `frames` frames.
+fn street(w: &Work, frames: &str, extra: &[&str]) {
+    let mut args = vec![
         "synth",
         "wake",
         "--out",
         "c",
         "--frames",
-        "240",
+        frames,
         "--seed",
         "3",
         "--speeds",
@@ -33,7 +33,15 @@ fn wake_cores_are_tracked_at_the_street_speed_and_their_budget_is_written() {
         "0",
         "--gaps",
         "0",
-    ]);
+    ];
+    args.extend_from_slice(extra);
+    w.ok(&args);
+}
+
+#[test]
+fn wake_cores_are_tracked_at_the_street_speed_and_their_budget_is_written() {
+    let w = Work::new();
+    street(&w, "240", &[]);
     let p = w.path("c/pipeline.toml");
     let text = std::fs::read_to_string(&p).unwrap();
     let text = format!(
@@ -131,30 +139,7 @@ fn wake_cores_are_tracked_at_the_street_speed_and_their_budget_is_written() {
 #[test]
 fn frame_cores_of_a_time_resolved_street_are_tracked_at_its_speed() {
     let w = Work::new();
-    w.ok(&[
-        "synth",
-        "wake",
-        "--out",
-        "c",
-        "--frames",
-        "80",
-        "--seed",
-        "3",
-        "--speeds",
-        "0.15",
-        "--nx",
-        "81",
-        "--ny",
-        "41",
-        "--pitch-mm",
-        "1",
-        "--outliers",
-        "0",
-        "--gaps",
-        "0",
-        "--frame-rate",
-        "255",
-    ]);
+    street(&w, "80", &["--frame-rate", "255"]);
     let text = std::fs::read_to_string(w.path("c/pipeline.toml")).unwrap();
     for criterion in ["gamma2", "swirl"] {
         w.write(
