@@ -94,6 +94,22 @@ fn vector_every(p: &Params, nt: &NodeTable) -> usize {
         .unwrap_or_else(|| (nt.grid.nx.max(nt.grid.ny) / 24).max(1))
 }
 
+/// "every node", "every 2nd node", "every 3rd node", "every 11th node"...
+pub(super) fn every_words(n: usize) -> String {
+    let suffix = match (n % 10, n % 100) {
+        (_, 11..=13) => "th",
+        (1, _) => "st",
+        (2, _) => "nd",
+        (3, _) => "rd",
+        _ => "th",
+    };
+    if n <= 1 {
+        "every ".to_string()
+    } else {
+        format!("every {n}{suffix} ")
+    }
+}
+
 struct Ctx<'a> {
     p: &'a Params,
     run: &'a RunResult,
@@ -199,8 +215,9 @@ pub fn run_figures(p: &Params, run: &RunResult, out: &Path) -> Result<Vec<Figure
             true,
         ) {
             let cap = format!(
-                "Ensemble-mean out-of-plane vorticity; arrows show the mean velocity at every {every}th node \
+                "Ensemble-mean out-of-plane vorticity; arrows show the mean velocity at {}node \
                  (longest arrow = largest speed). Colour limits ±{} (99.8th percentile of |ω| unless set).{nondim_note}",
+                every_words(every),
                 sig(lim)
             );
             c.single(panel, format!("ω {wu}"), "vorticity", "Mean vorticity", cap)?;

@@ -154,3 +154,28 @@ fn nondimensional_units_against_hand_computed_factors() {
         "nondimensional labels missing"
     );
 }
+
+#[test]
+fn the_vector_caption_counts_in_english_ordinals() {
+    use super::figs::every_words;
+    let words: Vec<String> = [1, 2, 3, 4, 11, 12, 13, 21, 22, 102, 111]
+        .iter()
+        .map(|&n| every_words(n))
+        .collect();
+    assert_eq!(
+        words,
+        [
+            "every ",
+            "every 2nd ",
+            "every 3rd ",
+            "every 4th ",
+            "every 11th ",
+            "every 12th ",
+            "every 13th ",
+            "every 21st ",
+            "every 22nd ",
+            "every 102nd ",
+            "every 111th "
+        ]
+    );
+}

@@ -215,7 +215,7 @@ pub(super) fn section(out: &mut String, r: &RunResult) {
             out,
             "Spectra",
             &spectra_words(sp),
-            &format!("Uncertainty of a dominant frequency: half a bin's width as a uniform distribution (df/√12). Tables: <a href=\"{dir}/spectral-peaks.csv\">spectral-peaks.csv</a>, <a href=\"{dir}/spectra.csv\">spectra.csv</a>."),
+            &format!("Uncertainty of a dominant frequency: the delete-one jackknife over the averaged segments, combined with the peak interpolation's error under the Hann window (one bin's uniform share where only one segment was averaged); method in docs/modes.md. Tables: <a href=\"{dir}/spectral-peaks.csv\">spectral-peaks.csv</a>, <a href=\"{dir}/spectra.csv\">spectra.csv</a>."),
         );
     }
     if let Some(sc) = &st.scales {
