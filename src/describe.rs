@@ -30,7 +30,7 @@ pub fn num(x: f64, digits: usize) -> String {
 }
 
 /// A fraction as a percentage: 0.95 → "95 %".
-pub fn percent(f: f64) -> String {
+pub(crate) fn percent(f: f64) -> String {
     format!("{} %", num(100.0 * f, 3))
 }
 
@@ -45,13 +45,13 @@ fn trim(s: &str) -> &str {
 
 /// A tick label: at most six decimals, trailing zeros dropped; scientific
 /// notation outside 1e-3..1e5.
-pub fn tick(v: f64) -> String {
+pub(crate) fn tick(v: f64) -> String {
     tick_in(v, 0.0)
 }
 
 /// `tick` on an axis spanning `span`: values below 1e-9·span print as 0
 /// (the floating-point residue of a tick at zero).
-pub fn tick_in(v: f64, span: f64) -> String {
+pub(crate) fn tick_in(v: f64, span: f64) -> String {
     if v == 0.0 || !v.is_finite() || v.abs() < 1e-9 * span.abs() {
         return "0".into();
     }

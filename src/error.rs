@@ -36,7 +36,7 @@ pub struct Error {
 pub type Result<T, E = Error> = std::result::Result<T, E>;
 
 impl Error {
-    pub fn new(kind: ErrorKind, message: impl Into<String>) -> Self {
+    pub(crate) fn new(kind: ErrorKind, message: impl Into<String>) -> Self {
         Error {
             kind,
             message: message.into(),
@@ -65,14 +65,14 @@ impl Error {
         self
     }
     /// Adds the 1-based line number, unless one is already named.
-    pub fn with_line(mut self, line: usize) -> Self {
+    pub(crate) fn with_line(mut self, line: usize) -> Self {
         if self.line.is_none() {
             self.line = Some(line);
         }
         self
     }
     /// Adds the column (header name), unless one is already named.
-    pub fn with_column(mut self, column: impl Into<String>) -> Self {
+    pub(crate) fn with_column(mut self, column: impl Into<String>) -> Self {
         if self.column.is_none() {
             self.column = Some(column.into());
         }
@@ -108,7 +108,7 @@ impl fmt::Display for Error {
 impl std::error::Error for Error {}
 
 /// Adds a path to any error on its way up.
-pub trait WithPath<T> {
+pub(crate) trait WithPath<T> {
     fn with_path(self, path: &Path) -> Result<T>;
 }
 

@@ -59,7 +59,7 @@ pub struct RunOptions<'a> {
 
 impl RunOptions<'_> {
     /// The worker thread count, 0 resolved to the machine's cores.
-    pub fn threads(&self) -> usize {
+    pub(crate) fn threads(&self) -> usize {
         if self.jobs == 0 {
             std::thread::available_parallelism().map_or(1, |n| n.get())
         } else {

@@ -40,6 +40,7 @@
 //! # Ok::<(), curlew::Error>(())
 //! ```
 
+
 pub mod budget;
 pub mod compare;
 pub mod coverage;

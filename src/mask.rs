@@ -38,7 +38,7 @@ use ndarray::Array2;
 use serde::{Deserialize, Serialize};
 
 use crate::error::{Error, Result};
-pub use crate::field::{mask_node, node_of};
+pub(crate) use crate::field::{mask_node, node_of};
 use crate::field::{Field, Grid};
 use crate::io::Orientation;
 
@@ -75,13 +75,13 @@ pub struct MaskSpec {
 }
 
 /// Which nodes of a grid are masked (`(ny, nx)`, true = masked).
-pub type NodeMask = Array2<bool>;
+pub(crate) type NodeMask = Array2<bool>;
 
 impl MaskSpec {
     /// Resolves the campaign's and the run's mask. Coordinates are taken in
     /// the input's unit (`length_scale` metres each) and orientation; mask
     /// files resolve against `base_dir`. Errors name the key or the file.
-    pub fn resolve(
+    pub(crate) fn resolve(
         campaign: Option<&RawMask>,
         run: Option<&RawMask>,
         length_scale: f64,
@@ -202,7 +202,7 @@ impl MaskSpec {
 
 /// Sets every masked node of `field` to status `MASKED` with NaN values
 /// and uncertainties.
-pub fn apply(mask: &NodeMask, field: &mut Field) {
+pub(crate) fn apply(mask: &NodeMask, field: &mut Field) {
     for ((j, i), &m) in mask.indexed_iter() {
         if m {
             mask_node(field, j, i);
@@ -217,7 +217,7 @@ pub fn apply(mask: &NodeMask, field: &mut Field) {
 /// filled in any of its frames was masked in all of them. A node masked
 /// in some frames only (a moving body) keeps its statistics of the others
 /// and is drawn as data.
-pub fn figure_mask(
+pub(crate) fn figure_mask(
     geometry: Option<&NodeMask>,
     ensemble: &crate::field::NodeTable,
 ) -> Option<Vec<bool>> {

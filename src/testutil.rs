@@ -13,7 +13,7 @@ use std::path::PathBuf;
 
 /// Asserts `|a - b| <= abs + rel * |b|`, naming the values.
 #[track_caller]
-pub fn assert_close(a: f64, b: f64, abs: f64, rel: f64, what: &str) {
+pub(crate) fn assert_close(a: f64, b: f64, abs: f64, rel: f64, what: &str) {
     let tol = abs + rel * b.abs();
     assert!(
         (a - b).abs() <= tol || (a.is_nan() && b.is_nan()),
@@ -23,14 +23,14 @@ pub fn assert_close(a: f64, b: f64, abs: f64, rel: f64, what: &str) {
 }
 
 /// A seeded generator; the seed is printed so a failure can be replayed.
-pub fn rng(seed: u64) -> rand_chacha::ChaCha8Rng {
+pub(crate) fn rng(seed: u64) -> rand_chacha::ChaCha8Rng {
     use rand::SeedableRng;
     eprintln!("test rng seed: {seed}");
     rand_chacha::ChaCha8Rng::seed_from_u64(seed)
 }
 
 /// The path of a committed reference file, `tests/reference/<name>`.
-pub fn reference_path(name: &str) -> PathBuf {
+pub(crate) fn reference_path(name: &str) -> PathBuf {
     PathBuf::from(env!("CARGO_MANIFEST_DIR"))
         .join("tests")
         .join("reference")
@@ -41,7 +41,7 @@ pub fn reference_path(name: &str) -> PathBuf {
 /// checked to carry the header that says which library, version and call
 /// made them.
 #[track_caller]
-pub fn reference(topic: &str) -> Value {
+pub(crate) fn reference(topic: &str) -> Value {
     let path = reference_path(&format!("{topic}.json"));
     let text = std::fs::read_to_string(&path)
         .unwrap_or_else(|e| panic!("{}: {e} (run tests/reference/{topic}.py)", path.display()));
@@ -59,7 +59,7 @@ pub fn reference(topic: &str) -> Value {
 
 /// A JSON array of numbers as floats (panics naming the value otherwise).
 #[track_caller]
-pub fn floats(v: &Value) -> Vec<f64> {
+pub(crate) fn floats(v: &Value) -> Vec<f64> {
     v.as_array()
         .unwrap_or_else(|| panic!("not an array: {v}"))
         .iter()
@@ -69,7 +69,7 @@ pub fn floats(v: &Value) -> Vec<f64> {
 
 /// A JSON number as a float (panics naming the value otherwise).
 #[track_caller]
-pub fn float(v: &Value) -> f64 {
+pub(crate) fn float(v: &Value) -> f64 {
     v.as_f64().unwrap_or_else(|| panic!("not a number: {v}"))
 }
 

@@ -31,14 +31,14 @@ use crate::stencil::Stencil;
 
 /// Sums of one phase bin, node-major (`mean[k * NF + f]`, `cm[k * NT + t]`).
 #[derive(Debug, Clone, PartialEq)]
-pub struct BinSums {
+pub(crate) struct BinSums {
     pub n: Vec<f64>,
     pub mean: Vec<f64>,
     pub cm: Vec<f64>,
 }
 
 impl BinSums {
-    pub fn new(nodes: usize) -> Self {
+    pub(crate) fn new(nodes: usize) -> Self {
         BinSums {
             n: vec![0.0; nodes],
             mean: vec![0.0; nodes * NF],
@@ -48,7 +48,7 @@ impl BinSums {
 
     /// Adds one frame's fields (field-major, as `Ops::eval` gives them).
     #[allow(clippy::needless_range_loop)] // the packed triangle runs over (a, b)
-    pub fn add(&mut self, fields: &[f64]) {
+    pub(crate) fn add(&mut self, fields: &[f64]) {
         let nodes = self.n.len();
         let mut x = [0.0; NF];
         let mut d = [0.0; NF];
@@ -79,7 +79,7 @@ impl BinSums {
 
     /// Merges the sums of later frames.
     #[allow(clippy::needless_range_loop)]
-    pub fn merge(&mut self, o: &BinSums) {
+    pub(crate) fn merge(&mut self, o: &BinSums) {
         for k in 0..self.n.len() {
             let (na, nb) = (self.n[k], o.n[k]);
             if nb == 0.0 {
@@ -107,7 +107,7 @@ impl BinSums {
 /// One kept frame of a time-resolved run: its fields and the noise
 /// variances of u and v per node.
 #[derive(Debug, Clone, PartialEq)]
-pub struct Slice {
+pub(crate) struct Slice {
     pub index: u64,
     pub time_s: f64,
     /// Field-major, as `Ops::eval` gives them.
@@ -118,7 +118,7 @@ pub struct Slice {
 
 /// Where a frame lies in the run.
 #[derive(Debug, Clone, Copy, PartialEq)]
-pub struct Frame {
+pub(crate) struct Frame {
     /// Run-wide frame index.
     pub index: u64,
     pub time_s: f64,
@@ -127,7 +127,7 @@ pub struct Frame {
 
 /// The budget's accumulator for one run (or chunk, or shard).
 #[derive(Debug, Clone)]
-pub struct BudgetAcc {
+pub(crate) struct BudgetAcc {
     pub grid: Grid,
     pub params: super::Params,
     /// The phase binning and sample rule (the statistics' own).
@@ -144,7 +144,7 @@ pub struct BudgetAcc {
 }
 
 impl BudgetAcc {
-    pub fn new(
+    pub(crate) fn new(
         p: &super::Params,
         sp: &stats::Params,
         grid: Grid,
@@ -164,7 +164,7 @@ impl BudgetAcc {
 
     /// Adds one (not rejected) frame: its samples (the statistics' rule)
     /// are the velocities the statistics use (`derived.u`, `derived.v`).
-    pub fn push(&mut self, meta: &FrameMeta, field: &Field, d: &Derived) {
+    pub(crate) fn push(&mut self, meta: &FrameMeta, field: &Field, d: &Derived) {
         let filled = self
             .params
             .include_filled
@@ -197,7 +197,7 @@ impl BudgetAcc {
 
     /// Adds one frame given its velocities (NaN where no sample) and their
     /// noise variances.
-    pub fn push_fields(
+    pub(crate) fn push_fields(
         &mut self,
         frame: &Frame,
         u: &ndarray::Array2<f64>,
@@ -230,7 +230,7 @@ impl BudgetAcc {
     }
 
     /// Merges the accumulator of the frames that follow.
-    pub fn merge(&mut self, later: BudgetAcc) {
+    pub(crate) fn merge(&mut self, later: BudgetAcc) {
         for (a, b) in self.bins.iter_mut().zip(later.bins) {
             match (a.as_mut(), b) {
                 (Some(a), Some(b)) => a.merge(&b),

@@ -29,8 +29,8 @@ use crate::field::Grid;
 use crate::stats;
 use crate::stencil::{Stencil, Tap};
 
-pub const MAGIC: &[u8; 8] = b"CURLEWVB";
-pub const VERSION: u32 = 1;
+pub(crate) const MAGIC: &[u8; 8] = b"CURLEWVB";
+pub(crate) const VERSION: u32 = 1;
 
 #[derive(serde::Serialize, serde::Deserialize)]
 struct Header {
@@ -50,7 +50,7 @@ fn bad(what: impl Into<String>) -> Error {
 }
 
 impl BudgetAcc {
-    pub fn to_bytes(&self) -> Vec<u8> {
+    pub(crate) fn to_bytes(&self) -> Vec<u8> {
         let h = Header {
             params: self.params.clone(),
             stats: self.stats.clone(),
@@ -93,7 +93,7 @@ impl BudgetAcc {
     }
 
     /// Reads `to_bytes`.
-    pub fn from_bytes(b: &[u8]) -> Result<BudgetAcc> {
+    pub(crate) fn from_bytes(b: &[u8]) -> Result<BudgetAcc> {
         if b.len() < 8 || &b[..8] != MAGIC {
             return Err(bad("not a curlew partial-budget file (wrong magic bytes)"));
         }

@@ -46,7 +46,7 @@ pub struct Frequency {
 
 impl Frequency {
     /// Plain words: "3.15 Hz, fitted to the phases and times of 100 frames".
-    pub fn describe(&self) -> String {
+    pub(crate) fn describe(&self) -> String {
         let what = match &self.source {
             FreqSource::Given => "given in [run.conditions]".to_string(),
             FreqSource::Table {
@@ -68,7 +68,7 @@ impl Frequency {
 /// The frequency of a run: `given`, else the frame table's column, else a
 /// fit to the (time, phase) pairs `tp` of its frames. None when no source
 /// gives one.
-pub fn resolve(
+pub(crate) fn resolve(
     given: Option<f64>,
     table: Option<&FrameTable>,
     tp: &[(f64, f64)],
@@ -93,7 +93,7 @@ pub fn resolve(
 }
 
 /// The least-squares fit to `tp` (finite pairs only).
-pub fn fitted(tp: &[(f64, f64)]) -> Option<Frequency> {
+pub(crate) fn fitted(tp: &[(f64, f64)]) -> Option<Frequency> {
     let mut v: Vec<(f64, f64)> = tp
         .iter()
         .copied()
@@ -108,7 +108,7 @@ pub fn fitted(tp: &[(f64, f64)]) -> Option<Frequency> {
 
 /// A warning when a frequency that was not fitted disagrees with the fit
 /// to the phases and times by more than 1 %.
-pub fn disagreement(f: &Frequency, tp: &[(f64, f64)]) -> Option<String> {
+pub(crate) fn disagreement(f: &Frequency, tp: &[(f64, f64)]) -> Option<String> {
     if matches!(f.source, FreqSource::PhasesAndTimes { .. }) {
         return None;
     }

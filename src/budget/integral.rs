@@ -61,7 +61,7 @@ pub struct Noise {
 /// A linear functional `sum_j wu_j u_j + wv_j v_j` of the velocities of one
 /// grid (row-major weights).
 #[derive(Debug, Clone, PartialEq)]
-pub struct Weights {
+pub(crate) struct Weights {
     pub nx: usize,
     pub ny: usize,
     pub u: Vec<f64>,
@@ -69,7 +69,7 @@ pub struct Weights {
 }
 
 impl Weights {
-    pub fn new(g: &Grid) -> Self {
+    pub(crate) fn new(g: &Grid) -> Self {
         Weights {
             nx: g.nx,
             ny: g.ny,
@@ -80,7 +80,7 @@ impl Weights {
 
     /// Adds `c` times stencil `s` applied at node `k` to the weights on v
     /// (`on_v`) or on u. False (nothing added) when a tap leaves the grid.
-    pub fn add(&mut self, s: &Stencil, on_v: bool, k: usize, c: f64) -> bool {
+    pub(crate) fn add(&mut self, s: &Stencil, on_v: bool, k: usize, c: f64) -> bool {
         let (j, i) = ((k / self.nx) as i64, (k % self.nx) as i64);
         let inside = |dj: i32, di: i32| {
             let (jj, ii) = (j + dj as i64, i + di as i64);
@@ -99,7 +99,7 @@ impl Weights {
     }
 
     /// Adds `sum_f c[f] field_f(k)` (the composite stencils of `ops`).
-    pub fn add_fields(&mut self, ops: &Ops, k: usize, c: &[f64; NF]) -> bool {
+    pub(crate) fn add_fields(&mut self, ops: &Ops, k: usize, c: &[f64; NF]) -> bool {
         let mut ok = true;
         for (f, &cf) in c.iter().enumerate() {
             if cf != 0.0 {
@@ -113,7 +113,7 @@ impl Weights {
     /// The same functional on the velocities before `smoother` (its
     /// equivalent stencil): `raw[j + t] += w[j] s_t`; taps outside the grid
     /// are dropped.
-    pub fn after(&self, smoother: &Stencil) -> Weights {
+    pub(crate) fn after(&self, smoother: &Stencil) -> Weights {
         let mut out = Weights {
             nx: self.nx,
             ny: self.ny,
@@ -141,7 +141,7 @@ impl Weights {
 
     /// The variance of the functional for velocity errors of per-node
     /// variances `noise` correlated between nodes as `vel` (module docs).
-    pub fn variance(&self, noise: &Noise, vel: Correlation) -> f64 {
+    pub(crate) fn variance(&self, noise: &Noise, vel: Correlation) -> f64 {
         let lags = lags(vel);
         let (nx, ny) = (self.nx as i64, self.ny as i64);
         let su = |k: usize| noise.var_u[k].sqrt();

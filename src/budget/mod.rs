@@ -19,18 +19,18 @@
 //! the frames asked for. Everything is accumulated in the one streaming
 //! pass of `reduce`: no frame is held, except the few frames asked for.
 
-pub mod acc;
-pub mod codec;
-pub mod freq;
-pub mod integral;
-pub mod ops;
-pub mod reading;
-pub mod terms;
+pub(crate) mod acc;
+pub(crate) mod codec;
+pub(crate) mod freq;
+pub(crate) mod integral;
+pub(crate) mod ops;
+pub(crate) mod reading;
+pub(crate) mod terms;
 #[cfg(test)]
 mod tests;
 
-pub use acc::BudgetAcc;
-pub use terms::{Budget, SliceBudget, SliceKind, TERMS};
+pub(crate) use acc::BudgetAcc;
+pub(crate) use terms::{Budget, SliceKind, TERMS};
 
 use crate::stencil::derivatives::DiffScheme;
 
@@ -68,14 +68,14 @@ impl Default for Params {
 impl Params {
     /// Does the accumulator keep frame `index` (asked, or a neighbour of
     /// one asked)?
-    pub fn keeps(&self, index: u64) -> bool {
+    pub(crate) fn keeps(&self, index: u64) -> bool {
         self.frames
             .iter()
             .any(|&f| f == index || f + 1 == index || index + 1 == f)
     }
 
     /// The first-derivative scheme.
-    pub fn diff_scheme(&self) -> DiffScheme {
+    pub(crate) fn diff_scheme(&self) -> DiffScheme {
         match self.scheme.as_str() {
             "richardson" => DiffScheme::Richardson,
             "least-squares" => DiffScheme::LeastSquares {

@@ -32,23 +32,23 @@ use crate::stencil::derivatives::{stencil as first, Axis, DiffScheme};
 use crate::stencil::second::laplacian;
 use crate::stencil::Stencil;
 
-pub const F_U: usize = 0;
-pub const F_V: usize = 1;
-pub const F_W: usize = 2;
-pub const F_WX: usize = 3;
-pub const F_WY: usize = 4;
-pub const F_LAP: usize = 5;
-pub const F_DIV: usize = 6;
+pub(crate) const F_U: usize = 0;
+pub(crate) const F_V: usize = 1;
+pub(crate) const F_W: usize = 2;
+pub(crate) const F_WX: usize = 3;
+pub(crate) const F_WY: usize = 4;
+pub(crate) const F_LAP: usize = 5;
+pub(crate) const F_DIV: usize = 6;
 /// The divergence of the instantaneous vorticity flux, `Dx(u w) + Dy(v w)`
 /// (not linear: its stencils are empty and its noise Gram entries 0).
-pub const F_Q: usize = 7;
+pub(crate) const F_Q: usize = 7;
 /// Number of per-frame fields.
-pub const NF: usize = 8;
+pub(crate) const NF: usize = 8;
 
 /// Index of the pair (a, b), a <= b, in the packed upper triangle of a
 /// symmetric NF x NF matrix.
 #[inline]
-pub fn tri(a: usize, b: usize) -> usize {
+pub(crate) fn tri(a: usize, b: usize) -> usize {
     let (a, b) = if a <= b { (a, b) } else { (b, a) };
     a * NF - a * (a + 1) / 2 + b
 }
@@ -73,7 +73,7 @@ pub struct Ops {
 impl Ops {
     /// The stencils of `scheme` on pitches `dx`, `dy`, after `smoother`
     /// (its equivalent stencil; `None`: no smoothing).
-    pub fn new(scheme: DiffScheme, dx: f64, dy: f64, smoother: Option<&Stencil>) -> Ops {
+    pub(crate) fn new(scheme: DiffScheme, dx: f64, dy: f64, smoother: Option<&Stencil>) -> Ops {
         let ddx = first(scheme, Axis::X, dx);
         let ddy = first(scheme, Axis::Y, dy);
         let lap = laplacian(dx, dy);
@@ -121,7 +121,7 @@ impl Ops {
     /// The eight fields of one frame, field-major (`out[f * nodes + k]`),
     /// NaN where a composite does not fit. `u`, `v` are NaN where the node
     /// carries no sample.
-    pub fn eval(&self, u: &Array2<f64>, v: &Array2<f64>) -> Vec<f64> {
+    pub(crate) fn eval(&self, u: &Array2<f64>, v: &Array2<f64>) -> Vec<f64> {
         let (ny, nx) = u.dim();
         let n = ny * nx;
         let mut out = vec![f64::NAN; NF * n];
@@ -149,7 +149,7 @@ impl Ops {
 
 /// `s` at (j, i), NaN when a tap falls outside the grid (NaN inputs
 /// propagate by arithmetic).
-pub fn apply(s: &Stencil, a: &Array2<f64>, j: usize, i: usize) -> f64 {
+pub(crate) fn apply(s: &Stencil, a: &Array2<f64>, j: usize, i: usize) -> f64 {
     let (ny, nx) = a.dim();
     let mut acc = 0.0;
     for t in &s.taps {

@@ -70,7 +70,7 @@ fn near_edge(b: &Budget, has: &[bool], k: usize) -> bool {
 }
 
 /// The reading of budget `b`; `gamma_radius` the Γ2 disc in nodes.
-pub fn read(b: &Budget, gamma_radius: usize) -> Reading {
+pub(crate) fn read(b: &Budget, gamma_radius: usize) -> Reading {
     let mut r = Reading {
         nodes: 0,
         significant: 0,
@@ -125,7 +125,7 @@ pub fn read(b: &Budget, gamma_radius: usize) -> Reading {
 }
 
 /// `a / b`, NaN when `b` is 0.
-pub fn frac(a: usize, b: usize) -> f64 {
+pub(crate) fn frac(a: usize, b: usize) -> f64 {
     if b == 0 {
         f64::NAN
     } else {
@@ -134,7 +134,7 @@ pub fn frac(a: usize, b: usize) -> f64 {
 }
 
 /// A percentage with one decimal ("92.4 %"), or "–".
-pub fn pct(x: f64) -> String {
+pub(crate) fn pct(x: f64) -> String {
     if x.is_finite() {
         format!("{:.1} %", 100.0 * x)
     } else {
@@ -143,7 +143,7 @@ pub fn pct(x: f64) -> String {
 }
 
 /// Term names ordered by decreasing magnitude `m` (finite ones only).
-pub fn ranked(m: &[f64; 5]) -> Vec<(&'static str, f64)> {
+pub(crate) fn ranked(m: &[f64; 5]) -> Vec<(&'static str, f64)> {
     let mut v: Vec<(&'static str, f64)> = TERMS
         .iter()
         .copied()
@@ -156,7 +156,7 @@ pub fn ranked(m: &[f64; 5]) -> Vec<(&'static str, f64)> {
 
 impl Reading {
     /// The reading in plain words, one sentence per string.
-    pub fn sentences(&self) -> Vec<String> {
+    pub(crate) fn sentences(&self) -> Vec<String> {
         let t = crate::describe::tick;
         if self.nodes == 0 {
             return vec!["The budget has no node with a residual (a missing viscosity or frequency, or too few frames per bin): nothing to read.".into()];

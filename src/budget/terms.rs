@@ -44,15 +44,13 @@ use crate::stencil::Stencil;
 use ndarray::Array2;
 
 /// Term names, in column order.
-pub const TERMS: [&str; 5] = [
+pub(crate) const TERMS: [&str; 5] = [
     "unsteady",
     "advection",
     "stretching",
     "diffusion",
     "turbulent",
 ];
-/// Signs of the terms in the residual.
-pub const SIGNS: [f64; 5] = [1.0, 1.0, -1.0, -1.0, -1.0];
 
 /// What a slice is.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -136,7 +134,7 @@ impl SliceBudget {
     }
 
     /// Is the residual larger than `k` times its uncertainty at node `i`?
-    pub fn significant(&self, i: usize, k: f64) -> bool {
+    pub(crate) fn significant(&self, i: usize, k: f64) -> bool {
         self.residual[i].abs() > k * self.residual_unc[i]
     }
 }
@@ -191,7 +189,7 @@ fn local(m: &[f64], s: &[f64], nu: f64, turb: bool) -> ([f64; 4], [f64; 4], f64)
 /// node on its fields (`ops`), the means `m` as coefficients: advection
 /// `U Wx + V Wy` varies as `dU Wx + dV Wy + U dWx + V dWy`, stretching
 /// `-W DIV` as `-dW DIV - W dDIV`, diffusion `nu LAP` as `nu dLAP`.
-pub fn jacobians(m: &[f64], nu: f64) -> [[f64; NF]; 3] {
+pub(crate) fn jacobians(m: &[f64], nu: f64) -> [[f64; NF]; 3] {
     let mut ja = [0.0; NF];
     ja[F_U] = m[F_WX];
     ja[F_V] = m[F_WY];
@@ -228,7 +226,7 @@ fn close(out: &mut SliceBudget, k: usize, m: &[f64], s: &[f64], nu: f64, var_uns
 
 /// The finished budget. `nu` (m²/s) and `freq` (Hz) may be missing: the
 /// terms that need them, and the residual, are then NaN.
-pub fn finish(acc: &BudgetAcc, nu: Option<f64>, freq: Option<f64>) -> Budget {
+pub(crate) fn finish(acc: &BudgetAcc, nu: Option<f64>, freq: Option<f64>) -> Budget {
     let nodes = acc.grid.len();
     let nu = nu.unwrap_or(f64::NAN);
     let mut slices = Vec::new();

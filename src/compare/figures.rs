@@ -17,7 +17,7 @@ use crate::plot::{figure_ref, magnitude_limit, symmetric_limit};
 use crate::result::{FigureRef, RunResult};
 
 /// The unit of an ensemble column, from its name.
-pub fn unit_of(q: &str) -> &'static str {
+pub(crate) fn unit_of(q: &str) -> &'static str {
     if q.starts_with("omega") {
         "1/s"
     } else if q == "uv_cov" {
@@ -37,7 +37,7 @@ fn mm_axes() -> Axes {
     }
 }
 
-pub fn difference_figures(
+pub(crate) fn difference_figures(
     p: &ComparePlan,
     a: &RunResult,
     b: &RunResult,
@@ -145,7 +145,7 @@ pub fn difference_figures(
     Ok(figs)
 }
 
-pub fn profile_figure(
+pub(crate) fn profile_figure(
     p: &ComparePlan,
     sel: &[&RunResult],
     profiles: &[Profile],
@@ -220,7 +220,7 @@ pub fn profile_figure(
     )])
 }
 
-pub fn scalar_figure(
+pub(crate) fn scalar_figure(
     p: &ComparePlan,
     sel: &[&RunResult],
     scalars: &[Scalar],

@@ -16,7 +16,7 @@
 use crate::field::{Grid, NodeTable};
 
 /// The value of column `col` of `t` at (x, y) by bilinear interpolation.
-pub fn sample(grid: &Grid, col: &[f64], x: f64, y: f64) -> f64 {
+pub(crate) fn sample(grid: &Grid, col: &[f64], x: f64, y: f64) -> f64 {
     let Some((i0, i1, tx)) = bracket((x - grid.x0) / grid.dx, grid.nx) else {
         return f64::NAN;
     };
@@ -58,13 +58,13 @@ fn bracket(f: f64, n: usize) -> Option<(usize, usize, f64)> {
 
 /// The uncertainty column that goes with `q`: `<q>_unc`, or for a mean
 /// `X_mean` the column `X_mean_unc` (the same rule, named for clarity).
-pub fn uncertainty_column(q: &str) -> String {
+pub(crate) fn uncertainty_column(q: &str) -> String {
     format!("{q}_unc")
 }
 
 /// The difference `b − a` of one quantity on `a`'s grid.
 #[derive(Debug, Clone)]
-pub struct Difference {
+pub(crate) struct Difference {
     pub grid: Grid,
     pub a: Vec<f64>,
     pub b: Vec<f64>,
@@ -85,7 +85,7 @@ pub struct Difference {
 /// (common practice for comparing two independent measurements, e.g. the
 /// normalised error of ISO 13528 §9.7 with a coverage factor k).
 /// Returns None when `q` is missing from either table.
-pub fn difference(a: &NodeTable, b: &NodeTable, q: &str, k: f64) -> Option<Difference> {
+pub(crate) fn difference(a: &NodeTable, b: &NodeTable, q: &str, k: f64) -> Option<Difference> {
     let (qa, qb) = (a.get(q)?, b.get(q)?);
     let uq = uncertainty_column(q);
     let (ua, ub) = (a.get(&uq), b.get(&uq));

@@ -14,8 +14,8 @@
 //! nothing else.
 
 mod figures;
-pub mod interp;
-pub mod scalars;
+pub(crate) mod interp;
+pub(crate) mod scalars;
 
 use std::path::Path;
 
@@ -23,12 +23,12 @@ use crate::error::{Error, Result};
 use crate::plan::report::ComparePlan;
 use crate::result::RunResult;
 
-pub use crate::result::ComparisonResult;
-pub use scalars::Scalar;
+pub(crate) use crate::result::ComparisonResult;
+pub(crate) use scalars::Scalar;
 
 /// A profile of one run at one station.
 #[derive(Debug, Clone, PartialEq)]
-pub struct Profile {
+pub(crate) struct Profile {
     pub run: String,
     /// "x = 30 mm" or "y = 0 mm".
     pub station: String,
@@ -39,7 +39,7 @@ pub struct Profile {
 }
 
 /// Runs every comparison; `runs` are the reduced runs (any order).
-pub fn run_comparisons(
+pub(crate) fn run_comparisons(
     plans: &[ComparePlan],
     runs: &[RunResult],
     out: &Path,
@@ -195,7 +195,7 @@ fn run_one(p: &ComparePlan, runs: &[RunResult], out: &Path) -> Result<Comparison
 
 /// The stations of a plan: its own, or three vertical lines at 25, 50 and
 /// 75 % of the first run's x range.
-pub fn stations(p: &ComparePlan, first: &RunResult) -> (Vec<f64>, Vec<f64>) {
+pub(crate) fn stations(p: &ComparePlan, first: &RunResult) -> (Vec<f64>, Vec<f64>) {
     if !p.at_x.is_empty() || !p.at_y.is_empty() {
         return (p.at_x.clone(), p.at_y.clone());
     }
@@ -212,7 +212,7 @@ pub fn stations(p: &ComparePlan, first: &RunResult) -> (Vec<f64>, Vec<f64>) {
 
 /// Profiles of `p.profile` of every run at every station, sampled
 /// bilinearly at the run's own nodes along the line.
-pub fn profiles(p: &ComparePlan, sel: &[&RunResult]) -> Vec<Profile> {
+pub(crate) fn profiles(p: &ComparePlan, sel: &[&RunResult]) -> Vec<Profile> {
     let (at_x, at_y) = stations(p, sel[0]);
     let uq = interp::uncertainty_column(&p.profile);
     let mut out = Vec::new();

@@ -31,12 +31,12 @@
 use super::interp::sample;
 use crate::field::Conditions;
 use crate::field::NodeTable;
-pub use crate::result::Scalar;
+pub(crate) use crate::result::Scalar;
 
-pub use crate::stats::finish::peak_node;
+pub(crate) use crate::stats::finish::peak_node;
 
 /// The strongest vortex: (circulation, its uncertainty, area in m², nodes).
-pub fn strongest_vortex(t: &NodeTable, threshold: f64) -> Option<(f64, f64, f64, usize)> {
+pub(crate) fn strongest_vortex(t: &NodeTable, threshold: f64) -> Option<(f64, f64, f64, usize)> {
     let w = t.get("omega_mean")?;
     let u = t.get("omega_mean_unc");
     let g = t.grid;
@@ -80,7 +80,7 @@ pub fn strongest_vortex(t: &NodeTable, threshold: f64) -> Option<(f64, f64, f64,
 }
 
 /// The scalars of one run (see the module doc).
-pub fn run_scalars(
+pub(crate) fn run_scalars(
     id: &str,
     t: &NodeTable,
     phase: &[crate::stats::PhaseBin],
@@ -126,7 +126,11 @@ pub fn run_scalars(
 }
 
 /// (ΔU, u(ΔU), station x) at `x` (default: the last column).
-pub fn wake_deficit(t: &NodeTable, cond: &Conditions, x: Option<f64>) -> Option<(f64, f64, f64)> {
+pub(crate) fn wake_deficit(
+    t: &NodeTable,
+    cond: &Conditions,
+    x: Option<f64>,
+) -> Option<(f64, f64, f64)> {
     let um = t.get("u_mean")?;
     let uu = t.get("u_mean_unc");
     let g = t.grid;

@@ -54,7 +54,7 @@ use crate::io::{self, Values};
 use crate::plan::Plan;
 use crate::reduce::{self, Options};
 use crate::stats::RunStats;
-use crate::synth::{self, OutFormat, RunSetup, Scenario, SynthOptions};
+use crate::synth::{self, OutFormat, RunSetup, SynthOptions};
 
 /// The synthetic campaign and the pipeline of one cell.
 #[derive(Debug, Clone)]
@@ -117,7 +117,7 @@ pub fn run(cell: &Cell, work: &Path) -> Result<Vec<Row>> {
 }
 
 /// The synth options of the cell's campaign (parquet, SI, no truth files).
-pub fn synth_options(cell: &Cell) -> SynthOptions {
+pub(crate) fn synth_options(cell: &Cell) -> SynthOptions {
     let mut o = cell.synth.clone();
     o.format = OutFormat::Parquet;
     o.length_unit = synth::LengthUnit::M;
@@ -133,7 +133,12 @@ pub fn synth_options(cell: &Cell) -> SynthOptions {
 
 /// The pipeline text reducing replica folder `dir` (relative to the
 /// pipeline) with the cell's stages.
-pub fn pipeline_text(cell: &Cell, opts: &SynthOptions, setup: &RunSetup, dir: &str) -> String {
+pub(crate) fn pipeline_text(
+    cell: &Cell,
+    opts: &SynthOptions,
+    setup: &RunSetup,
+    dir: &str,
+) -> String {
     let (frames, table) = synth::pipeline::run_paths(opts, &setup.id);
     format!(
         "[campaign]\nname = \"coverage\"\n\n[input]\nformat = \"parquet\"\n\
@@ -484,12 +489,4 @@ fn read_fields(dir: &Path) -> Vec<(Vec<f64>, Vec<f64>)> {
         out.push((f("omega"), f("status")));
     }
     out
-}
-
-/// The scenario names a cell may use (flows with an analytic gradient).
-pub fn scenario_ok(s: Scenario) -> bool {
-    matches!(
-        s,
-        Scenario::Uniform | Scenario::Vortex | Scenario::SolidBody | Scenario::TaylorGreen
-    )
 }

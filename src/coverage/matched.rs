@@ -112,7 +112,7 @@ pub fn check(plan: &Plan, opts: &CheckOptions, work: &Path) -> Result<Vec<Checke
 }
 
 /// The user's stage sections as TOML (module doc).
-pub fn stage_sections(text: &str) -> Result<String> {
+pub(crate) fn stage_sections(text: &str) -> Result<String> {
     let mut t: toml::Table = text
         .parse()
         .map_err(|e| Error::usage(format!("the pipeline is not valid TOML: {e}")))?;
@@ -126,7 +126,7 @@ pub fn stage_sections(text: &str) -> Result<String> {
 }
 
 /// Reduces the user's run and measures what the match needs.
-pub fn measure(rp: &RunPlan) -> Result<Measured> {
+pub(crate) fn measure(rp: &RunPlan) -> Result<Measured> {
     let jobs = std::thread::available_parallelism().map_or(1, |n| n.get());
     let red = reduce::reduce_run(
         rp,
@@ -251,7 +251,7 @@ fn median_step(t: &[f64]) -> Option<f64> {
 }
 
 /// The cell matched to a measured run.
-pub fn matched_cell(m: &Measured, rp: &RunPlan, stages: &str, opts: &CheckOptions) -> Cell {
+pub(crate) fn matched_cell(m: &Measured, rp: &RunPlan, stages: &str, opts: &CheckOptions) -> Cell {
     let peak = 0.5 * m.mean_speed.max(1e-12);
     let swirl = if m.mean_speed > 0.0 { peak } else { 0.1 };
     let mut o = SynthOptions {

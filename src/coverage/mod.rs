@@ -13,10 +13,10 @@
 
 pub mod cell;
 pub mod matched;
-pub mod region;
+pub(crate) mod region;
 pub mod score;
 pub mod study;
-pub mod truth;
+pub(crate) mod truth;
 
 pub use cell::{Cell, Row};
 pub use score::{score, verdict, Reading, Score, Verdict};

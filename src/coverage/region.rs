@@ -12,31 +12,31 @@ use crate::synth::RunSetup;
 
 /// Nodes from the border counted as edge nodes (the half-width of the
 /// default 5 x 5 least-squares stencil).
-pub const EDGE: usize = 2;
+pub(crate) const EDGE: usize = 2;
 /// Core region radius, in core radii.
-pub const CORE: f64 = 2.0;
+pub(crate) const CORE: f64 = 2.0;
 /// Far field beyond this many core radii.
-pub const FAR: f64 = 3.0;
+pub(crate) const FAR: f64 = 3.0;
 
 /// A named set of nodes (flags in node order).
 #[derive(Debug, Clone)]
-pub struct Region {
+pub(crate) struct Region {
     pub name: &'static str,
     pub member: Vec<bool>,
 }
 
 impl Region {
-    pub fn contains(&self, node: usize) -> bool {
+    pub(crate) fn contains(&self, node: usize) -> bool {
         self.member.get(node).copied().unwrap_or(false)
     }
-    pub fn count(&self) -> usize {
+    pub(crate) fn count(&self) -> usize {
         self.member.iter().filter(|&&m| m).count()
     }
 }
 
 /// The regions of a run's grid: all, interior, edge, and with a vortex
 /// core and far (empty regions are left out).
-pub fn regions(setup: &RunSetup) -> Vec<Region> {
+pub(crate) fn regions(setup: &RunSetup) -> Vec<Region> {
     let g = setup.grid;
     let mut all = Vec::new();
     let (mut interior, mut edge, mut core, mut far) = (vec![], vec![], vec![], vec![]);

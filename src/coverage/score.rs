@@ -33,11 +33,11 @@
 //! correlated, so the effective `n` is smaller than the count of pairs.
 
 /// Target band of the k = 2 coverage.
-pub const COVERAGE_TARGET: (f64, f64) = (0.93, 0.97);
+pub(crate) const COVERAGE_TARGET: (f64, f64) = (0.93, 0.97);
 /// Target band of the width ratio.
-pub const RATIO_TARGET: (f64, f64) = (0.8, 1.25);
+pub(crate) const RATIO_TARGET: (f64, f64) = (0.8, 1.25);
 /// Normal 97.5 % quantile, for expanded (p95) columns.
-pub const Z95: f64 = 1.959_963_984_540_054;
+pub(crate) const Z95: f64 = 1.959_963_984_540_054;
 
 /// Coverage and width of one uncertainty column against its actual errors.
 #[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
@@ -69,7 +69,7 @@ pub enum Reading {
 
 impl Reading {
     /// `(k, scale)` of the reading.
-    pub fn factors(self) -> (f64, f64) {
+    pub(crate) fn factors(self) -> (f64, f64) {
         match self {
             Reading::Standard | Reading::WidthOnly => (2.0, 1.0),
             Reading::Expanded95 => (1.0, Z95),
@@ -115,7 +115,7 @@ pub fn score(pairs: impl IntoIterator<Item = (f64, f64)>, reading: Reading) -> S
 
 /// The median (mean of the two middle values for an even count); NaN when
 /// empty. Reorders `v`.
-pub fn median(v: &mut [f64]) -> f64 {
+pub(crate) fn median(v: &mut [f64]) -> f64 {
     if v.is_empty() {
         return f64::NAN;
     }
@@ -146,7 +146,7 @@ pub enum Verdict {
 }
 
 impl Verdict {
-    pub fn name(self) -> &'static str {
+    pub(crate) fn name(self) -> &'static str {
         match self {
             Verdict::Meets => "meets",
             Verdict::TooSmall => "too small",
@@ -186,7 +186,8 @@ pub fn verdict(s: &Score) -> Verdict {
 }
 
 /// Two binomial standard errors of a coverage `p` over `n` independent pairs.
-pub fn coverage_tolerance(p: f64, n: usize) -> f64 {
+#[cfg(test)]
+pub(crate) fn coverage_tolerance(p: f64, n: usize) -> f64 {
     2.0 * (p * (1.0 - p) / n.max(1) as f64).sqrt()
 }
 

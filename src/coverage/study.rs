@@ -65,7 +65,7 @@ impl Default for Spec {
 
 impl Spec {
     /// A short unique name: flow/noise/gaps/smoother/scheme/time.
-    pub fn name(&self) -> String {
+    pub(crate) fn name(&self) -> String {
         let flow = match self.flow {
             FlowSpec::Uniform => "uniform".to_string(),
             FlowSpec::Vortex(c) => format!("vortex-{c}h"),
@@ -229,7 +229,7 @@ pub fn matrix() -> Vec<Spec> {
 /// The rows shown in the markdown table: every column in the regions
 /// `interior` and `edge`, and the mean and bias of omega also in `core`
 /// and `far` (the CSV holds every region).
-pub fn shown(r: &Row) -> bool {
+pub(crate) fn shown(r: &Row) -> bool {
     match r.region.as_str() {
         "interior" | "edge" => true,
         "core" | "far" => r.column == "omega_mean_unc" || r.column == "omega_inst_unc",

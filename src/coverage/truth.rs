@@ -8,12 +8,11 @@
 //! Does not own: the flows (`synth`).
 
 use crate::field::Grid;
-use crate::synth::flows::LAMB_OSEEN_PEAK_SWIRL;
 use crate::synth::gradients::{self, Gradient};
 use crate::synth::{Flow, RunSetup, SynthOptions};
 
 /// Quantities with an analytic truth here (the Gammas have none).
-pub const QUANTITIES: [&str; 8] = [
+pub(crate) const QUANTITIES: [&str; 8] = [
     "omega",
     "div",
     "exx",
@@ -32,7 +31,7 @@ pub const QUANTITIES: [&str; 8] = [
 /// Mech. 387:353), 0 when they are real; Q = (|Omega|² - |S|²)/2 (Hunt,
 /// Wray & Moin 1988); stretching = -omega div (= omega dw/dz for an
 /// incompressible flow). None for a name without a truth here.
-pub fn quantity(name: &str, g: &Gradient) -> Option<f64> {
+pub(crate) fn quantity(name: &str, g: &Gradient) -> Option<f64> {
     let (a, b, c, d) = (g.dudx, g.dudy, g.dvdx, g.dvdy);
     Some(match name {
         "omega" => c - b,
@@ -57,7 +56,7 @@ pub fn quantity(name: &str, g: &Gradient) -> Option<f64> {
 /// The analytic gradient tensor of the run's flow at `(x, y)` and time `t`.
 /// None where the flow has no value (inside a body) or the scenario has no
 /// gradient here (the wake and the cylinder are not used by the study).
-pub fn gradient_at(setup: &RunSetup, t: f64, x: f64, y: f64) -> Option<Gradient> {
+pub(crate) fn gradient_at(setup: &RunSetup, t: f64, x: f64, y: f64) -> Option<Gradient> {
     match setup.flow {
         Flow::Vortex { gamma, rc } => Some(gradients::lamb_oseen(x, y, 0.0, 0.0, gamma, rc)),
         Flow::Pulsing {
@@ -80,7 +79,7 @@ pub fn gradient_at(setup: &RunSetup, t: f64, x: f64, y: f64) -> Option<Gradient>
 /// Per-node truth: the average over a set of times of the noise-free
 /// velocity and of every quantity.
 #[derive(Debug, Clone)]
-pub struct Truth {
+pub(crate) struct Truth {
     pub grid: Grid,
     /// Mean of the noise-free u, v per node.
     pub u: Vec<f64>,
@@ -91,7 +90,7 @@ pub struct Truth {
 
 impl Truth {
     /// The mean of quantity `name`, or None.
-    pub fn mean(&self, name: &str) -> Option<&[f64]> {
+    pub(crate) fn mean(&self, name: &str) -> Option<&[f64]> {
         match name {
             "u" => Some(&self.u),
             "v" => Some(&self.v),
@@ -105,7 +104,13 @@ impl Truth {
 
 /// The noise-free velocity of the run's flow at `(x, y)` and time `t`
 /// (NaN for flows the study does not use).
-pub fn velocity(setup: &RunSetup, opts: &SynthOptions, t: f64, x: f64, y: f64) -> (f64, f64) {
+pub(crate) fn velocity(
+    setup: &RunSetup,
+    opts: &SynthOptions,
+    t: f64,
+    x: f64,
+    y: f64,
+) -> (f64, f64) {
     use crate::synth::flows;
     let s = match setup.flow {
         Flow::Vortex { gamma, rc } => flows::lamb_oseen(x, y, 0.0, 0.0, gamma, rc),
@@ -133,7 +138,7 @@ pub fn velocity(setup: &RunSetup, opts: &SynthOptions, t: f64, x: f64, y: f64) -
 /// The truth averaged over the times `times` (s): for a steady flow one
 /// time suffices; for a pulsing flow, times spread evenly over a period
 /// (the ensemble's target) or over one phase bin (the bin's target).
-pub fn over_times(setup: &RunSetup, opts: &SynthOptions, times: &[f64]) -> Truth {
+pub(crate) fn over_times(setup: &RunSetup, opts: &SynthOptions, times: &[f64]) -> Truth {
     let g = setup.grid;
     let nodes = g.len();
     let n = times.len().max(1) as f64;
@@ -164,7 +169,7 @@ pub fn over_times(setup: &RunSetup, opts: &SynthOptions, times: &[f64]) -> Truth
 }
 
 /// The pulsation frequency of the run's flow (Hz), if it pulses.
-pub fn pulse_frequency(setup: &RunSetup) -> Option<f64> {
+pub(crate) fn pulse_frequency(setup: &RunSetup) -> Option<f64> {
     match setup.flow {
         Flow::Pulsing { frequency, .. } => Some(frequency),
         _ => None,
@@ -173,7 +178,7 @@ pub fn pulse_frequency(setup: &RunSetup) -> Option<f64> {
 
 /// Times spread evenly (midpoints of `n` slices) over the phase interval
 /// `[from, to)` degrees of a flow pulsing at `f` Hz.
-pub fn phase_times(f: f64, from_deg: f64, to_deg: f64, n: usize) -> Vec<f64> {
+pub(crate) fn phase_times(f: f64, from_deg: f64, to_deg: f64, n: usize) -> Vec<f64> {
     (0..n)
         .map(|k| {
             let p = from_deg + (to_deg - from_deg) * (k as f64 + 0.5) / n as f64;
@@ -183,16 +188,11 @@ pub fn phase_times(f: f64, from_deg: f64, to_deg: f64, n: usize) -> Vec<f64> {
 }
 
 /// Core radius and peak swirl speed of the run's vortex (None for other flows).
-pub fn vortex_core(setup: &RunSetup) -> Option<f64> {
+pub(crate) fn vortex_core(setup: &RunSetup) -> Option<f64> {
     match setup.flow {
         Flow::Vortex { rc, .. } | Flow::Pulsing { rc, .. } => Some(rc),
         _ => None,
     }
-}
-
-/// Peak swirl of a Lamb–Oseen vortex of circulation `gamma` and core `rc`.
-pub fn peak_swirl(gamma: f64, rc: f64) -> f64 {
-    LAMB_OSEEN_PEAK_SWIRL * gamma / (2.0 * std::f64::consts::PI * rc)
 }
 
 #[cfg(test)]

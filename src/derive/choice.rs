@@ -40,14 +40,14 @@ use super::quantities::{clip0, debias, linear, Node};
 use super::workspace::Workspace;
 
 /// Frames the pilot uses at most.
-pub const PILOT_FRAMES: usize = 32;
+pub(crate) const PILOT_FRAMES: usize = 32;
 
 /// Half width of the neighbourhood over which errors are averaged.
 const REGION: usize = 2;
 
 /// Indices of the pilot frames among `n` frames: evenly spread, first and
 /// last included, in increasing order.
-pub fn pilot_indices(n: usize) -> Vec<usize> {
+pub(crate) fn pilot_indices(n: usize) -> Vec<usize> {
     let k = n.min(PILOT_FRAMES);
     if k <= 1 {
         return (0..k).collect();
@@ -72,14 +72,14 @@ struct Sums {
 
 /// The pilot's accumulated estimates, per candidate.
 #[derive(Debug, Clone)]
-pub struct Pilot {
+pub(crate) struct Pilot {
     shape: (usize, usize),
     sums: Vec<Sums>,
     frames: usize,
 }
 
 impl Pilot {
-    pub fn new(candidates: usize, shape: (usize, usize)) -> Pilot {
+    pub(crate) fn new(candidates: usize, shape: (usize, usize)) -> Pilot {
         let z = vec![0.0; shape.0 * shape.1];
         let s = Sums {
             n: z.clone(),
@@ -97,7 +97,7 @@ impl Pilot {
     }
 
     /// Adds one frame's gradients of every candidate (in candidate order).
-    pub fn push(&mut self, grads: &[Grad], ok: &Array2<bool>) {
+    pub(crate) fn push(&mut self, grads: &[Grad], ok: &Array2<bool>) {
         self.frames += 1;
         for (g, s) in grads.iter().zip(&mut self.sums) {
             for ((j, i), &o) in ok.indexed_iter() {
@@ -123,7 +123,7 @@ impl Pilot {
     }
 
     /// The two maps for a run of `n_run` frames.
-    pub fn finish(&self, n_run: usize) -> Choice {
+    pub(crate) fn finish(&self, n_run: usize) -> Choice {
         let nodes = self.shape.0 * self.shape.1;
         let nr = n_run.max(1) as f64;
         let mut mean_err = Vec::with_capacity(self.sums.len());
@@ -196,7 +196,7 @@ impl Pilot {
 /// The run's scheme maps (indices into the candidates; `u8::MAX` where no
 /// candidate had an estimate).
 #[derive(Debug, Clone, PartialEq)]
-pub struct Choice {
+pub(crate) struct Choice {
     /// For everything the statistics see (means, deviations, phase bins).
     pub mean: Array2<u8>,
     /// For the instantaneous fields written per frame.

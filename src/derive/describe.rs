@@ -27,7 +27,7 @@ impl Params {
     /// truncation estimate, separated by "; ": "least squares, window 5,
     /// order 1; noise estimated per frame; error correlation estimated from
     /// the data; truncation estimated".
-    pub fn describe(&self) -> String {
+    pub(crate) fn describe(&self) -> String {
         let scheme = match self.scheme {
             Scheme::Fixed(d) => d.describe(),
             Scheme::Auto => format!(
@@ -60,7 +60,7 @@ impl Params {
 
     /// The quantities made, omega first: "omega, div, exx, …, gamma2
     /// (Gamma discs of radius 2 nodes)".
-    pub fn describe_quantities(&self) -> String {
+    pub(crate) fn describe_quantities(&self) -> String {
         let mut q = vec!["omega"];
         q.extend(self.quantities.iter().copied());
         let mut s = q.join(", ");

@@ -5,7 +5,7 @@ use std::f64::consts::PI;
 /// A Lamb-Oseen vortex (Saffman, *Vortex Dynamics*, 1992) of circulation
 /// `gamma` and core radius `rc` at (xc, yc), in a uniform stream `u0` along x:
 /// `u_theta = gamma/(2 pi r) (1 - exp(-r^2/rc^2))`.
-pub fn lamb_oseen(
+pub(crate) fn lamb_oseen(
     gamma: f64,
     rc: f64,
     xc: f64,
@@ -25,7 +25,7 @@ pub fn lamb_oseen(
 }
 
 /// The vorticity of `lamb_oseen`: `gamma/(pi rc^2) exp(-r^2/rc^2)`.
-pub fn lamb_oseen_omega(gamma: f64, rc: f64, xc: f64, yc: f64) -> impl Fn(f64, f64) -> f64 {
+pub(crate) fn lamb_oseen_omega(gamma: f64, rc: f64, xc: f64, yc: f64) -> impl Fn(f64, f64) -> f64 {
     move |x, y| {
         let r2 = (x - xc).powi(2) + (y - yc).powi(2);
         gamma / (PI * rc * rc) * (-r2 / (rc * rc)).exp()
@@ -34,7 +34,7 @@ pub fn lamb_oseen_omega(gamma: f64, rc: f64, xc: f64, yc: f64) -> impl Fn(f64, f
 
 /// The linear field of rotation `omega_rot` and strain `mu` about (xc, yc):
 /// `u = mu x - Omega y`, `v = Omega x - mu y` (vorticity 2 Omega).
-pub fn linear(omega_rot: f64, mu: f64, xc: f64, yc: f64) -> impl Fn(f64, f64) -> (f64, f64) {
+pub(crate) fn linear(omega_rot: f64, mu: f64, xc: f64, yc: f64) -> impl Fn(f64, f64) -> (f64, f64) {
     move |x, y| {
         let (x, y) = (x - xc, y - yc);
         (mu * x - omega_rot * y, omega_rot * x - mu * y)
@@ -43,7 +43,7 @@ pub fn linear(omega_rot: f64, mu: f64, xc: f64, yc: f64) -> impl Fn(f64, f64) ->
 
 /// Taylor-Green cell: `u = U sin kx cos ky`, `v = -U cos kx sin ky`, so
 /// `omega = 2 U k sin kx sin ky` and the divergence is 0.
-pub fn taylor_green(u0: f64, k: f64) -> impl Fn(f64, f64) -> (f64, f64) {
+pub(crate) fn taylor_green(u0: f64, k: f64) -> impl Fn(f64, f64) -> (f64, f64) {
     move |x, y| {
         (
             u0 * (k * x).sin() * (k * y).cos(),
@@ -54,7 +54,7 @@ pub fn taylor_green(u0: f64, k: f64) -> impl Fn(f64, f64) -> (f64, f64) {
 
 /// Potential flow past a cylinder of radius `a` at the origin in a stream
 /// `u0`: `u - i v = u0 (1 - a^2/z^2)`.
-pub fn cylinder(u0: f64, a: f64) -> impl Fn(f64, f64) -> (f64, f64) {
+pub(crate) fn cylinder(u0: f64, a: f64) -> impl Fn(f64, f64) -> (f64, f64) {
     move |x, y| {
         let r2 = x * x + y * y;
         let a2r4 = a * a / (r2 * r2);

@@ -40,7 +40,7 @@ use crate::stencil::Stencil;
 
 /// One scheme's gradient tensor: `[a, b, c, d]` each.
 #[derive(Debug, Clone)]
-pub struct Grad {
+pub(crate) struct Grad {
     pub val: [Array2<f64>; 4],
     /// Propagated variance of each component.
     pub var: [Array2<f64>; 4],
@@ -55,12 +55,12 @@ pub struct Grad {
 
 impl Grad {
     /// Whether the truncation slots hold an estimate (else they are empty).
-    pub fn has_truncation(&self) -> bool {
+    pub(crate) fn has_truncation(&self) -> bool {
         !self.bias[0].is_empty()
     }
 
     /// Gives the tensor's buffers back to the workspace for later frames.
-    pub fn recycle(self, ws: &mut Workspace) {
+    pub(crate) fn recycle(self, ws: &mut Workspace) {
         ws.give_back(
             self.val
                 .into_iter()
@@ -72,7 +72,7 @@ impl Grad {
 }
 
 /// What every scheme's pass reads.
-pub struct Inputs<'a> {
+pub(crate) struct Inputs<'a> {
     /// Nodes with a value.
     pub ok: &'a Array2<bool>,
     /// The velocity the derivatives are taken of (smoothed when smoothing).
@@ -118,7 +118,7 @@ fn box_plain(sat: &Array2<u32>, j: usize, i: usize, r: (usize, usize)) -> bool {
 }
 
 /// The summed-area table of `bad` (shape (ny+1, nx+1)).
-pub fn summed_area(bad: &Array2<bool>) -> Array2<u32> {
+pub(crate) fn summed_area(bad: &Array2<bool>) -> Array2<u32> {
     let (ny, nx) = bad.dim();
     let mut s = Array2::<u32>::zeros((ny + 1, nx + 1));
     for j in 0..ny {
@@ -160,7 +160,7 @@ fn pattern(ok: &Array2<bool>, j: usize, i: usize, r: (i32, i32)) -> Option<u128>
 }
 
 /// The gradient tensor of `scheme` at every node.
-pub fn gradient(ws: &mut Workspace, scheme: DiffScheme, inp: &Inputs) -> Grad {
+pub(crate) fn gradient(ws: &mut Workspace, scheme: DiffScheme, inp: &Inputs) -> Grad {
     let (ny, nx) = inp.ok.dim();
     let mut nan = || ws.buffer(ny * nx);
     let mut val = [nan(), nan(), nan(), nan()];

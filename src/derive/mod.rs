@@ -55,18 +55,18 @@
 //! (the tensor of one scheme, with `ops`, its axis operators, kept in a
 //! `workspace`) -> `choice` (the scheme kept per node) -> `quantities`.
 
-pub mod choice;
+pub(crate) mod choice;
 mod describe;
-pub mod gradient;
-pub mod noise;
+pub(crate) mod gradient;
+pub(crate) mod noise;
 mod ops;
 pub mod quantities;
-pub mod smoothing_bias;
+pub(crate) mod smoothing_bias;
 mod velocity;
 mod workspace;
 
 #[cfg(test)]
-pub mod flows;
+pub(crate) mod flows;
 #[cfg(test)]
 mod tests;
 #[cfg(test)]
@@ -136,7 +136,7 @@ pub struct Params {
 
 impl Params {
     /// The least-squares scheme with this plan's window and order.
-    pub fn least_squares(&self) -> DiffScheme {
+    pub(crate) fn least_squares(&self) -> DiffScheme {
         DiffScheme::LeastSquares {
             window: self.ls_window,
             order: self.ls_order,
@@ -245,7 +245,7 @@ impl Derived {
 }
 
 /// Names of the quantities `derive` produces with these parameters.
-pub fn quantity_names(p: &Params) -> Vec<&'static str> {
+pub(crate) fn quantity_names(p: &Params) -> Vec<&'static str> {
     let mut v = vec!["omega"];
     for (n, _) in quantities::ALL.iter().skip(1) {
         if p.quantities.contains(n) {
@@ -272,7 +272,7 @@ pub fn derive(p: &Params, field: &Field) -> Derived {
 /// smoothing, the gradient tensor of every scheme (`gradient`), the
 /// scheme kept at each node (`choice`), the quantities from the tensor
 /// (`quantities`).
-pub fn derive_with(
+pub(crate) fn derive_with(
     ws: &mut Workspace,
     p: &Params,
     field: &Field,

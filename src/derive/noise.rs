@@ -68,14 +68,14 @@ use crate::stencil::correlation::Correlation;
 use crate::stencil::{Stencil, Tap};
 
 /// The fewest fourth differences an estimate is made from.
-pub const MIN_SAMPLES: usize = 20;
+pub(crate) const MIN_SAMPLES: usize = 20;
 
 const D4: [f64; 5] = [1.0, -4.0, 6.0, -4.0, 1.0];
 
 /// The random error (m/s, one value for both components) of the valid
 /// vectors of `field`, or `None` when too few runs of five valid vectors
 /// exist.
-pub fn estimate(field: &Field, corr: &Correlation) -> Option<f64> {
+pub(crate) fn estimate(field: &Field, corr: &Correlation) -> Option<f64> {
     let (ny, nx) = field.status.dim();
     let u = field.u.as_standard_layout();
     let v = field.v.as_standard_layout();
@@ -125,9 +125,9 @@ pub fn estimate(field: &Field, corr: &Correlation) -> Option<f64> {
 }
 
 /// The fewest residual pairs per lag a correlation estimate is made from.
-pub const MIN_PAIRS: usize = 200;
+pub(crate) const MIN_PAIRS: usize = 200;
 /// About the most residual pairs per lag used (a fixed subsample beyond).
-pub const MAX_PAIRS: usize = 40_000;
+pub(crate) const MAX_PAIRS: usize = 40_000;
 /// The grid of overlap fractions the estimate is chosen from.
 const C_STEP: f64 = 0.025;
 const C_MAX: f64 = 0.9;
@@ -182,7 +182,7 @@ fn robust_correlation(sum: &mut [f64], diff: &mut [f64]) -> f64 {
 /// The overlap fraction `c` of the window correlation model estimated from
 /// the valid vectors of `field` (module docs), on the grid 0, 0.025, ...,
 /// 0.9; `None` with fewer than `MIN_PAIRS` residual pairs at some lag.
-pub fn estimate_overlap(field: &Field) -> Option<f64> {
+pub(crate) fn estimate_overlap(field: &Field) -> Option<f64> {
     let (ny, nx) = field.status.dim();
     let valid = Array2::from_shape_fn((ny, nx), |ix| {
         field.status[ix] == VALID && field.u[ix].is_finite() && field.v[ix].is_finite()
@@ -283,7 +283,7 @@ pub fn estimate_overlap(field: &Field) -> Option<f64> {
 /// along rows and columns, both components (white errors and a flow that
 /// changes little from node to node assumed; the flow's own differences
 /// make it an overestimate). `None` without any such pair.
-pub fn estimate_pairs(field: &Field) -> Option<f64> {
+pub(crate) fn estimate_pairs(field: &Field) -> Option<f64> {
     let (ny, nx) = field.status.dim();
     let ok = |j: usize, i: usize| {
         field.status[[j, i]] == VALID && field.u[[j, i]].is_finite() && field.v[[j, i]].is_finite()
@@ -321,7 +321,7 @@ pub fn estimate_pairs(field: &Field) -> Option<f64> {
 /// estimate. Unknown stays unknown: a filled node without a model-error
 /// estimate gets NaN. Nodes without a value (`ok` false) and fields
 /// without fill weights are left alone.
-pub fn through_fill(
+pub(crate) fn through_fill(
     field: &Field,
     ok: &Array2<bool>,
     corr: &Correlation,
@@ -370,7 +370,7 @@ pub fn through_fill(
 }
 
 /// The correlation model of an overlap fraction: `Independent` for 0.
-pub fn overlap_model(c: f64) -> Correlation {
+pub(crate) fn overlap_model(c: f64) -> Correlation {
     if c > 0.0 {
         Correlation::Window(c)
     } else {

@@ -19,11 +19,11 @@ use crate::stencil::lsq::PolyFit;
 use crate::stencil::{Stencil, Tap};
 
 /// A stencil with its correlation gain, shared between nodes.
-pub type Shared = Rc<(Stencil, f64)>;
+pub(crate) type Shared = Rc<(Stencil, f64)>;
 
 /// What an axis operator is made from: everything it depends on, so that
 /// `key` identifies it.
-pub struct OpSpec<'a> {
+pub(crate) struct OpSpec<'a> {
     pub scheme: DiffScheme,
     pub axis: Axis,
     pub dx: f64,
@@ -38,7 +38,7 @@ pub struct OpSpec<'a> {
 
 impl OpSpec<'_> {
     /// A fingerprint of everything the operator depends on.
-    pub fn key(&self) -> u64 {
+    pub(crate) fn key(&self) -> u64 {
         let mut h = DefaultHasher::new();
         format!(
             "{:?}{:?}{:?}{}",
@@ -53,13 +53,13 @@ impl OpSpec<'_> {
 }
 
 /// A stencil flattened to linear offsets for a row-major `(ny, nx)` array.
-pub struct Flat {
+pub(crate) struct Flat {
     off: Vec<isize>,
     w: Vec<f64>,
 }
 
 impl Flat {
-    pub fn new(s: &Stencil, nx: usize) -> Flat {
+    pub(crate) fn new(s: &Stencil, nx: usize) -> Flat {
         Flat {
             off: s
                 .taps
@@ -81,7 +81,14 @@ impl Flat {
     /// `apply1` to the u and v arrays (`nu`, `nv`: which are wanted; the
     /// other comes back NaN), both in one loop when both are.
     #[inline(always)]
-    pub fn apply_uv(&self, a: &[f64], b: &[f64], k: usize, nu: bool, nv: bool) -> (f64, f64) {
+    pub(crate) fn apply_uv(
+        &self,
+        a: &[f64],
+        b: &[f64],
+        k: usize,
+        nu: bool,
+        nv: bool,
+    ) -> (f64, f64) {
         match (nu, nv) {
             (true, true) => self.apply2(a, b, k),
             (true, false) => (self.apply1(a, k), f64::NAN),
@@ -106,7 +113,7 @@ impl Flat {
 /// the flat offsets and the pairs of taps that correlate precomputed: the
 /// same sums in the same order (so bit-identical), without re-evaluating the
 /// correlation model or checking bounds per tap.
-pub struct FlatVar {
+pub(crate) struct FlatVar {
     off: Vec<isize>,
     w: Vec<f64>,
     /// `(a, b, rho_ab)` for every ordered pair with `rho_ab != 0`.
@@ -137,7 +144,7 @@ impl FlatVar {
 
     /// The variance at flat index `k` (every tap inside the grid).
     #[inline]
-    pub fn at(&self, sig: &[f64], k: usize) -> f64 {
+    pub(crate) fn at(&self, sig: &[f64], k: usize) -> f64 {
         let at = |o: isize| sig[(k as isize + o) as usize];
         let s0 = sig[k];
         if self.off.iter().all(|&o| at(o) == s0) {
@@ -164,7 +171,7 @@ impl FlatVar {
 }
 
 /// One axis of one scheme, with everything precomputed for the interior.
-pub struct AxisOp {
+pub(crate) struct AxisOp {
     pub axis: Axis,
     pub h: f64,
     pub chain: Vec<Stencil>,
@@ -213,7 +220,7 @@ fn terms(deg: u32, half: (i32, i32)) -> Vec<(u32, u32)> {
 }
 
 /// `T[p] - dp/daxis(0)` as a stencil of the data, for the fit on `offsets`.
-pub fn bias_stencil(
+pub(crate) fn bias_stencil(
     t: &Stencil,
     axis: Axis,
     h: f64,
@@ -243,7 +250,7 @@ pub fn bias_stencil(
     None
 }
 
-pub fn window(half: (i32, i32)) -> Vec<(i32, i32)> {
+pub(crate) fn window(half: (i32, i32)) -> Vec<(i32, i32)> {
     (-half.0..=half.0)
         .flat_map(|j| (-half.1..=half.1).map(move |i| (j, i)))
         .collect()
@@ -251,7 +258,7 @@ pub fn window(half: (i32, i32)) -> Vec<(i32, i32)> {
 
 impl AxisOp {
     /// The operator `spec` describes.
-    pub fn new(spec: &OpSpec) -> AxisOp {
+    pub(crate) fn new(spec: &OpSpec) -> AxisOp {
         let (scheme, axis, nx) = (spec.scheme, spec.axis, spec.nx);
         let h = match axis {
             Axis::X => spec.dx,
@@ -345,7 +352,7 @@ impl AxisOp {
 
 /// A fingerprint of a correlation model (part of every cache key: the
 /// cached entries hold correlation gains).
-pub fn corr_fingerprint(c: &Correlation) -> u64 {
+pub(crate) fn corr_fingerprint(c: &Correlation) -> u64 {
     match *c {
         Correlation::Independent => 1,
         Correlation::Window(x) => 2 ^ x.to_bits().rotate_left(3),
@@ -354,7 +361,7 @@ pub fn corr_fingerprint(c: &Correlation) -> u64 {
 }
 
 /// A fingerprint of a stencil and the context it is used in.
-pub fn fingerprint(tag: u8, s: &Stencil, extra: &[u64]) -> u64 {
+pub(crate) fn fingerprint(tag: u8, s: &Stencil, extra: &[u64]) -> u64 {
     let mut h = DefaultHasher::new();
     tag.hash(&mut h);
     for t in &s.taps {

@@ -62,7 +62,7 @@ use ndarray::Array2;
 use super::gradient::Grad;
 
 /// Every quantity the stage can make, in output order, with its unit.
-pub const ALL: [(&str, &str); 10] = [
+pub(crate) const ALL: [(&str, &str); 10] = [
     ("omega", "1/s"),
     ("div", "1/s"),
     ("exx", "1/s"),
@@ -76,20 +76,20 @@ pub const ALL: [(&str, &str); 10] = [
 ];
 
 /// The unit of a quantity name from `ALL`.
-pub fn unit(name: &str) -> &'static str {
+pub(crate) fn unit(name: &str) -> &'static str {
     ALL.iter().find(|(n, _)| *n == name).map_or("", |(_, u)| u)
 }
 
 /// `sqrt(max(0, b^2 - v_b))`; NaN in either stays NaN (`f64::max` would
 /// turn it into 0: an unknown bias reported as none).
 #[inline]
-pub fn debias(b: f64, vb: f64) -> f64 {
+pub(crate) fn debias(b: f64, vb: f64) -> f64 {
     clip0(b * b - vb).sqrt()
 }
 
 /// `max(x, 0)` that keeps NaN (unknown stays unknown).
 #[inline]
-pub fn clip0(x: f64) -> f64 {
+pub(crate) fn clip0(x: f64) -> f64 {
     if x < 0.0 {
         0.0
     } else {
@@ -99,7 +99,7 @@ pub fn clip0(x: f64) -> f64 {
 
 /// One quantity at one node: what `at` gives.
 #[derive(Debug, Clone, Copy, PartialEq)]
-pub struct Value {
+pub(crate) struct Value {
     /// The value.
     pub val: f64,
     /// Propagated standard uncertainty (random part).
@@ -117,7 +117,7 @@ pub struct Value {
 /// The tensor components at one node: values, variances, signed
 /// truncation estimates and their noise variances.
 #[derive(Debug, Clone, Copy)]
-pub struct Node {
+pub(crate) struct Node {
     pub val: [f64; 4],
     pub var: [f64; 4],
     pub bias: [f64; 4],
@@ -126,7 +126,7 @@ pub struct Node {
 
 impl Node {
     #[inline]
-    pub fn load(g: &Grad, j: usize, i: usize) -> Node {
+    pub(crate) fn load(g: &Grad, j: usize, i: usize) -> Node {
         let get = |a: &[Array2<f64>; 4]| [a[0][[j, i]], a[1][[j, i]], a[2][[j, i]], a[3][[j, i]]];
         let (bias, bvar) = if g.has_truncation() {
             (get(&g.bias), get(&g.bvar))
@@ -146,7 +146,7 @@ impl Node {
 type Slices4<'a> = [&'a [f64]; 4];
 
 /// The tensor's arrays as flat slices (row-major), for one pass over nodes.
-pub struct Flat<'a> {
+pub(crate) struct Flat<'a> {
     val: [&'a [f64]; 4],
     var: [&'a [f64]; 4],
     /// The truncation slots, `None` when truncation is not estimated (they
@@ -155,7 +155,7 @@ pub struct Flat<'a> {
 }
 
 impl<'a> Flat<'a> {
-    pub fn new(g: &'a Grad, truncation: bool) -> Flat<'a> {
+    pub(crate) fn new(g: &'a Grad, truncation: bool) -> Flat<'a> {
         let s =
             |a: &'a [Array2<f64>; 4]| a.each_ref().map(|x| x.as_slice().expect("standard layout"));
         Flat {
@@ -165,7 +165,7 @@ impl<'a> Flat<'a> {
         }
     }
     #[inline]
-    pub fn node(&self, k: usize) -> Node {
+    pub(crate) fn node(&self, k: usize) -> Node {
         let get = |a: &[&[f64]; 4]| [a[0][k], a[1][k], a[2][k], a[3][k]];
         let (bias, bvar) = match &self.bias {
             Some((b, v)) => (get(b), get(v)),
@@ -183,7 +183,7 @@ impl<'a> Flat<'a> {
 /// Value, variance, signed bias and bias variance of a linear combination
 /// `sum_k c_k x_k` of the tensor components at one node.
 #[inline]
-pub fn linear(n: &Node, c: [f64; 4]) -> (f64, f64, f64, f64) {
+pub(crate) fn linear(n: &Node, c: [f64; 4]) -> (f64, f64, f64, f64) {
     let (mut val, mut var, mut b, mut vb) = (0.0, 0.0, 0.0, 0.0);
     for (k, &ck) in c.iter().enumerate() {
         if ck != 0.0 {
@@ -198,7 +198,7 @@ pub fn linear(n: &Node, c: [f64; 4]) -> (f64, f64, f64, f64) {
 
 /// A quantity of the tensor, resolved from its name once per frame.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub enum Kind {
+pub(crate) enum Kind {
     Omega,
     Div,
     Exx,
@@ -211,7 +211,7 @@ pub enum Kind {
 
 impl Kind {
     /// The kind of a tensor quantity from `ALL` (None for the Gammas).
-    pub fn of(name: &str) -> Option<Kind> {
+    pub(crate) fn of(name: &str) -> Option<Kind> {
         Some(match name {
             "omega" => Kind::Omega,
             "div" => Kind::Div,
@@ -229,7 +229,7 @@ impl Kind {
 /// Value, standard uncertainty, truncation (debiased and signed) and noise
 /// shift of a quantity at one node.
 #[inline]
-pub fn at(kind: Kind, n: &Node) -> Value {
+pub(crate) fn at(kind: Kind, n: &Node) -> Value {
     let [a, b, c, d] = n.val;
     let lin = |val: f64, co: [f64; 4], shift: f64| {
         let (_, var, bb, vb) = linear(n, co);

@@ -44,7 +44,7 @@ use crate::stencil::Stencil;
 /// Signed per-node smoothing-bias estimates of u and v with the variance of
 /// their noise: `[b_u, var(b_u), b_v, var(b_v)]` (m/s and (m/s)²; NaN where
 /// no estimate is made, see the module doc).
-pub fn estimate(
+pub(crate) fn estimate(
     smoother: &Smoother,
     stencil: &Stencil,
     ok: &Array2<bool>,

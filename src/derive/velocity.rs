@@ -39,7 +39,7 @@ pub(super) struct Velocity {
 
 impl Velocity {
     /// The frame's velocity and its per-vector uncertainty under `p`.
-    pub fn of(p: &Params, field: &Field) -> Velocity {
+    pub(crate) fn of(p: &Params, field: &Field) -> Velocity {
         let ok = Zip::from(&field.status)
             .and(&field.u)
             .and(&field.v)
@@ -155,7 +155,7 @@ impl Smoothing {
     /// Smooths the frame's velocity: values from the smoother, uncertainty
     /// through its stencil, both cut by one rule (`stencil::cut`) at edges
     /// and masks. A requested smoother is never skipped.
-    pub fn of(p: &Params, vel: &Velocity) -> Smoothing {
+    pub(crate) fn of(p: &Params, vel: &Velocity) -> Smoothing {
         let smoother = p.smoother.for_frame(&vel.u, &vel.v, &vel.ok);
         let cut = smoother.cut_rule();
         let stencil = unit_stencil(&smoother);
@@ -183,7 +183,7 @@ impl Smoothing {
     }
 
     /// The velocity the derivatives are taken of: smoothed, or as measured.
-    pub fn velocity<'a>(&'a self, vel: &'a Velocity) -> (&'a Array2<f64>, &'a Array2<f64>) {
+    pub(crate) fn velocity<'a>(&'a self, vel: &'a Velocity) -> (&'a Array2<f64>, &'a Array2<f64>) {
         match &self.smoothed {
             Some([a, b, _, _]) => (a, b),
             None => (&vel.u, &vel.v),

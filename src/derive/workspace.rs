@@ -65,7 +65,7 @@ impl std::fmt::Debug for Workspace {
 
 impl Workspace {
     /// An empty workspace (nothing made yet).
-    pub fn new() -> Workspace {
+    pub(crate) fn new() -> Workspace {
         Workspace::default()
     }
 

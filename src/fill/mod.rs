@@ -58,7 +58,7 @@
 //! map. Inpainting costs about 2 x `inpaint_iterations` 2-D DCTs per
 //! component and frame with holes.
 
-pub use crate::stencil::pls;
+pub(crate) use crate::stencil::pls;
 
 use std::collections::HashMap;
 
@@ -101,7 +101,7 @@ impl Params {
     /// The filling in plain words, for `curlew check` and the report:
     /// "neighbour mean (holes up to 3 nodes from a valid vector, at least 2
     /// neighbours with values)".
-    pub fn describe(&self) -> String {
+    pub(crate) fn describe(&self) -> String {
         let reach = match self.max_distance {
             Some(d) => format!(
                 "holes up to {d} node{} from a valid vector; farther ones stay empty",
@@ -148,7 +148,7 @@ const NB: [(isize, isize); 8] = [
 ];
 
 /// Fills the holes of `field` (see the module docs); returns the counts.
-pub fn fill(p: &Params, field: &mut Field) -> Counts {
+pub(crate) fn fill(p: &Params, field: &mut Field) -> Counts {
     crate::field::ensure_standard_layout(field);
     let (ny, nx) = field.status.dim();
     let is_hole = |s: u8| s == REPLACED || s == FILLED;

@@ -9,7 +9,7 @@ use serde::de::DeserializeOwned;
 use crate::error::{Error, Result};
 
 /// A cursor over one blob; errors are prefixed with `what`.
-pub struct BlobReader<'a> {
+pub(crate) struct BlobReader<'a> {
     b: &'a [u8],
     at: usize,
     what: &'static str,
@@ -19,7 +19,7 @@ impl<'a> BlobReader<'a> {
     /// Checks the magic and the version, reads the JSON header, and leaves
     /// the cursor at the first array. `kind` names the format in the
     /// wrong-magic error ("a curlew mode sketch").
-    pub fn open<H: DeserializeOwned>(
+    pub(crate) fn open<H: DeserializeOwned>(
         b: &'a [u8],
         magic: &[u8],
         version: u32,
@@ -42,7 +42,7 @@ impl<'a> BlobReader<'a> {
     }
 
     /// The error `what: msg`.
-    pub fn bad(&self, msg: &str) -> Error {
+    pub(crate) fn bad(&self, msg: &str) -> Error {
         Error::data(format!("{}: {msg}", self.what))
     }
 
@@ -56,7 +56,7 @@ impl<'a> BlobReader<'a> {
     }
 
     /// The next `n` f64 values.
-    pub fn floats(&mut self, n: usize) -> Result<Vec<f64>> {
+    pub(crate) fn floats(&mut self, n: usize) -> Result<Vec<f64>> {
         let bytes = n.checked_mul(8).ok_or_else(|| self.bad("size overflows"))?;
         Ok(self
             .take(bytes)?
@@ -66,7 +66,7 @@ impl<'a> BlobReader<'a> {
     }
 
     /// Errs with `msg` unless every byte was read.
-    pub fn finish(&self, msg: &str) -> Result<()> {
+    pub(crate) fn finish(&self, msg: &str) -> Result<()> {
         if self.at != self.b.len() {
             return Err(self.bad(msg));
         }

@@ -28,7 +28,7 @@ use crate::stats::PhaseBin;
 
 /// Who made the file: recorded as global attributes.
 #[derive(Debug, Clone)]
-pub struct Provenance<'a> {
+pub(crate) struct Provenance<'a> {
     pub run: &'a str,
     pub pipeline_text: &'a str,
     pub pipeline_sha256: &'a str,
@@ -36,7 +36,7 @@ pub struct Provenance<'a> {
 
 /// Units and a long name of a column, by its name (curlew's own columns;
 /// anything else gets its name as long name and no units).
-pub fn describe(name: &str) -> (Option<&'static str>, String) {
+pub(crate) fn describe(name: &str) -> (Option<&'static str>, String) {
     let base = name.trim_end_matches("_unc");
     let unc = name.ends_with("_unc");
     let units = if name.starts_with("n_") || name.ends_with("_frac") {
@@ -144,7 +144,7 @@ fn globals(ds: &mut Dataset, p: &Provenance, what: &str) {
 }
 
 /// The ensemble table as a CF dataset over `(y, x)`.
-pub fn ensemble(nt: &NodeTable, p: &Provenance) -> Dataset {
+pub(crate) fn ensemble(nt: &NodeTable, p: &Provenance) -> Dataset {
     let mut ds = Dataset::default();
     globals(&mut ds, p, "Ensemble statistics");
     let (dy, dx) = coords(&mut ds, nt);
@@ -161,7 +161,7 @@ pub fn ensemble(nt: &NodeTable, p: &Provenance) -> Dataset {
 }
 
 /// The phase bins as a CF dataset over `(phase, y, x)`; `None` without bins.
-pub fn phase(bins: &[PhaseBin], p: &Provenance) -> Option<Dataset> {
+pub(crate) fn phase(bins: &[PhaseBin], p: &Provenance) -> Option<Dataset> {
     let first = bins.first()?;
     let mut ds = Dataset::default();
     globals(&mut ds, p, "Phase-averaged statistics");

@@ -45,7 +45,7 @@ use crate::field::{Field, Grid, FILLED, VALID};
 
 /// One inferred axis, in the file's units.
 #[derive(Debug, Clone, Copy, PartialEq)]
-pub struct Axis {
+pub(crate) struct Axis {
     pub origin: f64,
     pub pitch: f64,
     pub n: usize,
@@ -53,7 +53,7 @@ pub struct Axis {
 
 /// Why an axis could not be inferred.
 #[derive(Debug, Clone, PartialEq)]
-pub enum AxisError {
+pub(crate) enum AxisError {
     /// Fewer than two distinct values.
     TooFew(usize),
     /// `value` is farther than the tolerance from the nearest node `nearest`.
@@ -126,7 +126,7 @@ fn distinct_sorted(values: &[f64]) -> Vec<f64> {
 /// Infers a regular axis from coordinate values (any order, repeats
 /// allowed). `tol` is the tolerance in pitches (0 < tol < 0.5). See the
 /// module documentation for the method.
-pub fn infer_axis(values: &[f64], tol: f64) -> std::result::Result<Axis, AxisError> {
+pub(crate) fn infer_axis(values: &[f64], tol: f64) -> std::result::Result<Axis, AxisError> {
     let mut d = distinct_sorted(values);
     d.dedup();
     if d.len() < 2 {
@@ -240,7 +240,7 @@ pub fn infer_axis(values: &[f64], tol: f64) -> std::result::Result<Axis, AxisErr
 /// vector the input itself declares invalid (empty, NaN or flagged);
 /// `line[k]` is the 1-based physical line (text) or row (parquet).
 #[derive(Debug, Default, Clone)]
-pub struct RawRows {
+pub(crate) struct RawRows {
     pub x: Vec<f64>,
     pub y: Vec<f64>,
     pub u: Vec<f64>,
@@ -256,10 +256,10 @@ pub struct RawRows {
 }
 
 impl RawRows {
-    pub fn len(&self) -> usize {
+    pub(crate) fn len(&self) -> usize {
         self.x.len()
     }
-    pub fn is_empty(&self) -> bool {
+    pub(crate) fn is_empty(&self) -> bool {
         self.x.is_empty()
     }
 }
@@ -353,7 +353,7 @@ fn axis_error(e: AxisError, axis: &str, values: &[f64], rows: &RawRows, tol: f64
 }
 
 /// Infers the grid of `rows` in the file's units (x, y pitches positive).
-pub fn infer_grid(rows: &RawRows, tol: f64) -> Result<(Axis, Axis)> {
+pub(crate) fn infer_grid(rows: &RawRows, tol: f64) -> Result<(Axis, Axis)> {
     if rows.is_empty() {
         return Err(Error::data("the frame has no rows"));
     }
@@ -379,7 +379,7 @@ pub fn infer_grid(rows: &RawRows, tol: f64) -> Result<(Axis, Axis)> {
 }
 
 /// The grid in SI from file-unit axes.
-pub fn grid_si(ax: Axis, ay: Axis, length_scale: f64) -> Grid {
+pub(crate) fn grid_si(ax: Axis, ay: Axis, length_scale: f64) -> Grid {
     Grid {
         nx: ax.n,
         ny: ay.n,
@@ -393,7 +393,7 @@ pub fn grid_si(ax: Axis, ay: Axis, length_scale: f64) -> Grid {
 /// Places every row on its node and returns the field in SI. Invalid input
 /// vectors and nodes with no row get status FILLED and NaN velocities.
 /// Two rows on one node are an error naming both lines.
-pub fn assemble(
+pub(crate) fn assemble(
     rows: &RawRows,
     tol: f64,
     length_scale: f64,

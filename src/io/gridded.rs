@@ -29,10 +29,10 @@ use crate::error::{Error, Result};
 
 /// A frame's named arrays: values in row-major order (the last dimension
 /// fastest) with their shape, or an error naming the file and variable.
-pub type Arrays<'a> = dyn Fn(&str) -> Result<(Vec<f64>, Vec<usize>)> + 'a;
+pub(crate) type Arrays<'a> = dyn Fn(&str) -> Result<(Vec<f64>, Vec<usize>)> + 'a;
 
 /// The rows of the one frame in a NetCDF-3 file.
-pub fn netcdf_rows(bytes: &[u8], path: &Path, cols: &ColumnMap) -> Result<RawRows> {
+pub(crate) fn netcdf_rows(bytes: &[u8], path: &Path, cols: &ColumnMap) -> Result<RawRows> {
     let ds = Dataset::from_bytes(bytes).map_err(|e| Error::data(e).with_path(path))?;
     let get = |name: &str| -> Result<(Vec<f64>, Vec<usize>)> {
         let v = ds.var(name).ok_or_else(|| missing(&ds, path, name))?;
@@ -80,7 +80,7 @@ pub(crate) fn fill_to_nan(v: &super::netcdf::Var, vals: &mut [f64]) {
 /// not). MATLAB's column-major arrays are turned row-major in MATLAB's own
 /// shape (rows first), so messages quote the shape MATLAB shows; vectors
 /// (`n x 1` or `1 x n`) are 1-D.
-pub fn mat_rows(bytes: &[u8], path: &Path, cols: &ColumnMap) -> Result<RawRows> {
+pub(crate) fn mat_rows(bytes: &[u8], path: &Path, cols: &ColumnMap) -> Result<RawRows> {
     let names = column_names(cols);
     let vars = super::mat::parse(bytes, &|n| names.contains(&n))
         .map_err(|e| Error::data(e).with_path(path))?;
@@ -131,7 +131,7 @@ fn column_names(c: &ColumnMap) -> Vec<&str> {
 
 /// Pairs every value of u with its x and y (long vectors, or 2-D arrays
 /// with 1-D or 2-D coordinates, either memory order) into rows.
-pub fn array_rows(path: &Path, cols: &ColumnMap, get: &Arrays) -> Result<RawRows> {
+pub(crate) fn array_rows(path: &Path, cols: &ColumnMap, get: &Arrays) -> Result<RawRows> {
     let (u, su) = get(&cols.u)?;
     let (v, sv) = get(&cols.v)?;
     let (x, sx) = get(&cols.x)?;

@@ -229,7 +229,7 @@ mod tests {
             dy: 1e-3,
         };
         let f = Field::from_fn(g, |x, y| (x * 100.0, -y));
-        crate::io::write_frames_parquet(&p, &[(3, &f), (8, &f), (9, &f)]).unwrap();
+        crate::io::parquet::write_frames_parquet(&p, &[(3, &f), (8, &f), (9, &f)]).unwrap();
         let mut sp = spec(Format::Parquet);
         sp.length_scale = 1.0;
         let s = describe(&p, &sp).unwrap();

@@ -38,7 +38,7 @@ use std::io::Read;
 
 /// One variable of a MAT file.
 #[derive(Debug, Clone, PartialEq)]
-pub struct MatVar {
+pub(crate) struct MatVar {
     pub name: String,
     /// The MATLAB class number (6 double, 7 single, 8..15 integers, 1 cell,
     /// 2 struct, 4 char, 5 sparse, ...).
@@ -51,12 +51,12 @@ pub struct MatVar {
 
 impl MatVar {
     /// Whether the class is numeric (or logical, stored as uint8).
-    pub fn is_numeric(&self) -> bool {
+    pub(crate) fn is_numeric(&self) -> bool {
         (6..=15).contains(&self.class)
     }
 
     /// The class's MATLAB name, for messages.
-    pub fn class_name(&self) -> &'static str {
+    pub(crate) fn class_name(&self) -> &'static str {
         const NAMES: [&str; 16] = [
             "unknown", "cell", "struct", "object", "char", "sparse", "double", "single", "int8",
             "uint8", "int16", "uint16", "int32", "uint32", "int64", "uint64",
@@ -83,7 +83,7 @@ const HDF5_MAGIC: &[u8] = b"\x89HDF\r\n\x1a\n";
 /// (others are listed with their class and dimensions but no values, and
 /// compressed ones are inflated only as far as their name). The error says
 /// what is wrong; the caller adds the file's name.
-pub fn parse(bytes: &[u8], want: &dyn Fn(&str) -> bool) -> Result<Vec<MatVar>, String> {
+pub(crate) fn parse(bytes: &[u8], want: &dyn Fn(&str) -> bool) -> Result<Vec<MatVar>, String> {
     let le = check_header(bytes)?;
     let mut vars = Vec::new();
     let mut p = 128;

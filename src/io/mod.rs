@@ -12,17 +12,17 @@
 //! hashes), `outdir` (output folders: safety, leftovers, signals), `inspect` (summaries for `curlew inspect`), `natural` (natural sort order of frame files), `frame_table` (time and
 //! phase per frame).
 
-pub mod blob;
+pub(crate) mod blob;
 pub mod cf;
 mod frame_table;
-pub mod grid;
+pub(crate) mod grid;
 mod gridded;
 pub mod inspect;
 pub mod mat;
 mod natural;
 mod nctime;
 pub mod netcdf;
-pub mod orient;
+pub(crate) mod orient;
 pub mod outdir;
 pub mod parquet;
 mod text;
@@ -32,14 +32,13 @@ mod write;
 use std::path::{Path, PathBuf};
 
 use crate::error::{Error, Result};
-pub use crate::field::table::{self, Table, Values};
+pub(crate) use crate::field::table::{self, Table, Values};
 use crate::field::{Field, Grid, NodeTable};
-pub use orient::Orientation;
+pub(crate) use orient::Orientation;
 pub use outdir::OutputDir;
-pub use parquet::write_frames_parquet;
-pub use text::clip as clip_text;
-pub use write::{
-    atomic_bytes, atomic_file, atomic_path, hash_bytes, hash_file, write_csv, write_csv_rows,
+pub(crate) use text::clip as clip_text;
+pub(crate) use write::{
+    atomic_bytes, atomic_path, hash_bytes, hash_file, write_csv, write_csv_rows,
 };
 
 /// The text formats and parquet.
@@ -132,7 +131,7 @@ pub enum FrameSource {
 /// Expands a run's `frames` pattern (a glob in natural sort order, or one
 /// parquet file) into frame sources with their names. Error (data) if
 /// nothing matches, naming the pattern.
-pub fn list_frames(spec: &InputSpec, pattern: &str) -> Result<Vec<(String, FrameSource)>> {
+pub(crate) fn list_frames(spec: &InputSpec, pattern: &str) -> Result<Vec<(String, FrameSource)>> {
     let entries = glob::glob(pattern)
         .map_err(|e| Error::usage(format!("frames = '{pattern}' is not a valid pattern: {e}")))?;
     let mut paths: Vec<PathBuf> = Vec::new();
@@ -215,7 +214,7 @@ impl FrameSource {
     /// Whether the file holds other frames too (a parquet long table, a
     /// NetCDF time dimension): such a file is hashed and checked once,
     /// not once per frame.
-    pub fn shares_file(&self) -> bool {
+    pub(crate) fn shares_file(&self) -> bool {
         !matches!(self, FrameSource::File(_))
     }
 }
@@ -224,7 +223,7 @@ impl FrameSource {
 type ArrayReader = fn(&[u8], &Path, &ColumnMap) -> Result<grid::RawRows>;
 
 /// The size and SHA-256 of a frame file, when the frame came from one.
-pub type FileHash = Option<(u64, String)>;
+pub(crate) type FileHash = Option<(u64, String)>;
 
 thread_local! {
     /// The read buffer of text frames, reused from frame to frame on each
@@ -303,7 +302,7 @@ pub fn read_frame(spec: &InputSpec, source: &FrameSource) -> Result<Field> {
 /// `read_frame`, and with `hash` the size and SHA-256 of the frame's file
 /// (text frames; parquet files are hashed once per file by the caller),
 /// taken from the very bytes that were parsed: each file is read once.
-pub fn read_frame_hashed(
+pub(crate) fn read_frame_hashed(
     spec: &InputSpec,
     source: &FrameSource,
     hash: bool,
@@ -350,7 +349,7 @@ pub fn read_grid(spec: &InputSpec, source: &FrameSource) -> Result<Grid> {
 
 /// Time and phase of frames, keyed by frame name (file stem or parquet id).
 #[derive(Debug, Clone, Default)]
-pub struct FrameTable {
+pub(crate) struct FrameTable {
     pub rows: Vec<(String, Option<f64>, Option<f64>)>,
     /// The run's frequency, when the table has a `frequency_hz` or a
     /// `period_s` column.
@@ -359,7 +358,7 @@ pub struct FrameTable {
 
 /// A frequency given in the frame table (a column with a value per frame).
 #[derive(Debug, Clone, PartialEq)]
-pub struct TableFrequency {
+pub(crate) struct TableFrequency {
     /// `frequency_hz` or `period_s`.
     pub column: &'static str,
     /// Mean over the rows of the per-row frequency (Hz).
@@ -373,7 +372,7 @@ impl FrameTable {
     /// Time and phase of frame `name`: the row with that exact name, else
     /// (for parquet frame ids) the row whose name is the same integer, so
     /// `007` in a table matches frame id `7`.
-    pub fn lookup(&self, name: &str) -> Option<(Option<f64>, Option<f64>)> {
+    pub(crate) fn lookup(&self, name: &str) -> Option<(Option<f64>, Option<f64>)> {
         let found = self.rows.iter().find(|r| r.0 == name).or_else(|| {
             let id: i64 = name.trim().parse().ok()?;
             self.rows
@@ -387,21 +386,21 @@ impl FrameTable {
 /// Reads a frame table: CSV with `frame` and `time_s` and/or `phase_deg`
 /// (phase kept as given), optionally `frequency_hz` or `period_s`. Errors name the line and value; a duplicate frame
 /// names both lines.
-pub fn read_frame_table(path: &Path) -> Result<FrameTable> {
+pub(crate) fn read_frame_table(path: &Path) -> Result<FrameTable> {
     let bytes = text::read_bytes(path)?;
     frame_table::parse_frame_table(&bytes, path)
 }
 
 /// Writes `table` as parquet (F64 → Float64, I64 → Int64, Str → String);
 /// atomic like `write_csv`.
-pub fn write_parquet(path: &Path, table: &Table) -> Result<()> {
+pub(crate) fn write_parquet(path: &Path, table: &Table) -> Result<()> {
     parquet::write_table(path, table)
 }
 
 /// Reads any table curlew writes or reads (csv, tsv, text, parquet) into
 /// F64 columns where every cell is a number or empty, else Str (for
 /// `inspect` and tests).
-pub fn read_table(path: &Path, format: Format, skip_lines: usize) -> Result<Table> {
+pub(crate) fn read_table(path: &Path, format: Format, skip_lines: usize) -> Result<Table> {
     if format == Format::Parquet {
         return parquet::read_table(path);
     }
@@ -442,7 +441,7 @@ pub fn read_table(path: &Path, format: Format, skip_lines: usize) -> Result<Tabl
 }
 
 /// A node table as a `Table` with `x`, `y` first, then its columns.
-pub fn node_table_to_table(nt: &NodeTable) -> Table {
+pub(crate) fn node_table_to_table(nt: &NodeTable) -> Table {
     let mut t = Table::new();
     let g = nt.grid;
     let mut xs = Vec::with_capacity(g.len());
@@ -462,7 +461,7 @@ pub fn node_table_to_table(nt: &NodeTable) -> Table {
 }
 
 /// `p` if absolute, else `base/p`.
-pub fn resolve_path(base: &Path, p: &str) -> PathBuf {
+pub(crate) fn resolve_path(base: &Path, p: &str) -> PathBuf {
     let pb = PathBuf::from(p);
     if pb.is_absolute() {
         pb

@@ -24,7 +24,7 @@ fn chunks(s: &str) -> impl Iterator<Item = (bool, &str)> {
 }
 
 /// Compares two names in natural order.
-pub fn compare(a: &str, b: &str) -> Ordering {
+pub(crate) fn compare(a: &str, b: &str) -> Ordering {
     let mut ia = chunks(a);
     let mut ib = chunks(b);
     loop {

@@ -105,13 +105,13 @@ fn time_dim(ds: &Dataset, cols: &ColumnMap) -> Option<usize> {
 
 /// The number of frames of `path` when it has a time dimension (`None`: a
 /// file of one frame). Reads the header only.
-pub fn frame_count(path: &Path, cols: &ColumnMap) -> Result<Option<usize>> {
+pub(crate) fn frame_count(path: &Path, cols: &ColumnMap) -> Result<Option<usize>> {
     let h = header(path)?;
     Ok(time_dim(&h.0, cols).map(|t| h.0.dims[t].1))
 }
 
 /// The names of the `n` frames of the file of stem `stem` (module doc).
-pub fn frame_names(stem: &str, n: usize) -> Vec<String> {
+pub(crate) fn frame_names(stem: &str, n: usize) -> Vec<String> {
     if n == 1 {
         return vec![stem.to_string()];
     }
@@ -120,7 +120,7 @@ pub fn frame_names(stem: &str, n: usize) -> Vec<String> {
 }
 
 /// The rows of frame `index` of the time dimension of `path`.
-pub fn rows(path: &Path, cols: &ColumnMap, index: usize) -> Result<RawRows> {
+pub(crate) fn rows(path: &Path, cols: &ColumnMap, index: usize) -> Result<RawRows> {
     let h = header(path)?;
     let (ds, layout) = (&h.0, &h.1);
     let t = time_dim(ds, cols).ok_or_else(|| {

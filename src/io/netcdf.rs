@@ -111,14 +111,14 @@ impl Dataset {
         self.dims.iter().position(|(n, _)| n == name)
     }
     /// The shape of a variable (lengths of its dimensions).
-    pub fn shape(&self, v: &Var) -> Vec<usize> {
+    pub(crate) fn shape(&self, v: &Var) -> Vec<usize> {
         v.dims.iter().map(|&d| self.dims[d].1).collect()
     }
 
     /// Encodes the dataset (version 2, fixed-size variables only). Panics
     /// if a variable's length is not the product of its dimensions (a
     /// programming error).
-    pub fn to_bytes(&self) -> Vec<u8> {
+    pub(crate) fn to_bytes(&self) -> Vec<u8> {
         assert!(
             self.unlimited.is_none(),
             "the writer has no record dimension"
@@ -218,7 +218,7 @@ impl Dataset {
     /// `file_len` bytes): the dataset without values, and where each
     /// variable's values lie. A prefix too short is an error saying the
     /// header is truncated.
-    pub fn header(bytes: &[u8], file_len: usize) -> Result<(Dataset, Vec<Layout>), String> {
+    pub(crate) fn header(bytes: &[u8], file_len: usize) -> Result<(Dataset, Vec<Layout>), String> {
         let mut r = Reader { b: bytes, p: 0 };
         let magic = r
             .take(4)
@@ -343,7 +343,7 @@ impl Dataset {
 
 /// Where a variable's values lie in the file.
 #[derive(Debug, Clone, Copy, PartialEq)]
-pub struct Layout {
+pub(crate) struct Layout {
     ty: u32,
     size: usize,
     begin: usize,
@@ -357,20 +357,20 @@ pub struct Layout {
 impl Layout {
     /// The bytes of record `rec` (of the whole variable when fixed: `rec`
     /// 0).
-    pub fn range(&self, rec: usize) -> std::ops::Range<usize> {
+    pub(crate) fn range(&self, rec: usize) -> std::ops::Range<usize> {
         let at = self.begin + rec * self.stride;
         at..at + self.per * self.size
     }
 
     /// The bytes of values `first..first + n` of a fixed variable (in
     /// row-major order), or of record `rec`'s values `first..first + n`.
-    pub fn values(&self, rec: usize, first: usize, n: usize) -> std::ops::Range<usize> {
+    pub(crate) fn values(&self, rec: usize, first: usize, n: usize) -> std::ops::Range<usize> {
         let at = self.begin + rec * self.stride + first * self.size;
         at..at + n * self.size
     }
 
     /// Decodes raw bytes of this variable's type into `out`.
-    pub fn decode(&self, raw: &[u8], out: &mut Vec<f64>) {
+    pub(crate) fn decode(&self, raw: &[u8], out: &mut Vec<f64>) {
         decode(self.ty, raw, out)
     }
 }

@@ -38,7 +38,7 @@ pub struct Orientation {
 
 impl Orientation {
     /// Maps the rows of one frame into curlew's frame (y up, v along +y).
-    pub fn apply(&self, rows: &mut RawRows) {
+    pub(crate) fn apply(&self, rows: &mut RawRows) {
         // `0.0 - a` is `-a` exactly, except that both zeros give +0: a
         // written "0" then reads the same both ways (no "-0" in outputs).
         if self.y_down {
@@ -51,7 +51,7 @@ impl Orientation {
 
     /// Maps one position given in the files' coordinates (a mask polygon's
     /// vertex, say) into curlew's frame, still in the file's unit.
-    pub fn position(&self, x: f64, y: f64) -> (f64, f64) {
+    pub(crate) fn position(&self, x: f64, y: f64) -> (f64, f64) {
         (x, if self.y_down { 0.0 - y } else { y })
     }
 

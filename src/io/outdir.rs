@@ -95,7 +95,7 @@ fn alive(pid: u32) -> bool {
 }
 
 /// True when `dir` is a previous curlew output (see the module rules).
-pub fn is_curlew_output(dir: &Path) -> bool {
+pub(crate) fn is_curlew_output(dir: &Path) -> bool {
     let synth = || {
         let mut head = [0u8; 20];
         dir.join("pipeline.toml").is_file()
@@ -109,7 +109,7 @@ pub fn is_curlew_output(dir: &Path) -> bool {
 
 /// `p` made absolute with `.` and `..` resolved and symbolic links
 /// followed as far as the path exists (the rest appended as written).
-pub fn normalise(p: &Path) -> PathBuf {
+pub(crate) fn normalise(p: &Path) -> PathBuf {
     let abs = if p.is_absolute() {
         p.to_path_buf()
     } else {
@@ -224,7 +224,7 @@ impl OutputDir {
     /// Checks the rules of the module docs against `inputs` (files or
     /// folders the command reads), cleans leftovers, and creates the
     /// temporary folder beside `final_path`.
-    pub fn begin_over(final_path: &Path, inputs: &[PathBuf]) -> Result<OutputDir> {
+    pub(crate) fn begin_over(final_path: &Path, inputs: &[PathBuf]) -> Result<OutputDir> {
         install_handler();
         let name = final_path
             .file_name()

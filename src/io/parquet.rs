@@ -23,6 +23,7 @@ use std::sync::{Arc, Mutex, OnceLock};
 use polars::prelude::*;
 
 use crate::error::{Error, Result, WithPath};
+#[cfg(test)]
 use crate::field::{Field, MASKED};
 
 use super::grid::RawRows;
@@ -287,6 +288,7 @@ pub(crate) fn frame_ids(path: &Path, frame_col: &str) -> Result<Vec<i64>> {
     Ok(index(path, frame_col)?.frames.keys().copied().collect())
 }
 
+#[cfg(test)]
 fn frame_df(id: i64, f: &Field) -> PolarsResult<DataFrame> {
     let g = f.grid;
     let mut cols: [Vec<f64>; 6] = Default::default();
@@ -330,7 +332,8 @@ fn frame_df(id: i64, f: &Field) -> PolarsResult<DataFrame> {
 /// without a value is written as NaN (read back as invalid). Frames are
 /// encoded one at a time, so memory holds one frame. Atomic: written to a
 /// temporary sibling and renamed.
-pub fn write_frames_parquet(path: &Path, frames: &[(i64, &Field)]) -> Result<()> {
+#[cfg(test)]
+pub(crate) fn write_frames_parquet(path: &Path, frames: &[(i64, &Field)]) -> Result<()> {
     let Some(&(id0, f0)) = frames.first() else {
         return Err(Error::data("no frames to write").with_path(path));
     };

@@ -3,6 +3,7 @@
 
 use std::fs;
 
+use super::parquet::write_frames_parquet;
 use super::tests::*;
 use super::*;
 use crate::field::{FILLED, VALID};

@@ -338,7 +338,7 @@ const CLIP: usize = 60;
 /// Text from a file as a message shows it: control characters escaped
 /// (a stray CR prints as `\r`), clipped to `CLIP` characters with the
 /// length of the rest.
-pub fn clip(text: &str) -> String {
+pub(crate) fn clip(text: &str) -> String {
     let mut out = String::new();
     for (n, c) in text.chars().enumerate() {
         if n == CLIP {

@@ -39,7 +39,7 @@ pub struct Stated {
 
 impl Stated {
     /// `'x [mm]'`, for messages.
-    pub fn cell(&self) -> String {
+    pub(crate) fn cell(&self) -> String {
         format!("'{} [{}]'", self.column, self.written)
     }
 }
@@ -64,7 +64,7 @@ pub struct Settled {
 }
 
 /// `x [mm]` → (`x`, `mm`); `u(m/s)` → (`u`, `m/s`); `x` → (`x`, none).
-pub fn split_name(cell: &str) -> (&str, Option<&str>) {
+pub(crate) fn split_name(cell: &str) -> (&str, Option<&str>) {
     let c = cell.trim();
     for (open, close) in [('[', ']'), ('(', ')')] {
         if let (Some(stripped), Some(p)) = (c.strip_suffix(close), c.rfind(open)) {
@@ -78,7 +78,7 @@ pub fn split_name(cell: &str) -> (&str, Option<&str>) {
 }
 
 /// A cell of a units line as a unit: `[mm]` or `mm` → `mm`.
-pub fn unit_cell(c: &str) -> String {
+pub(crate) fn unit_cell(c: &str) -> String {
     bracketed(c).unwrap_or(c.trim()).to_string()
 }
 
@@ -92,7 +92,7 @@ fn bracketed(cell: &str) -> Option<&str> {
 }
 
 /// The canonical length unit of a header's spelling.
-pub fn length_unit(u: &str) -> Option<&'static str> {
+pub(crate) fn length_unit(u: &str) -> Option<&'static str> {
     match u.trim() {
         "m" => Some("m"),
         "mm" => Some("mm"),
@@ -103,7 +103,7 @@ pub fn length_unit(u: &str) -> Option<&'static str> {
 
 /// The canonical velocity unit of a header's spelling (white space
 /// ignored: `m s-1`, `m s^-1`, `m·s⁻¹`).
-pub fn velocity_unit(u: &str) -> Option<&'static str> {
+pub(crate) fn velocity_unit(u: &str) -> Option<&'static str> {
     let c: String = u.chars().filter(|c| !c.is_whitespace()).collect();
     let per_s = |base: &str| {
         [
@@ -127,7 +127,7 @@ pub fn velocity_unit(u: &str) -> Option<&'static str> {
 /// stated. A whitespace header's bracket cells (`[mm]`, or `(m` `s-1)`)
 /// join the name before them. A cell equal to one of `keep` (a name the
 /// pipeline maps in full, like `x [mm]`) stays whole.
-pub fn strip(names: &mut Vec<String>, keep: &[&str]) -> Vec<Option<String>> {
+pub(crate) fn strip(names: &mut Vec<String>, keep: &[&str]) -> Vec<Option<String>> {
     let mut out: Vec<(String, Option<String>)> = Vec::with_capacity(names.len());
     let mut cells = std::mem::take(names).into_iter();
     while let Some(cell) = cells.next() {
@@ -170,7 +170,7 @@ pub fn strip(names: &mut Vec<String>, keep: &[&str]) -> Vec<Option<String>> {
 }
 
 /// The mapped column names of `cols`, for `strip`'s `keep`.
-pub fn mapped(cols: &ColumnMap) -> Vec<&str> {
+pub(crate) fn mapped(cols: &ColumnMap) -> Vec<&str> {
     let mut v = vec![
         cols.x.as_str(),
         cols.y.as_str(),
@@ -188,7 +188,7 @@ pub fn mapped(cols: &ColumnMap) -> Vec<&str> {
 
 /// Whether `cells` (the line after the header) is a units line: as many
 /// cells as names, none a number, and x's and u's cells known units.
-pub fn is_units_line(cells: &[String], names: &[String], cols: &ColumnMap) -> bool {
+pub(crate) fn is_units_line(cells: &[String], names: &[String], cols: &ColumnMap) -> bool {
     let at = |name: &str| {
         names
             .iter()
@@ -203,7 +203,7 @@ pub fn is_units_line(cells: &[String], names: &[String], cols: &ColumnMap) -> bo
 
 /// The units of the mapped columns written on `line`, checked to be known
 /// and to agree (x with y; u, v, sigma_u, sigma_v with each other).
-pub fn collect(
+pub(crate) fn collect(
     names: &[String],
     units: &[Option<String>],
     cols: &ColumnMap,
@@ -288,7 +288,7 @@ fn si(unit: &str) -> Option<f64> {
 
 /// The length and velocity scales (SI per file unit) of a frame whose
 /// header states `h`, under the rules of the module doc.
-pub fn scales(spec: &InputSpec, h: &HeaderUnits, path: &Path) -> Result<(f64, f64)> {
+pub(crate) fn scales(spec: &InputSpec, h: &HeaderUnits, path: &Path) -> Result<(f64, f64)> {
     let settled = spec.units_from_header.as_ref();
     let one = |stated: &Option<String>,
                by_first: Option<&Stated>,

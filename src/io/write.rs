@@ -63,7 +63,7 @@ pub(crate) fn write_error(path: &Path, e: std::io::Error) -> Error {
 /// Calls `write` with a temporary sibling path of `path`, then renames the
 /// temporary onto `path`. On any error the temporary is removed and `path`
 /// untouched. For writers that open the file themselves (figures).
-pub fn atomic_path(path: &Path, write: impl FnOnce(&Path) -> Result<()>) -> Result<()> {
+pub(crate) fn atomic_path(path: &Path, write: impl FnOnce(&Path) -> Result<()>) -> Result<()> {
     let parent = parent_of(path);
     fs::create_dir_all(parent).map_err(|e| write_error(parent, e))?;
     let tmp = sibling(path, "partial");
@@ -78,7 +78,7 @@ pub fn atomic_path(path: &Path, write: impl FnOnce(&Path) -> Result<()>) -> Resu
 
 /// Writes a file through `write` into a temporary sibling, then renames it
 /// onto `path` (see `atomic_path`).
-pub fn atomic_file(path: &Path, write: impl FnOnce(&mut File) -> Result<()>) -> Result<()> {
+pub(crate) fn atomic_file(path: &Path, write: impl FnOnce(&mut File) -> Result<()>) -> Result<()> {
     atomic_path(path, |tmp| {
         let mut f = File::create(tmp).map_err(|e| write_error(tmp, e))?;
         write(&mut f)?;
@@ -87,7 +87,7 @@ pub fn atomic_file(path: &Path, write: impl FnOnce(&mut File) -> Result<()>) -> 
 }
 
 /// Writes `bytes` to `path` atomically.
-pub fn atomic_bytes(path: &Path, bytes: &[u8]) -> Result<()> {
+pub(crate) fn atomic_bytes(path: &Path, bytes: &[u8]) -> Result<()> {
     atomic_file(path, |f| {
         f.write_all(bytes).map_err(|e| write_error(path, e))
     })
@@ -118,7 +118,7 @@ fn push_str(out: &mut Vec<u8>, s: &str) {
 
 /// Writes `header` and `rows` (cells as text, quoted where needed) as CSV;
 /// atomic (see module docs).
-pub fn write_csv_rows<S: AsRef<str>>(
+pub(crate) fn write_csv_rows<S: AsRef<str>>(
     path: &Path,
     header: &[&str],
     rows: impl IntoIterator<Item = Vec<S>>,
@@ -163,7 +163,7 @@ fn csv_lines<'h>(
 }
 
 /// Writes `table` as CSV with a header line; atomic (see module docs).
-pub fn write_csv(path: &Path, table: &Table) -> Result<()> {
+pub(crate) fn write_csv(path: &Path, table: &Table) -> Result<()> {
     let names = table.columns.iter().map(|(n, _)| n.as_str());
     csv_lines(path, names, |line, w| {
         for r in 0..table.n_rows() {
@@ -189,7 +189,7 @@ pub fn write_csv(path: &Path, table: &Table) -> Result<()> {
 
 /// Size in bytes and SHA-256 (lower-case hex) of a file, read in 64 KiB
 /// blocks.
-pub fn hash_file(path: &Path) -> Result<(u64, String)> {
+pub(crate) fn hash_file(path: &Path) -> Result<(u64, String)> {
     let mut f = File::open(path).with_path(path)?;
     let mut h = Sha256::new();
     let mut buf = vec![0u8; 1 << 16];
@@ -210,7 +210,7 @@ pub fn hash_file(path: &Path) -> Result<(u64, String)> {
 
 /// The size and SHA-256 (lower-case hex) of bytes already in memory: the
 /// same as `hash_file` of the file they were read from.
-pub fn hash_bytes(bytes: &[u8]) -> (u64, String) {
+pub(crate) fn hash_bytes(bytes: &[u8]) -> (u64, String) {
     let hex: String = Sha256::digest(bytes)
         .iter()
         .map(|b| format!("{b:02x}"))

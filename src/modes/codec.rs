@@ -32,7 +32,7 @@ fn put(out: &mut Vec<u8>, v: &[f64]) {
 
 impl ModeSketch {
     /// The sketch as bytes (see the module doc).
-    pub fn to_bytes(&self) -> Vec<u8> {
+    pub(crate) fn to_bytes(&self) -> Vec<u8> {
         let h = Header {
             params: self.params.clone(),
             nodes: self.nodes,
@@ -59,7 +59,7 @@ impl ModeSketch {
     }
 
     /// Reads `to_bytes` back; a truncated or foreign file is an error.
-    pub fn from_bytes(b: &[u8]) -> Result<ModeSketch> {
+    pub(crate) fn from_bytes(b: &[u8]) -> Result<ModeSketch> {
         let (mut r, h): (_, Header) = crate::io::blob::BlobReader::open(
             b,
             MAGIC,

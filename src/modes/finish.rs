@@ -160,7 +160,7 @@ fn centred_corange(s: &ModeSketch, psi: &DMatrix<f64>) -> DMatrix<f64> {
 /// lags before the autocorrelation first drops to zero or below (common
 /// practice) and at most `max_lag`. The series has zero mean by
 /// construction. Clamped to [1, N]; N for a series of zeros.
-pub fn n_eff_variance(a: &[f64], max_lag: usize) -> f64 {
+pub(crate) fn n_eff_variance(a: &[f64], max_lag: usize) -> f64 {
     let n = a.len();
     let c0: f64 = a.iter().map(|x| x * x).sum();
     if n < 3 || c0 <= 0.0 {
@@ -181,7 +181,7 @@ pub fn n_eff_variance(a: &[f64], max_lag: usize) -> f64 {
 /// North et al. (1982, Mon. Weather Rev. 110:699) rule of thumb: mode j is
 /// not separated when a neighbouring eigenvalue lies within δλ_j of λ_j.
 /// The last mode's lower neighbour is unknown and not judged.
-pub fn separation(energy: &[f64], unc: &[f64]) -> Vec<bool> {
+pub(crate) fn separation(energy: &[f64], unc: &[f64]) -> Vec<bool> {
     (0..energy.len())
         .map(|j| {
             let near = |i: usize| (energy[j] - energy[i]).abs() < unc[j].max(unc[i]);

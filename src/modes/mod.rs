@@ -14,11 +14,11 @@
 //! writes the outputs. Configured by `[modes]` (docs/modes.md); off unless
 //! asked, since the sketch costs d × (3k + 1) numbers of memory.
 
-pub mod codec;
+pub(crate) mod codec;
 pub mod finish;
-pub mod output;
+pub(crate) mod output;
 pub mod phase;
-pub mod sketch;
+pub(crate) mod sketch;
 #[cfg(test)]
 mod tests;
 
@@ -60,7 +60,11 @@ impl Default for Params {
 impl ModeSketch {
     /// Adds one frame's velocity as the statistics see it (smoothed when
     /// smoothing is on), with its propagated standard uncertainty.
-    pub fn push_frame(&mut self, meta: &crate::field::FrameMeta, d: &crate::derive::Derived) {
+    pub(crate) fn push_frame(
+        &mut self,
+        meta: &crate::field::FrameMeta,
+        d: &crate::derive::Derived,
+    ) {
         let flat = |a: &ndarray::Array2<f64>| -> Vec<f64> { a.iter().copied().collect() };
         let (u, v, su, sv) = (flat(&d.u), flat(&d.v), flat(&d.u_unc), flat(&d.v_unc));
         self.push(meta.index as u64, meta.time_s, [&u, &v], [&su, &sv]);
@@ -69,4 +73,4 @@ impl ModeSketch {
 
 /// A run's finished POD, its phase estimate (with `phase = true`) and
 /// warnings.
-pub type RunPod = (Pod, Option<phase::PhaseEstimate>, Vec<String>);
+pub(crate) type RunPod = (Pod, Option<phase::PhaseEstimate>, Vec<String>);

@@ -23,7 +23,7 @@ use crate::field::Grid;
 use crate::io::{self, Table, Values};
 
 /// The modes table (see the module doc).
-pub fn modes_table(pod: &Pod, grid: &Grid) -> Table {
+pub(crate) fn modes_table(pod: &Pod, grid: &Grid) -> Table {
     let n = grid.len();
     let mut t = Table::new();
     let (mut x, mut y) = (Vec::with_capacity(n), Vec::with_capacity(n));
@@ -45,7 +45,7 @@ pub fn modes_table(pod: &Pod, grid: &Grid) -> Table {
 }
 
 /// The energy table (see the module doc).
-pub fn energy_table(pod: &Pod) -> Table {
+pub(crate) fn energy_table(pod: &Pod) -> Table {
     let r = pod.energy.len();
     let tot = pod.total_energy;
     let mut cum = 0.0;
@@ -88,7 +88,7 @@ pub fn energy_table(pod: &Pod) -> Table {
 
 /// The coefficients table (see the module doc); `names` gives a frame's
 /// name from its index in the run.
-pub fn coefficients_table(
+pub(crate) fn coefficients_table(
     pod: &Pod,
     names: &dyn Fn(u64) -> String,
     phase: Option<&PhaseEstimate>,
@@ -125,7 +125,7 @@ pub fn coefficients_table(
 }
 
 /// Writes the three POD tables into `dir` (the run's folder).
-pub fn write_tables(
+pub(crate) fn write_tables(
     dir: &Path,
     pod: &Pod,
     grid: &Grid,

@@ -40,12 +40,12 @@ pub struct PhaseEstimate {
 }
 
 /// Thresholds of the pair checks (see the module doc).
-pub const MIN_ENERGY_RATIO: f64 = 0.5;
-pub const MAX_RADIUS_CV: f64 = 0.3;
-pub const MAX_HOLE_FRACTION: f64 = 0.05;
+pub(crate) const MIN_ENERGY_RATIO: f64 = 0.5;
+pub(crate) const MAX_RADIUS_CV: f64 = 0.3;
+pub(crate) const MAX_HOLE_FRACTION: f64 = 0.05;
 
 /// Estimates every frame's phase from modes 1 and 2.
-pub fn estimate(pod: &Pod) -> Result<PhaseEstimate> {
+pub(crate) fn estimate(pod: &Pod) -> Result<PhaseEstimate> {
     if pod.energy.len() < 2 || pod.energy[1].partial_cmp(&0.0) != Some(std::cmp::Ordering::Greater)
     {
         return Err(Error::data(
@@ -98,7 +98,7 @@ pub fn estimate(pod: &Pod) -> Result<PhaseEstimate> {
 
 /// Writes the phases as a frame table (`frame, phase_deg`, and `time_s`
 /// when every frame has a time), readable by `[[run]] frame_table`.
-pub fn write_frame_table(
+pub(crate) fn write_frame_table(
     path: &Path,
     pod: &Pod,
     est: &PhaseEstimate,

@@ -78,14 +78,14 @@ pub struct ModeSketch {
 }
 
 /// The test-matrix row of frame `index`: k standard normal numbers.
-pub fn omega_row(seed: u64, index: u64, k: usize) -> Vec<f64> {
+pub(crate) fn omega_row(seed: u64, index: u64, k: usize) -> Vec<f64> {
     let mut r = ChaCha8Rng::seed_from_u64(seed);
     r.set_stream(index);
     (0..k).map(|_| StandardNormal.sample(&mut r)).collect()
 }
 
 /// The co-range test matrix Ψ (l × d), from its own stream of the seed.
-pub fn psi_matrix(seed: u64, l: usize, d: usize) -> Vec<f64> {
+pub(crate) fn psi_matrix(seed: u64, l: usize, d: usize) -> Vec<f64> {
     let mut r = ChaCha8Rng::seed_from_u64(seed);
     r.set_stream(u64::MAX);
     (0..l * d).map(|_| StandardNormal.sample(&mut r)).collect()
@@ -120,12 +120,12 @@ impl ModeSketch {
     }
 
     /// An empty sketch of the same shape, sharing Ψ (for a chunk).
-    pub fn empty_like(&self) -> ModeSketch {
+    pub(crate) fn empty_like(&self) -> ModeSketch {
         ModeSketch::with_psi(&self.params, self.nodes, self.psi.clone())
     }
 
     /// Frames pushed.
-    pub fn n_frames(&self) -> usize {
+    pub(crate) fn n_frames(&self) -> usize {
         self.frames.len()
     }
 
@@ -178,7 +178,7 @@ impl ModeSketch {
     }
 
     /// Adds the later part `b` (its frames follow this sketch's frames).
-    pub fn merge(&mut self, b: ModeSketch) {
+    pub(crate) fn merge(&mut self, b: ModeSketch) {
         let (n, k) = (self.nodes, self.k);
         for node in 0..n {
             let (ca, cb) = (self.count[node] as f64, b.count[node] as f64);
@@ -215,7 +215,7 @@ impl ModeSketch {
     }
 
     /// Checks that `b` is a sketch of the same kind (shards of one pipeline).
-    pub fn compatible(&self, b: &ModeSketch) -> Result<()> {
+    pub(crate) fn compatible(&self, b: &ModeSketch) -> Result<()> {
         if self.params != b.params || self.nodes != b.nodes {
             return Err(Error::data(format!(
                 "mode sketches differ (parameters {:?} on {} nodes vs {:?} on {} nodes)",

@@ -18,15 +18,15 @@ use crate::field::Grid;
 use super::{RawPipeline, RunPlan};
 
 /// Largest Gaussian smoothing sigma, in pitches (stencil radius 4 sigma).
-pub const MAX_SIGMA: f64 = 64.0;
+pub(crate) const MAX_SIGMA: f64 = 64.0;
 /// Largest fixed PLS smoothing parameter (its kernel reach is capped at
 /// 256 nodes from about s = 1e7 anyway).
-pub const MAX_PLS_S: f64 = 1e8;
+pub(crate) const MAX_PLS_S: f64 = 1e8;
 /// Largest colour-scale limit for vorticity, 1/s.
-pub const MAX_VORTICITY_LIMIT: f64 = 1e12;
+pub(crate) const MAX_VORTICITY_LIMIT: f64 = 1e12;
 
 /// Checks the values whose resolution itself would cost without bound.
-pub fn check_raw(raw: &RawPipeline) -> Result<()> {
+pub(crate) fn check_raw(raw: &RawPipeline) -> Result<()> {
     let cap = |key: &str, v: Option<f64>, max: f64, unit: &str| -> Result<()> {
         match v {
             Some(x) if x.is_finite() && x.abs() > max => Err(Error::usage(format!(

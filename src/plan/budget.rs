@@ -39,7 +39,7 @@ pub struct RawBudget {
 }
 
 /// The resolved budget, or `None` when it is off.
-pub fn resolve_budget(raw: Option<&RawBudget>) -> Result<Option<budget::Params>> {
+pub(crate) fn resolve_budget(raw: Option<&RawBudget>) -> Result<Option<budget::Params>> {
     let Some(r) = raw else { return Ok(None) };
     if r.enabled == Some(false) {
         return Ok(None);

@@ -74,7 +74,7 @@ fn parse_scheme(s: &str, key: &str, ls: DiffScheme) -> Result<Option<DiffScheme>
     })
 }
 
-pub fn resolve_derive(
+pub(crate) fn resolve_derive(
     d: &RawDerivatives,
     u: &RawUncertainty,
     smoother: Smoother,
@@ -213,11 +213,9 @@ pub fn resolve_derive(
 #[cfg(test)]
 mod tests {
     use super::*;
-    use std::path::PathBuf;
 
     fn ctx() -> ResolveCtx {
         ResolveCtx {
-            base_dir: PathBuf::from("."),
             velocity_scale: 1.0,
             px_velocity: None,
             length_scale: 1.0,

@@ -29,7 +29,7 @@ impl RunPlan {
     }
 
     /// `describe_stages` as one JSON object, a stage's lines joined by ", ".
-    pub fn describe_json(&self) -> serde_json::Value {
+    pub(crate) fn describe_json(&self) -> serde_json::Value {
         let mut m = serde_json::Map::new();
         for (stage, text) in self.describe_stages() {
             match m.get_mut(stage) {
@@ -48,7 +48,7 @@ impl RunPlan {
     /// The resolved stage parameters as typed JSON objects, every value in
     /// SI (m, s, m/s; fractions as fractions): the manifest's `resolved`.
     /// Non-finite numbers become `null`.
-    pub fn resolved_json(&self) -> Result<serde_json::Value> {
+    pub(crate) fn resolved_json(&self) -> Result<serde_json::Value> {
         fn v<T: serde::Serialize>(key: &str, x: &T) -> Result<serde_json::Value> {
             serde_json::to_value(x)
                 .map_err(|e| Error::data(format!("manifest: resolved {key}: {e}")))

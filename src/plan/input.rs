@@ -55,7 +55,7 @@ fn pick<T: Clone>(over: &Option<T>, base: &Option<T>) -> Option<T> {
 
 impl RawInput {
     /// `over` (a run's `[run.input]`) on top of `self` (the campaign's).
-    pub fn overridden_by(&self, over: &RawInput) -> RawInput {
+    pub(crate) fn overridden_by(&self, over: &RawInput) -> RawInput {
         let cols = match (&self.columns, &over.columns) {
             (Some(b), Some(o)) => Some(RawColumns {
                 x: pick(&o.x, &b.x),
@@ -203,7 +203,7 @@ impl RawInput {
 
     /// The warning for positions in pixels with no stated y direction:
     /// pixel positions usually come from images, whose y grows downwards.
-    pub fn orientation_warning(&self, what: &str) -> Option<String> {
+    pub(crate) fn orientation_warning(&self, what: &str) -> Option<String> {
         (self.length_unit.as_deref() == Some("px") && self.y_axis.is_none()).then(|| {
             format!(
                 "{what}: positions are in pixels but [input] y_axis is not given; y was assumed \
@@ -215,7 +215,7 @@ impl RawInput {
 
     /// Metres per second per pixel of displacement, when the calibration
     /// (pixel size and pulse separation) is known.
-    pub fn px_velocity(&self) -> Option<f64> {
+    pub(crate) fn px_velocity(&self) -> Option<f64> {
         match (self.pixel_size, self.pulse_separation) {
             (Some(p), Some(t)) if p > 0.0 && t > 0.0 => Some(p / t),
             _ => None,

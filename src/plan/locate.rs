@@ -10,7 +10,7 @@
 //! found: no line (the message still names the key).
 
 /// The 1-based line the message's key is written on, if found.
-pub fn line_of(text: &str, message: &str) -> Option<usize> {
+pub(crate) fn line_of(text: &str, message: &str) -> Option<usize> {
     let open = message.find('[')?;
     let close = open + message[open..].find(']')?;
     let section = message[open + 1..close].trim_matches(['[', ']']).trim();

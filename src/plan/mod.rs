@@ -9,23 +9,23 @@
 //! `statistics`, `report`) with its raw struct and its `resolve`.
 
 pub mod bounds;
-pub mod budget;
-pub mod derivatives;
+pub(crate) mod budget;
+pub(crate) mod derivatives;
 mod describe;
 pub mod input;
 mod locate;
-pub mod modes;
-pub mod report;
-pub mod statistics;
-pub mod validation;
-pub mod vortices;
+pub(crate) mod modes;
+pub(crate) mod report;
+pub(crate) mod statistics;
+pub(crate) mod validation;
+pub(crate) mod vortices;
 
 use std::path::{Path, PathBuf};
 
 use serde::{Deserialize, Serialize};
 
 use crate::error::{Error, Result};
-pub use crate::io::resolve_path;
+pub(crate) use crate::io::resolve_path;
 use crate::io::InputSpec;
 use crate::stencil::smooth::Smoother;
 use crate::{derive, fill, plot, stats, validate};
@@ -104,9 +104,7 @@ pub struct RawRun {
 
 /// What a section's resolution may depend on, for one run.
 #[derive(Debug, Clone)]
-pub struct ResolveCtx {
-    /// The folder of the pipeline file (relative paths resolve against it).
-    pub base_dir: PathBuf,
+pub(crate) struct ResolveCtx {
     /// (m/s) per unit of the input velocity.
     pub velocity_scale: f64,
     /// (m/s) per pixel of displacement, when the calibration is known.
@@ -246,7 +244,6 @@ impl Plan {
                 spec.units_from_header = Some(st);
             }
             let ctx = ResolveCtx {
-                base_dir: base_dir.to_path_buf(),
                 velocity_scale: spec.velocity_scale,
                 px_velocity: raw_input.px_velocity(),
                 length_scale: spec.length_scale,
@@ -310,7 +307,7 @@ impl Plan {
     }
 
     /// The runs named in `ids` (all when empty); error naming an unknown id.
-    pub fn select_runs(&self, ids: &[String]) -> Result<Vec<&RunPlan>> {
+    pub(crate) fn select_runs(&self, ids: &[String]) -> Result<Vec<&RunPlan>> {
         if ids.is_empty() {
             return Ok(self.runs.iter().collect());
         }

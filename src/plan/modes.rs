@@ -32,7 +32,7 @@ pub struct RawModes {
 }
 
 /// Resolves `[modes]`.
-pub fn resolve_modes(raw: &RawModes) -> Result<modes::Params> {
+pub(crate) fn resolve_modes(raw: &RawModes) -> Result<modes::Params> {
     let d = modes::Params::default();
     let phase = raw.phase.unwrap_or(d.phase);
     let m = raw.modes.unwrap_or(d.modes);
@@ -80,7 +80,7 @@ pub struct RawSpectra {
 }
 
 /// Resolves `[spectra]`.
-pub fn resolve_spectra(raw: &RawSpectra) -> Result<crate::spectra::run::Params> {
+pub(crate) fn resolve_spectra(raw: &RawSpectra) -> Result<crate::spectra::run::Params> {
     let d = crate::spectra::run::Params::default();
     if let Some(s) = raw.segment {
         if s < 8 {

@@ -102,7 +102,7 @@ pub struct ComparePlan {
 
 const KNOWN_CONDITIONS: [&str; 4] = ["velocity", "length", "viscosity", "frequency"];
 
-pub fn resolve_conditions(c: &RawConditions, ctx: &ResolveCtx) -> Result<Conditions> {
+pub(crate) fn resolve_conditions(c: &RawConditions, ctx: &ResolveCtx) -> Result<Conditions> {
     let _ = ctx;
     let positive = |name: &str, v: Option<f64>| -> Result<Option<f64>> {
         match v {
@@ -180,7 +180,7 @@ fn slugify(s: &str) -> String {
 /// Without any `[[compare]]` and with at least two runs, one automatic
 /// comparison of the first two runs is planned (vorticity difference,
 /// streamwise-velocity profiles at three stations, k = 2).
-pub fn resolve_compare(c: &[RawCompare], run_ids: &[String]) -> Result<Vec<ComparePlan>> {
+pub(crate) fn resolve_compare(c: &[RawCompare], run_ids: &[String]) -> Result<Vec<ComparePlan>> {
     if c.is_empty() {
         if run_ids.len() < 2 {
             return Ok(Vec::new());
@@ -259,7 +259,7 @@ fn resolve_one(raw: &RawCompare, run_ids: &[String], n: usize) -> Result<Compare
     })
 }
 
-pub fn resolve_figures(f: &RawFigures, ctx: &ResolveCtx) -> Result<plot::Params> {
+pub(crate) fn resolve_figures(f: &RawFigures, ctx: &ResolveCtx) -> Result<plot::Params> {
     let _ = ctx;
     let mut p = plot::Params::default();
     if let Some(n) = f.nondimensional {
@@ -295,11 +295,9 @@ pub fn resolve_figures(f: &RawFigures, ctx: &ResolveCtx) -> Result<plot::Params>
 #[cfg(test)]
 mod tests {
     use super::*;
-    use std::path::PathBuf;
 
     fn ctx() -> ResolveCtx {
         ResolveCtx {
-            base_dir: PathBuf::from("."),
             velocity_scale: 1.0,
             px_velocity: None,
             length_scale: 1.0,

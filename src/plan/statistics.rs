@@ -71,7 +71,11 @@ fn range(
     }
 }
 
-pub fn resolve_stats(s: &RawStatistics, ph: &RawPhase, ctx: &ResolveCtx) -> Result<stats::Params> {
+pub(crate) fn resolve_stats(
+    s: &RawStatistics,
+    ph: &RawPhase,
+    ctx: &ResolveCtx,
+) -> Result<stats::Params> {
     let mut p = stats::Params::default();
     if let Some(b) = ph.bins {
         if b == 0 || b > 3600 {
@@ -163,11 +167,9 @@ pub fn resolve_stats(s: &RawStatistics, ph: &RawPhase, ctx: &ResolveCtx) -> Resu
 #[cfg(test)]
 mod tests {
     use super::*;
-    use std::path::PathBuf;
 
     fn ctx() -> ResolveCtx {
         ResolveCtx {
-            base_dir: PathBuf::from("."),
             velocity_scale: 1.0,
             px_velocity: None,
             length_scale: 1e-3,

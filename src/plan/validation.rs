@@ -166,7 +166,10 @@ fn velocity(
     }
 }
 
-pub fn resolve_validation(raw: &RawValidation, ctx: &ResolveCtx) -> Result<validate::Params> {
+pub(crate) fn resolve_validation(
+    raw: &RawValidation,
+    ctx: &ResolveCtx,
+) -> Result<validate::Params> {
     let mut p = validate::Params::default();
     let m = raw.median.clone().unwrap_or_default();
     let eps = velocity(
@@ -301,7 +304,7 @@ pub fn resolve_validation(raw: &RawValidation, ctx: &ResolveCtx) -> Result<valid
     Ok(p)
 }
 
-pub fn resolve_fill(raw: &RawFill, _ctx: &ResolveCtx) -> Result<fill::Params> {
+pub(crate) fn resolve_fill(raw: &RawFill, _ctx: &ResolveCtx) -> Result<fill::Params> {
     let d = fill::Params::default();
     let method = match raw.method.as_deref().unwrap_or("neighbour-mean") {
         "neighbour-mean" => fill::Method::NeighbourMean,
@@ -337,7 +340,7 @@ pub fn resolve_fill(raw: &RawFill, _ctx: &ResolveCtx) -> Result<fill::Params> {
     })
 }
 
-pub fn resolve_smoothing(raw: &RawSmoothing, _ctx: &ResolveCtx) -> Result<Smoother> {
+pub(crate) fn resolve_smoothing(raw: &RawSmoothing, _ctx: &ResolveCtx) -> Result<Smoother> {
     let method = raw.method.as_deref().unwrap_or("none");
     let given: Vec<&str> = [
         ("sigma", raw.sigma.is_some()),

@@ -39,7 +39,7 @@ pub struct RawVortices {
 
 /// The resolved vortex analysis, or `None` when it is off; `coverage` is
 /// the run's `[statistics] coverage` (the swirl test's probability).
-pub fn resolve_vortices(
+pub(crate) fn resolve_vortices(
     raw: Option<&RawVortices>,
     coverage: f64,
 ) -> Result<Option<vortex::Params>> {

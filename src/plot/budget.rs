@@ -29,7 +29,7 @@ use crate::result::{FigureRef, RunResult};
 
 /// What the budget figure shows, in SI.
 #[derive(Debug, Clone)]
-pub struct TermsView {
+pub(crate) struct TermsView {
     /// Index into `Budget::slices`.
     pub slice: usize,
     /// (name, values per node) of each panel, residual last.
@@ -47,7 +47,7 @@ fn max_abs(v: &[f64]) -> f64 {
 }
 
 /// The slice the figure shows (see the module doc).
-pub fn chosen_slice(b: &Budget) -> Option<usize> {
+pub(crate) fn chosen_slice(b: &Budget) -> Option<usize> {
     if b.slices.is_empty() {
         return None;
     }
@@ -71,7 +71,7 @@ pub fn chosen_slice(b: &Budget) -> Option<usize> {
 }
 
 /// The panels, limit and marks of the figure, or None without a slice.
-pub fn terms_view(b: &Budget) -> Option<TermsView> {
+pub(crate) fn terms_view(b: &Budget) -> Option<TermsView> {
     let slice = chosen_slice(b)?;
     let s = &b.slices[slice];
     let mut panels: Vec<(&'static str, Vec<f64>)> = TERMS
@@ -99,7 +99,12 @@ pub fn terms_view(b: &Budget) -> Option<TermsView> {
 }
 
 /// Writes `<run>/figures/budget-terms.{png,svg}`, when the run has a budget.
-pub fn figure(p: &Params, run: &RunResult, out: &Path, units: Units) -> Result<Option<FigureRef>> {
+pub(crate) fn figure(
+    p: &Params,
+    run: &RunResult,
+    out: &Path,
+    units: Units,
+) -> Result<Option<FigureRef>> {
     let Some(b) = &run.budget else {
         return Ok(None);
     };

@@ -24,12 +24,13 @@ use plotters::style::RGBColor;
 type Lch = (f64, f64, f64);
 
 /// A colour map: anchors at evenly spaced parameter values.
-pub struct Colormap {
+pub(crate) struct Colormap {
+    #[cfg_attr(not(test), allow(dead_code))] // names the map in the tests' messages
     pub name: &'static str,
     anchors: &'static [Lch],
 }
 
-pub const TIDE: Colormap = Colormap {
+pub(crate) const TIDE: Colormap = Colormap {
     name: "tide",
     anchors: &[
         (0.32, 0.060, 235.0),
@@ -42,7 +43,7 @@ pub const TIDE: Colormap = Colormap {
     ],
 };
 
-pub const EMBER: Colormap = Colormap {
+pub(crate) const EMBER: Colormap = Colormap {
     name: "ember",
     anchors: &[
         (0.97, 0.025, 90.0),
@@ -55,7 +56,7 @@ pub const EMBER: Colormap = Colormap {
 };
 
 /// Colour of nodes without a value.
-pub const NO_DATA: RGBColor = RGBColor(200, 200, 200);
+pub(crate) const NO_DATA: RGBColor = RGBColor(200, 200, 200);
 
 fn lch_to_lab((l, c, h): Lch) -> [f64; 3] {
     let hr = h.to_radians();
@@ -63,7 +64,7 @@ fn lch_to_lab((l, c, h): Lch) -> [f64; 3] {
 }
 
 /// Oklab → linear sRGB (Ottosson 2020, the published M1⁻¹ / M2⁻¹ matrices).
-pub fn oklab_to_linear_srgb([l, a, b]: [f64; 3]) -> [f64; 3] {
+pub(crate) fn oklab_to_linear_srgb([l, a, b]: [f64; 3]) -> [f64; 3] {
     let l_ = l + 0.396_337_777_4 * a + 0.215_803_757_3 * b;
     let m_ = l - 0.105_561_345_8 * a - 0.063_854_172_8 * b;
     let s_ = l - 0.089_484_177_5 * a - 1.291_485_548_0 * b;
@@ -86,7 +87,7 @@ fn encode(c: f64) -> f64 {
 
 impl Colormap {
     /// The Oklab colour at parameter `t` in [0, 1] (clamped).
-    pub fn lab(&self, t: f64) -> [f64; 3] {
+    pub(crate) fn lab(&self, t: f64) -> [f64; 3] {
         let n = self.anchors.len() - 1;
         let s = t.clamp(0.0, 1.0) * n as f64;
         let k = (s.floor() as usize).min(n - 1);
@@ -101,7 +102,7 @@ impl Colormap {
     }
 
     /// The sRGB colour at `t`; NaN gives `NO_DATA`.
-    pub fn at(&self, t: f64) -> RGBColor {
+    pub(crate) fn at(&self, t: f64) -> RGBColor {
         if t.is_nan() {
             return NO_DATA;
         }
@@ -111,7 +112,7 @@ impl Colormap {
     }
 
     /// The colour of `value` on the range `[lo, hi]`.
-    pub fn map(&self, value: f64, lo: f64, hi: f64) -> RGBColor {
+    pub(crate) fn map(&self, value: f64, lo: f64, hi: f64) -> RGBColor {
         if !value.is_finite() {
             return NO_DATA;
         }

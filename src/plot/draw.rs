@@ -16,7 +16,7 @@ use plotters::prelude::*;
 use plotters::style::FontStyle;
 
 use super::colormap::{Colormap, NO_DATA};
-pub use crate::describe::{tick, tick_in};
+pub(crate) use crate::describe::tick_in;
 use crate::error::{Error, ErrorKind, Result};
 use crate::field::Grid;
 
@@ -24,15 +24,15 @@ static FONT: &[u8] = include_bytes!("../../assets/fonts/DejaVuSans.ttf");
 static REGISTER: Once = Once::new();
 
 /// The font family every text uses (DejaVu Sans, embedded).
-pub const FAMILY: &str = "sans-serif";
+pub(crate) const FAMILY: &str = "sans-serif";
 /// Text sizes in pixels (at the default 1000 px width).
-pub const TITLE_PX: f64 = 26.0;
-pub const LABEL_PX: f64 = 21.0;
-pub const TICK_PX: f64 = 18.0;
+pub(crate) const TITLE_PX: f64 = 26.0;
+pub(crate) const LABEL_PX: f64 = 21.0;
+pub(crate) const TICK_PX: f64 = 18.0;
 
 /// Registers the embedded font under the family names plotters asks for,
 /// so text renders on a machine without system fonts.
-pub fn register_fonts() {
+pub(crate) fn register_fonts() {
     REGISTER.call_once(|| {
         for fam in ["sans-serif", "serif", "monospace"] {
             for st in [
@@ -49,11 +49,11 @@ pub fn register_fonts() {
     });
 }
 
-pub type DrawResult<DB> =
+pub(crate) type DrawResult<DB> =
     std::result::Result<(), DrawingAreaErrorKind<<DB as DrawingBackend>::ErrorType>>;
 
 /// A figure: its pixel size and how to draw it on any backend.
-pub trait Figure {
+pub(crate) trait Figure {
     fn size(&self) -> (u32, u32);
     fn draw<DB: DrawingBackend>(&self, root: &DrawingArea<DB, Shift>) -> DrawResult<DB>;
 }
@@ -64,7 +64,11 @@ fn draw_error(path: &Path, e: impl std::fmt::Display) -> Error {
 
 /// Writes `dir/<stem>.png` and `dir/<stem>.svg`, each through
 /// `io::atomic_path`, so no half-written figure is left.
-pub fn write_figure(fig: &impl Figure, dir: &Path, stem: &str) -> Result<(PathBuf, PathBuf)> {
+pub(crate) fn write_figure(
+    fig: &impl Figure,
+    dir: &Path,
+    stem: &str,
+) -> Result<(PathBuf, PathBuf)> {
     register_fonts();
     std::fs::create_dir_all(dir).map_err(|e| Error::io(dir, e))?;
     let png = dir.join(format!("{stem}.png"));
@@ -88,7 +92,7 @@ pub fn write_figure(fig: &impl Figure, dir: &Path, stem: &str) -> Result<(PathBu
 
 /// How coordinates are shown: divide metres by `scale`, label with `unit`.
 #[derive(Debug, Clone)]
-pub struct Axes {
+pub(crate) struct Axes {
     pub scale: f64,
     pub x_label: String,
     pub y_label: String,
@@ -97,7 +101,7 @@ pub struct Axes {
 /// One field map panel: values at the nodes of `grid` (node order j outer),
 /// already in display units, drawn as cells with colour map `cmap` over
 /// `range`.
-pub struct MapPanel<'a> {
+pub(crate) struct MapPanel<'a> {
     pub title: String,
     pub grid: Grid,
     pub values: Vec<f64>,
@@ -114,7 +118,7 @@ pub struct MapPanel<'a> {
 }
 
 /// Pixel layout of a row/grid of maps sharing one colour bar.
-pub struct MapLayout {
+pub(crate) struct MapLayout {
     pub panel_w: u32,
     pub panel_h: u32,
     pub cols: u32,
@@ -129,7 +133,7 @@ pub struct MapLayout {
 impl MapLayout {
     /// A layout of `n` panels of grid `g` in about `width` pixels, with the
     /// plot area's aspect equal to the grid's extent.
-    pub fn new(g: &Grid, n: usize, cols: usize, width: u32) -> MapLayout {
+    pub(crate) fn new(g: &Grid, n: usize, cols: usize, width: u32) -> MapLayout {
         let cols = cols.clamp(1, n.max(1)) as u32;
         let rows = (n.max(1) as u32).div_ceil(cols);
         let (left, bottom, top, right, bar_w) = (112, 70, 56, 14, 200);
@@ -161,27 +165,27 @@ impl MapLayout {
             bar_w,
         }
     }
-    pub fn cell(&self) -> (u32, u32) {
+    pub(crate) fn cell(&self) -> (u32, u32) {
         (
             self.left + self.panel_w + self.right,
             self.top + self.panel_h + self.bottom,
         )
     }
-    pub fn size(&self, header: u32) -> (u32, u32) {
+    pub(crate) fn size(&self, header: u32) -> (u32, u32) {
         let (cw, ch) = self.cell();
         (cw * self.cols + self.bar_w, ch * self.rows + header)
     }
 }
 
 /// Masked nodes: a neutral grey, darker than `NO_DATA` so the two differ.
-pub const MASK_GREY: RGBColor = RGBColor(150, 150, 150);
+pub(crate) const MASK_GREY: RGBColor = RGBColor(150, 150, 150);
 /// The outline of a masked region.
-pub const MASK_EDGE: RGBColor = RGBColor(60, 60, 60);
+pub(crate) const MASK_EDGE: RGBColor = RGBColor(60, 60, 60);
 
 /// The outline of the masked cells of `g` (node order), in plot units
 /// (metres / `s`): every cell edge between a masked node and an unmasked
 /// node or the domain's border, as one segment each.
-pub fn mask_outline(g: &Grid, m: &[bool], s: f64) -> Vec<Vec<(f64, f64)>> {
+pub(crate) fn mask_outline(g: &Grid, m: &[bool], s: f64) -> Vec<Vec<(f64, f64)>> {
     let at = |i: isize, j: isize| {
         i >= 0
             && j >= 0
@@ -221,7 +225,7 @@ fn blend_white(c: RGBColor, keep: f64) -> RGBColor {
 }
 
 /// Draws one map panel into `area` (of size `layout.cell()`).
-pub fn draw_map<DB: DrawingBackend>(
+pub(crate) fn draw_map<DB: DrawingBackend>(
     area: &DrawingArea<DB, Shift>,
     p: &MapPanel,
     axes: &Axes,
@@ -231,7 +235,7 @@ pub fn draw_map<DB: DrawingBackend>(
 }
 
 /// Lines and points drawn over a map, in metres (e.g. vortex tracks).
-pub struct Overlay {
+pub(crate) struct Overlay {
     /// Polylines with their colour.
     pub lines: Vec<(Vec<(f64, f64)>, RGBColor)>,
     /// Ringed points with their colour.
@@ -239,7 +243,7 @@ pub struct Overlay {
 }
 
 /// `draw_map` with an optional overlay drawn last (with a pale halo).
-pub fn draw_map_over<DB: DrawingBackend>(
+pub(crate) fn draw_map_over<DB: DrawingBackend>(
     area: &DrawingArea<DB, Shift>,
     p: &MapPanel,
     axes: &Axes,
@@ -370,7 +374,7 @@ pub fn draw_map_over<DB: DrawingBackend>(
 }
 
 /// Draws a vertical colour bar for `cmap` over `range` labelled `label`.
-pub fn draw_colorbar<DB: DrawingBackend>(
+pub(crate) fn draw_colorbar<DB: DrawingBackend>(
     area: &DrawingArea<DB, Shift>,
     cmap: &Colormap,
     range: (f64, f64),
@@ -416,7 +420,7 @@ pub fn draw_colorbar<DB: DrawingBackend>(
 }
 
 /// A figure of one or more map panels sharing one colour bar.
-pub struct MapFigure<'a> {
+pub(crate) struct MapFigure<'a> {
     pub heading: Option<String>,
     pub panels: Vec<MapPanel<'a>>,
     pub axes: Axes,
@@ -425,7 +429,7 @@ pub struct MapFigure<'a> {
 }
 
 impl<'a> MapFigure<'a> {
-    pub fn new(
+    pub(crate) fn new(
         heading: Option<String>,
         panels: Vec<MapPanel<'a>>,
         axes: Axes,
@@ -488,4 +492,4 @@ impl Figure for MapFigure<'_> {
     }
 }
 
-pub use super::lines::{Curve, LineFigure, LinePanel, RUN_COLORS};
+pub(crate) use super::lines::{Curve, LineFigure, LinePanel, RUN_COLORS};

@@ -21,13 +21,13 @@ use crate::result::{FigureRef, RunResult};
 /// Display units of a run's figures: dimensional (mm, m/s, 1/s) or
 /// nondimensional with the run's U and L (x/L, u/U, ωL/U).
 #[derive(Debug, Clone, Copy, PartialEq)]
-pub struct Units {
+pub(crate) struct Units {
     /// (U, L) when nondimensional.
     pub scales: Option<(f64, f64)>,
 }
 
 impl Units {
-    pub fn new(p: &Params, run: &RunResult) -> Units {
+    pub(crate) fn new(p: &Params, run: &RunResult) -> Units {
         Units {
             scales: if p.nondimensional {
                 run.conditions.scales()
@@ -36,7 +36,7 @@ impl Units {
             },
         }
     }
-    pub fn axes(&self) -> Axes {
+    pub(crate) fn axes(&self) -> Axes {
         match self.scales {
             Some((_, l)) => Axes {
                 scale: l,
@@ -51,21 +51,21 @@ impl Units {
         }
     }
     /// Factor from SI velocity to display, and its unit text.
-    pub fn velocity(&self) -> (f64, &'static str) {
+    pub(crate) fn velocity(&self) -> (f64, &'static str) {
         match self.scales {
             Some((u, _)) => (1.0 / u, "/ U"),
             None => (1.0, "(m/s)"),
         }
     }
     /// Factor from SI vorticity (1/s) to display.
-    pub fn vorticity(&self) -> (f64, &'static str) {
+    pub(crate) fn vorticity(&self) -> (f64, &'static str) {
         match self.scales {
             Some((u, l)) => (l / u, "L / U"),
             None => (1.0, "(1/s)"),
         }
     }
     /// Factor from SI kinematic stress (m²/s²) to display.
-    pub fn stress(&self) -> (f64, &'static str) {
+    pub(crate) fn stress(&self) -> (f64, &'static str) {
         match self.scales {
             Some((u, _)) => (1.0 / (u * u), "/ U²"),
             None => (1.0, "(m²/s²)"),
@@ -74,7 +74,7 @@ impl Units {
 }
 
 /// `x` with three significant digits.
-pub fn sig(x: f64) -> String {
+pub(crate) fn sig(x: f64) -> String {
     if x == 0.0 || !x.is_finite() {
         return format!("{x}");
     }
@@ -176,7 +176,7 @@ impl<'a> Ctx<'a> {
     }
 }
 
-pub fn run_figures(p: &Params, run: &RunResult, out: &Path) -> Result<Vec<FigureRef>> {
+pub(crate) fn run_figures(p: &Params, run: &RunResult, out: &Path) -> Result<Vec<FigureRef>> {
     let e = &run.stats.ensemble;
     let mut c = Ctx {
         p,

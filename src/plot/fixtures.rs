@@ -15,7 +15,7 @@ use crate::{fill, validate};
 /// The fixture's vortex: circulation (m²/s), core radius (m), centre (m),
 /// free stream (m/s).
 #[derive(Debug, Clone, Copy)]
-pub struct Vortex {
+pub(crate) struct Vortex {
     pub gamma: f64,
     pub rc: f64,
     pub xc: f64,
@@ -24,7 +24,7 @@ pub struct Vortex {
 }
 
 impl Vortex {
-    pub fn velocity(&self, x: f64, y: f64) -> (f64, f64) {
+    pub(crate) fn velocity(&self, x: f64, y: f64) -> (f64, f64) {
         let (dx, dy) = (x - self.xc, y - self.yc);
         let r2 = dx * dx + dy * dy;
         if r2 == 0.0 {
@@ -34,13 +34,13 @@ impl Vortex {
             * (1.0 - (-r2 / (self.rc * self.rc)).exp());
         (self.u_inf - f * dy, f * dx)
     }
-    pub fn omega(&self, x: f64, y: f64) -> f64 {
+    pub(crate) fn omega(&self, x: f64, y: f64) -> f64 {
         let r2 = (x - self.xc).powi(2) + (y - self.yc).powi(2);
         self.gamma / (std::f64::consts::PI * self.rc * self.rc) * (-r2 / (self.rc * self.rc)).exp()
     }
 }
 
-pub fn grid(nx: usize, ny: usize) -> Grid {
+pub(crate) fn grid(nx: usize, ny: usize) -> Grid {
     Grid {
         nx,
         ny,
@@ -53,7 +53,7 @@ pub fn grid(nx: usize, ny: usize) -> Grid {
 
 /// An ensemble table of every docs/interface.md column for `v` on `g`, with
 /// constant uncertainties `u_unc` (m/s) and `w_unc` (1/s), n samples.
-pub fn ensemble(g: Grid, v: &Vortex, u_unc: f64, w_unc: f64, n: usize) -> NodeTable {
+pub(crate) fn ensemble(g: Grid, v: &Vortex, u_unc: f64, w_unc: f64, n: usize) -> NodeTable {
     let mut cols: Vec<Vec<f64>> = vec![Vec::new(); 14];
     for j in 0..g.ny {
         for i in 0..g.nx {
@@ -95,7 +95,7 @@ pub fn ensemble(g: Grid, v: &Vortex, u_unc: f64, w_unc: f64, n: usize) -> NodeTa
 
 /// Adds the statistics helper's own columns: outliers concentrated in the
 /// vortex core, filled vectors along the upper edge.
-pub fn add_validation_columns(t: &mut NodeTable, v: &Vortex) {
+pub(crate) fn add_validation_columns(t: &mut NodeTable, v: &Vortex) {
     let g = t.grid;
     let (mut o, mut f) = (Vec::new(), Vec::new());
     for j in 0..g.ny {
@@ -110,7 +110,7 @@ pub fn add_validation_columns(t: &mut NodeTable, v: &Vortex) {
     t.push("filled_frac", f);
 }
 
-pub fn frames(n: usize, nodes: usize) -> Vec<FrameRecord> {
+pub(crate) fn frames(n: usize, nodes: usize) -> Vec<FrameRecord> {
     (0..n)
         .map(|k| FrameRecord {
             meta: FrameMeta {
@@ -137,7 +137,7 @@ pub fn frames(n: usize, nodes: usize) -> Vec<FrameRecord> {
 }
 
 /// A run with the default vortex on a 64 × 48 grid.
-pub fn run(id: &str, v: &Vortex, g: Grid) -> RunResult {
+pub(crate) fn run(id: &str, v: &Vortex, g: Grid) -> RunResult {
     let n = 40;
     let mut ens = ensemble(g, v, 0.004, 2.0, n);
     add_validation_columns(&mut ens, v);
@@ -193,7 +193,7 @@ pub fn run(id: &str, v: &Vortex, g: Grid) -> RunResult {
     }
 }
 
-pub const VORTEX: Vortex = Vortex {
+pub(crate) const VORTEX: Vortex = Vortex {
     gamma: 0.004,
     rc: 0.004,
     xc: 0.03,

@@ -7,7 +7,7 @@ use plotters::prelude::*;
 use super::draw::{tick_in, DrawResult, Figure, FAMILY, LABEL_PX, TICK_PX, TITLE_PX};
 
 /// One curve of a line chart, with an optional band (lower, upper).
-pub struct Curve {
+pub(crate) struct Curve {
     pub label: String,
     pub xy: Vec<(f64, f64)>,
     pub band: Option<Vec<(f64, f64, f64)>>,
@@ -18,7 +18,7 @@ pub struct Curve {
 }
 
 /// A line chart panel.
-pub struct LinePanel {
+pub(crate) struct LinePanel {
     pub title: String,
     pub x_label: String,
     pub y_label: String,
@@ -29,7 +29,7 @@ pub struct LinePanel {
 }
 
 /// A figure of line panels side by side.
-pub struct LineFigure {
+pub(crate) struct LineFigure {
     pub heading: Option<String>,
     pub panels: Vec<LinePanel>,
     pub width: u32,
@@ -37,7 +37,7 @@ pub struct LineFigure {
 }
 
 /// Categorical colours for runs (distinct in lightness and hue; our own).
-pub const RUN_COLORS: [RGBColor; 6] = [
+pub(crate) const RUN_COLORS: [RGBColor; 6] = [
     RGBColor(31, 92, 153),
     RGBColor(196, 78, 34),
     RGBColor(46, 139, 87),

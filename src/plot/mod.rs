@@ -13,20 +13,20 @@
 //! 18 px and more. A figure whose columns are missing is skipped, never an
 //! error.
 
-pub mod budget;
-pub mod colormap;
-pub mod draw;
+pub(crate) mod budget;
+pub(crate) mod colormap;
+pub(crate) mod draw;
 mod figs;
-pub mod lines;
-pub mod structures;
-pub mod vortices;
+pub(crate) mod lines;
+pub(crate) mod structures;
+pub(crate) mod vortices;
 
 use std::path::Path;
 
 use crate::error::Result;
 use crate::result::{FigureRef, RunResult};
 
-pub use figs::Units;
+pub(crate) use figs::Units;
 
 /// Resolved `[figures]`.
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
@@ -55,7 +55,7 @@ impl Default for Params {
 
 /// Writes the figures of one run into `out/<run id>/figures/` and returns
 /// them with paths relative to `out`.
-pub fn run_figures(p: &Params, run: &RunResult, out: &Path) -> Result<Vec<FigureRef>> {
+pub(crate) fn run_figures(p: &Params, run: &RunResult, out: &Path) -> Result<Vec<FigureRef>> {
     let mut f = figs::run_figures(p, run, out)?;
     f.extend(structures::figures(p, run, out)?);
     Ok(f)
@@ -80,14 +80,14 @@ pub(crate) fn figure_ref(
 /// The `q` quantile (0..1) of the finite values of `v`, with the one
 /// convention of `crate::robust` (linear between order statistics, as
 /// numpy.quantile); None when none is finite.
-pub fn quantile(v: impl Iterator<Item = f64>, q: f64) -> Option<f64> {
+pub(crate) fn quantile(v: impl Iterator<Item = f64>, q: f64) -> Option<f64> {
     Some(crate::robust::quantile_of(v, q)).filter(|x| !x.is_nan())
 }
 
 /// A symmetric limit for a signed quantity: the 99.8th percentile of |v|
 /// (so a few spikes do not wash out the map while a compact vortex core is
 /// not clipped), or 1 when all are zero.
-pub fn symmetric_limit(v: &[f64]) -> f64 {
+pub(crate) fn symmetric_limit(v: &[f64]) -> f64 {
     match quantile(v.iter().map(|x| x.abs()), 0.998) {
         Some(l) if l > 0.0 => l,
         _ => 1.0,
@@ -95,7 +95,7 @@ pub fn symmetric_limit(v: &[f64]) -> f64 {
 }
 
 /// An upper limit for a magnitude: the 99th percentile, or 1 when zero.
-pub fn magnitude_limit(v: &[f64]) -> f64 {
+pub(crate) fn magnitude_limit(v: &[f64]) -> f64 {
     match quantile(v.iter().copied(), 0.99) {
         Some(l) if l > 0.0 => l,
         _ => 1.0,

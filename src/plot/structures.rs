@@ -22,7 +22,7 @@ use crate::result::{FigureRef, RunResult};
 
 /// The energy spectrum: log₁₀ of each mode's energy fraction with the
 /// North et al. (1982) error bar, and the noise floor as a line.
-pub fn energy_panel(pod: &Pod) -> LinePanel {
+pub(crate) fn energy_panel(pod: &Pod) -> LinePanel {
     let tot = pod.total_energy;
     let lg = |x: f64| if x > 0.0 { x.log10() } else { f64::NAN };
     let xy: Vec<(f64, f64)> = pod
@@ -66,7 +66,7 @@ pub fn energy_panel(pod: &Pod) -> LinePanel {
 
 /// The phase portrait: every frame at (a₁/√(2λ₁), a₂/√(2λ₂)), with the
 /// unit circle of a pure sinusoidal pair.
-pub fn portrait_panel(pod: &Pod) -> Option<LinePanel> {
+pub(crate) fn portrait_panel(pod: &Pod) -> Option<LinePanel> {
     if pod.energy.len() < 2 || pod.energy[1] <= 0.0 {
         return None;
     }
@@ -108,7 +108,7 @@ pub fn portrait_panel(pod: &Pod) -> Option<LinePanel> {
 
 /// Vorticity of a mode (1/m, the mode being dimensionless): central
 /// differences inside, one-sided at the edges (for the figure only).
-pub fn mode_vorticity(g: &Grid, m: &[f64]) -> Vec<f64> {
+pub(crate) fn mode_vorticity(g: &Grid, m: &[f64]) -> Vec<f64> {
     let n = g.len();
     let (u, v) = (&m[..n], &m[n..]);
     let d = |f: &[f64], i: usize, j: usize, along_x: bool| {
@@ -140,7 +140,7 @@ pub fn mode_vorticity(g: &Grid, m: &[f64]) -> Vec<f64> {
 
 /// PSD panels: log₁₀ PSD with the confidence band, one panel for the
 /// probes and one for the POD coefficients.
-pub fn spectra_panels(s: &crate::spectra::run::RunSpectra) -> Vec<LinePanel> {
+pub(crate) fn spectra_panels(s: &crate::spectra::run::RunSpectra) -> Vec<LinePanel> {
     let lg = |x: f64| if x > 0.0 { x.log10() } else { f64::NAN };
     let mut groups: Vec<(String, Vec<Curve>)> = vec![
         ("Velocity at the probes".into(), Vec::new()),
@@ -193,7 +193,7 @@ pub fn spectra_panels(s: &crate::spectra::run::RunSpectra) -> Vec<LinePanel> {
 /// Correlation panels, one per probe (at most 3): ρ_uu and ρ_vv along x
 /// and y against the separation (mm), and ρ₀ extrapolated to zero
 /// separation (the gap to 1 is the noise spike).
-pub fn correlation_panels(s: &crate::scales::Scales) -> Vec<LinePanel> {
+pub(crate) fn correlation_panels(s: &crate::scales::Scales) -> Vec<LinePanel> {
     s.probes
         .iter()
         .take(3)
@@ -240,7 +240,7 @@ pub fn correlation_panels(s: &crate::scales::Scales) -> Vec<LinePanel> {
 }
 
 /// Draws the figures of `run.structures` that are present.
-pub fn figures(p: &Params, run: &RunResult, out: &Path) -> Result<Vec<FigureRef>> {
+pub(crate) fn figures(p: &Params, run: &RunResult, out: &Path) -> Result<Vec<FigureRef>> {
     let dir = out.join(&run.id).join("figures");
     let mut figs = Vec::new();
     let mut save_lines =

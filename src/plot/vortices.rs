@@ -68,7 +68,7 @@ const POSITIVE: RGBColor = RGBColor(150, 20, 30);
 const NEGATIVE: RGBColor = RGBColor(20, 40, 140);
 
 /// Writes the vortex figures of `run` into `out/<run id>/figures/`.
-pub fn draw(p: &Params, run: &RunResult, out: &Path) -> Result<Vec<FigureRef>> {
+pub(crate) fn draw(p: &Params, run: &RunResult, out: &Path) -> Result<Vec<FigureRef>> {
     let Some(v) = &run.vortices else {
         return Ok(Vec::new());
     };

@@ -22,7 +22,7 @@ use crate::io::{Table, Values};
 use crate::plan::RunPlan;
 
 /// The accumulator of `run`'s budget on `grid`, when the run asks for one.
-pub fn start(run: &RunPlan, grid: Grid) -> Option<BudgetAcc> {
+pub(crate) fn start(run: &RunPlan, grid: Grid) -> Option<BudgetAcc> {
     let p: &Params = run.budget.as_ref()?;
     Some(BudgetAcc::new(
         p,
@@ -91,7 +91,7 @@ pub fn time_phase(frames: &[(Option<f64>, Option<f64>)]) -> Vec<(f64, f64)> {
 
 /// The finished budget of a run with its conditions; `frames` holds each
 /// frame's (time, phase) for the frequency when none is given.
-pub fn finish(
+pub(crate) fn finish(
     acc: &BudgetAcc,
     run: &RunPlan,
     frames: &[(Option<f64>, Option<f64>)],
@@ -108,7 +108,7 @@ pub fn finish(
 }
 
 /// The `budget.csv` table.
-pub fn table(b: &Budget) -> Table {
+pub(crate) fn table(b: &Budget) -> Table {
     let g = b.grid;
     let rows = b.slices.len() * g.len();
     let col = |f: &dyn Fn(&SliceBudget, usize) -> f64| -> Values {

@@ -16,7 +16,7 @@ use crate::{compare, io, plot, report};
 
 /// How the campaign was reduced, for the manifest.
 #[derive(Debug, Clone, Default)]
-pub struct Provenance {
+pub(crate) struct Provenance {
     /// The command line, as typed.
     pub command: Vec<String>,
     pub jobs: usize,
@@ -28,7 +28,7 @@ pub struct Provenance {
 
 /// Statistics, tables, figures, campaign.csv, manifest and report for the
 /// reduced runs, written into `out` (normally an `io::OutputDir`'s temp path).
-pub fn finish_campaign(
+pub(crate) fn finish_campaign(
     plan: &Plan,
     reduced: Vec<Reduced>,
     out: &Path,
@@ -236,6 +236,6 @@ pub fn finish_campaign(
 }
 
 /// Lower-case hex of bytes.
-pub fn hex(b: &[u8]) -> String {
+pub(crate) fn hex(b: &[u8]) -> String {
     b.iter().map(|x| format!("{x:02x}")).collect()
 }

@@ -22,11 +22,11 @@
 //! statistics) when the validation chain sets a limit for that.
 
 pub mod budget;
-pub mod campaign;
-pub mod outputs;
-pub mod partial;
-pub mod seal;
-pub mod state;
+pub(crate) mod campaign;
+pub(crate) mod outputs;
+pub(crate) mod partial;
+pub(crate) mod seal;
+pub(crate) mod state;
 pub mod structures;
 pub mod vortices;
 
@@ -34,7 +34,7 @@ use std::path::PathBuf;
 use std::time::Instant;
 
 use crate::error::{Error, Result, WithPath};
-use crate::field::{FrameMeta, Grid, NodeTable};
+use crate::field::{FrameMeta, Grid};
 use crate::io::{self, FrameSource};
 use crate::plan::RunPlan;
 pub use crate::result::mean_noise;
@@ -45,7 +45,7 @@ use state::{RunState, Templates};
 
 /// Frames per chunk. Fixed (not derived from the thread count) so that the
 /// merge order, and so every output byte, is the same for any `--jobs`.
-pub const CHUNK: usize = 16;
+pub(crate) const CHUNK: usize = 16;
 
 /// One shard of `N`: the contiguous frames `[start, end)` of a run.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
@@ -56,7 +56,7 @@ pub struct Shard {
 }
 
 /// The most shards `--shard I/N` accepts.
-pub const MAX_SHARDS: usize = 1_000_000;
+pub(crate) const MAX_SHARDS: usize = 1_000_000;
 
 impl Shard {
     /// Parses `I/N` (1 ≤ I ≤ N).
@@ -115,7 +115,7 @@ impl Shard {
 
     /// The frames `[start, end)` of `n` that this shard reduces: contiguous
     /// ranges, as equal as possible, earlier shards first.
-    pub fn range(&self, n: usize) -> (usize, usize) {
+    pub(crate) fn range(&self, n: usize) -> (usize, usize) {
         // In u128: k n cannot overflow for any usize k and n.
         let (k, n, c) = ((self.index - 1) as u128, n as u128, self.count as u128);
         ((k * n / c) as usize, ((k + 1) * n / c) as usize)
@@ -123,7 +123,7 @@ impl Shard {
 }
 
 /// How to run: threads, shard, progress.
-pub struct Options<'a> {
+pub(crate) struct Options<'a> {
     /// Worker threads (0: all cores).
     pub jobs: usize,
     pub shard: Option<Shard>,
@@ -135,14 +135,14 @@ pub struct Options<'a> {
 
 /// An input file of the run, for the manifest.
 #[derive(Debug, Clone, serde::Serialize, serde::Deserialize)]
-pub struct InputFile {
+pub(crate) struct InputFile {
     pub path: String,
     pub bytes: u64,
     pub sha256: String,
 }
 
 /// What reducing a run (or one shard of it) gives, before finishing.
-pub struct Reduced {
+pub(crate) struct Reduced {
     pub id: String,
     pub grid: Grid,
     /// Frames of the whole run (all shards).
@@ -161,7 +161,7 @@ pub struct Reduced {
 impl Reduced {
     /// Finishes the peak-locking diagnostic from the accumulator and adds
     /// its warning, if any.
-    pub fn finish_peak_lock(&mut self) {
+    pub(crate) fn finish_peak_lock(&mut self) {
         if let Some(acc) = &self.state.peak_acc {
             let p = acc.finish();
             if let Some(w) = &p.warning {
@@ -339,7 +339,7 @@ fn fold_chunks<T: Sync, A: Send, W: Default>(
 }
 
 /// Reduces one run (or one shard of it) up to merged accumulators.
-pub fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
+pub(crate) fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
     let t0 = Instant::now();
     let mut timings = Vec::new();
     let mut warnings = run.input_warnings.clone();
@@ -547,12 +547,6 @@ fn scheme_choice(
         derive::derive_with(&mut ws, &run.derive, &field, None, Some(&mut pilot));
     }
     Ok(Some(pilot.finish(frames.len())))
-}
-
-/// Keeps a NodeTable's column order stable for writing: docs/interface.md columns
-/// first in their order, then the rest as the statistics gave them.
-pub fn node_columns(nt: &NodeTable) -> Vec<&str> {
-    nt.columns.iter().map(|(n, _)| n.as_str()).collect()
 }
 
 #[cfg(test)]

@@ -20,7 +20,7 @@ use crate::result::{FrameRecord, RunResult};
 use crate::stats::PhaseBin;
 
 /// Writes a node table as `<stem>.csv` and `<stem>.parquet` in `dir`.
-pub fn write_node_table(dir: &Path, stem: &str, nt: &NodeTable) -> Result<()> {
+pub(crate) fn write_node_table(dir: &Path, stem: &str, nt: &NodeTable) -> Result<()> {
     let t = io::node_table_to_table(nt);
     io::write_csv(&dir.join(format!("{stem}.csv")), &t)?;
     io::write_parquet(&dir.join(format!("{stem}.parquet")), &t)
@@ -28,7 +28,7 @@ pub fn write_node_table(dir: &Path, stem: &str, nt: &NodeTable) -> Result<()> {
 
 /// The phase table: `phase_bin, phase_deg, n_frames`, then every ensemble
 /// column (x, y first), one row per bin and node.
-pub fn phase_table(bins: &[PhaseBin]) -> Table {
+pub(crate) fn phase_table(bins: &[PhaseBin]) -> Table {
     let mut t = Table::new();
     if bins.is_empty() {
         return t;
@@ -61,7 +61,7 @@ pub fn phase_table(bins: &[PhaseBin]) -> Table {
 }
 
 /// frames.csv: one row per frame (see the module doc for the columns).
-pub fn frames_table(frames: &[FrameRecord]) -> Table {
+pub(crate) fn frames_table(frames: &[FrameRecord]) -> Table {
     let mut t = Table::new();
     let col_i = |f: &dyn Fn(&FrameRecord) -> usize| {
         Values::I64(frames.iter().map(|r| f(r) as i64).collect())
@@ -123,7 +123,7 @@ pub fn frames_table(frames: &[FrameRecord]) -> Table {
 }
 
 /// Writes every table of one run into `dir` (= `OUT/<run id>`).
-pub fn write_run_tables(dir: &Path, run: &RunResult) -> Result<()> {
+pub(crate) fn write_run_tables(dir: &Path, run: &RunResult) -> Result<()> {
     std::fs::create_dir_all(dir).map_err(|e| crate::Error::io(dir, e))?;
     write_node_table(dir, "ensemble", &run.stats.ensemble)?;
     if !run.stats.phase.is_empty() {
@@ -149,7 +149,7 @@ pub fn write_run_tables(dir: &Path, run: &RunResult) -> Result<()> {
 /// Writes `ensemble.nc` (and `phase.nc` when the run has phases) in
 /// `dir`: the CF-convention NetCDF of `io::cf`, with the pipeline's text
 /// and hash as global attributes.
-pub fn write_run_netcdf(dir: &Path, run: &RunResult, pipeline_text: &str) -> Result<()> {
+pub(crate) fn write_run_netcdf(dir: &Path, run: &RunResult, pipeline_text: &str) -> Result<()> {
     let sha = io::hash_bytes(pipeline_text.as_bytes()).1;
     let p = io::cf::Provenance {
         run: &run.id,
@@ -169,7 +169,7 @@ pub fn write_run_netcdf(dir: &Path, run: &RunResult, pipeline_text: &str) -> Res
 
 /// One frame's filled field (docs/interface.md per-frame fields): `x, y, u, v,
 /// status, omega, omega_unc`; masked nodes have empty u, v, omega.
-pub fn write_frame_field(path: &Path, field: &Field, derived: &Derived) -> Result<()> {
+pub(crate) fn write_frame_field(path: &Path, field: &Field, derived: &Derived) -> Result<()> {
     let g = field.grid;
     let mut t = Table::new();
     let (mut xs, mut ys) = (Vec::with_capacity(g.len()), Vec::with_capacity(g.len()));
@@ -208,7 +208,7 @@ pub fn write_frame_field(path: &Path, field: &Field, derived: &Derived) -> Resul
 
 /// campaign.csv: one row per run. Numeric columns that only some runs have
 /// are empty for the others.
-pub fn campaign_table(runs: &[RunResult], extra: &[Vec<(String, f64)>]) -> Table {
+pub(crate) fn campaign_table(runs: &[RunResult], extra: &[Vec<(String, f64)>]) -> Table {
     let mut t = Table::new();
     t.push(
         "id",

@@ -46,16 +46,16 @@ use crate::result::FrameRecord;
 use crate::stats::RunAccumulator;
 use crate::{fill, validate};
 
-pub const FORMAT: &str = "curlew-partial";
-pub const VERSION: u32 = 2;
+pub(crate) const FORMAT: &str = "curlew-partial";
+pub(crate) const VERSION: u32 = 2;
 /// The POD sketch of a run, when `[modes]` asks for it (absent otherwise:
 /// partials without it stay readable).
 const MODES_FILE: &str = "modes.bin";
 /// The two-point co-moments of a run with probes (absent otherwise).
-pub const CORR_FILE: &str = "correlation.bin";
+pub(crate) const CORR_FILE: &str = "correlation.bin";
 /// The cores of every frame, only with `[vortices] frames = true`
 /// (`vortex::codec`).
-pub const FRAME_CORES_FILE: &str = "frame-cores.bin";
+pub(crate) const FRAME_CORES_FILE: &str = "frame-cores.bin";
 
 #[derive(Debug, Clone, Serialize, Deserialize)]
 struct FrameRow {
@@ -119,7 +119,7 @@ struct PartialFile {
 }
 
 /// A partial folder read back.
-pub struct Partial {
+pub(crate) struct Partial {
     pub dir: PathBuf,
     pub shard: Shard,
     pub pipeline_path: PathBuf,
@@ -141,7 +141,7 @@ fn optional<T>(p: &Path, parse: impl FnOnce(&[u8]) -> Result<T>) -> Result<Optio
 }
 
 /// Writes the partial result of one shard into `dir` (a fresh folder).
-pub fn write(dir: &Path, plan: &Plan, shard: Shard, runs: &[Reduced]) -> Result<()> {
+pub(crate) fn write(dir: &Path, plan: &Plan, shard: Shard, runs: &[Reduced]) -> Result<()> {
     use sha2::{Digest, Sha256};
     let (pipeline_path, pipeline_text) = (&plan.path, &plan.text);
     let mut parts = Vec::with_capacity(runs.len());
@@ -225,7 +225,7 @@ pub fn write(dir: &Path, plan: &Plan, shard: Shard, runs: &[Reduced]) -> Result<
 }
 
 /// Reads a partial folder.
-pub fn read(dir: &Path) -> Result<Partial> {
+pub(crate) fn read(dir: &Path) -> Result<Partial> {
     let p = dir.join("partial.json");
     let text = std::fs::read_to_string(&p).map_err(|e| {
         Error::usage(format!(
@@ -331,7 +331,7 @@ pub fn read(dir: &Path) -> Result<Partial> {
 
 /// Merges partials of one pipeline, holding every shard once, into one
 /// `Reduced` per run (in the pipeline's run order of the first partial).
-pub fn merge(mut parts: Vec<Partial>) -> Result<(Partial, Vec<Reduced>)> {
+pub(crate) fn merge(mut parts: Vec<Partial>) -> Result<(Partial, Vec<Reduced>)> {
     if parts.is_empty() {
         return Err(Error::usage("merge needs at least one partial folder"));
     }

@@ -26,17 +26,17 @@ use crate::io::{self, FrameSource};
 use crate::plan::RunPlan;
 
 /// serde for `Option<f64>` as an exact string (`None` as null).
-pub mod exact_opt {
+pub(crate) mod exact_opt {
     use serde::{Deserialize, Deserializer, Serializer};
 
-    pub fn serialize<S: Serializer>(x: &Option<f64>, s: S) -> Result<S::Ok, S::Error> {
+    pub(crate) fn serialize<S: Serializer>(x: &Option<f64>, s: S) -> Result<S::Ok, S::Error> {
         match x {
             Some(v) => s.serialize_some(&format!("{v:?}")),
             None => s.serialize_none(),
         }
     }
 
-    pub fn deserialize<'de, D: Deserializer<'de>>(d: D) -> Result<Option<f64>, D::Error> {
+    pub(crate) fn deserialize<'de, D: Deserializer<'de>>(d: D) -> Result<Option<f64>, D::Error> {
         let t: Option<String> = Option::deserialize(d)?;
         t.map(|t| t.parse::<f64>().map_err(serde::de::Error::custom))
             .transpose()
@@ -44,14 +44,14 @@ pub mod exact_opt {
 }
 
 /// serde for `f64` as an exact string.
-pub mod exact {
+pub(crate) mod exact {
     use serde::{Deserialize, Deserializer, Serializer};
 
-    pub fn serialize<S: Serializer>(x: &f64, s: S) -> Result<S::Ok, S::Error> {
+    pub(crate) fn serialize<S: Serializer>(x: &f64, s: S) -> Result<S::Ok, S::Error> {
         s.serialize_str(&format!("{x:?}"))
     }
 
-    pub fn deserialize<'de, D: Deserializer<'de>>(d: D) -> Result<f64, D::Error> {
+    pub(crate) fn deserialize<'de, D: Deserializer<'de>>(d: D) -> Result<f64, D::Error> {
         String::deserialize(d)?
             .parse::<f64>()
             .map_err(serde::de::Error::custom)
@@ -60,7 +60,7 @@ pub mod exact {
 
 /// The frames a shard of one run belongs to (see the module docs).
 #[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
-pub struct Fingerprint {
+pub(crate) struct Fingerprint {
     /// SHA-256 of `name\tsize\n` for every frame of the run, in order.
     pub list_sha256: String,
     /// The frame just before the shard's range (file name and hash).
@@ -80,7 +80,7 @@ fn file_name(p: &str) -> String {
 }
 
 /// The fingerprint of `run`'s shard `range`.
-pub fn fingerprint(run: &RunPlan, range: (usize, usize)) -> Result<Fingerprint> {
+pub(crate) fn fingerprint(run: &RunPlan, range: (usize, usize)) -> Result<Fingerprint> {
     let frames = super::list_run_frames(run)?;
     let mut h = Sha256::new();
     for (meta, src) in &frames {
@@ -107,7 +107,7 @@ pub fn fingerprint(run: &RunPlan, range: (usize, usize)) -> Result<Fingerprint> 
 
 /// Checks that shard `b` follows shard `a` over the same frames of run
 /// `id` (`dir` names `b` in errors).
-pub fn check_follows(
+pub(crate) fn check_follows(
     id: &str,
     a: (&Fingerprint, &[InputFile]),
     b: (&Fingerprint, &[InputFile]),
@@ -144,7 +144,7 @@ pub fn check_follows(
 
 /// Writes `dir/partial.sha256`: the SHA-256 of `partial.json` and of every
 /// run's `accumulator.bin` (and `budget.bin`, `modes.bin`, `correlation.bin`, `frame-cores.bin`), one `hash  path` line each.
-pub fn write_checksums(dir: &Path, runs: &[Reduced]) -> Result<()> {
+pub(crate) fn write_checksums(dir: &Path, runs: &[Reduced]) -> Result<()> {
     let mut text = String::new();
     let mut files = vec!["partial.json".to_string()];
     files.extend(runs.iter().map(|r| format!("{}/accumulator.bin", r.id)));
@@ -176,7 +176,7 @@ pub fn write_checksums(dir: &Path, runs: &[Reduced]) -> Result<()> {
 }
 
 /// Verifies `dir/partial.sha256`: every file it lists has its hash.
-pub fn verify_checksums(dir: &Path) -> Result<()> {
+pub(crate) fn verify_checksums(dir: &Path) -> Result<()> {
     let p = dir.join("partial.sha256");
     let text = std::fs::read_to_string(&p).map_err(|e| {
         Error::data(format!(

@@ -31,7 +31,7 @@ use std::sync::Arc;
 use super::InputFile;
 
 /// Everything a run's frames add up to (see the module doc).
-pub struct RunState {
+pub(crate) struct RunState {
     /// The statistics' accumulators.
     pub acc: RunAccumulator,
     /// One record per frame, in frame order.
@@ -56,7 +56,7 @@ pub struct RunState {
 /// The empty shapes of the accumulators that need a first pass to size
 /// (the POD sketch's random test matrix, the probes' co-moments): made
 /// once per run and cloned empty into every chunk.
-pub struct Templates {
+pub(crate) struct Templates {
     /// The POD sketch (with its test matrix), when `[modes]` asks for it.
     pub modes: Option<ModeSketch>,
     /// The probes' co-moments, when the run names probes.
@@ -67,7 +67,7 @@ pub struct Templates {
 
 impl Templates {
     /// The templates of `run` on `grid`, a run of `total` frames.
-    pub fn of(run: &RunPlan, grid: Grid, total: u64) -> Templates {
+    pub(crate) fn of(run: &RunPlan, grid: Grid, total: u64) -> Templates {
         Templates {
             modes: run
                 .modes
@@ -82,7 +82,12 @@ impl Templates {
 impl RunState {
     /// The state of no frames of `run` on `grid`, with the quantities
     /// `names`.
-    pub fn empty(run: &RunPlan, grid: Grid, names: &[&'static str], t: &Templates) -> RunState {
+    pub(crate) fn empty(
+        run: &RunPlan,
+        grid: Grid,
+        names: &[&'static str],
+        t: &Templates,
+    ) -> RunState {
         RunState {
             acc: RunAccumulator::new(&run.stats, grid, names),
             frames: Vec::new(),
@@ -97,7 +102,12 @@ impl RunState {
     }
 
     /// Adds one used (not rejected) frame to every accumulator.
-    pub fn push(&mut self, meta: &FrameMeta, field: &Field, derived: &crate::derive::Derived) {
+    pub(crate) fn push(
+        &mut self,
+        meta: &FrameMeta,
+        field: &Field,
+        derived: &crate::derive::Derived,
+    ) {
         self.acc.push(meta, field, derived);
         if let Some(b) = self.budget.as_mut() {
             b.push(meta, field, derived);
@@ -115,14 +125,14 @@ impl RunState {
 
     /// Adds `names[k]` × `counts[k]` to the scheme counts, keeping
     /// first-seen order.
-    pub fn add_scheme_counts(&mut self, names: &[&str], counts: &[usize]) {
+    pub(crate) fn add_scheme_counts(&mut self, names: &[&str], counts: &[usize]) {
         add_counts(&mut self.scheme_counts, names, counts);
     }
 
     /// Merges `later`, the state of the frames that follow `self`'s, or
     /// says why the two cannot merge (`self` may then be partly merged:
     /// the caller stops with the error).
-    pub fn merge(&mut self, later: RunState) -> Result<()> {
+    pub(crate) fn merge(&mut self, later: RunState) -> Result<()> {
         self.acc.try_merge(later.acc)?;
         both(
             "a peak-locking accumulator",

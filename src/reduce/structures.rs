@@ -22,7 +22,7 @@ use crate::spectra::run as spec;
 use crate::stats::RunAccumulator;
 
 /// The run's accumulated parts that structures are made from.
-pub struct Parts<'a> {
+pub(crate) struct Parts<'a> {
     pub acc: &'a RunAccumulator,
     pub sketch: Option<&'a ModeSketch>,
     pub corr: Option<&'a CorrAcc>,
@@ -30,7 +30,7 @@ pub struct Parts<'a> {
 
 /// Finishes and writes the structures of `rr` into `dir`; warnings are
 /// prefixed with the run.
-pub fn finish(
+pub(crate) fn finish(
     rp: &RunPlan,
     rr: &RunResult,
     parts: Parts,
@@ -219,7 +219,7 @@ fn run_spectra(
 
 /// Finishes the POD of a run and writes its tables (and the phase frame
 /// table when asked) into `dir`.
-pub fn write_pod(
+pub(crate) fn write_pod(
     sketch: &ModeSketch,
     run: &RunPlan,
     frames: &[FrameRecord],

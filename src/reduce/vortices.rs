@@ -46,7 +46,7 @@ fn slice_of<'a>(
 /// column, or fitted to the frames' phases and times). `frame_cores` are
 /// the cores the reduction found in every used frame (`frames`), when the
 /// run asked for them.
-pub fn analyse(
+pub(crate) fn analyse(
     rr: &RunResult,
     rp: &RunPlan,
     frequency: Option<f64>,

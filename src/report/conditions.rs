@@ -6,17 +6,17 @@
 
 use crate::field::Extra;
 use crate::result::RunResult;
-pub use crate::stats::frequency::estimate_frequency;
+pub(crate) use crate::stats::frequency::estimate_frequency;
 
 /// Where a run's frequency came from.
 #[derive(Debug, Clone, Copy, PartialEq)]
-pub enum FrequencySource {
+pub(crate) enum FrequencySource {
     Given,
     Estimated,
 }
 
 /// The run's frequency (Hz) and its source.
-pub fn run_frequency(run: &RunResult) -> Option<(f64, FrequencySource)> {
+pub(crate) fn run_frequency(run: &RunResult) -> Option<(f64, FrequencySource)> {
     if let Some(f) = run.conditions.frequency {
         return Some((f, FrequencySource::Given));
     }
@@ -33,7 +33,7 @@ pub fn run_frequency(run: &RunResult) -> Option<(f64, FrequencySource)> {
 /// `nu_m2_s`, `Re` (= U L / ν), `f_Hz` (given) or `f_est_Hz` (estimated),
 /// `St` (= f L / U), then every numeric free key under its own name.
 /// A column appears only when its inputs are known.
-pub fn campaign_columns(run: &RunResult) -> Vec<(String, f64)> {
+pub(crate) fn campaign_columns(run: &RunResult) -> Vec<(String, f64)> {
     let c = &run.conditions;
     let mut out = Vec::new();
     let mut put = |k: &str, v: Option<f64>| {

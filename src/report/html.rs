@@ -5,7 +5,7 @@
 use std::fmt::Write;
 
 /// Escapes text for HTML element content and attribute values.
-pub fn esc(s: &str) -> String {
+pub(crate) fn esc(s: &str) -> String {
     let mut o = String::with_capacity(s.len());
     for c in s.chars() {
         match c {
@@ -22,7 +22,7 @@ pub fn esc(s: &str) -> String {
 
 /// A relative path as a URL: '/'-separated, every byte outside the
 /// unreserved set (RFC 3986 §2.3) percent-encoded.
-pub fn url(p: &std::path::Path) -> String {
+pub(crate) fn url(p: &std::path::Path) -> String {
     let parts: Vec<String> = p
         .components()
         .map(|c| c.as_os_str().to_string_lossy().into_owned())
@@ -44,7 +44,7 @@ pub fn url(p: &std::path::Path) -> String {
 }
 
 /// An id for anchors: letters, digits and '-'.
-pub fn anchor(prefix: &str, s: &str) -> String {
+pub(crate) fn anchor(prefix: &str, s: &str) -> String {
     let mut o = format!("{prefix}-");
     for c in s.chars() {
         if c.is_ascii_alphanumeric() {
@@ -58,7 +58,7 @@ pub fn anchor(prefix: &str, s: &str) -> String {
 
 /// A table with a header row; cells are already HTML. Cells whose text
 /// starts with a digit, sign or NaN are right-aligned (class `n`).
-pub fn table(out: &mut String, header: &[&str], rows: &[Vec<String>]) {
+pub(crate) fn table(out: &mut String, header: &[&str], rows: &[Vec<String>]) {
     out.push_str("<table>\n<thead><tr>");
     for h in header {
         let _ = write!(out, "<th>{}</th>", esc(h));
@@ -83,7 +83,7 @@ pub fn table(out: &mut String, header: &[&str], rows: &[Vec<String>]) {
 }
 
 /// A number with `digits` significant digits, or an en dash when unknown.
-pub fn num(x: f64, digits: usize) -> String {
+pub(crate) fn num(x: f64, digits: usize) -> String {
     if !x.is_finite() {
         return "–".into();
     }
@@ -103,7 +103,7 @@ pub fn num(x: f64, digits: usize) -> String {
 
 /// Renders any JSON value: objects as definition lists, arrays of objects
 /// as tables, long strings with newlines as preformatted text.
-pub fn json(out: &mut String, v: &serde_json::Value, depth: usize) {
+pub(crate) fn json(out: &mut String, v: &serde_json::Value, depth: usize) {
     use serde_json::Value as V;
     match v {
         V::Null => out.push('–'),

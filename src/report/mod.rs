@@ -10,10 +10,10 @@
 //! leaves a half page in place of a good one.
 
 mod budget;
-pub mod conditions;
+pub(crate) mod conditions;
 mod html;
 mod sections;
-pub mod structures;
+pub(crate) mod structures;
 mod vortices;
 
 use std::path::Path;
@@ -21,10 +21,8 @@ use std::path::Path;
 use crate::error::Result;
 use crate::result::CampaignResult;
 
-pub use conditions::{campaign_columns, run_frequency, FrequencySource};
-
 /// Writes `out/index.html`.
-pub fn write_report(c: &CampaignResult, out: &Path) -> Result<()> {
+pub(crate) fn write_report(c: &CampaignResult, out: &Path) -> Result<()> {
     let page = sections::page(c);
     crate::io::atomic_bytes(&out.join("index.html"), page.as_bytes())
 }

@@ -421,7 +421,7 @@ fn provenance(out: &mut String, m: &serde_json::Value) {
 }
 
 /// The whole page.
-pub fn page(c: &CampaignResult) -> String {
+pub(crate) fn page(c: &CampaignResult) -> String {
     let mut o = String::with_capacity(64 * 1024);
     let version = c
         .manifest

@@ -49,7 +49,7 @@ fn mm_pm(x: f64, u: f64) -> String {
 }
 
 /// The POD in words (see the module doc).
-pub fn pod_words(pod: &Pod) -> Vec<String> {
+pub(crate) fn pod_words(pod: &Pod) -> Vec<String> {
     let tot = pod.total_energy;
     let frac = |j: usize| pod.energy[j] / tot;
     let unc = |j: usize| pod.energy_unc[j] / tot;
@@ -105,7 +105,7 @@ fn series_label(name: &str) -> String {
 }
 
 /// The spectra in words (see the module doc).
-pub fn spectra_words(sp: &RunSpectra) -> Vec<String> {
+pub(crate) fn spectra_words(sp: &RunSpectra) -> Vec<String> {
     let mut s = Vec::new();
     let Some(first) = sp.series.first() else {
         return s;
@@ -151,7 +151,7 @@ pub fn spectra_words(sp: &RunSpectra) -> Vec<String> {
 }
 
 /// The length scales in words (see the module doc).
-pub fn scales_words(sc: &Scales) -> Vec<String> {
+pub(crate) fn scales_words(sc: &Scales) -> Vec<String> {
     let mut s = Vec::new();
     for (k, p) in sc.probes.iter().enumerate() {
         for (c, cs) in p.comp.iter().enumerate() {

@@ -3,7 +3,7 @@
 use crate::vortex::{track, SliceKind, Vortices};
 
 /// The report's paragraph in plain words.
-pub fn words(v: &Vortices) -> String {
+pub(crate) fn words(v: &Vortices) -> String {
     use crate::describe::num;
     let n_mean = v
         .slices

@@ -26,7 +26,7 @@
 //! Edge behaviour: a series with a non-finite value, or shorter than
 //! `nperseg`, is an error naming the series; nperseg must be ≥ 2.
 
-pub mod run;
+pub(crate) mod run;
 
 use rustdct::rustfft::{num_complex::Complex, FftPlanner};
 use statrs::distribution::{ChiSquared, ContinuousCDF};
@@ -51,7 +51,7 @@ pub struct Psd {
 }
 
 /// The periodic Hann window of length n (scipy's `get_window('hann', n)`).
-pub fn hann(n: usize) -> Vec<f64> {
+pub(crate) fn hann(n: usize) -> Vec<f64> {
     (0..n)
         .map(|t| 0.5 - 0.5 * (std::f64::consts::TAU * t as f64 / n as f64).cos())
         .collect()
@@ -82,7 +82,7 @@ pub fn welch(
 /// degrees of freedom of the segments kept (`dof_segments`, which for
 /// consecutive segments is `dof_welch`). With no hole this is `welch`
 /// exactly. An error when no segment is whole.
-pub fn welch_gapped(
+pub(crate) fn welch_gapped(
     name: &str,
     x: &[f64],
     fs: f64,
@@ -171,7 +171,8 @@ pub fn welch_gapped(
 
 /// Equivalent degrees of freedom of K averaged segments of window `w`
 /// shifted by `step` (see the module doc): 2K for no overlap.
-pub fn dof_welch(w: &[f64], step: usize, k: usize) -> f64 {
+#[cfg(test)]
+pub(crate) fn dof_welch(w: &[f64], step: usize, k: usize) -> f64 {
     let e: f64 = w.iter().map(|v| v * v).sum();
     let mut sum = 0.0;
     for m in 1..k {
@@ -196,7 +197,7 @@ pub fn dof_welch(w: &[f64], step: usize, k: usize) -> f64 {
 /// that shift (0 beyond the window; `starts` ascending). The variance of a mean of K
 /// periodograms correlated as ρ² (Welch 1967, from memory, as in the
 /// module doc); for K consecutive segments it is `dof_welch`'s formula.
-pub fn dof_segments(w: &[f64], starts: &[usize]) -> f64 {
+pub(crate) fn dof_segments(w: &[f64], starts: &[usize]) -> f64 {
     let e: f64 = w.iter().map(|v| v * v).sum();
     let mut memo: std::collections::HashMap<usize, f64> = Default::default();
     let mut rho = |shift: usize| -> f64 {
@@ -253,7 +254,7 @@ fn parabola(lo: f64, mid: f64, hi: f64) -> f64 {
 /// over that place of the interpolation's error. Computed here from the
 /// window's spectrum (a complex tone at `n/4 + d` bins, d on 201 points of
 /// [-0.5, 0.5], its DFT at the three bins about the largest), not recalled.
-pub fn interpolation_unc_bins(n: usize) -> f64 {
+pub(crate) fn interpolation_unc_bins(n: usize) -> f64 {
     let w = hann(n);
     let m = (n / 4).max(2) as f64;
     let power = |f0: f64, k: f64| {
@@ -291,7 +292,7 @@ pub fn interpolation_unc_bins(n: usize) -> f64 {
 /// With one segment (no jackknife) the uncertainty is the bin's own,
 /// `df / sqrt(12)` (the peak known only to lie within its bin). None when
 /// the largest bin is at an end of the spectrum.
-pub fn dominant(p: &Psd) -> Option<(f64, f64)> {
+pub(crate) fn dominant(p: &Psd) -> Option<(f64, f64)> {
     let f = peak_bin(&p.psd)? * p.df;
     let k = p.per_segment.len();
     if k < 2 {

@@ -90,7 +90,7 @@ pub struct RunSpectra {
 
 /// The sampling frequency when `times` (one per frame, frame order) are
 /// all known and evenly spaced (see the module doc); else why not.
-pub fn clock(times: &[Option<f64>]) -> std::result::Result<f64, String> {
+pub(crate) fn clock(times: &[Option<f64>]) -> std::result::Result<f64, String> {
     if times.len() < 16 {
         return Err(format!(
             "{} frames are too few for a spectrum (at least 16)",
@@ -118,7 +118,7 @@ pub fn clock(times: &[Option<f64>]) -> std::result::Result<f64, String> {
 /// Fills NaN samples by linear interpolation between the nearest finite
 /// neighbours (constant beyond the ends); returns how many were filled,
 /// `None` when no sample is finite.
-pub fn fill_gaps(x: &mut [f64]) -> Option<usize> {
+pub(crate) fn fill_gaps(x: &mut [f64]) -> Option<usize> {
     let known: Vec<usize> = (0..x.len()).filter(|&i| x[i].is_finite()).collect();
     let (&first, &last) = (known.first()?, known.last()?);
     let mut filled = 0;
@@ -141,7 +141,7 @@ pub fn fill_gaps(x: &mut [f64]) -> Option<usize> {
 }
 
 /// The segment length of `p` for `n` samples (see `Params::segment`).
-pub fn segment_length(p: &Params, n: usize) -> usize {
+pub(crate) fn segment_length(p: &Params, n: usize) -> usize {
     p.segment.unwrap_or_else(|| {
         let quarter = (n / 4).max(8);
         1usize << (usize::BITS - 1 - quarter.leading_zeros())
@@ -150,7 +150,7 @@ pub fn segment_length(p: &Params, n: usize) -> usize {
 
 /// The spectra of named series sampled at `fs` (see the module doc);
 /// warnings name series skipped.
-pub fn spectra(
+pub(crate) fn spectra(
     p: &Params,
     fs: f64,
     coverage: f64,
@@ -213,7 +213,7 @@ pub fn spectra(
 /// `spectra.csv`: one row per series and frequency: `series, freq_hz,
 /// psd, psd_lower, psd_upper` (units²/Hz; the interval at the run's
 /// coverage).
-pub fn spectra_table(s: &RunSpectra) -> Table {
+pub(crate) fn spectra_table(s: &RunSpectra) -> Table {
     let mut name = Vec::new();
     let mut cols: [Vec<f64>; 4] = Default::default();
     for ser in &s.series {
@@ -242,7 +242,7 @@ pub fn spectra_table(s: &RunSpectra) -> Table {
 /// peak_unc_hz, strouhal, strouhal_unc, reference_hz, difference_over_unc,
 /// segments, dof, df_hz, nperseg, noverlap, fs_hz, filled` (empty where
 /// unknown).
-pub fn peaks_table(s: &RunSpectra) -> Table {
+pub(crate) fn peaks_table(s: &RunSpectra) -> Table {
     let mut t = Table::new();
     let col = |f: &dyn Fn(&SeriesSpectrum) -> f64| Values::F64(s.series.iter().map(f).collect());
     let peak = |x: &SeriesSpectrum| x.peak.map_or(f64::NAN, |p| p.0);

@@ -44,12 +44,12 @@ use crate::error::{Error, Result};
 use crate::field::Grid;
 
 /// The first eight bytes of a partial-state file.
-pub const FORMAT_MAGIC: &[u8; 8] = b"CURLEWPS";
+pub(crate) const FORMAT_MAGIC: &[u8; 8] = b"CURLEWPS";
 /// The version this build writes. It reads this one and every earlier one
 /// (`READS`): version 1 lacks the signed-truncation and noise-shift sums of
 /// a scalar (read as zeros: such a state finishes with the version-1 rule
 /// for the systematic part, the RMS of the per-frame truncation estimates).
-pub const FORMAT_VERSION: u32 = 2;
+pub(crate) const FORMAT_VERSION: u32 = 2;
 /// The versions this build reads.
 const READS: [u32; 2] = [1, 2];
 
@@ -211,7 +211,7 @@ impl R<'_> {
 
 impl RunAccumulator {
     /// The partial state in the documented format (module `codec`).
-    pub fn to_bytes(&self) -> Vec<u8> {
+    pub(crate) fn to_bytes(&self) -> Vec<u8> {
         self.to_bytes_as(FORMAT_VERSION)
     }
 
@@ -300,7 +300,7 @@ impl RunAccumulator {
 
     /// Reads a partial state written by `to_bytes`; an error (kind Data) on
     /// another format, another version, truncation or damage.
-    pub fn from_bytes(b: &[u8]) -> Result<Self> {
+    pub(crate) fn from_bytes(b: &[u8]) -> Result<Self> {
         if b.len() < 8 || &b[..8] != FORMAT_MAGIC {
             return Err(bad(
                 "not a curlew partial-statistics file (wrong magic bytes)",

@@ -330,7 +330,7 @@ pub(super) fn finish(acc: &RunAccumulator, p: &Params) -> RunStats {
 /// edge or corner node from posing as the peak (without an uncertainty
 /// column, every finite node). The one peak rule of campaign.csv, the
 /// report and the comparison scalars.
-pub fn peak_node(t: &NodeTable) -> Option<(usize, f64)> {
+pub(crate) fn peak_node(t: &NodeTable) -> Option<(usize, f64)> {
     let w = t.get("omega_mean")?;
     let lim = t
         .get("omega_mean_unc")

@@ -11,7 +11,7 @@
 
 /// The least-squares frequency of (time, phase in degrees) samples (see the
 /// module doc); sorts `tp` by time.
-pub fn estimate_frequency(tp: &mut [(f64, f64)]) -> Option<f64> {
+pub(crate) fn estimate_frequency(tp: &mut [(f64, f64)]) -> Option<f64> {
     if tp.len() < 3 {
         return None;
     }

@@ -19,13 +19,13 @@ use statrs::distribution::{ContinuousCDF, Normal, StudentsT};
 /// (`f64::INFINITY` for a component taken as exactly known, e.g. Type B
 /// without a stated reliability).
 #[derive(Debug, Clone, Copy, PartialEq)]
-pub struct Component {
+pub(crate) struct Component {
     pub u: f64,
     pub dof: f64,
 }
 
 /// Combined standard uncertainty and Welch-Satterthwaite degrees of freedom.
-pub fn combine(components: &[Component]) -> (f64, f64) {
+pub(crate) fn combine(components: &[Component]) -> (f64, f64) {
     let uc2: f64 = components.iter().map(|c| c.u * c.u).sum();
     let denom: f64 = components
         .iter()
@@ -46,7 +46,7 @@ pub fn combine(components: &[Component]) -> (f64, f64) {
 /// within 5e-7 relative of scipy.stats.t.ppf (tested): dof below
 /// `ASYMPTOTIC_DOF` interpolates a table of exact values, dof above uses
 /// the asymptotic series, dof beyond 1e7 or infinite the normal quantile.
-pub fn coverage_factor(p: f64, dof: f64) -> f64 {
+pub(crate) fn coverage_factor(p: f64, dof: f64) -> f64 {
     if !(p > 0.0 && p < 1.0) || dof.is_nan() {
         return f64::NAN;
     }
@@ -112,7 +112,7 @@ fn t_interpolated(q: f64, nu: f64) -> f64 {
 /// From this many degrees of freedom on, the t quantile comes from its
 /// asymptotic series (about 100 times faster than the exact inversion; its
 /// error is below 1e-6 relative for coverage up to 0.9973, tested on scipy).
-pub const ASYMPTOTIC_DOF: f64 = 40.0;
+pub(crate) const ASYMPTOTIC_DOF: f64 = 40.0;
 
 /// Student t quantile from the normal quantile z: the Cornish-Fisher type
 /// series in 1/nu of Abramowitz & Stegun (1964) 26.7.5 (from memory;
@@ -127,7 +127,8 @@ fn t_asymptotic(z: f64, nu: f64) -> f64 {
 }
 
 /// Expanded uncertainty `k u_c` at coverage `p` for these components.
-pub fn expanded(components: &[Component], p: f64) -> f64 {
+#[cfg(test)]
+pub(crate) fn expanded(components: &[Component], p: f64) -> f64 {
     let (uc, nu) = combine(components);
     if uc == 0.0 {
         return 0.0;
@@ -136,7 +137,7 @@ pub fn expanded(components: &[Component], p: f64) -> f64 {
 }
 
 /// Standard uncertainty of a mean: `sigma / sqrt(N_eff)`.
-pub fn mean_unc(sigma: f64, n_eff: f64) -> f64 {
+pub(crate) fn mean_unc(sigma: f64, n_eff: f64) -> f64 {
     if n_eff >= 1.0 {
         sigma / n_eff.sqrt()
     } else {
@@ -146,7 +147,7 @@ pub fn mean_unc(sigma: f64, n_eff: f64) -> f64 {
 
 /// Standard uncertainty of a standard deviation: `sigma / sqrt(2 (N_eff - 1))`
 /// (Gaussian samples).
-pub fn std_unc(sigma: f64, n_eff: f64) -> f64 {
+pub(crate) fn std_unc(sigma: f64, n_eff: f64) -> f64 {
     if n_eff > 1.0 {
         sigma / (2.0 * (n_eff - 1.0)).sqrt()
     } else {
@@ -165,7 +166,7 @@ pub fn std_unc(sigma: f64, n_eff: f64) -> f64 {
 /// tests). Independent samples (N_eff = N): the factor is 1. tau is held
 /// below N - 1 (a record that short cannot tell its variance; the caller
 /// warns). NaN when N_eff < 1 or n < 2.
-pub fn mean_unc_correlated(s: f64, n: f64, n_eff: f64) -> f64 {
+pub(crate) fn mean_unc_correlated(s: f64, n: f64, n_eff: f64) -> f64 {
     if !(n_eff >= 1.0 && n >= 2.0) {
         return f64::NAN;
     }
@@ -187,7 +188,7 @@ pub fn mean_unc_correlated(s: f64, n: f64, n_eff: f64) -> f64 {
 /// `u(s) = s sqrt((F - 1)/(4N))` to leading order and
 /// `s / sqrt(2 (N - 1))` for Gaussian samples (F = 3; `std_unc`). A flatness
 /// that is not finite (fewer than 3 samples) is taken as Gaussian.
-pub fn std_unc_flat(sigma: f64, flat: f64, n_eff: f64) -> f64 {
+pub(crate) fn std_unc_flat(sigma: f64, flat: f64, n_eff: f64) -> f64 {
     if n_eff.is_nan() || n_eff <= 1.0 {
         return f64::NAN;
     }
@@ -198,7 +199,7 @@ pub fn std_unc_flat(sigma: f64, flat: f64, n_eff: f64) -> f64 {
 
 /// Standard uncertainty of a covariance (Reynolds shear stress):
 /// `sqrt((sigma_u^2 sigma_v^2 + cov^2) / (N_eff - 1))` (Gaussian samples).
-pub fn cov_unc(su: f64, sv: f64, cov: f64, n_eff: f64) -> f64 {
+pub(crate) fn cov_unc(su: f64, sv: f64, cov: f64, n_eff: f64) -> f64 {
     if n_eff > 1.0 {
         ((su * su * sv * sv + cov * cov) / (n_eff - 1.0)).sqrt()
     } else {

@@ -59,14 +59,14 @@ use std::collections::VecDeque;
 
 /// One frame's samples for every series and node (NaN: no sample).
 #[derive(Debug, Clone, PartialEq)]
-pub struct LagFrame {
+pub(crate) struct LagFrame {
     pub index: u64,
     pub values: Vec<f64>,
 }
 
 /// Sums for one lag over every series-node.
 #[derive(Debug, Clone, PartialEq)]
-pub struct LagSums {
+pub(crate) struct LagSums {
     pub s: Vec<f64>,
     pub p: Vec<f64>,
     pub q: Vec<f64>,
@@ -86,7 +86,7 @@ impl LagSums {
 
 /// The lagged sums of a contiguous range of frames.
 #[derive(Debug, Clone, PartialEq)]
-pub struct Lags {
+pub(crate) struct Lags {
     pub max_lag: usize,
     /// series x nodes.
     pub len: usize,
@@ -101,7 +101,7 @@ pub struct Lags {
 }
 
 impl Lags {
-    pub fn new(max_lag: usize, len: usize) -> Self {
+    pub(crate) fn new(max_lag: usize, len: usize) -> Self {
         Lags {
             max_lag,
             len,
@@ -141,7 +141,7 @@ impl Lags {
     }
 
     /// Adds one frame (indices strictly increasing).
-    pub fn push(&mut self, index: u64, values: Vec<f64>) {
+    pub(crate) fn push(&mut self, index: u64, values: Vec<f64>) {
         assert_eq!(values.len(), self.len, "lag frame size");
         if let Some(last) = self.tail.back() {
             assert!(
@@ -179,7 +179,7 @@ impl Lags {
 
     /// Merges the lags of the frames that follow `self`'s.
     #[allow(clippy::needless_range_loop)] // one index over six parallel arrays
-    pub fn merge(&mut self, b: Lags) {
+    pub(crate) fn merge(&mut self, b: Lags) {
         assert_eq!(
             (self.len, self.max_lag),
             (b.len, b.max_lag),
@@ -244,7 +244,7 @@ impl Lags {
     /// mean and second central sum `m2` (see the module doc), with at most
     /// `cap` lags. N_eff lies in [1, n]; n < 3 or zero variance gives
     /// N_eff = n.
-    pub fn n_eff(&self, j: usize, n: f64, mean: f64, m2: f64, cap: usize) -> NEff {
+    pub(crate) fn n_eff(&self, j: usize, n: f64, mean: f64, m2: f64, cap: usize) -> NEff {
         let plain = NEff {
             n_eff: n,
             lags: 0,
@@ -283,7 +283,7 @@ impl Lags {
 
 /// What `Lags::n_eff` finds at one series-node.
 #[derive(Debug, Clone, Copy, PartialEq)]
-pub struct NEff {
+pub(crate) struct NEff {
     pub n_eff: f64,
     /// Lags in the window (step 1 of the module doc).
     pub lags: usize,
@@ -294,7 +294,7 @@ pub struct NEff {
 }
 
 /// Below this N_eff the record is called too short to tell its time scale.
-pub const SHORT_N_EFF: f64 = 10.0;
+pub(crate) const SHORT_N_EFF: f64 = 10.0;
 
 /// Lags 1..K of Geyer's initial monotone positive sequence over `r`
 /// (`r[k-1]` = r(k)) of `n` samples: the number K of lags in the kept
@@ -386,7 +386,7 @@ fn geometric_tail(q: f64, kk: usize, n: f64) -> f64 {
 /// fraction of about k/B of the pairs at lag k. More than `MAX_CLUSTERS`
 /// distinct steps: irregular, samples independent.
 #[derive(Debug, Clone, PartialEq, Default)]
-pub struct Clock {
+pub(crate) struct Clock {
     pub frames: u64,
     /// Frames that carried a time.
     pub timed: u64,
@@ -399,15 +399,15 @@ pub struct Clock {
 }
 
 /// Relative spread of time steps taken as one step (printed times round).
-pub const UNIFORM_TOL: f64 = 0.01;
+pub(crate) const UNIFORM_TOL: f64 = 0.01;
 /// Share of the steps that must be the base step.
-pub const RESOLVED_SHARE: f64 = 0.9;
+pub(crate) const RESOLVED_SHARE: f64 = 0.9;
 /// Distinct step clusters kept before the clock is called irregular.
-pub const MAX_CLUSTERS: usize = 32;
+pub(crate) const MAX_CLUSTERS: usize = 32;
 
 /// The time base of a time-resolved run.
 #[derive(Debug, Clone, Copy, PartialEq)]
-pub struct TimeBase {
+pub(crate) struct TimeBase {
     /// Seconds per frame index.
     pub step: f64,
     /// Steps longer than the base step.
@@ -415,7 +415,7 @@ pub struct TimeBase {
 }
 
 impl Clock {
-    pub fn new() -> Self {
+    pub(crate) fn new() -> Self {
         Clock::default()
     }
 
@@ -439,7 +439,7 @@ impl Clock {
         self.add_step((b.1 - a.1) / (b.0 - a.0) as f64, 1);
     }
 
-    pub fn push(&mut self, index: u64, time: Option<f64>) {
+    pub(crate) fn push(&mut self, index: u64, time: Option<f64>) {
         self.frames += 1;
         if let Some(t) = time.filter(|t| t.is_finite()) {
             self.timed += 1;
@@ -453,7 +453,7 @@ impl Clock {
         }
     }
 
-    pub fn merge(&mut self, b: &Clock) {
+    pub(crate) fn merge(&mut self, b: &Clock) {
         if let (Some(l), Some(f)) = (self.last, b.first) {
             self.step(l, f);
         }
@@ -472,7 +472,7 @@ impl Clock {
 
     /// The time base when the run is time-resolved (see the type doc);
     /// `None` otherwise (samples are then independent).
-    pub fn time_base(&self) -> Option<TimeBase> {
+    pub(crate) fn time_base(&self) -> Option<TimeBase> {
         if self.frames < 3 || self.timed != self.frames || self.irregular {
             return None;
         }

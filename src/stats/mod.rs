@@ -25,14 +25,14 @@
 //! `max_lag = 50`, 114 MB (the lag sums: 96 bytes per node and lag).
 
 mod codec;
-pub mod finish;
-pub mod frequency;
-pub mod gum;
-pub mod lags;
-pub mod moments;
+pub(crate) mod finish;
+pub(crate) mod frequency;
+pub(crate) mod gum;
+pub(crate) mod lags;
+pub(crate) mod moments;
 mod phase;
 mod probes;
-pub use probes::nearest_node;
+pub(crate) use probes::nearest_node;
 mod strata;
 mod table;
 #[cfg(test)]
@@ -46,11 +46,10 @@ use crate::field::{Field, FrameMeta, Grid, NodeTable, FILLED, REPLACED, VALID};
 use lags::{Clock, Lags};
 use moments::Moments;
 
-pub use codec::{FORMAT_MAGIC, FORMAT_VERSION};
-
 /// The docs/interface.md `ensemble` columns after x, y, in order; every table of
 /// `RunStats` (ensemble and each phase bin) starts with them.
-pub const CONTRACT_COLUMNS: [&str; 12] = [
+#[cfg(test)]
+pub(crate) const CONTRACT_COLUMNS: [&str; 12] = [
     "n_valid",
     "u_mean",
     "v_mean",
@@ -112,7 +111,7 @@ impl Params {
     /// The statistics settings in plain words, for `curlew check` and the
     /// report: "coverage 95 %, autocorrelation up to lag 50 frames, 12 phase
     /// bins (each the whole 30°), …".
-    pub fn describe(&self) -> String {
+    pub(crate) fn describe(&self) -> String {
         use crate::describe::{num, percent};
         let bin = 360.0 / self.phase_bins.max(1) as f64;
         let width = match self.phase_width_deg {
@@ -176,12 +175,12 @@ struct Trace {
 
 /// One frame's row of a probe trace: the run-wide frame index and u, v,
 /// omega at the probe's node (NaN where the node had no sample).
-pub type ProbeRow = (u64, [f64; 3]);
+pub(crate) type ProbeRow = (u64, [f64; 3]);
 
 /// The accumulators of one run (ensemble, phase bins, lags, probes). One per
 /// chunk of frames; chunks merge in frame order.
 #[derive(Debug, Clone)]
-pub struct RunAccumulator {
+pub(crate) struct RunAccumulator {
     pub grid: Grid,
     params: Params,
     quantities: Vec<String>,
@@ -202,7 +201,7 @@ pub struct RunAccumulator {
 }
 
 impl RunAccumulator {
-    pub fn new(p: &Params, grid: Grid, quantities: &[&'static str]) -> Self {
+    pub(crate) fn new(p: &Params, grid: Grid, quantities: &[&'static str]) -> Self {
         let nodes = grid.len();
         let traces = p
             .probes
@@ -228,35 +227,13 @@ impl RunAccumulator {
         }
     }
 
-    /// The parameters the accumulator was made with (a merge of partial
-    /// states finishes with these, so it writes what one run writes).
-    pub fn params(&self) -> &Params {
-        &self.params
-    }
-
-    /// Run-wide index of the first and the last frame pushed (`None` when
-    /// empty): partial states merge in the order of their first frame.
-    pub fn span(&self) -> Option<(u64, u64)> {
-        self.span
-    }
-
-    /// Frames pushed so far.
-    pub fn frames(&self) -> u64 {
-        self.clock.frames
-    }
-
     /// Each probe's node and its rows (run-wide frame index; u, v, omega,
     /// NaN where the node had no sample), in frame order.
-    pub fn probe_series(&self) -> Vec<(usize, &[ProbeRow])> {
+    pub(crate) fn probe_series(&self) -> Vec<(usize, &[ProbeRow])> {
         self.traces
             .iter()
             .map(|t| (t.node, t.rows.as_slice()))
             .collect()
-    }
-
-    /// Names of the derived quantities, in column order.
-    pub fn quantities(&self) -> &[String] {
-        &self.quantities
     }
 
     /// Index of "omega" among the quantities.
@@ -269,7 +246,7 @@ impl RunAccumulator {
     /// `include_filled`), `derived` the values. Frames must come in
     /// increasing `meta.index`; `derived` must hold the quantities named at
     /// `new`, in that order, on this grid (a programming error otherwise).
-    pub fn push(&mut self, meta: &FrameMeta, field: &Field, derived: &Derived) {
+    pub(crate) fn push(&mut self, meta: &FrameMeta, field: &Field, derived: &Derived) {
         let sh = self.grid.shape();
         assert_eq!(field.status.dim(), sh, "field shape");
         assert_eq!(derived.u.dim(), sh, "derived shape");
@@ -384,7 +361,8 @@ impl RunAccumulator {
     /// Merges the accumulator of the frames that follow `self`'s. Panics
     /// when the two cannot merge (see `try_merge`): chunk accumulators of
     /// one run always can.
-    pub fn merge(&mut self, later: RunAccumulator) {
+    #[cfg(test)]
+    pub(crate) fn merge(&mut self, later: RunAccumulator) {
         if let Err(e) = self.try_merge(later) {
             panic!("{e}");
         }
@@ -393,7 +371,7 @@ impl RunAccumulator {
     /// Merges `later` (frames after `self`'s) or says why not: a different
     /// grid, quantity list or accumulation parameters, or frames that do not
     /// follow. `self` is unchanged on error.
-    pub fn try_merge(&mut self, later: RunAccumulator) -> Result<()> {
+    pub(crate) fn try_merge(&mut self, later: RunAccumulator) -> Result<()> {
         if let Some(d) = self.grid.difference(&later.grid, 1e-9) {
             return Err(Error::data(format!("cannot merge partial statistics: {d}")));
         }
@@ -453,7 +431,7 @@ impl RunAccumulator {
     /// The finished statistics with the uncertainty settings of `p`
     /// (coverage, systematic components, convergence tail, lag cap up to
     /// the accumulated `max_lag`).
-    pub fn finish(&self, p: &Params) -> RunStats {
+    pub(crate) fn finish(&self, p: &Params) -> RunStats {
         finish::finish(self, p)
     }
 }
@@ -557,13 +535,13 @@ pub struct RunStats {
     pub warnings: Vec<String>,
 }
 
-pub use phase::bin_index as phase_bin_index;
+pub(crate) use phase::bin_index as phase_bin_index;
 
 /// Per node: does this frame's vector count as a sample? Its status counts
 /// (valid, or replaced or filled when `include_filled`) and u, v are
 /// finite: the one sample rule of the statistics and the two-point
 /// correlations alike.
-pub fn sample_mask(field: &Field, d: &Derived, include_filled: bool) -> Vec<bool> {
+pub(crate) fn sample_mask(field: &Field, d: &Derived, include_filled: bool) -> Vec<bool> {
     field
         .status
         .iter()
@@ -578,7 +556,7 @@ pub fn sample_mask(field: &Field, d: &Derived, include_filled: bool) -> Vec<bool
 
 /// The phase bin a frame of phase `phase_deg` falls in under `p`'s binning
 /// (`None`: no phase, or outside every window).
-pub fn phase_bin(p: &Params, phase_deg: Option<f64>) -> Option<usize> {
+pub(crate) fn phase_bin(p: &Params, phase_deg: Option<f64>) -> Option<usize> {
     match phase::bin_of(p, phase_deg) {
         phase::Binned::Bin(b) => Some(b),
         _ => None,

@@ -29,11 +29,11 @@
 //! and quantity, independent of the number of frames.
 
 /// The number of vectors a version-1 partial state holds per scalar.
-pub const PARTS_V1: usize = 9;
+pub(crate) const PARTS_V1: usize = 9;
 
 /// Moments of one scalar at every node. All vectors have one entry per node.
 #[derive(Debug, Clone, PartialEq, Default)]
-pub struct Scalar {
+pub(crate) struct Scalar {
     pub n: Vec<f64>,
     pub mean: Vec<f64>,
     pub m2: Vec<f64>,
@@ -59,7 +59,7 @@ pub struct Scalar {
 }
 
 impl Scalar {
-    pub fn new(nodes: usize) -> Self {
+    pub(crate) fn new(nodes: usize) -> Self {
         let z = vec![0.0; nodes];
         Scalar {
             n: z.clone(),
@@ -82,7 +82,7 @@ impl Scalar {
 
     /// The vectors in their fixed serialisation order (format version 2;
     /// version 1 wrote the first `PARTS_V1`).
-    pub fn parts(&self) -> [&Vec<f64>; 15] {
+    pub(crate) fn parts(&self) -> [&Vec<f64>; 15] {
         [
             &self.n,
             &self.mean,
@@ -102,7 +102,7 @@ impl Scalar {
         ]
     }
 
-    pub fn parts_mut(&mut self) -> [&mut Vec<f64>; 15] {
+    pub(crate) fn parts_mut(&mut self) -> [&mut Vec<f64>; 15] {
         [
             &mut self.n,
             &mut self.mean,
@@ -127,7 +127,7 @@ impl Scalar {
     /// exactly one dropped and the rest evaluated in the same order, so the
     /// result is bit for bit that of `merge_node(k, 1, x, 0, 0, 0)` (tested).
     #[inline]
-    pub fn add(&mut self, k: usize, x: f64) {
+    pub(crate) fn add(&mut self, k: usize, x: f64) {
         let na = self.n[k];
         if na == 0.0 {
             self.n[k] = 1.0;
@@ -151,7 +151,7 @@ impl Scalar {
 
     /// Adds the squared uncertainty and bias of a counted sample, when finite.
     #[inline]
-    pub fn add_unc(&mut self, k: usize, unc: Option<f64>, bias: Option<f64>) {
+    pub(crate) fn add_unc(&mut self, k: usize, unc: Option<f64>, bias: Option<f64>) {
         if let Some(s) = unc.filter(|s| s.is_finite()) {
             self.unc2[k] += s * s;
             self.unc_n[k] += 1.0;
@@ -165,7 +165,13 @@ impl Scalar {
     /// Adds the signed truncation estimate `b` (with noise variance `vb`)
     /// and the noise shift of a counted sample, each when finite.
     #[inline]
-    pub fn add_trunc(&mut self, k: usize, b: Option<f64>, vb: Option<f64>, shift: Option<f64>) {
+    pub(crate) fn add_trunc(
+        &mut self,
+        k: usize,
+        b: Option<f64>,
+        vb: Option<f64>,
+        shift: Option<f64>,
+    ) {
         if let (Some(b), Some(vb)) = (b, vb) {
             if b.is_finite() && vb.is_finite() {
                 let na = self.tb_n[k];
@@ -213,7 +219,7 @@ impl Scalar {
     }
 
     /// Merges `b` (same nodes) into `self`.
-    pub fn merge(&mut self, b: &Scalar) {
+    pub(crate) fn merge(&mut self, b: &Scalar) {
         for k in 0..self.n.len() {
             self.merge_node(k, b.n[k], b.mean[k], b.m2[k], b.m3[k], b.m4[k]);
             self.unc2[k] += b.unc2[k];
@@ -237,7 +243,7 @@ impl Scalar {
 
 /// The moments of one set of frames (the ensemble, or one phase bin).
 #[derive(Debug, Clone, PartialEq)]
-pub struct Moments {
+pub(crate) struct Moments {
     /// Frames offered to this set.
     pub frames: f64,
     pub u: Scalar,
@@ -253,7 +259,7 @@ pub struct Moments {
 }
 
 impl Moments {
-    pub fn new(nodes: usize, n_quantities: usize) -> Self {
+    pub(crate) fn new(nodes: usize, n_quantities: usize) -> Self {
         let z = vec![0.0; nodes];
         Moments {
             frames: 0.0,
@@ -270,7 +276,7 @@ impl Moments {
     /// Adds a velocity sample (u, v) at node `k`, co-moment first (it uses
     /// the means before the update).
     #[inline]
-    pub fn add_velocity(&mut self, k: usize, u: f64, v: f64) {
+    pub(crate) fn add_velocity(&mut self, k: usize, u: f64, v: f64) {
         let na = self.u.n[k];
         if na > 0.0 {
             let du = u - self.u.mean[k];
@@ -282,7 +288,7 @@ impl Moments {
     }
 
     /// Merges `b` (the frames after `self`'s) into `self`.
-    pub fn merge(&mut self, b: &Moments) {
+    pub(crate) fn merge(&mut self, b: &Moments) {
         assert_eq!(
             self.q.len(),
             b.q.len(),

@@ -63,7 +63,7 @@ pub(super) enum Binned {
 }
 
 /// The centre of bin `k` of `bins`, in degrees.
-pub fn centre_deg(bins: usize, k: usize) -> f64 {
+pub(crate) fn centre_deg(bins: usize, k: usize) -> f64 {
     (k as f64 + 0.5) * 360.0 / bins as f64
 }
 
@@ -81,7 +81,7 @@ fn folded(phase_deg: f64) -> f64 {
 /// The bin of a finite phase in degrees among `bins` equal bins: bin k
 /// holds [k 360/K, (k+1) 360/K) after folding into [0, 360)
 /// (docs/interface.md). The one rule for the reduction and `synth`'s truth.
-pub fn bin_index(phase_deg: f64, bins: usize) -> usize {
+pub(crate) fn bin_index(phase_deg: f64, bins: usize) -> usize {
     let spacing = 360.0 / bins as f64;
     ((folded(phase_deg) / spacing).floor() as usize).min(bins - 1)
 }

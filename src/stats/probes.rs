@@ -29,7 +29,7 @@ use crate::field::table::{Table, Values};
 use crate::field::Grid;
 
 /// The node nearest (x, y): indices clamped to the grid.
-pub fn nearest_node(g: &Grid, x: f64, y: f64) -> usize {
+pub(crate) fn nearest_node(g: &Grid, x: f64, y: f64) -> usize {
     let idx = |p: f64, p0: f64, d: f64, n: usize| -> usize {
         let r = ((p - p0) / d).round();
         if r.is_nan() || r < 0.0 {

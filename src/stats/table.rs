@@ -63,7 +63,7 @@ use crate::derive::quantities::clip0;
 use crate::field::{Grid, NodeTable};
 
 /// Column suffix of the expanded uncertainty: 0.95 → "p95", 0.9545 → "p95_45".
-pub fn coverage_suffix(p: f64) -> String {
+pub(crate) fn coverage_suffix(p: f64) -> String {
     let pct = p * 100.0;
     if (pct - pct.round()).abs() < 1e-9 {
         format!("p{}", pct.round() as i64)
@@ -75,7 +75,7 @@ pub fn coverage_suffix(p: f64) -> String {
 
 /// Exponents (a, b) of a unit written as m^a s^b ("m/s", "1/s", "m^2/s^2",
 /// "", "1"); `None` for anything else.
-pub fn scale_exponents(unit: &str) -> Option<(i32, i32)> {
+pub(crate) fn scale_exponents(unit: &str) -> Option<(i32, i32)> {
     let unit = unit.trim();
     let (num, den) = match unit.split_once('/') {
         Some((n, d)) => (n, Some(d)),

@@ -57,7 +57,7 @@ impl serde::Serialize for Correlation {
 
 impl Correlation {
     /// The model in plain words, for `curlew check` and the report.
-    pub fn describe(&self) -> String {
+    pub(crate) fn describe(&self) -> String {
         use crate::describe::{num, percent};
         match *self {
             Correlation::Independent => "errors independent between vectors".into(),
@@ -74,7 +74,7 @@ impl Correlation {
 
     /// The correlation coefficient of two vectors `(dj, di)` grid steps apart.
     #[inline]
-    pub fn rho(&self, dj: i32, di: i32) -> f64 {
+    pub(crate) fn rho(&self, dj: i32, di: i32) -> f64 {
         match *self {
             Correlation::Independent => f64::from(dj == 0 && di == 0),
             Correlation::Window(c) => {
@@ -90,7 +90,7 @@ impl Correlation {
         }
     }
 
-    pub fn is_independent(&self) -> bool {
+    pub(crate) fn is_independent(&self) -> bool {
         match *self {
             Correlation::Independent => true,
             Correlation::Window(c) | Correlation::Adjacent(c) => c == 0.0,
@@ -100,7 +100,7 @@ impl Correlation {
     /// `sum_a sum_b w_a w_b rho(d_ab)`: the variance of the stencil's output
     /// for unit, uniform per-vector uncertainty. With independent errors this
     /// is the squared noise factor.
-    pub fn gain(&self, s: &Stencil) -> f64 {
+    pub(crate) fn gain(&self, s: &Stencil) -> f64 {
         if self.is_independent() {
             return s.taps.iter().map(|t| t.w * t.w).sum();
         }
@@ -120,7 +120,7 @@ impl Correlation {
     /// `gain * sig^2` (the fast path); otherwise the double sum. The stencil
     /// must fit at the node. NaN uncertainties propagate to NaN.
     #[inline]
-    pub fn variance_at(
+    pub(crate) fn variance_at(
         &self,
         s: &Stencil,
         gain: f64,

@@ -81,7 +81,13 @@ fn renormalised(taps: Vec<Tap>) -> Option<Stencil> {
 
 /// The operator the smoothing stencil `s` with rule `rule` applies at node
 /// `(j, i)` of a grid whose nodes with a value are `ok` (module docs).
-pub fn cut(s: &Stencil, rule: Cut, ok: &Array2<bool>, j: usize, i: usize) -> Option<Stencil> {
+pub(crate) fn cut(
+    s: &Stencil,
+    rule: Cut,
+    ok: &Array2<bool>,
+    j: usize,
+    i: usize,
+) -> Option<Stencil> {
     if s.fits(j, i, ok) {
         return Some(s.clone());
     }
@@ -132,7 +138,7 @@ pub fn cut(s: &Stencil, rule: Cut, ok: &Array2<bool>, j: usize, i: usize) -> Opt
 /// The highest even total degree `d <= 6` whose monomials `s` reproduces
 /// at its centre (moment (0,0) = 1, every moment of order 1..=d zero): the
 /// degree of the local fit a Savitzky-Golay kernel is.
-pub fn reproduced_degree(s: &Stencil) -> u32 {
+pub(crate) fn reproduced_degree(s: &Stencil) -> u32 {
     let scale: f64 = s.taps.iter().map(|t| t.w.abs()).sum();
     let exact = |d: u32| {
         (0..=d).all(|p| {

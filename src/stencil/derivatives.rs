@@ -54,7 +54,7 @@ pub enum DiffScheme {
 
 impl DiffScheme {
     /// Short name, as in the pipeline file.
-    pub fn name(&self) -> &'static str {
+    pub(crate) fn name(&self) -> &'static str {
         match self {
             DiffScheme::Central => "central",
             DiffScheme::Richardson => "richardson",
@@ -65,7 +65,7 @@ impl DiffScheme {
 
     /// The scheme in plain words: "central differences", "least squares,
     /// window 5, order 1", …
-    pub fn describe(&self) -> String {
+    pub(crate) fn describe(&self) -> String {
         match self {
             DiffScheme::Central => "central differences".into(),
             DiffScheme::Richardson => "fourth-order central differences (Richardson)".into(),
@@ -79,7 +79,7 @@ impl DiffScheme {
 
 /// An axis of the grid.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub enum Axis {
+pub(crate) enum Axis {
     /// Along i (columns), pitch dx.
     X,
     /// Along j (rows), pitch dy.
@@ -108,11 +108,11 @@ fn along(axis: Axis, h: f64, taps: &[(i32, i32, f64)]) -> Stencil {
     )
 }
 
-pub fn central(axis: Axis, h: f64) -> Stencil {
+pub(crate) fn central(axis: Axis, h: f64) -> Stencil {
     along(axis, h, &[(-1, 0, -0.5), (1, 0, 0.5)])
 }
 
-pub fn richardson(axis: Axis, h: f64) -> Stencil {
+pub(crate) fn richardson(axis: Axis, h: f64) -> Stencil {
     let k = 1.0 / 12.0;
     along(
         axis,
@@ -123,13 +123,13 @@ pub fn richardson(axis: Axis, h: f64) -> Stencil {
 
 /// Savitzky-Golay derivative along `axis`; `None` for an impossible
 /// window/order (see `lsq::savgol_derivative`).
-pub fn least_squares(axis: Axis, h: f64, window: usize, order: u32) -> Option<Stencil> {
+pub(crate) fn least_squares(axis: Axis, h: f64, window: usize, order: u32) -> Option<Stencil> {
     let s = savgol_derivative(window, order)?;
     let t: Vec<(i32, i32, f64)> = s.taps.iter().map(|t| (t.di, 0, t.w)).collect();
     Some(along(axis, h, &t))
 }
 
-pub fn circulation(axis: Axis, h: f64) -> Stencil {
+pub(crate) fn circulation(axis: Axis, h: f64) -> Stencil {
     let mut t = Vec::new();
     for (c, wc) in [(-1, 0.25), (0, 0.5), (1, 0.25)] {
         t.push((-1, c, -0.5 * wc));
@@ -140,7 +140,7 @@ pub fn circulation(axis: Axis, h: f64) -> Stencil {
 
 /// Second-order one-sided difference looking towards `+axis` (`sign` = 1)
 /// or `-axis` (`sign` = -1).
-pub fn one_sided2(axis: Axis, h: f64, sign: i32) -> Stencil {
+pub(crate) fn one_sided2(axis: Axis, h: f64, sign: i32) -> Stencil {
     let s = sign as f64;
     along(
         axis,
@@ -154,13 +154,13 @@ pub fn one_sided2(axis: Axis, h: f64, sign: i32) -> Stencil {
 }
 
 /// First-order one-sided difference towards `sign`.
-pub fn one_sided1(axis: Axis, h: f64, sign: i32) -> Stencil {
+pub(crate) fn one_sided1(axis: Axis, h: f64, sign: i32) -> Stencil {
     let s = sign as f64;
     along(axis, h, &[(0, 0, -s), (sign, 0, s)])
 }
 
 /// The scheme's own stencil along `axis`.
-pub fn stencil(scheme: DiffScheme, axis: Axis, h: f64) -> Stencil {
+pub(crate) fn stencil(scheme: DiffScheme, axis: Axis, h: f64) -> Stencil {
     match scheme {
         DiffScheme::Central => central(axis, h),
         DiffScheme::Richardson => richardson(axis, h),
@@ -173,7 +173,7 @@ pub fn stencil(scheme: DiffScheme, axis: Axis, h: f64) -> Stencil {
 
 /// The fallback chain of `scheme` along `axis`, widest first (see the
 /// module docs). Stencils that repeat an earlier one are left out.
-pub fn chain(scheme: DiffScheme, axis: Axis, h: f64) -> Vec<Stencil> {
+pub(crate) fn chain(scheme: DiffScheme, axis: Axis, h: f64) -> Vec<Stencil> {
     let mut out = vec![stencil(scheme, axis, h)];
     if let DiffScheme::LeastSquares { window, order } = scheme {
         let mut w = window;

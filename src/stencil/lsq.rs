@@ -19,7 +19,7 @@ use super::{Stencil, Tap};
 /// (row-major, n x n) by Gaussian elimination with partial pivoting.
 /// Returns `None` when `M` is singular to working precision (the fit is not
 /// determined by the nodes available).
-pub fn solve(m: &[f64], b: &[f64], n: usize) -> Option<Vec<f64>> {
+pub(crate) fn solve(m: &[f64], b: &[f64], n: usize) -> Option<Vec<f64>> {
     let mut a = m.to_vec();
     let mut x = b.to_vec();
     let scale = a.iter().fold(0.0f64, |s, v| s.max(v.abs()));
@@ -62,7 +62,7 @@ pub fn solve(m: &[f64], b: &[f64], n: usize) -> Option<Vec<f64>> {
 
 /// Monomials `x^p y^q` of total degree `<= degree`, in order of degree,
 /// then of decreasing `p`.
-pub fn monomials(degree: u32) -> Vec<(u32, u32)> {
+pub(crate) fn monomials(degree: u32) -> Vec<(u32, u32)> {
     let mut out = Vec::new();
     for d in 0..=degree {
         for q in 0..=d {
@@ -76,7 +76,7 @@ pub fn monomials(degree: u32) -> Vec<(u32, u32)> {
 /// that map the node values to the fitted coefficients of `x^p y^q`
 /// (x = di, y = dj in index units). `rows[m][k]` multiplies value `k`.
 #[derive(Debug, Clone)]
-pub struct PolyFit {
+pub(crate) struct PolyFit {
     pub offsets: Vec<(i32, i32)>,
     pub terms: Vec<(u32, u32)>,
     pub rows: Vec<Vec<f64>>,
@@ -85,13 +85,13 @@ pub struct PolyFit {
 impl PolyFit {
     /// The least-squares fit of total degree `degree` to the nodes at
     /// `offsets`; `None` when the nodes do not determine it.
-    pub fn new(offsets: Vec<(i32, i32)>, degree: u32) -> Option<PolyFit> {
+    pub(crate) fn new(offsets: Vec<(i32, i32)>, degree: u32) -> Option<PolyFit> {
         PolyFit::with_terms(offsets, monomials(degree))
     }
 
     /// The least-squares fit of the monomials `terms` (`(p, q)` for
     /// `x^p y^q`); `None` when the nodes do not determine it.
-    pub fn with_terms(offsets: Vec<(i32, i32)>, terms: Vec<(u32, u32)>) -> Option<PolyFit> {
+    pub(crate) fn with_terms(offsets: Vec<(i32, i32)>, terms: Vec<(u32, u32)>) -> Option<PolyFit> {
         let nt = terms.len();
         if offsets.len() < nt {
             return None;
@@ -143,13 +143,13 @@ impl PolyFit {
     }
 
     /// The stencil that gives the fitted coefficient of `x^p y^q`.
-    pub fn coefficient(&self, p: u32, q: u32) -> Option<Stencil> {
+    pub(crate) fn coefficient(&self, p: u32, q: u32) -> Option<Stencil> {
         let m = self.terms.iter().position(|&t| t == (p, q))?;
         Some(self.stencil_of(&self.rows[m]))
     }
 
     /// The stencil that gives the fitted polynomial's value at `(dj, di)`.
-    pub fn value_at(&self, dj: i32, di: i32) -> Stencil {
+    pub(crate) fn value_at(&self, dj: i32, di: i32) -> Stencil {
         let mut w = vec![0.0; self.offsets.len()];
         for (m, &(p, q)) in self.terms.iter().enumerate() {
             let phi = (di as f64).powi(p as i32) * (dj as f64).powi(q as i32);
@@ -177,7 +177,7 @@ impl PolyFit {
 /// `-(window-1)/2 ..= (window-1)/2`. Equal to
 /// `scipy.signal.savgol_coeffs(window, order, deriv=1, use="dot")`.
 /// `None` when the window is even or not larger than the order.
-pub fn savgol_derivative(window: usize, order: u32) -> Option<Stencil> {
+pub(crate) fn savgol_derivative(window: usize, order: u32) -> Option<Stencil> {
     if window % 2 == 0 || window <= order as usize || order == 0 {
         return None;
     }

@@ -10,12 +10,12 @@
 //! sum_k w_k f[j + dj_k, i + di_k]`. Derivative stencils carry the 1/h of
 //! the grid pitch in their weights, so `out` is in physical units.
 
-pub mod correlation;
-pub mod cut;
+pub(crate) mod correlation;
+pub(crate) mod cut;
 pub mod derivatives;
-pub mod lsq;
-pub mod pls;
-pub mod second;
+pub(crate) mod lsq;
+pub(crate) mod pls;
+pub(crate) mod second;
 pub mod smooth;
 
 use ndarray::Array2;
@@ -35,14 +35,14 @@ pub struct Stencil {
 }
 
 impl Stencil {
-    pub fn new(taps: Vec<Tap>) -> Self {
+    pub(crate) fn new(taps: Vec<Tap>) -> Self {
         let mut s = Stencil { taps };
         s.normalise();
         s
     }
 
     /// Merges taps at the same offset and drops zero weights; sorted by (dj, di).
-    pub fn normalise(&mut self) {
+    pub(crate) fn normalise(&mut self) {
         self.taps.sort_by_key(|t| (t.dj, t.di));
         let mut out: Vec<Tap> = Vec::with_capacity(self.taps.len());
         for t in self.taps.drain(..) {
@@ -56,7 +56,7 @@ impl Stencil {
     }
 
     /// Largest |dj| and |di| over the taps.
-    pub fn reach(&self) -> (usize, usize) {
+    pub(crate) fn reach(&self) -> (usize, usize) {
         self.taps.iter().fold((0, 0), |(a, b), t| {
             (
                 a.max(t.dj.unsigned_abs() as usize),
@@ -66,14 +66,14 @@ impl Stencil {
     }
 
     /// Every weight multiplied by `k` (for example 1/h).
-    pub fn scaled(&self, k: f64) -> Stencil {
+    pub(crate) fn scaled(&self, k: f64) -> Stencil {
         Stencil {
             taps: self.taps.iter().map(|t| Tap { w: t.w * k, ..*t }).collect(),
         }
     }
 
     /// A single tap of weight 1 at the origin (the identity operator).
-    pub fn identity() -> Stencil {
+    pub(crate) fn identity() -> Stencil {
         Stencil {
             taps: vec![Tap {
                 dj: 0,
@@ -84,7 +84,7 @@ impl Stencil {
     }
 
     /// The stencil moved by `(dj, di)`.
-    pub fn shifted(&self, dj: i32, di: i32) -> Stencil {
+    pub(crate) fn shifted(&self, dj: i32, di: i32) -> Stencil {
         Stencil {
             taps: self
                 .taps
@@ -99,7 +99,7 @@ impl Stencil {
     }
 
     /// `sum_k a_k * self_k + b_k * other_k`: a linear combination, normalised.
-    pub fn combine(&self, a: f64, other: &Stencil, b: f64) -> Stencil {
+    pub(crate) fn combine(&self, a: f64, other: &Stencil, b: f64) -> Stencil {
         let mut taps: Vec<Tap> = self.taps.iter().map(|t| Tap { w: a * t.w, ..*t }).collect();
         taps.extend(other.taps.iter().map(|t| Tap { w: b * t.w, ..*t }));
         Stencil::new(taps)
@@ -108,14 +108,14 @@ impl Stencil {
     /// The noise factor `sqrt(sum w_k^2)`: the standard deviation of the
     /// stencil's output for independent unit-variance errors at its taps
     /// (GUM eq. 13 with rho = 0; docs/methods.md). 0 for an empty stencil.
-    pub fn noise_factor(&self) -> f64 {
+    pub(crate) fn noise_factor(&self) -> f64 {
         self.taps.iter().map(|t| t.w * t.w).sum::<f64>().sqrt()
     }
 
     /// The moment `sum_k w_k di_k^p dj_k^q` (in index units). A derivative
     /// stencil in x with the 1/h in its weights has moment (1, 0) = 1/h and
     /// vanishing lower moments; its truncation follows from the higher ones.
-    pub fn moment(&self, p: u32, q: u32) -> f64 {
+    pub(crate) fn moment(&self, p: u32, q: u32) -> f64 {
         self.taps
             .iter()
             .map(|t| t.w * (t.di as f64).powi(p as i32) * (t.dj as f64).powi(q as i32))
@@ -125,7 +125,7 @@ impl Stencil {
     /// True when every tap lands inside the `(ny, nx)` grid at node `(j, i)`
     /// and `ok` holds there.
     #[inline]
-    pub fn fits(&self, j: usize, i: usize, ok: &Array2<bool>) -> bool {
+    pub(crate) fn fits(&self, j: usize, i: usize, ok: &Array2<bool>) -> bool {
         let (ny, nx) = ok.dim();
         self.taps.iter().all(|t| {
             let jj = j as i64 + t.dj as i64;
@@ -141,7 +141,7 @@ impl Stencil {
     /// `sum_k w_k a[j + dj_k, i + di_k]`. The caller makes sure the stencil
     /// fits (see `fits`); a tap outside the grid panics.
     #[inline]
-    pub fn apply_at(&self, a: &Array2<f64>, j: usize, i: usize) -> f64 {
+    pub(crate) fn apply_at(&self, a: &Array2<f64>, j: usize, i: usize) -> f64 {
         self.taps
             .iter()
             .map(|t| {
@@ -155,7 +155,7 @@ impl Stencil {
 
     /// `self` applied after `first`: the composite stencil of the two linear
     /// operators (a discrete convolution of the weights).
-    pub fn after(&self, first: &Stencil) -> Stencil {
+    pub(crate) fn after(&self, first: &Stencil) -> Stencil {
         let mut taps = Vec::with_capacity(self.taps.len() * first.taps.len());
         for a in &self.taps {
             for b in &first.taps {

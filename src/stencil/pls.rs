@@ -48,7 +48,7 @@ use std::sync::Arc;
 use rustdct::{DctPlanner, TransformType2And3};
 
 /// Orthonormal 2-D DCT-II / DCT-III on row-major `(ny, nx)` buffers.
-pub struct Dct2d {
+pub(crate) struct Dct2d {
     pub nx: usize,
     pub ny: usize,
     row: Arc<dyn TransformType2And3<f64>>,
@@ -56,7 +56,7 @@ pub struct Dct2d {
 }
 
 impl Dct2d {
-    pub fn new(ny: usize, nx: usize) -> Self {
+    pub(crate) fn new(ny: usize, nx: usize) -> Self {
         let mut p = DctPlanner::new();
         Dct2d {
             nx,
@@ -84,11 +84,11 @@ impl Dct2d {
         }
     }
     /// In-place orthonormal DCT-II (scipy.fft.dctn(type=2, norm="ortho")).
-    pub fn forward(&self, a: &mut [f64]) {
+    pub(crate) fn forward(&self, a: &mut [f64]) {
         self.each_line(a, false)
     }
     /// In-place orthonormal inverse (DCT-III).
-    pub fn inverse(&self, a: &mut [f64]) {
+    pub(crate) fn inverse(&self, a: &mut [f64]) {
         self.each_line(a, true)
     }
 }
@@ -113,7 +113,7 @@ const LOG_S_MIN: f64 = -3.0;
 const LOG_S_MAX: f64 = 10.0;
 
 /// The PLS solver for one grid shape.
-pub struct Pls {
+pub(crate) struct Pls {
     pub dct: Dct2d,
     /// L^2 per DCT coefficient (row-major).
     lambda2: Vec<f64>,
@@ -121,14 +121,14 @@ pub struct Pls {
 
 /// What a smoothing call returns.
 #[derive(Debug, Clone)]
-pub struct Smoothed {
+pub(crate) struct Smoothed {
     pub z: Vec<f64>,
     /// The smoothing parameter used (given or chosen by GCV).
     pub s: f64,
 }
 
 impl Pls {
-    pub fn new(ny: usize, nx: usize) -> Self {
+    pub(crate) fn new(ny: usize, nx: usize) -> Self {
         let mut lambda2 = Vec::with_capacity(nx * ny);
         for kj in 0..ny {
             let ly = -2.0 + 2.0 * (kj as f64 * std::f64::consts::PI / ny as f64).cos();
@@ -201,7 +201,7 @@ impl Pls {
     }
 
     /// GCV-chosen s for full-weight data `y`.
-    pub fn gcv_s(&self, y: &[f64]) -> f64 {
+    pub(crate) fn gcv_s(&self, y: &[f64]) -> f64 {
         let mut c = y.to_vec();
         self.dct.forward(&mut c);
         Self::search(|t| self.gcv_full(&c, 10f64.powf(t)))
@@ -211,7 +211,7 @@ impl Pls {
     /// the sum of their GCV scores, i.e. the pooled residual over the
     /// pooled count (one smoothing for a vector field, as in Garcia 2010's
     /// multicomponent smoothing, from memory).
-    pub fn gcv_s_joint(&self, ys: &[&[f64]]) -> f64 {
+    pub(crate) fn gcv_s_joint(&self, ys: &[&[f64]]) -> f64 {
         let cs: Vec<Vec<f64>> = ys
             .iter()
             .map(|y| {
@@ -224,7 +224,7 @@ impl Pls {
     }
 
     /// `IDCT(G(s) . DCT(y))`.
-    pub fn smooth_full(&self, y: &[f64], s: f64) -> Vec<f64> {
+    pub(crate) fn smooth_full(&self, y: &[f64], s: f64) -> Vec<f64> {
         let mut c = y.to_vec();
         self.dct.forward(&mut c);
         for (ci, l) in c.iter_mut().zip(&self.lambda2) {
@@ -238,7 +238,7 @@ impl Pls {
     /// down-weights outliers. `z0` is the starting guess (values at unknown
     /// nodes matter, e.g. a neighbour-mean fill); only used with gaps or
     /// robust weights.
-    pub fn smooth(
+    pub(crate) fn smooth(
         &self,
         y: &[f64],
         known: &[bool],
@@ -316,7 +316,13 @@ impl Pls {
 
     /// Fills the unknown nodes of `y` (known values are returned exactly),
     /// starting from `z0`, over `iterations` steps of falling s.
-    pub fn inpaint(&self, y: &[f64], known: &[bool], z0: &[f64], iterations: usize) -> Vec<f64> {
+    pub(crate) fn inpaint(
+        &self,
+        y: &[f64],
+        known: &[bool],
+        z0: &[f64],
+        iterations: usize,
+    ) -> Vec<f64> {
         let n = self.n();
         let mut z = z0.to_vec();
         let it = iterations.max(2);

@@ -24,7 +24,7 @@ use super::derivatives::Axis;
 use super::{Stencil, Tap};
 
 /// `(f[-1] - 2 f[0] + f[1]) / h²` along `axis`.
-pub fn second(axis: Axis, h: f64) -> Stencil {
+pub(crate) fn second(axis: Axis, h: f64) -> Stencil {
     let k = 1.0 / (h * h);
     let tap = |a: i32, w: f64| match axis {
         Axis::X => Tap { dj: 0, di: a, w },
@@ -34,7 +34,7 @@ pub fn second(axis: Axis, h: f64) -> Stencil {
 }
 
 /// The five-point Laplacian `d²/dx² + d²/dy²` on pitches `dx`, `dy`.
-pub fn laplacian(dx: f64, dy: f64) -> Stencil {
+pub(crate) fn laplacian(dx: f64, dy: f64) -> Stencil {
     second(Axis::X, dx).combine(1.0, &second(Axis::Y, dy), 1.0)
 }
 

@@ -109,7 +109,7 @@ impl serde::Serialize for Smoother {
 
 impl Smoother {
     /// The smoother in plain words, for `curlew check` and the report.
-    pub fn describe(&self) -> String {
+    pub(crate) fn describe(&self) -> String {
         use crate::describe::num;
         match self {
             Smoother::None => "none".into(),
@@ -143,14 +143,14 @@ impl Smoother {
     }
 
     /// The smoothed copy of `a`; `valid` marks nodes that carry a value.
-    pub fn apply(&self, a: &Array2<f64>, valid: &Array2<bool>) -> Array2<f64> {
+    pub(crate) fn apply(&self, a: &Array2<f64>, valid: &Array2<bool>) -> Array2<f64> {
         self.apply_with_s(a, valid).0
     }
 
     /// As `apply`, also returning the PLS smoothing parameter used (given
     /// or chosen by GCV); `None` for the other smoothers. With GCV, build
     /// the stencil of this frame with `pls_kernel(s)`.
-    pub fn apply_with_s(
+    pub(crate) fn apply_with_s(
         &self,
         a: &Array2<f64>,
         valid: &Array2<bool>,
@@ -202,7 +202,12 @@ impl Smoother {
     /// 7.5 % from the optimum, whose GCV curve is flat there, and a few
     /// distinct operators per run for the stencil caches). Others are
     /// returned as they are.
-    pub fn for_frame(&self, u: &Array2<f64>, v: &Array2<f64>, valid: &Array2<bool>) -> Smoother {
+    pub(crate) fn for_frame(
+        &self,
+        u: &Array2<f64>,
+        v: &Array2<f64>,
+        valid: &Array2<bool>,
+    ) -> Smoother {
         let Smoother::Pls { s: None, robust } = *self else {
             return self.clone();
         };
@@ -230,7 +235,7 @@ impl Smoother {
     /// derivatives and propagating uncertainty; `None` for no smoothing and
     /// for PLS with s chosen by GCV (s differs per frame: use
     /// `apply_with_s` and `pls_kernel`, or `pls_noise_factor`).
-    pub fn equivalent_stencil(&self) -> Option<Stencil> {
+    pub(crate) fn equivalent_stencil(&self) -> Option<Stencil> {
         match self {
             Smoother::None => None,
             Smoother::Linear(s, _) => Some(s.clone()),
@@ -241,7 +246,7 @@ impl Smoother {
 }
 
 /// `s` rounded to the nearest 1/16 decade (see `Smoother::for_frame`).
-pub fn quantise_s(s: f64) -> f64 {
+pub(crate) fn quantise_s(s: f64) -> f64 {
     10f64.powf((16.0 * s.log10()).round() / 16.0)
 }
 
@@ -266,7 +271,7 @@ fn apply_linear(st: &Stencil, a: &Array2<f64>, valid: &Array2<bool>) -> Array2<f
 /// sum 1; separable, `w = g(dj) g(di)` with `g(d) = exp(-d^2/(2 sigma^2))/sum`.
 /// The same kernel as scipy.ndimage.gaussian_filter with its default
 /// `truncate = 4.0`. `sigma_pitches <= 0` gives the identity.
-pub fn gaussian(sigma_pitches: f64) -> Stencil {
+pub(crate) fn gaussian(sigma_pitches: f64) -> Stencil {
     if sigma_pitches.is_nan() || sigma_pitches <= 0.0 {
         return identity();
     }
@@ -307,7 +312,7 @@ fn identity() -> Stencil {
 ///
 /// Panics unless `half_width >= 1` and `order <= 2 half_width` (the plan
 /// checks these before calling).
-pub fn savitzky_golay(half_width: usize, order: usize) -> Stencil {
+pub(crate) fn savitzky_golay(half_width: usize, order: usize) -> Stencil {
     assert!(
         half_width >= 1 && order <= 2 * half_width,
         "savitzky_golay: need half_width >= 1 and order <= 2 half_width"
@@ -385,7 +390,7 @@ fn solve(mut a: Vec<Vec<f64>>, mut b: Vec<f64>) -> Vec<f64> {
 /// smoothed with all weights 1; taps with |w| < 1e-6 of the peak are
 /// dropped and the rest rescaled to sum exactly 1 (the truncation removes
 /// less than 1e-5 of the sum). The kernel has small negative side lobes.
-pub fn pls_kernel(s: f64) -> Stencil {
+pub(crate) fn pls_kernel(s: f64) -> Stencil {
     if s.is_nan() || s <= 0.0 {
         return identity();
     }
@@ -415,7 +420,8 @@ pub fn pls_kernel(s: f64) -> Stencil {
 
 /// Factor by which DCT-PLS with parameter `s` scales the standard deviation
 /// of white noise at interior nodes: `sqrt(sum w^2)` of `pls_kernel(s)`.
-pub fn pls_noise_factor(s: f64) -> f64 {
+#[cfg(test)]
+pub(crate) fn pls_noise_factor(s: f64) -> f64 {
     pls_kernel(s)
         .taps
         .iter()

@@ -52,7 +52,7 @@ pub enum Kind {
 }
 
 impl Kind {
-    pub fn from_code(c: u8) -> Kind {
+    pub(crate) fn from_code(c: u8) -> Kind {
         match c {
             0 => Kind::Measured,
             1 => Kind::Outlier,
@@ -63,7 +63,7 @@ impl Kind {
         }
     }
     /// The name written in the events table.
-    pub fn name(self) -> &'static str {
+    pub(crate) fn name(self) -> &'static str {
         match self {
             Kind::Measured => "measured",
             Kind::Outlier => "outlier",
@@ -75,7 +75,7 @@ impl Kind {
     }
     /// True for nodes a reader must treat as invalid input (no value, or
     /// flagged).
-    pub fn is_gap(self) -> bool {
+    pub(crate) fn is_gap(self) -> bool {
         matches!(
             self,
             Kind::Missing | Kind::Empty | Kind::Body | Kind::Flagged
@@ -86,14 +86,14 @@ impl Kind {
 /// The measured values (SI; NaN where the file has no value; flagged rows
 /// keep the value they are written with) and each node's `Kind` code.
 #[derive(Debug, Clone)]
-pub struct Measured {
+pub(crate) struct Measured {
     pub u: Array2<f64>,
     pub v: Array2<f64>,
     pub kind: Array2<u8>,
 }
 
 /// The generator of frame `frame` of run number `run`.
-pub fn frame_rng(seed: u64, run: usize, frame: usize) -> ChaCha8Rng {
+pub(crate) fn frame_rng(seed: u64, run: usize, frame: usize) -> ChaCha8Rng {
     let mut r = ChaCha8Rng::seed_from_u64(seed);
     r.set_stream(((run as u64) << 32) | frame as u64);
     r
@@ -101,7 +101,7 @@ pub fn frame_rng(seed: u64, run: usize, frame: usize) -> ChaCha8Rng {
 
 /// Applies noise, outliers and gaps to a noise-free frame (see the module
 /// doc for the exact procedure).
-pub fn corrupt(
+pub(crate) fn corrupt(
     opts: &SynthOptions,
     setup: &RunSetup,
     truth: &TruthFrame,
@@ -174,7 +174,7 @@ pub fn corrupt(
 }
 
 /// The largest neighbour correlation `correlated_noise` can make.
-pub const MAX_NOISE_CORRELATION: f64 = std::f64::consts::FRAC_1_SQRT_2;
+pub(crate) const MAX_NOISE_CORRELATION: f64 = std::f64::consts::FRAC_1_SQRT_2;
 
 /// Two unit-variance Gaussian fields `(ny, nx)` whose values at x- or
 /// y-adjacent nodes have correlation coefficient `rho` (0 < rho <= 1/sqrt 2).
@@ -189,7 +189,7 @@ pub const MAX_NOISE_CORRELATION: f64 = std::f64::consts::FRAC_1_SQRT_2;
 /// correlation `rho²`, and nodes two or more apart along an axis are
 /// uncorrelated (apart from `rho²`-order terms at lag two: `a² / (1+2a²)`
 /// per axis). Drawn from stream `frame_rng(..) | 1 << 63`.
-pub fn correlated_noise(
+pub(crate) fn correlated_noise(
     seed: u64,
     run: usize,
     frame: usize,

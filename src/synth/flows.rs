@@ -9,7 +9,7 @@
 
 /// Velocity (m/s) and out-of-plane vorticity (1/s) at one point.
 #[derive(Debug, Clone, Copy, PartialEq, Default)]
-pub struct Sample {
+pub(crate) struct Sample {
     pub u: f64,
     pub v: f64,
     pub omega: f64,
@@ -29,8 +29,9 @@ impl std::ops::Add for Sample {
 /// Radius of the peak swirl of a Lamb–Oseen vortex, in core radii, and the
 /// peak swirl in units of `gamma / (2 pi rc)` (Saffman, *Vortex Dynamics*,
 /// 1992, §1.3; also docs/methods.md).
-pub const LAMB_OSEEN_PEAK_RADIUS: f64 = 1.120_906_4;
-pub const LAMB_OSEEN_PEAK_SWIRL: f64 = 0.638_172_7;
+#[cfg(test)]
+pub(crate) const LAMB_OSEEN_PEAK_RADIUS: f64 = 1.120_906_4;
+pub(crate) const LAMB_OSEEN_PEAK_SWIRL: f64 = 0.638_172_7;
 
 /// The Lamb–Oseen vortex of circulation `gamma` (m²/s, positive
 /// anticlockwise) and core radius `rc` (m) centred at `(xc, yc)`.
@@ -43,7 +44,7 @@ pub const LAMB_OSEEN_PEAK_SWIRL: f64 = 0.638_172_7;
 /// for `s < 0.5` (no cancellation), and at `r = 0` by its limit `1/rc²`, so the centre gives `u = v = 0` and the peak
 /// vorticity. A viscously spreading vortex has `rc² = rc0² + 4 nu t`
 /// (the caller passes the current `rc`).
-pub fn lamb_oseen(x: f64, y: f64, xc: f64, yc: f64, gamma: f64, rc: f64) -> Sample {
+pub(crate) fn lamb_oseen(x: f64, y: f64, xc: f64, yc: f64, gamma: f64, rc: f64) -> Sample {
     let dx = x - xc;
     let dy = y - yc;
     let r2 = dx * dx + dy * dy;
@@ -71,7 +72,7 @@ pub fn lamb_oseen(x: f64, y: f64, xc: f64, yc: f64, gamma: f64, rc: f64) -> Samp
 /// Solid-body rotation at angular speed `omega_rot` (rad/s, anticlockwise)
 /// about `(xc, yc)`: `u = -Omega (y - yc)`, `v = Omega (x - xc)`,
 /// `omega = 2 Omega` (fact of the trade).
-pub fn solid_body(x: f64, y: f64, xc: f64, yc: f64, omega_rot: f64) -> Sample {
+pub(crate) fn solid_body(x: f64, y: f64, xc: f64, yc: f64, omega_rot: f64) -> Sample {
     Sample {
         u: -omega_rot * (y - yc),
         v: omega_rot * (x - xc),
@@ -88,7 +89,14 @@ pub fn solid_body(x: f64, y: f64, xc: f64, yc: f64, omega_rot: f64) -> Sample {
 /// (the flow is the gradient of a potential). `None` strictly inside the
 /// body (`r < R`, with a relative margin of 1e-12 on `r²` so that points
 /// on the surface count as outside whatever their rounding); on the surface the tangential speed is `2 U sin theta`.
-pub fn cylinder(x: f64, y: f64, xc: f64, yc: f64, radius: f64, u_inf: f64) -> Option<Sample> {
+pub(crate) fn cylinder(
+    x: f64,
+    y: f64,
+    xc: f64,
+    yc: f64,
+    radius: f64,
+    u_inf: f64,
+) -> Option<Sample> {
     let dx = x - xc;
     let dy = y - yc;
     let r2 = dx * dx + dy * dy;
@@ -109,7 +117,7 @@ pub fn cylinder(x: f64, y: f64, xc: f64, yc: f64, radius: f64, u_inf: f64) -> Op
 /// convention: `u = U sin(kx) cos(ky) F`, `v = -U cos(kx) sin(ky) F`,
 /// `omega = 2 U k sin(kx) sin(ky) F`, with `F = exp(-2 nu k² t)`.
 /// `nu = 0` or `t = 0` gives the steady array.
-pub fn taylor_green(x: f64, y: f64, t: f64, u0: f64, k: f64, nu: f64) -> Sample {
+pub(crate) fn taylor_green(x: f64, y: f64, t: f64, u0: f64, k: f64, nu: f64) -> Sample {
     let f = (-2.0 * nu * k * k * t).exp();
     let (sx, cx) = (k * x).sin_cos();
     let (sy, cy) = (k * y).sin_cos();
@@ -127,7 +135,7 @@ pub fn taylor_green(x: f64, y: f64, t: f64, u0: f64, k: f64, nu: f64) -> Sample 
 /// `omega = gamma / (pi rc²) exp(-r²/rc²)` and `d omega/dt = nu lap(omega)`
 /// exactly, with no advection and no stretching. The circulation `gamma`
 /// is constant.
-pub fn diffusing_vortex(x: f64, y: f64, t: f64, gamma: f64, rc0: f64, nu: f64) -> Sample {
+pub(crate) fn diffusing_vortex(x: f64, y: f64, t: f64, gamma: f64, rc0: f64, nu: f64) -> Sample {
     let rc = (rc0 * rc0 + 4.0 * nu * t).sqrt();
     lamb_oseen(x, y, 0.0, 0.0, gamma, rc)
 }
@@ -140,7 +148,7 @@ pub fn diffusing_vortex(x: f64, y: f64, t: f64, gamma: f64, rc0: f64, nu: f64) -
 /// balances the stretching `alpha omega` and the diffusion `nu lap(omega)`,
 /// `u . grad(omega) = alpha omega + nu lap(omega)`. The in-plane divergence
 /// is `-alpha` everywhere.
-pub fn burgers(x: f64, y: f64, gamma: f64, alpha: f64, nu: f64) -> Sample {
+pub(crate) fn burgers(x: f64, y: f64, gamma: f64, alpha: f64, nu: f64) -> Sample {
     let rc = (4.0 * nu / alpha).sqrt();
     let s = lamb_oseen(x, y, 0.0, 0.0, gamma, rc);
     Sample {
@@ -193,7 +201,7 @@ impl Street {
     /// `x_end` is the downstream end of the measured domain; the fade starts
     /// one wavelength beyond it.
     #[allow(clippy::too_many_arguments)]
-    pub fn behind_cylinder(
+    pub(crate) fn behind_cylinder(
         u_inf: f64,
         d: f64,
         strouhal: f64,
@@ -223,7 +231,7 @@ impl Street {
     }
 
     /// The circulation weight `w(x)` (see the type's doc).
-    pub fn weight(&self, x: f64) -> f64 {
+    pub(crate) fn weight(&self, x: f64) -> f64 {
         fn smooth(s: f64) -> f64 {
             let s = s.clamp(0.0, 1.0);
             s * s * (3.0 - 2.0 * s)
@@ -233,7 +241,7 @@ impl Street {
     }
 
     /// The vortices acting at phase `theta` (radians): `(x, y, gamma, rc)`.
-    pub fn vortices(&self, theta: f64) -> Vec<(f64, f64, f64, f64)> {
+    pub(crate) fn vortices(&self, theta: f64) -> Vec<(f64, f64, f64, f64)> {
         let frac = (theta / std::f64::consts::TAU).rem_euclid(1.0);
         let x_last = self.x_fade + 2.0 * self.a;
         let n_max = ((x_last - self.x_form) / self.a).ceil() as i64 + 1;
@@ -255,7 +263,12 @@ impl Street {
 
 /// The street's field at `(x, y)` given its vortices (from
 /// `Street::vortices`): the uniform stream plus every Lamb–Oseen vortex.
-pub fn vortex_street(x: f64, y: f64, street: &Street, vortices: &[(f64, f64, f64, f64)]) -> Sample {
+pub(crate) fn vortex_street(
+    x: f64,
+    y: f64,
+    street: &Street,
+    vortices: &[(f64, f64, f64, f64)],
+) -> Sample {
     let mut s = Sample {
         u: street.u_inf,
         v: 0.0,

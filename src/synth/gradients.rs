@@ -5,11 +5,12 @@
 //! point, for the same arguments as its `flows` counterpart. Vorticity is
 //! `dvdx - dudy`, in-plane divergence `dudx + dvdy`.
 
+#[cfg(test)]
 use super::flows::Street;
 
 /// The planar velocity-gradient tensor at one point, 1/s.
 #[derive(Debug, Clone, Copy, PartialEq, Default)]
-pub struct Gradient {
+pub(crate) struct Gradient {
     pub dudx: f64,
     pub dudy: f64,
     pub dvdx: f64,
@@ -18,11 +19,13 @@ pub struct Gradient {
 
 impl Gradient {
     /// Out-of-plane vorticity `dv/dx - du/dy`.
-    pub fn omega(&self) -> f64 {
+    #[cfg(test)]
+    pub(crate) fn omega(&self) -> f64 {
         self.dvdx - self.dudy
     }
     /// In-plane divergence `du/dx + dv/dy`.
-    pub fn divergence(&self) -> f64 {
+    #[cfg(test)]
+    pub(crate) fn divergence(&self) -> f64 {
         self.dudx + self.dvdy
     }
 }
@@ -50,7 +53,7 @@ impl std::ops::Add for Gradient {
 /// Taylor series `f'(s) = sum_{n>=1} (-1)^n n s^(n-1)/(n+1)!` (16 terms),
 /// else by `f'(s) = ((1 + s) e^-s - 1)/s²`; finite at the centre, where
 /// the tensor is solid-body rotation at `gamma/(2 pi rc²)`.
-pub fn lamb_oseen(x: f64, y: f64, xc: f64, yc: f64, gamma: f64, rc: f64) -> Gradient {
+pub(crate) fn lamb_oseen(x: f64, y: f64, xc: f64, yc: f64, gamma: f64, rc: f64) -> Gradient {
     let dx = x - xc;
     let dy = y - yc;
     let rc2 = rc * rc;
@@ -86,7 +89,7 @@ pub fn lamb_oseen(x: f64, y: f64, xc: f64, yc: f64, gamma: f64, rc: f64) -> Grad
 }
 
 /// Gradient of `flows::solid_body`: `[[0, -Omega], [Omega, 0]]`.
-pub fn solid_body(omega_rot: f64) -> Gradient {
+pub(crate) fn solid_body(omega_rot: f64) -> Gradient {
     Gradient {
         dudx: 0.0,
         dudy: -omega_rot,
@@ -99,7 +102,14 @@ pub fn solid_body(omega_rot: f64) -> Gradient {
 /// `w = u - i v = U (1 - R²/z²)`: `dw/dz = 2 U R² / z³ = du/dx - i dv/dx`,
 /// and by Cauchy–Riemann `du/dy = dv/dx`, `dv/dy = -du/dx`. `None` inside
 /// the body (as `flows::cylinder`).
-pub fn cylinder(x: f64, y: f64, xc: f64, yc: f64, radius: f64, u_inf: f64) -> Option<Gradient> {
+pub(crate) fn cylinder(
+    x: f64,
+    y: f64,
+    xc: f64,
+    yc: f64,
+    radius: f64,
+    u_inf: f64,
+) -> Option<Gradient> {
     let (a, b) = (x - xc, y - yc);
     let r2 = a * a + b * b;
     if r2 < radius * radius * (1.0 - 1e-12) {
@@ -119,7 +129,7 @@ pub fn cylinder(x: f64, y: f64, xc: f64, yc: f64, radius: f64, u_inf: f64) -> Op
 }
 
 /// Gradient of `flows::taylor_green`.
-pub fn taylor_green(x: f64, y: f64, t: f64, u0: f64, k: f64, nu: f64) -> Gradient {
+pub(crate) fn taylor_green(x: f64, y: f64, t: f64, u0: f64, k: f64, nu: f64) -> Gradient {
     let f = u0 * k * (-2.0 * nu * k * k * t).exp();
     let (sx, cx) = (k * x).sin_cos();
     let (sy, cy) = (k * y).sin_cos();
@@ -133,7 +143,8 @@ pub fn taylor_green(x: f64, y: f64, t: f64, u0: f64, k: f64, nu: f64) -> Gradien
 
 /// Gradient of `flows::vortex_street` (the stream is uniform, so only the
 /// vortices contribute).
-pub fn vortex_street(
+#[cfg(test)]
+pub(crate) fn vortex_street(
     x: f64,
     y: f64,
     _street: &Street,

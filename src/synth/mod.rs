@@ -81,16 +81,16 @@
 //! order. (Byte identity holds on one platform: another libm may round
 //! `exp` differently in the last bit, which can flip a printed last digit.)
 
-pub mod corrupt;
-pub mod flows;
-pub mod gradients;
+pub(crate) mod corrupt;
+pub(crate) mod flows;
+pub(crate) mod gradients;
 pub mod noise;
-pub mod numfmt;
-pub mod options;
-pub mod pipeline;
-pub mod scenario;
-pub mod truth;
-pub mod write;
+pub(crate) mod numfmt;
+pub(crate) mod options;
+pub(crate) mod pipeline;
+pub(crate) mod scenario;
+pub(crate) mod truth;
+pub(crate) mod write;
 
 use std::path::{Path, PathBuf};
 
@@ -100,11 +100,11 @@ use crate::error::{Error, Result};
 use crate::field::{Field, FrameMeta, Grid, FILLED, MASKED, VALID};
 pub use corrupt::Kind;
 pub use options::{LengthUnit, OutFormat, Scenario, SynthOptions, VelocityUnit};
-pub use scenario::{setup_run, Flow, RunSetup, TruthFrame};
+pub(crate) use scenario::{Flow, RunSetup};
 
 /// The name of frame `k` (0-based): `f` and the 1-based number, at least
 /// five digits.
-pub fn frame_name(k: usize, frames: usize) -> String {
+pub(crate) fn frame_name(k: usize, frames: usize) -> String {
     let width = frames.to_string().len().max(5);
     format!("f{:0width$}", k + 1)
 }

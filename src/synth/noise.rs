@@ -48,7 +48,7 @@ use super::SynthOptions;
 
 /// Number of past innovations that enter a frame's AR(1) noise (0 without
 /// memory): the smallest `L` with `a^L < 1e-3`.
-pub fn memory_lags(a: f64) -> usize {
+pub(crate) fn memory_lags(a: f64) -> usize {
     if a <= 0.0 {
         0
     } else {
@@ -73,7 +73,7 @@ pub fn window_of_overlap(overlap: f64) -> crate::Result<usize> {
 }
 
 /// True when `noise_fields` (not `corrupt`'s own draws) makes the noise.
-pub fn structured(opts: &SynthOptions) -> bool {
+pub(crate) fn structured(opts: &SynthOptions) -> bool {
     opts.noise_window >= 2 || opts.noise_memory > 0.0
 }
 
@@ -88,7 +88,7 @@ fn white(seed: u64, run: usize, index: usize, comp: u64, sh: (usize, usize)) -> 
 /// The `m x m` box average of `w` (shape `(ny + m - 1, nx + m - 1)`) times
 /// `1/m`: unit variance when `w` is white with unit variance. `m = 1`
 /// returns `w` unchanged. Separable: row sums, then column sums.
-pub fn box_filter(w: &Array2<f64>, m: usize) -> Array2<f64> {
+pub(crate) fn box_filter(w: &Array2<f64>, m: usize) -> Array2<f64> {
     if m <= 1 {
         return w.clone();
     }
@@ -108,7 +108,7 @@ pub fn box_filter(w: &Array2<f64>, m: usize) -> Array2<f64> {
 /// Unit-variance noise of the u and v components of frame `frame` of run
 /// `run`, `(ny, nx)`, with the spatial and temporal structure of `opts`
 /// (module doc).
-pub fn noise_fields(
+pub(crate) fn noise_fields(
     opts: &SynthOptions,
     run: usize,
     frame: usize,

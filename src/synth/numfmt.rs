@@ -11,7 +11,7 @@
 /// Decimals that give `digits` significant digits for values of magnitude
 /// `scale` (e.g. scale 0.15, 5 digits → 5 decimals), or `None` (shortest
 /// exact output) when `digits >= 16`.
-pub fn decimals_for(scale: f64, digits: u32) -> Option<u32> {
+pub(crate) fn decimals_for(scale: f64, digits: u32) -> Option<u32> {
     if digits >= 16 {
         return None;
     }
@@ -28,7 +28,7 @@ const POW10: [f64; 16] = [
 ];
 
 /// Appends `v` with `decimals` decimals (see the module doc) to `out`.
-pub fn push(out: &mut Vec<u8>, v: f64, decimals: Option<u32>) {
+pub(crate) fn push(out: &mut Vec<u8>, v: f64, decimals: Option<u32>) {
     if !v.is_finite() {
         return;
     }

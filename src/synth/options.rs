@@ -25,7 +25,7 @@ pub enum Scenario {
 }
 
 impl Scenario {
-    pub const NAMES: [&'static str; 8] = [
+    pub(crate) const NAMES: [&'static str; 8] = [
         "wake",
         "vortex",
         "solid-body",
@@ -50,7 +50,7 @@ impl Scenario {
     }
 
     /// True when frames have a phase (the flow is periodic).
-    pub fn periodic(self) -> bool {
+    pub(crate) fn periodic(self) -> bool {
         self == Scenario::Wake
     }
 }
@@ -97,7 +97,7 @@ pub enum VelocityUnit {
 
 impl LengthUnit {
     /// The pipeline's name of the unit.
-    pub fn name(self) -> &'static str {
+    pub(crate) fn name(self) -> &'static str {
         match self {
             LengthUnit::M => "m",
             LengthUnit::Mm => "mm",
@@ -121,7 +121,7 @@ impl FromStr for LengthUnit {
 }
 
 impl VelocityUnit {
-    pub fn name(self) -> &'static str {
+    pub(crate) fn name(self) -> &'static str {
         match self {
             VelocityUnit::MPerS => "m/s",
             VelocityUnit::MmPerS => "mm/s",
@@ -293,12 +293,12 @@ impl Default for SynthOptions {
 
 impl SynthOptions {
     /// True when frames have a phase: a periodic scenario, or a pulsing vortex.
-    pub fn periodic(&self) -> bool {
+    pub(crate) fn periodic(&self) -> bool {
         self.scenario.periodic() || (self.scenario == Scenario::Vortex && self.pulse.is_some())
     }
 
     /// Checks the options; errors are usage errors naming the option.
-    pub fn validate(&self) -> Result<()> {
+    pub(crate) fn validate(&self) -> Result<()> {
         if self.mask_column && self.format != OutFormat::Csv {
             return Err(Error::usage("--mask-column is written in csv frames only"));
         }

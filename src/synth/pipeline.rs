@@ -11,7 +11,7 @@ use super::{OutFormat, RunSummary, Scenario, SynthOptions};
 use crate::error::{Error, Result};
 
 /// The run's frames pattern and frame table, relative to the campaign.
-pub fn run_paths(opts: &SynthOptions, id: &str) -> (String, String) {
+pub(crate) fn run_paths(opts: &SynthOptions, id: &str) -> (String, String) {
     let frames = match opts.format {
         OutFormat::Csv => format!("{id}/f[0-9]*.csv"),
         OutFormat::Parquet => format!("{id}/vectors.parquet"),
@@ -27,7 +27,7 @@ fn tidy(x: f64) -> String {
 }
 
 /// One line describing a run's flow.
-pub fn describe(setup: &RunSetup) -> String {
+pub(crate) fn describe(setup: &RunSetup) -> String {
     match setup.flow {
         Flow::Wake {
             frequency,
@@ -104,7 +104,7 @@ fn mask_section(opts: &SynthOptions, runs: &[RunSetup]) -> String {
 /// The pipeline for the campaign; `prefix` (with a trailing `/` or empty)
 /// is prepended to every path (the campaign folder seen from the
 /// pipeline's folder).
-pub fn pipeline_toml(opts: &SynthOptions, runs: &[RunSetup], prefix: &str) -> String {
+pub(crate) fn pipeline_toml(opts: &SynthOptions, runs: &[RunSetup], prefix: &str) -> String {
     let mut t = String::new();
     t.push_str("# A synthetic campaign written by `curlew synth`; ground truth in <run>/truth/.\n");
     t.push_str(&format!(
@@ -200,7 +200,7 @@ pub fn pipeline_toml(opts: &SynthOptions, runs: &[RunSetup], prefix: &str) -> St
 }
 
 /// The README of a synthetic campaign.
-pub fn readme(opts: &SynthOptions, runs: &[RunSetup], sums: &[RunSummary]) -> String {
+pub(crate) fn readme(opts: &SynthOptions, runs: &[RunSetup], sums: &[RunSummary]) -> String {
     let mut t = String::new();
     t.push_str(&format!(
         "# Synthetic campaign `{}` ({} scenario)\n\n",
@@ -287,7 +287,7 @@ pub fn readme(opts: &SynthOptions, runs: &[RunSetup], sums: &[RunSummary]) -> St
 
 /// The path of `to` as seen from the folder `from`, with a trailing `/`
 /// (empty when they are the same folder), using `/` separators.
-pub fn relative_path(from: &Path, to: &Path) -> Result<String> {
+pub(crate) fn relative_path(from: &Path, to: &Path) -> Result<String> {
     let abs = |p: &Path| -> Result<PathBuf> {
         let a = std::path::absolute(p)
             .map_err(|e| Error::usage(format!("cannot resolve {}: {e}", p.display())))?;

@@ -14,10 +14,10 @@ use crate::field::Grid;
 
 /// Direction of the `uniform` scenario's stream, degrees from +x (so that
 /// both components are nonzero).
-pub const UNIFORM_ANGLE_DEG: f64 = 20.0;
+pub(crate) const UNIFORM_ANGLE_DEG: f64 = 20.0;
 
 /// Kinematic viscosity of water at 20 °C, m²/s (1.0e-6, from memory).
-pub const NU_WATER: f64 = 1.0e-6;
+pub(crate) const NU_WATER: f64 = 1.0e-6;
 
 /// The flow of one run, with its parameters in SI.
 #[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
@@ -75,12 +75,12 @@ pub struct RunSetup {
 
 impl RunSetup {
     /// Time of frame `k` (0-based), s.
-    pub fn time(&self, opts: &SynthOptions, k: usize) -> f64 {
+    pub(crate) fn time(&self, opts: &SynthOptions, k: usize) -> f64 {
         k as f64 / opts.frame_rate
     }
 
     /// Phase of frame `k` in degrees in [0, 360), for periodic flows.
-    pub fn phase_deg(&self, opts: &SynthOptions, k: usize) -> Option<f64> {
+    pub(crate) fn phase_deg(&self, opts: &SynthOptions, k: usize) -> Option<f64> {
         match self.flow {
             Flow::Wake { frequency, .. } | Flow::Pulsing { frequency, .. } => {
                 let cycles = frequency * self.time(opts, k);
@@ -92,7 +92,7 @@ impl RunSetup {
 
     /// The noise-free field of frame `k`: `(u, v, omega, inside_body)`
     /// arrays shaped `(ny, nx)`; NaN inside a body.
-    pub fn truth(&self, opts: &SynthOptions, k: usize) -> TruthFrame {
+    pub(crate) fn truth(&self, opts: &SynthOptions, k: usize) -> TruthFrame {
         let g = self.grid;
         let t = self.time(opts, k);
         let vortices = match self.flow {
@@ -172,7 +172,7 @@ impl RunSetup {
 
 /// The noise-free field of one frame.
 #[derive(Debug, Clone)]
-pub struct TruthFrame {
+pub(crate) struct TruthFrame {
     pub u: Array2<f64>,
     pub v: Array2<f64>,
     pub omega: Array2<f64>,
@@ -182,7 +182,7 @@ pub struct TruthFrame {
 
 /// The run id of a speed: `u` and the speed in cm/s, three digits
 /// (0.15 m/s → `u015`).
-pub fn run_id(speed: f64) -> String {
+pub(crate) fn run_id(speed: f64) -> String {
     format!("u{:03}", (speed * 100.0).round() as i64)
 }
 
@@ -194,7 +194,7 @@ fn round2(x: f64) -> f64 {
 }
 
 /// The default grid of a scenario: `(nx, ny, pitch in m)`.
-pub fn default_grid(s: Scenario) -> (usize, usize, f64) {
+pub(crate) fn default_grid(s: Scenario) -> (usize, usize, f64) {
     match s {
         Scenario::Wake => (40, 25, 2.0e-3),
         _ => (48, 36, 1.0e-3),
@@ -203,7 +203,7 @@ pub fn default_grid(s: Scenario) -> (usize, usize, f64) {
 
 /// Resolves one run of `opts` at free-stream speed (or velocity scale)
 /// `speed` (m/s).
-pub fn setup_run(opts: &SynthOptions, speed: f64) -> Result<RunSetup> {
+pub(crate) fn setup_run(opts: &SynthOptions, speed: f64) -> Result<RunSetup> {
     if !(speed.is_finite() && speed > 0.0) {
         return Err(Error::usage(format!(
             "speed {speed} m/s must be a positive number"

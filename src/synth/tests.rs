@@ -4,6 +4,7 @@
 use std::collections::{BTreeMap, BTreeSet};
 use std::path::{Path, PathBuf};
 
+use super::scenario::setup_run;
 use super::*;
 use crate::plan::Plan;
 

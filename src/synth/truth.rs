@@ -18,7 +18,7 @@ use crate::stats::moments::Moments;
 
 /// Running moments of the noise-free fields of one run.
 #[derive(Debug, Clone)]
-pub struct TruthStats {
+pub(crate) struct TruthStats {
     pub grid: Grid,
     /// Frames added.
     pub n: usize,
@@ -33,7 +33,7 @@ pub struct TruthStats {
 }
 
 impl TruthStats {
-    pub fn new(grid: Grid, bins: usize) -> Self {
+    pub(crate) fn new(grid: Grid, bins: usize) -> Self {
         let n = grid.len();
         TruthStats {
             grid,
@@ -47,7 +47,7 @@ impl TruthStats {
     }
 
     /// Adds one frame; `phase_deg` in [0, 360) when the flow is periodic.
-    pub fn add(&mut self, tf: &TruthFrame, phase_deg: Option<f64>) {
+    pub(crate) fn add(&mut self, tf: &TruthFrame, phase_deg: Option<f64>) {
         self.n += 1;
         self.all.frames += 1.0;
         let bin = phase_deg.map(|p| phase_bin(p, self.bins));
@@ -84,30 +84,30 @@ impl TruthStats {
     }
 
     /// Mean of u, v, omega at node `k` over every frame.
-    pub fn mean_u(&self, k: usize) -> f64 {
+    pub(crate) fn mean_u(&self, k: usize) -> f64 {
         self.all.u.mean[k]
     }
-    pub fn mean_v(&self, k: usize) -> f64 {
+    pub(crate) fn mean_v(&self, k: usize) -> f64 {
         self.all.v.mean[k]
     }
-    pub fn mean_w(&self, k: usize) -> f64 {
+    pub(crate) fn mean_w(&self, k: usize) -> f64 {
         self.all.q[0].mean[k]
     }
-    pub fn std_u(&self, k: usize) -> f64 {
+    pub(crate) fn std_u(&self, k: usize) -> f64 {
         self.var(self.all.u.m2[k]).sqrt()
     }
-    pub fn std_v(&self, k: usize) -> f64 {
+    pub(crate) fn std_v(&self, k: usize) -> f64 {
         self.var(self.all.v.m2[k]).sqrt()
     }
-    pub fn std_w(&self, k: usize) -> f64 {
+    pub(crate) fn std_w(&self, k: usize) -> f64 {
         self.var(self.all.q[0].m2[k]).sqrt()
     }
-    pub fn cov_uv(&self, k: usize) -> f64 {
+    pub(crate) fn cov_uv(&self, k: usize) -> f64 {
         self.var(self.all.cuv[k])
     }
 
     /// Mean of `u`, `v`, omega (component 0, 1, 2) in bin `b` at node `k`.
-    pub fn bin_mean(&self, c: usize, b: usize, k: usize) -> f64 {
+    pub(crate) fn bin_mean(&self, c: usize, b: usize, k: usize) -> f64 {
         let Some(m) = &self.bin[b] else {
             return f64::NAN;
         };
@@ -121,7 +121,7 @@ impl TruthStats {
     /// `truth/mean.csv` (SI): x, y, body, u_mean, v_mean, u_std, v_std,
     /// uv_cov, omega_mean, omega_std; `digits` significant digits relative to
     /// the scales (`speed` for velocities, `speed / pitch` for vorticity).
-    pub fn mean_csv(&self, speed: f64, digits: u32) -> Vec<u8> {
+    pub(crate) fn mean_csv(&self, speed: f64, digits: u32) -> Vec<u8> {
         let g = self.grid;
         let (dxy, dvel, dw) = truth_decimals(&g, speed, digits);
         let mut out = Vec::with_capacity(g.len() * 100);
@@ -157,7 +157,7 @@ impl TruthStats {
 
     /// `truth/phase.csv` (SI): phase_bin, phase_deg, n_frames, x, y, u_mean,
     /// v_mean, omega_mean, bins outer, nodes inner.
-    pub fn phase_csv(&self, speed: f64, digits: u32) -> Vec<u8> {
+    pub(crate) fn phase_csv(&self, speed: f64, digits: u32) -> Vec<u8> {
         let g = self.grid;
         let (dxy, dvel, dw) = truth_decimals(&g, speed, digits);
         let mut out = Vec::with_capacity(g.len() * self.bins * 60);
@@ -191,7 +191,7 @@ impl TruthStats {
 
 /// The bin of a phase in degrees: the reduction's rule
 /// (`stats::phase_bin_index`; docs/interface.md).
-pub fn phase_bin(phase_deg: f64, bins: usize) -> usize {
+pub(crate) fn phase_bin(phase_deg: f64, bins: usize) -> usize {
     crate::stats::phase_bin_index(phase_deg, bins)
 }
 

@@ -32,7 +32,11 @@ use crate::io::{atomic_bytes, OutputDir};
 const CHUNK: usize = 64;
 
 /// Writes the campaign of `runs` into `out` (see `synth::generate`).
-pub fn write_campaign(opts: &SynthOptions, runs: &[RunSetup], out: &Path) -> Result<SynthSummary> {
+pub(crate) fn write_campaign(
+    opts: &SynthOptions,
+    runs: &[RunSetup],
+    out: &Path,
+) -> Result<SynthSummary> {
     if out.exists() && !opts.force {
         return Err(Error::usage(format!(
             "output folder {} exists; pass --force to replace it",
@@ -69,7 +73,7 @@ pub fn write_campaign(opts: &SynthOptions, runs: &[RunSetup], out: &Path) -> Res
 }
 
 /// Metres per written length unit, and (m/s) per written velocity unit.
-pub fn unit_scales(opts: &SynthOptions, setup: &RunSetup) -> (f64, f64) {
+pub(crate) fn unit_scales(opts: &SynthOptions, setup: &RunSetup) -> (f64, f64) {
     let ls = match opts.length_unit {
         LengthUnit::M => 1.0,
         LengthUnit::Mm => 1e-3,

@@ -19,7 +19,7 @@ impl Params {
     /// One phrase per step of the chain, in the order it runs; the last
     /// says when a whole frame is left out. `px_velocity`: m/s per px of
     /// displacement, when the input has a calibration.
-    pub fn describe_steps(&self, px_velocity: Option<f64>) -> Vec<String> {
+    pub(crate) fn describe_steps(&self, px_velocity: Option<f64>) -> Vec<String> {
         let mut out = vec!["missing, NaN and flagged vectors marked invalid".to_string()];
         if let Some(l) = &self.limits {
             out.push(l.describe(px_velocity));
@@ -43,7 +43,8 @@ impl Params {
     }
 
     /// The chain in one line: the steps joined by ", then ".
-    pub fn describe(&self, px_velocity: Option<f64>) -> String {
+    #[cfg(test)]
+    pub(crate) fn describe(&self, px_velocity: Option<f64>) -> String {
         self.describe_steps(px_velocity).join(", then ")
     }
 }
@@ -51,7 +52,7 @@ impl Params {
 impl MedianParams {
     /// "normalized median test (3 x 3, threshold 2, eps 0.005 m/s = 0.1 px,
     /// either component, at least 3 valid neighbours)".
-    pub fn describe(&self, px_velocity: Option<f64>) -> String {
+    pub(crate) fn describe(&self, px_velocity: Option<f64>) -> String {
         let side = 2 * self.radius + 1;
         let eps = match self.eps_noise {
             Some(1.0) => {
@@ -78,7 +79,7 @@ impl MedianParams {
 impl Limits {
     /// "velocity limits (box: u -1 to 1 m/s, v -0.5 to 0.5 m/s)" or the
     /// robust form.
-    pub fn describe(&self, px_velocity: Option<f64>) -> String {
+    pub(crate) fn describe(&self, px_velocity: Option<f64>) -> String {
         let shape = match self.shape {
             Shape::Box => "box",
             Shape::Ellipse => "ellipse",
@@ -110,7 +111,7 @@ impl EnsembleParams {
     /// "ensemble test per node (beyond 5 robust standard deviations of the
     /// node's own distribution, floor 0.005 m/s = 0.1 px, nodes with at least
     /// 10 valid samples)".
-    pub fn describe(&self, px_velocity: Option<f64>) -> String {
+    pub(crate) fn describe(&self, px_velocity: Option<f64>) -> String {
         format!(
             "ensemble test per node (beyond {} robust standard deviations of the node's own distribution, floor {}, nodes with at least {} valid samples)",
             num(self.k, 3),

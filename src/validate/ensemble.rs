@@ -217,7 +217,7 @@ impl<C: Copy + Default + std::ops::AddAssign + From<u8> + Into<u64>> Hist<C> {
 
 /// Accumulates the first pass over a chunk of frames (in frame order).
 #[derive(Debug, Clone)]
-pub struct EnsembleBuilder {
+pub(crate) struct EnsembleBuilder {
     grid: Grid,
     quant: Quant,
     u: Vec<Hist<u32>>,
@@ -227,7 +227,7 @@ pub struct EnsembleBuilder {
 }
 
 impl EnsembleBuilder {
-    pub fn new(p: &Params, grid: Grid) -> Self {
+    pub(crate) fn new(p: &Params, grid: Grid) -> Self {
         let n = grid.len();
         EnsembleBuilder {
             grid,
@@ -242,7 +242,7 @@ impl EnsembleBuilder {
     /// Adds one frame as read (before any test); only valid, finite vectors
     /// count. Panics if the frame is on another grid shape (a programming
     /// error: io checks grids).
-    pub fn push(&mut self, field: &Field) {
+    pub(crate) fn push(&mut self, field: &Field) {
         assert_eq!(
             field.status.dim(),
             self.grid.shape(),
@@ -266,7 +266,7 @@ impl EnsembleBuilder {
     }
 
     /// Adds the builder of the frames that follow (exact: integer counts).
-    pub fn merge(&mut self, later: EnsembleBuilder) {
+    pub(crate) fn merge(&mut self, later: EnsembleBuilder) {
         assert_eq!(self.grid.shape(), later.grid.shape(), "merge across grids");
         for (a, b) in self.u.iter_mut().zip(&later.u) {
             a.merge(b);
@@ -278,7 +278,7 @@ impl EnsembleBuilder {
         self.all_v.merge(&later.all_v);
     }
 
-    pub fn finish(self) -> EnsembleRef {
+    pub(crate) fn finish(self) -> EnsembleRef {
         let sh = self.grid.shape();
         let mut cum = Vec::new();
         let mut n = Array2::zeros(sh);
@@ -333,7 +333,7 @@ impl EnsembleRef {
     /// either component, sigma floored at `p.floor`; never for nodes with
     /// fewer than `p.min_samples` samples.
     #[inline]
-    pub fn is_outlier(&self, p: &EnsembleParams, k: usize, u: f64, v: f64) -> bool {
+    pub(crate) fn is_outlier(&self, p: &EnsembleParams, k: usize, u: f64, v: f64) -> bool {
         let nx = self.grid.nx;
         let idx = (k / nx, k % nx);
         if (self.n[idx] as usize) < p.min_samples.max(1) {

@@ -49,7 +49,7 @@ pub struct Limits {
 
 /// A region ready to test points against.
 #[derive(Debug, Clone, Copy, PartialEq)]
-pub struct Region {
+pub(crate) struct Region {
     pub shape: Shape,
     pub u: [f64; 2],
     pub v: [f64; 2],
@@ -58,7 +58,7 @@ pub struct Region {
 impl Region {
     /// True when (u, v) is inside or on the boundary.
     #[inline]
-    pub fn inside(&self, u: f64, v: f64) -> bool {
+    pub(crate) fn inside(&self, u: f64, v: f64) -> bool {
         match self.shape {
             Shape::Box => u >= self.u[0] && u <= self.u[1] && v >= self.v[0] && v <= self.v[1],
             Shape::Ellipse => {
@@ -76,7 +76,7 @@ impl Limits {
     /// The region for this run: given bounds as they are; robust bounds from
     /// `ens`, or `None` (no test) without it or when the run had no valid
     /// vector.
-    pub fn resolve(&self, ens: Option<&EnsembleRef>) -> Option<Region> {
+    pub(crate) fn resolve(&self, ens: Option<&EnsembleRef>) -> Option<Region> {
         match &self.bounds {
             Bounds::Given { u, v } => Some(Region {
                 shape: self.shape,

@@ -88,7 +88,7 @@ impl Default for MedianParams {
 impl MedianParams {
     /// The eps used on `field` (m/s): the given one, or `eps_noise` times
     /// the frame's estimated random error.
-    pub fn eps_for(&self, field: &Field) -> f64 {
+    pub(crate) fn eps_for(&self, field: &Field) -> f64 {
         match self.eps_noise {
             None => self.eps,
             Some(k) => k * frame_noise(field),
@@ -101,7 +101,7 @@ impl MedianParams {
 /// error correlation (both robust, median-based, so the outliers the test
 /// is about to catch barely move it); where too few runs of five valid
 /// vectors exist, `noise::estimate_pairs`; 0 without any valid pair.
-pub fn frame_noise(field: &Field) -> f64 {
+pub(crate) fn frame_noise(field: &Field) -> f64 {
     use crate::derive::noise;
     let corr = noise::estimate_overlap(field).map_or(
         crate::stencil::correlation::Correlation::Independent,
@@ -281,7 +281,7 @@ fn residual_pair8(c: Pair, b: &mut [Pair; 8], n: usize, eps: f64) -> [f64; 2] {
 /// The normalized residual `r0` of `u0` against neighbours `nb` (at least
 /// one value; `nb` is reordered). Allocation-free.
 #[inline]
-pub fn normalized_residual(u0: f64, nb: &mut [f64], eps: f64) -> f64 {
+pub(crate) fn normalized_residual(u0: f64, nb: &mut [f64], eps: f64) -> f64 {
     let um = median_small(nb);
     for x in nb.iter_mut() {
         *x = (*x - um).abs();

@@ -29,18 +29,18 @@
 //! nodes that are invalid input or outliers exceeds `max_rejected_fraction`.
 
 mod describe;
-pub mod ensemble;
-pub mod limits;
-pub mod median;
-pub mod peaklock;
+pub(crate) mod ensemble;
+pub(crate) mod limits;
+pub(crate) mod median;
+pub(crate) mod peaklock;
 
 #[cfg(test)]
 mod bench;
 
 use crate::field::{Field, FILLED, REPLACED, VALID};
 
-pub use ensemble::{EnsembleBuilder, EnsembleRef};
-pub use limits::{Bounds, Limits, Shape};
+pub(crate) use ensemble::{EnsembleBuilder, EnsembleRef};
+pub(crate) use limits::{Bounds, Limits, Shape};
 pub use median::{Combine, MedianParams};
 
 /// The resolved validation chain, in SI (velocities in m/s).
@@ -101,7 +101,7 @@ impl Default for Params {
 impl Params {
     /// True when a first pass over the run's frames (`EnsembleBuilder`) is
     /// needed: the ensemble test, or limits from the run's statistics.
-    pub fn needs_ensemble_pass(&self) -> bool {
+    pub(crate) fn needs_ensemble_pass(&self) -> bool {
         self.ensemble.is_some()
             || matches!(
                 self.limits,
@@ -137,7 +137,7 @@ impl Counts {
 /// Whether the whole frame is rejected: (outliers + invalid input) /
 /// `n_nodes` above `p.max_rejected_fraction` (never when it is `None` or
 /// the grid is empty).
-pub fn frame_rejected(p: &Params, c: &Counts, n_nodes: usize) -> bool {
+pub(crate) fn frame_rejected(p: &Params, c: &Counts, n_nodes: usize) -> bool {
     match p.max_rejected_fraction {
         Some(f) if n_nodes > 0 => (c.outliers() + c.invalid_input) as f64 / n_nodes as f64 > f,
         _ => false,

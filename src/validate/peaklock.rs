@@ -38,14 +38,14 @@
 //! [-256, 256] px (clamped at the ends).
 
 /// R above which (with p < 0.001) a run gets a peak-locking warning.
-pub const WARN_R: f64 = 0.1;
+pub(crate) const WARN_R: f64 = 0.1;
 const FINE: usize = 1000;
 const INT_HALF: i64 = 256;
 
 /// Mergeable accumulator of sub-pixel displacement parts (integer counts:
 /// merging is exact, and the partial files of shards carry it).
 #[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
-pub struct PeakLockAcc {
+pub(crate) struct PeakLockAcc {
     px_velocity: f64,
     fine: Vec<u64>,
     ints: Vec<u64>,
@@ -53,7 +53,7 @@ pub struct PeakLockAcc {
 
 /// The diagnostic of a run.
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
-pub struct PeakLock {
+pub(crate) struct PeakLock {
     /// Displacement components counted (two per valid vector).
     pub n: u64,
     pub r: f64,
@@ -68,7 +68,7 @@ pub struct PeakLock {
 
 impl PeakLockAcc {
     /// `px_velocity`: m/s per pixel of displacement.
-    pub fn new(px_velocity: f64) -> Self {
+    pub(crate) fn new(px_velocity: f64) -> Self {
         PeakLockAcc {
             px_velocity,
             fine: vec![0; FINE],
@@ -77,7 +77,7 @@ impl PeakLockAcc {
     }
 
     /// Adds the valid vectors (status 0, finite) of one frame.
-    pub fn push(&mut self, field: &crate::field::Field) {
+    pub(crate) fn push(&mut self, field: &crate::field::Field) {
         let (st, u, v) = (
             field.status.as_slice().expect("standard layout"),
             field.u.as_slice().expect("standard layout"),
@@ -93,7 +93,7 @@ impl PeakLockAcc {
 
     /// Adds one displacement in px.
     #[inline]
-    pub fn add(&mut self, d: f64) {
+    pub(crate) fn add(&mut self, d: f64) {
         let r = round_half_away(d);
         let f = d - r; // [-0.5, 0.5]
         let b = (((f + 0.5) * FINE as f64) as usize).min(FINE - 1);
@@ -102,7 +102,7 @@ impl PeakLockAcc {
         self.ints[ri as usize] += 1;
     }
 
-    pub fn merge(&mut self, later: PeakLockAcc) {
+    pub(crate) fn merge(&mut self, later: PeakLockAcc) {
         for (a, b) in self.fine.iter_mut().zip(later.fine) {
             *a += b;
         }
@@ -111,7 +111,7 @@ impl PeakLockAcc {
         }
     }
 
-    pub fn finish(&self) -> PeakLock {
+    pub(crate) fn finish(&self) -> PeakLock {
         let n: u64 = self.fine.iter().sum();
         let (mut c, mut s) = (0.0, 0.0);
         for (b, &k) in self.fine.iter().enumerate() {
@@ -158,7 +158,7 @@ impl PeakLockAcc {
 
 /// Rayleigh-test p-value for mean resultant length `r` of `n` angles
 /// (Zar's small-sample correction, from memory), clamped to [0, 1].
-pub fn rayleigh_p(r: f64, n: f64) -> f64 {
+pub(crate) fn rayleigh_p(r: f64, n: f64) -> f64 {
     let z = n * r * r;
     let p = (-z).exp()
         * (1.0 + (2.0 * z - z * z) / (4.0 * n)

@@ -68,7 +68,7 @@ pub struct CoreBudget {
 
 /// The circulation budget of every core of every slice of `b`; `vel` the
 /// run's velocity error correlation between nodes.
-pub fn core_budgets(
+pub(crate) fn core_budgets(
     b: &Budget,
     p: &Params,
     gamma_radius: usize,

@@ -65,7 +65,7 @@ fn fit_values(f: &LambOseen) -> [f64; 9] {
 
 impl FrameCores {
     /// The bytes of the frames' cores (see the module doc).
-    pub fn to_bytes(&self) -> Vec<u8> {
+    pub(crate) fn to_bytes(&self) -> Vec<u8> {
         let mut h = Header {
             frames: Vec::with_capacity(self.slices.len()),
             cores: Vec::new(),
@@ -101,7 +101,7 @@ impl FrameCores {
     }
 
     /// Reads `to_bytes` back (a state that only merges: no finder).
-    pub fn from_bytes(b: &[u8]) -> Result<FrameCores> {
+    pub(crate) fn from_bytes(b: &[u8]) -> Result<FrameCores> {
         let (mut r, h): (_, Header) = BlobReader::open(
             b,
             MAGIC,

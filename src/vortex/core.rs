@@ -57,7 +57,7 @@ pub struct Core {
 }
 
 /// Measures the core on `region` of slice `s`; `g1` is Gamma1 on the grid.
-pub fn measure(
+pub(crate) fn measure(
     region: &Region,
     s: &Slice,
     g1: &[f64],

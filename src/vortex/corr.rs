@@ -34,7 +34,7 @@ use crate::stencil::Stencil;
 
 /// Correlation of the omega errors at node lags `(dj, di)`.
 #[derive(Debug, Clone, PartialEq)]
-pub struct OmegaCorrelation {
+pub(crate) struct OmegaCorrelation {
     /// `(dj, di, rho)` for every lag with a nonzero correlation, (0, 0, 1)
     /// included.
     pub lags: Vec<(i32, i32, f64)>,
@@ -44,7 +44,7 @@ pub struct OmegaCorrelation {
 
 impl OmegaCorrelation {
     /// Independent omega errors (the sum of node variances).
-    pub fn independent() -> Self {
+    pub(crate) fn independent() -> Self {
         OmegaCorrelation {
             lags: vec![(0, 0, 1.0)],
             description: "omega errors taken as independent between nodes".into(),
@@ -53,7 +53,7 @@ impl OmegaCorrelation {
 
     /// The correlation made by the stencils `sx` (d/dx, on v) and `sy`
     /// (d/dy, on u) from velocity errors correlated as `vel`.
-    pub fn from_stencils(sx: &Stencil, sy: &Stencil, vel: Correlation) -> Self {
+    pub(crate) fn from_stencils(sx: &Stencil, sy: &Stencil, vel: Correlation) -> Self {
         let reach = |s: &Stencil| {
             let (a, b) = s.reach();
             a.max(b) as i32
@@ -94,7 +94,7 @@ impl OmegaCorrelation {
     /// The correlation of a run's omega errors: its derivative scheme
     /// (`auto`: its first candidate, for want of the per-node map), after
     /// its smoother, with its velocity error correlation when given.
-    pub fn for_run(d: &derive::Params, g: &Grid) -> Self {
+    pub(crate) fn for_run(d: &derive::Params, g: &Grid) -> Self {
         let scheme = match d.scheme {
             Scheme::Fixed(s) => s,
             Scheme::Auto => d.candidates.first().copied().unwrap_or(DiffScheme::Central),
@@ -128,7 +128,7 @@ impl OmegaCorrelation {
     /// `Var(sum_k c_k omega_k)` over the row-major `nodes` (sorted) of a
     /// grid `nx` wide, with `sig[k]` the standard uncertainty of node
     /// `nodes[k]` and `c[k]` its weight. NaN if any `sig` is NaN.
-    pub fn variance(&self, nodes: &[usize], c: &[f64], sig: &[f64], nx: usize) -> f64 {
+    pub(crate) fn variance(&self, nodes: &[usize], c: &[f64], sig: &[f64], nx: usize) -> f64 {
         let mut v = 0.0;
         self.pairs(nodes, nx, |a, b, rho| {
             v += c[a] * sig[a] * c[b] * sig[b] * rho
@@ -139,7 +139,7 @@ impl OmegaCorrelation {
     /// Calls `f(a, b, rho)` for every ordered pair of positions in `nodes`
     /// (sorted, row-major, grid `nx` wide) whose lag has a nonzero
     /// correlation `rho` (the pair (a, a) included, with rho = 1).
-    pub fn pairs(&self, nodes: &[usize], nx: usize, mut f: impl FnMut(usize, usize, f64)) {
+    pub(crate) fn pairs(&self, nodes: &[usize], nx: usize, mut f: impl FnMut(usize, usize, f64)) {
         for (a, &na) in nodes.iter().enumerate() {
             let (ja, ia) = ((na / nx) as i64, (na % nx) as i64);
             for &(dj, di, rho) in &self.lags {

@@ -46,7 +46,7 @@ pub struct LambOseen {
 }
 
 /// The data of one fit: node positions, omega and its uncertainty.
-pub struct FitData<'a> {
+pub(crate) struct FitData<'a> {
     /// Row-major node indices (sorted), grid `nx` wide.
     pub nodes: &'a [usize],
     pub nx: usize,
@@ -88,7 +88,12 @@ fn normal(d: &FitData, w: &[f64], p: &Vector4<f64>) -> (f64, Matrix4<f64>, Vecto
 
 /// Fits a Lamb-Oseen vortex from the start `p0 = (x0, y0, gamma, rc)`;
 /// `r_eq` is the region's equivalent radius (for the sanity bounds).
-pub fn fit(d: &FitData, p0: [f64; 4], r_eq: f64, corr: &OmegaCorrelation) -> Option<LambOseen> {
+pub(crate) fn fit(
+    d: &FitData,
+    p0: [f64; 4],
+    r_eq: f64,
+    corr: &OmegaCorrelation,
+) -> Option<LambOseen> {
     let n = d.nodes.len();
     if n < 6 || p0.iter().any(|v| !v.is_finite()) {
         return None;

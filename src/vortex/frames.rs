@@ -26,7 +26,7 @@ use crate::field::{FrameMeta, Grid};
 
 /// What every chunk of a run needs to find a frame's cores.
 #[derive(Debug)]
-pub struct Finder {
+pub(crate) struct Finder {
     pub params: Params,
     /// The Gamma1/Gamma2 disc, nodes.
     pub gamma_radius: usize,
@@ -36,7 +36,11 @@ pub struct Finder {
 impl Finder {
     /// The finder of a run with vortex parameters `p` and derivative
     /// parameters `d` on `grid`, when it asks for cores in every frame.
-    pub fn of(p: Option<&Params>, d: &crate::derive::Params, grid: Grid) -> Option<Arc<Finder>> {
+    pub(crate) fn of(
+        p: Option<&Params>,
+        d: &crate::derive::Params,
+        grid: Grid,
+    ) -> Option<Arc<Finder>> {
         let p = p.filter(|p| p.frames)?;
         Some(Arc::new(Finder {
             params: p.clone(),
@@ -48,7 +52,7 @@ impl Finder {
 
 /// The cores of the frames of a run (or chunk, or shard), in frame order.
 #[derive(Debug, Clone)]
-pub struct FrameCores {
+pub(crate) struct FrameCores {
     /// `None` for a state read back from a shard (it takes no more frames).
     pub finder: Option<Arc<Finder>>,
     /// One entry per used frame, `SliceKind::Frame`, in frame order.
@@ -57,7 +61,7 @@ pub struct FrameCores {
 
 impl FrameCores {
     /// No frames yet.
-    pub fn new(finder: Arc<Finder>) -> FrameCores {
+    pub(crate) fn new(finder: Arc<Finder>) -> FrameCores {
         FrameCores {
             finder: Some(finder),
             slices: Vec::new(),
@@ -68,7 +72,7 @@ impl FrameCores {
     ///
     /// # Panics
     /// On a state read back from a shard (no finder): shards only merge.
-    pub fn push(&mut self, meta: &FrameMeta, grid: Grid, d: &Derived) {
+    pub(crate) fn push(&mut self, meta: &FrameMeta, grid: Grid, d: &Derived) {
         let f = self
             .finder
             .as_ref()
@@ -105,7 +109,7 @@ impl FrameCores {
     }
 
     /// Appends `later`, the cores of the frames that follow.
-    pub fn merge(&mut self, later: FrameCores) {
+    pub(crate) fn merge(&mut self, later: FrameCores) {
         self.slices.extend(later.slices);
     }
 }

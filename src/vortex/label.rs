@@ -25,7 +25,7 @@ pub enum Connectivity {
 }
 
 impl Connectivity {
-    pub fn describe(&self) -> &'static str {
+    pub(crate) fn describe(&self) -> &'static str {
         match self {
             Connectivity::Four => "4-connectivity",
             Connectivity::Eight => "8-connectivity",
@@ -53,7 +53,7 @@ impl Connectivity {
 
 /// One connected region.
 #[derive(Debug, Clone, PartialEq)]
-pub struct Region {
+pub(crate) struct Region {
     /// +1 or -1.
     pub sign: i8,
     /// Row-major node indices, sorted.
@@ -62,7 +62,7 @@ pub struct Region {
 
 /// The connected regions of the nonzero nodes of `mask` (`ny` rows of `nx`).
 /// Panics if `mask.len() != nx * ny` (a programming error).
-pub fn regions(mask: &[i8], nx: usize, ny: usize, conn: Connectivity) -> Vec<Region> {
+pub(crate) fn regions(mask: &[i8], nx: usize, ny: usize, conn: Connectivity) -> Vec<Region> {
     assert_eq!(
         mask.len(),
         nx * ny,

@@ -31,22 +31,22 @@
 //! phase-mean field, not the mean of instantaneous Gamma2), over a disc of
 //! `[derivatives] gamma_radius` nodes. See docs/vortices.md.
 
-pub mod budget;
-pub mod codec;
-pub mod core;
-pub mod corr;
-pub mod fit;
-pub mod frames;
-pub mod label;
-pub mod swirl;
-pub mod table;
-pub mod track;
+pub(crate) mod budget;
+pub(crate) mod codec;
+pub(crate) mod core;
+pub(crate) mod corr;
+pub(crate) mod fit;
+pub(crate) mod frames;
+pub(crate) mod label;
+pub(crate) mod swirl;
+pub(crate) mod table;
+pub(crate) mod track;
 
 #[cfg(test)]
 mod tests;
 
-pub use self::core::Core;
-pub use label::Connectivity;
+pub(crate) use self::core::Core;
+pub(crate) use label::Connectivity;
 pub use track::Track;
 
 use crate::field::Grid;
@@ -116,7 +116,7 @@ impl Default for Params {
 
 impl Params {
     /// What makes a node core, in words ("|Gamma2| > 0.6366").
-    pub fn rule(&self) -> String {
+    pub(crate) fn rule(&self) -> String {
         let swirl = format!(
             "a swirling strength above {:.2} times its standard uncertainty",
             self.swirl_k
@@ -129,7 +129,7 @@ impl Params {
     }
 
     /// The parameters in plain words, for `curlew check` and the report.
-    pub fn describe(&self) -> String {
+    pub(crate) fn describe(&self) -> String {
         let rule = self.rule();
         format!(
             "vortex cores: connected regions ({}) of {rule} with at least {} nodes; circulation, centre, radii{}; tracked across slices within {} grid pitches of the predicted position{}",
@@ -205,7 +205,7 @@ pub struct Vortices {
 /// Finds and measures the cores of `s`: the one entry point of the
 /// identification (used for mean fields, phase bins, frames and the budget's
 /// slices alike). `gamma_radius` is the Gamma1/Gamma2 disc radius in nodes.
-pub fn find_cores(
+pub(crate) fn find_cores(
     s: &Slice,
     p: &Params,
     gamma_radius: usize,

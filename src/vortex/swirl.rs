@@ -39,7 +39,13 @@ use crate::field::Grid;
 
 /// The swirling strength (1/s) and its standard uncertainty at every node
 /// of a slice (row-major over `g`; NaN where it cannot be made).
-pub fn swirl(g: Grid, u: &[f64], v: &[f64], u_unc: &[f64], v_unc: &[f64]) -> (Vec<f64>, Vec<f64>) {
+pub(crate) fn swirl(
+    g: Grid,
+    u: &[f64],
+    v: &[f64],
+    u_unc: &[f64],
+    v_unc: &[f64],
+) -> (Vec<f64>, Vec<f64>) {
     let n = g.len();
     let (mut lam, mut unc) = (vec![f64::NAN; n], vec![f64::NAN; n]);
     if g.nx < 3 || g.ny < 3 {
@@ -79,7 +85,7 @@ pub fn swirl(g: Grid, u: &[f64], v: &[f64], u_unc: &[f64], v_unc: &[f64]) -> (Ve
 
 /// Does the swirl at a node pass the significance test with coverage
 /// factor `k` (see the module doc)? NaN never passes.
-pub fn significant(lambda: f64, unc: f64, k: f64) -> bool {
+pub(crate) fn significant(lambda: f64, unc: f64, k: f64) -> bool {
     lambda > 0.0 && unc.is_finite() && lambda > k * unc
 }
 

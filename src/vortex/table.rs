@@ -102,7 +102,7 @@ fn core_cols(cores: &[&Core], t: &mut Table) {
 /// `vortices.csv`: one row per core of every slice (the mean first): the
 /// leading columns, `core` (index in its slice), `track` (-1: none), then
 /// `CORE_COLS`.
-pub fn vortices_table(v: &Vortices) -> Table {
+pub(crate) fn vortices_table(v: &Vortices) -> Table {
     let mut kinds = Vec::new();
     let mut cores = Vec::new();
     let (mut idx, mut trk) = (Vec::new(), Vec::new());
@@ -131,7 +131,7 @@ pub fn vortices_table(v: &Vortices) -> Table {
 /// `CORE_COLS`, then the track's own `n_points`, `u_conv`, `u_conv_unc`,
 /// `v_conv`, `v_conv_unc` (m/s) and `growth`, `growth_unc` (d(rc²)/dt of
 /// the fits, m²/s), repeated on each of its rows.
-pub fn tracks_table(v: &Vortices) -> Table {
+pub(crate) fn tracks_table(v: &Vortices) -> Table {
     let mut kinds = Vec::new();
     let mut cores = Vec::new();
     let (mut id, mut pt, mut ci) = (Vec::new(), Vec::new(), Vec::new());
@@ -189,7 +189,7 @@ pub fn tracks_table(v: &Vortices) -> Table {
 /// (m²/s), then each term integrated over the core and its uncertainty
 /// (m²/s²: `unsteady` is dGamma/dt of the fixed region), `residual`,
 /// `residual_unc`.
-pub fn budget_table(rows: &[CoreBudget]) -> Table {
+pub(crate) fn budget_table(rows: &[CoreBudget]) -> Table {
     let mut t = Table::new();
     let kinds: Vec<(SliceKind, f64)> = rows.iter().map(|r| (r.kind, r.time_s)).collect();
     kind_cols(&kinds, &mut t);
@@ -213,7 +213,7 @@ pub fn budget_table(rows: &[CoreBudget]) -> Table {
 /// Writes `vortices.csv`, `tracks.csv` (when the run has slices to track
 /// across) and `circulation-budget.csv` (when the run has a budget) in
 /// `dir` (= `OUT/<run id>`).
-pub fn write(dir: &std::path::Path, v: &Vortices) -> crate::error::Result<()> {
+pub(crate) fn write(dir: &std::path::Path, v: &Vortices) -> crate::error::Result<()> {
     crate::io::write_csv(&dir.join("vortices.csv"), &vortices_table(v))?;
     if v.slices.iter().any(|s| s.kind != SliceKind::Mean) {
         crate::io::write_csv(&dir.join("tracks.csv"), &tracks_table(v))?;

@@ -64,7 +64,7 @@ pub struct Track {
 /// uncertainty (see the module doc). `s` are the standard uncertainties of
 /// `y` (unit weights where any is not finite and positive). Non-finite
 /// points are left out; `None` with fewer than 3 points or one time.
-pub fn line_fit(t: &[f64], y: &[f64], s: &[f64]) -> Option<Slope> {
+pub(crate) fn line_fit(t: &[f64], y: &[f64], s: &[f64]) -> Option<Slope> {
     let idx: Vec<usize> = (0..t.len())
         .filter(|&k| t[k].is_finite() && y[k].is_finite())
         .collect();
@@ -99,7 +99,7 @@ pub fn line_fit(t: &[f64], y: &[f64], s: &[f64]) -> Option<Slope> {
 
 /// Tracks the cores of `seq` (in order). `gate` is in metres; `period`
 /// (s) makes the sequence periodic (phase bins), `None` for frames.
-pub fn track(seq: &[SliceCores], gate: f64, period: Option<f64>) -> Vec<Track> {
+pub(crate) fn track(seq: &[SliceCores], gate: f64, period: Option<f64>) -> Vec<Track> {
     let drift = typical_step(seq, period.is_some());
     let mut done: Vec<Track> = Vec::new();
     let mut active: Vec<Track> = Vec::new();

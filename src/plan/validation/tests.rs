@@ -1,9 +1,7 @@
 use super::*;
-use std::path::PathBuf;
 
 fn ctx(px: Option<f64>, scale: f64) -> ResolveCtx {
     ResolveCtx {
-        base_dir: PathBuf::from("."),
         velocity_scale: scale,
         px_velocity: px,
         length_scale: 1e-3,

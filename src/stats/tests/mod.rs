@@ -7,6 +7,7 @@ use ndarray::Array2;
 use rand::Rng;
 use rand_distr::{Distribution, StandardNormal};
 
+use super::codec::FORMAT_MAGIC;
 use super::*;
 use crate::derive::Quantity;
 use crate::field::{Field, FrameMeta, Grid, FILLED, REPLACED, VALID};
