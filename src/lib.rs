@@ -40,7 +40,6 @@
 //! # Ok::<(), curlew::Error>(())
 //! ```
 
-
 pub mod budget;
 pub mod compare;
 pub mod coverage;
