@@ -1,5 +1,6 @@
 //! Tests of `text` (moved out of text.rs to keep it under 600 lines).
 
+use super::number::digit_run;
 use super::*;
 
 type Row = std::result::Result<(usize, Vec<Option<f64>>), (usize, String)>;
