@@ -23,18 +23,18 @@
 
 /// 1 / Phi^-1(3/4): the MAD times this is a consistent estimate of the
 /// standard deviation of normal data (Hampel 1974; common practice).
-pub(crate) const MAD_TO_SIGMA: f64 = 1.482_602_218_505_602;
+pub const MAD_TO_SIGMA: f64 = 1.482_602_218_505_602;
 
 /// The median of `v` (mean of the two middle values for an even count),
 /// reordering `v`; NaN when empty.
-pub(crate) fn median(v: &mut [f64]) -> f64 {
+pub fn median(v: &mut [f64]) -> f64 {
     quantile(v, 0.5)
 }
 
 /// The `q` quantile (clamped to 0..1) of `v` by linear interpolation
 /// between order statistics (see the module convention), reordering `v`;
 /// NaN when empty.
-pub(crate) fn quantile(v: &mut [f64], q: f64) -> f64 {
+pub fn quantile(v: &mut [f64], q: f64) -> f64 {
     let n = v.len();
     if n == 0 {
         return f64::NAN;
@@ -58,14 +58,14 @@ pub(crate) fn quantile(v: &mut [f64], q: f64) -> f64 {
 }
 
 /// The median of the finite values of an iterator; NaN when none is finite.
-pub(crate) fn median_of(v: impl Iterator<Item = f64>) -> f64 {
+pub fn median_of(v: impl Iterator<Item = f64>) -> f64 {
     let mut s: Vec<f64> = v.filter(|x| x.is_finite()).collect();
     median(&mut s)
 }
 
 /// The `q` quantile of the finite values of an iterator; NaN when none is
 /// finite.
-pub(crate) fn quantile_of(v: impl Iterator<Item = f64>, q: f64) -> f64 {
+pub fn quantile_of(v: impl Iterator<Item = f64>, q: f64) -> f64 {
     let mut s: Vec<f64> = v.filter(|x| x.is_finite()).collect();
     quantile(&mut s, q)
 }
@@ -73,7 +73,7 @@ pub(crate) fn quantile_of(v: impl Iterator<Item = f64>, q: f64) -> f64 {
 /// (median, MAD) of `v`: the MAD is the raw median of |x - median|, not
 /// scaled (multiply by [`MAD_TO_SIGMA`] for a standard deviation).
 /// Overwrites `v` with the absolute deviations; NaN, NaN when empty.
-pub(crate) fn median_mad(v: &mut [f64]) -> (f64, f64) {
+pub fn median_mad(v: &mut [f64]) -> (f64, f64) {
     let m = median(v);
     v.iter_mut().for_each(|x| *x = (*x - m).abs());
     (m, median(v))
@@ -83,7 +83,7 @@ pub(crate) fn median_mad(v: &mut [f64]) -> (f64, f64) {
 /// patterns (for non-negative floats the integer order is the value order,
 /// and integer selection is faster), reordering `bits`; NaN when empty.
 /// Same convention as [`median`].
-pub(crate) fn median_of_nonnegative_bits(bits: &mut [u64]) -> f64 {
+pub fn median_of_nonnegative_bits(bits: &mut [u64]) -> f64 {
     let n = bits.len();
     if n == 0 {
         return f64::NAN;
