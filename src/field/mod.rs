@@ -21,18 +21,26 @@ pub use table::{Table, Values};
 /// A regular rectangular grid, in metres.
 #[derive(Debug, Clone, Copy, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct Grid {
+    /// Number of nodes along x (columns).
     pub nx: usize,
+    /// Number of nodes along y (rows).
     pub ny: usize,
+    /// x of the first column, m.
     pub x0: f64,
+    /// y of the first row, m.
     pub y0: f64,
+    /// Pitch along x, m.
     pub dx: f64,
+    /// Pitch along y, m.
     pub dy: f64,
 }
 
 impl Grid {
+    /// x of column `i`, m.
     pub fn x(&self, i: usize) -> f64 {
         self.x0 + i as f64 * self.dx
     }
+    /// y of row `j`, m.
     pub fn y(&self, j: usize) -> f64 {
         self.y0 + j as f64 * self.dy
     }
@@ -40,9 +48,11 @@ impl Grid {
     pub fn len(&self) -> usize {
         self.nx * self.ny
     }
+    /// True when the grid has no node.
     pub fn is_empty(&self) -> bool {
         self.len() == 0
     }
+    /// Array shape `(ny, nx)`: rows are y, columns x.
     pub fn shape(&self) -> (usize, usize) {
         (self.ny, self.nx)
     }
@@ -94,14 +104,19 @@ pub enum Status {
 }
 
 impl Status {
+    /// The numeric code written in the `status` column.
     pub const fn code(self) -> u8 {
         self as u8
     }
 }
 
+/// Status code 0: a valid measurement.
 pub const VALID: u8 = Status::Valid as u8;
+/// Status code 1: an outlier replaced by filling.
 pub const REPLACED: u8 = Status::Replaced as u8;
+/// Status code 2: invalid in the input and filled.
 pub const FILLED: u8 = Status::Filled as u8;
+/// Status code 3: masked, no value.
 pub const MASKED: u8 = Status::Masked as u8;
 
 /// One snapshot on its grid, in SI.
@@ -112,11 +127,17 @@ pub const MASKED: u8 = Status::Masked as u8;
 /// stage sets them.
 #[derive(Debug, Clone)]
 pub struct Field {
+    /// The grid the arrays sit on.
     pub grid: Grid,
+    /// Velocity component along x, m/s, shape `(ny, nx)`; NaN where there is no value.
     pub u: Array2<f64>,
+    /// Velocity component along y, m/s, shape `(ny, nx)`; NaN where there is no value.
     pub v: Array2<f64>,
+    /// Standard uncertainty of u, m/s; NaN until known.
     pub sigma_u: Array2<f64>,
+    /// Standard uncertainty of v, m/s; NaN until known.
     pub sigma_v: Array2<f64>,
+    /// Per-node status code (`VALID`, `REPLACED`, `FILLED`, `MASKED`).
     pub status: Array2<u8>,
     /// One record per vector the fill stage gave a value (`fill`, `derive`);
     /// empty before filling.
@@ -129,7 +150,9 @@ pub struct Field {
 /// that estimates its model error (see `fill`).
 #[derive(Debug, Clone, PartialEq)]
 pub struct FillWeights {
+    /// The filled node, `k = j*nx + i`.
     pub node: usize,
+    /// The valid nodes and weights whose sum gives the filled value.
     pub weights: Vec<(usize, f64)>,
     /// Empty when the model error could not be estimated.
     pub model: Vec<(usize, f64)>,
@@ -205,11 +228,14 @@ impl Field {
 /// node order of the layout invariant above.
 #[derive(Debug, Clone)]
 pub struct NodeTable {
+    /// The grid the columns sit on.
     pub grid: Grid,
+    /// Named columns, one value per node in node order; NaN where empty.
     pub columns: Vec<(String, Vec<f64>)>,
 }
 
 impl NodeTable {
+    /// An empty table on `grid`.
     pub fn new(grid: Grid) -> Self {
         NodeTable {
             grid,
@@ -229,6 +255,7 @@ impl NodeTable {
         );
         self.columns.push((name, data));
     }
+    /// The column named `name`, if present.
     pub fn get(&self, name: &str) -> Option<&[f64]> {
         self.columns
             .iter()
@@ -310,8 +337,12 @@ mod tests {
 /// the frame table when it gives them.
 #[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct FrameMeta {
+    /// Index of the frame in the run's natural order, from 0.
     pub index: usize,
+    /// The frame's name: file name without extension, or the parquet frame id.
     pub name: String,
+    /// Time from the frame table, s; `None` when it gives none.
     pub time_s: Option<f64>,
+    /// Phase from the frame table, degrees; `None` when it gives none.
     pub phase_deg: Option<f64>,
 }

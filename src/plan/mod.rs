@@ -34,36 +34,51 @@ use crate::{derive, fill, plot, stats, validate};
 #[derive(Debug, Clone, Default, Deserialize, Serialize)]
 #[serde(deny_unknown_fields)]
 pub struct RawPipeline {
+    /// `[campaign]`: name and description.
     pub campaign: RawCampaign,
     #[serde(default)]
+    /// `[input]`: defaults of every run's input (`[run.input]` overrides).
     pub input: input::RawInput,
     /// Geometry masks of every run (`crate::mask`).
     pub mask: Option<crate::mask::RawMask>,
     #[serde(default)]
+    /// `[validation]`: median test, limits, ensemble test.
     pub validation: validation::RawValidation,
     #[serde(default)]
+    /// `[fill]`: how rejected and missing vectors are filled.
     pub fill: validation::RawFill,
     #[serde(default)]
+    /// `[smoothing]`: the smoother applied before derivatives.
     pub smoothing: validation::RawSmoothing,
     #[serde(default)]
+    /// `[derivatives]`: scheme and gradient quantities.
     pub derivatives: derivatives::RawDerivatives,
     #[serde(default)]
+    /// `[uncertainty]`: velocity noise and neighbour correlation.
     pub uncertainty: derivatives::RawUncertainty,
     #[serde(default)]
+    /// `[statistics]`: probes, coverage, systematic uncertainties.
     pub statistics: statistics::RawStatistics,
     #[serde(default)]
+    /// `[phase]`: phase bins.
     pub phase: statistics::RawPhase,
     #[serde(default)]
+    /// `[modes]`: POD and phase from the modes.
     pub modes: modes::RawModes,
     #[serde(default)]
+    /// `[spectra]`: Welch spectra of time-resolved runs.
     pub spectra: modes::RawSpectra,
     #[serde(default)]
+    /// `[output]`: frame fields and figures on or off.
     pub output: RawOutput,
     #[serde(default)]
+    /// `[figures]`: figure options.
     pub figures: report::RawFigures,
     #[serde(default)]
+    /// `[[compare]]`: comparisons between runs.
     pub compare: Vec<report::RawCompare>,
     #[serde(default)]
+    /// `[[run]]`: one entry per run.
     pub run: Vec<RawRun>,
     /// The vorticity transport budget (off unless present).
     pub budget: Option<budget::RawBudget>,
@@ -73,7 +88,9 @@ pub struct RawPipeline {
 
 #[derive(Debug, Clone, Default, Deserialize, Serialize)]
 #[serde(deny_unknown_fields)]
+/// The `[campaign]` section.
 pub struct RawCampaign {
+    /// `name`: names the default output folder `out/<name>`.
     pub name: String,
     /// Free text for the report.
     pub description: Option<String>,
@@ -81,6 +98,7 @@ pub struct RawCampaign {
 
 #[derive(Debug, Clone, Default, Deserialize, Serialize)]
 #[serde(deny_unknown_fields)]
+/// The `[output]` section.
 pub struct RawOutput {
     /// Also write every frame's filled field (costs one file per frame).
     pub frame_fields: Option<bool>,
@@ -90,13 +108,19 @@ pub struct RawOutput {
 
 #[derive(Debug, Clone, Default, Deserialize, Serialize)]
 #[serde(deny_unknown_fields)]
+/// One `[[run]]` entry as written.
 pub struct RawRun {
+    /// `id`: the run's name and output folder's name.
     pub id: String,
+    /// `frames`: a glob of frame files, or one parquet long table.
     pub frames: String,
+    /// `frame_table`: a CSV of `frame` with `time_s` and/or `phase_deg`.
     pub frame_table: Option<String>,
+    /// `[run.input]`: overrides of `[input]` for this run.
     pub input: Option<input::RawInput>,
     /// This run's masks, added to the campaign's (`crate::mask`).
     pub mask: Option<crate::mask::RawMask>,
+    /// `[run.conditions]`: velocity, length, viscosity, frequency and free keys.
     pub conditions: Option<report::RawConditions>,
     /// Free text for the report.
     pub description: Option<String>,
@@ -116,22 +140,33 @@ pub(crate) struct ResolveCtx {
 /// Everything one run needs, resolved.
 #[derive(Debug, Clone)]
 pub struct RunPlan {
+    /// The run's id.
     pub id: String,
     /// The frames pattern, made absolute.
     pub frames: String,
+    /// The frame table, made absolute; `None` when not given.
     pub frame_table: Option<PathBuf>,
+    /// How to read the frames (format, columns, units).
     pub input: InputSpec,
+    /// Calibration, (m/s) per pixel of displacement; `None` when unknown.
     pub px_velocity: Option<f64>,
+    /// Resolved `[validation]`.
     pub validation: validate::Params,
+    /// Resolved `[fill]`.
     pub fill: fill::Params,
+    /// Resolved `[derivatives]`, `[smoothing]` and `[uncertainty]`.
     pub derive: derive::Params,
+    /// Resolved `[statistics]` and `[phase]`.
     pub stats: stats::Params,
+    /// Resolved `[figures]`.
     pub plot: plot::Params,
     /// `[modes]`: POD and phase from the flow.
     pub modes: crate::modes::Params,
     /// `[spectra]`: Welch spectra of time-resolved runs.
     pub spectra: crate::spectra::run::Params,
+    /// Resolved `[run.conditions]`.
     pub conditions: report::Conditions,
+    /// The run's `description`, if given.
     pub description: Option<String>,
     /// The vorticity transport budget, when asked for.
     pub budget: Option<crate::budget::Params>,
@@ -147,16 +182,25 @@ pub struct RunPlan {
 /// The resolved pipeline.
 #[derive(Debug, Clone)]
 pub struct Plan {
+    /// The pipeline file.
     pub path: PathBuf,
+    /// The pipeline file's folder, against which relative paths are taken.
     pub base_dir: PathBuf,
+    /// `[campaign] name`.
     pub campaign: String,
+    /// `[campaign] description`, if given.
     pub description: Option<String>,
+    /// The runs, in pipeline order.
     pub runs: Vec<RunPlan>,
+    /// `[output] frame_fields` (default false).
     pub frame_fields: bool,
+    /// `[output] figures` (default true).
     pub figures: bool,
+    /// The resolved `[[compare]]` entries.
     pub compare: Vec<report::ComparePlan>,
     /// The pipeline as read, for the manifest.
     pub raw: RawPipeline,
+    /// The pipeline file's text, for the manifest.
     pub text: String,
 }
 
