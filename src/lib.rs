@@ -40,8 +40,6 @@
 //! # Ok::<(), curlew::Error>(())
 //! ```
 
-#![warn(missing_docs)]
-
 pub mod budget;
 pub mod compare;
 pub mod coverage;
