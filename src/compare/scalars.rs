@@ -212,8 +212,40 @@ mod tests {
             if n == "omega_mean" {
                 c[k_bad] = -10.0 * w_true;
             }
-            if n == "omega_mean_unc" {
+            if n == "omega_inst_unc" {
                 c[k_bad] = 50.0;
+            }
+        }
+        assert_eq!(peak_node(&t).unwrap().0, k_true);
+        // a node seen in few frames is poorly determined too
+        for (n, c) in t.columns.iter_mut() {
+            if n == "omega_inst_unc" {
+                c[k_bad] = c[k_true];
+            }
+            if n == "n_valid" {
+                c[k_bad] = 0.05 * c[k_true];
+            }
+        }
+        assert_eq!(peak_node(&t).unwrap().0, k_true);
+    }
+
+    #[test]
+    fn a_core_with_a_large_truncation_part_stays_the_peak() {
+        // u(omega_mean) 20 x the field's median at the peak, all of it
+        // systematic (omega_inst_unc and n_valid as elsewhere): still the peak.
+        let g = grid(10, 8);
+        let v = Vortex {
+            gamma: 0.004,
+            rc: 0.004,
+            xc: 0.005,
+            yc: 0.0,
+            u_inf: 0.0,
+        };
+        let mut t = ensemble(g, &v, 0.004, 2.0, 10);
+        let (k_true, _) = peak_node(&t).unwrap();
+        for (n, c) in t.columns.iter_mut() {
+            if n == "omega_mean_unc" {
+                c[k_true] = 40.0;
             }
         }
         assert_eq!(peak_node(&t).unwrap().0, k_true);
