@@ -119,11 +119,18 @@ fn report_and_campaign_numbers_equal_the_tables_they_come_from() {
     let mean_noise = noise.iter().sum::<f64>() / noise.len() as f64;
     assert_all_close(&[c("noise_estimate")], &[mean_noise], 0.0, 1e-12, "noise");
 
-    // The peak: largest |omega_mean| among nodes with u <= 3 x median(u).
+    // The peak: largest |omega_mean| among nodes whose random part of
+    // u(omega_mean), omega_inst_unc / sqrt(n_valid), is at most 3 x its median.
     let (om, omu) = (ens.col("omega_mean"), ens.col("omega_mean_unc"));
-    let lim = 3.0 * median(&omu);
+    let random: Vec<f64> = ens
+        .col("omega_inst_unc")
+        .iter()
+        .zip(ens.col("n_valid"))
+        .map(|(u, n)| u / n.sqrt())
+        .collect();
+    let lim = 3.0 * median(&random);
     let k = (0..om.len())
-        .filter(|&k| om[k].is_finite() && omu[k].is_finite() && omu[k] <= lim)
+        .filter(|&k| om[k].is_finite() && random[k].is_finite() && random[k] <= lim)
         .max_by(|&a, &b| om[a].abs().total_cmp(&om[b].abs()))
         .unwrap();
     assert_eq!(c("omega_mean_peak"), om[k]);
