@@ -26,13 +26,19 @@ pub enum ErrorKind {
 /// A library error: a kind, a message and where it happened.
 #[derive(Debug, Clone)]
 pub struct Error {
+    /// What went wrong, which sets the exit status (`exit_code`).
     pub kind: ErrorKind,
+    /// The message, naming the offending key or value.
     pub message: String,
+    /// The file it happened in; `None`: not tied to a file.
     pub path: Option<PathBuf>,
+    /// The 1-based line in `path`; `None`: not tied to a line.
     pub line: Option<usize>,
+    /// The column (header name) or key; `None`: not tied to one.
     pub column: Option<String>,
 }
 
+/// The library's result type: `Error` unless another is named.
 pub type Result<T, E = Error> = std::result::Result<T, E>;
 
 impl Error {

@@ -40,6 +40,8 @@
 //! # Ok::<(), curlew::Error>(())
 //! ```
 
+#![warn(missing_docs)]
+
 pub mod budget;
 pub mod compare;
 pub mod coverage;

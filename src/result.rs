@@ -1,10 +1,6 @@
 //! What a reduced run and campaign hold, as handed to the writers, the
 //! figures and the report.
 
-// Every public item of this module is documented; keep it so (the crate-wide
-// lint is on the way, module by module: issue 12).
-#![warn(missing_docs)]
-
 use crate::field::{FrameMeta, Grid};
 use crate::{fill, stats, validate};
 

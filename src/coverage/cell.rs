@@ -79,11 +79,17 @@ pub struct Cell {
 /// One scored column in one region of one table.
 #[derive(Debug, Clone, serde::Serialize)]
 pub struct Row {
+    /// The cell's name (`Cell::name`; for `curlew coverage`, the run id).
     pub cell: String,
     /// `ensemble` or `phase` (all bins pooled).
     pub table: String,
+    /// The scored uncertainty column, e.g. `omega_mean_unc`.
     pub column: String,
+    /// The nodes scored: `all`, `interior`, `edge`, `core` (near the
+    /// vortex core) or `far`.
     pub region: String,
+    /// Coverage, error-to-uncertainty ratio and counts of the pairs
+    /// (flattened into the `coverage.csv` row).
     #[serde(flatten)]
     pub score: Score,
 }

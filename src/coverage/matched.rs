@@ -47,32 +47,52 @@ use crate::synth::{Scenario, SynthOptions};
 /// What the match took from one run of the user's campaign.
 #[derive(Debug, Clone, serde::Serialize)]
 pub struct Measured {
+    /// The run's id (`[[run]] id`).
     pub run: String,
+    /// Nodes along x of the run's grid, and of the matched one.
     pub nx: usize,
+    /// Nodes along y of the run's grid, and of the matched one.
     pub ny: usize,
+    /// The run's x pitch, m (the matched grid is square).
     pub pitch: f64,
+    /// Frames per matched replica: the run's count, or `--frames`.
     pub frames: usize,
     /// Noise of each component, m/s.
     pub noise: f64,
     /// Window overlap of the matched noise (0, 0.5, 0.75).
     pub overlap: f64,
+    /// The run's fraction of vectors replaced after validation, injected
+    /// as random outliers.
     pub outlier_fraction: f64,
+    /// The run's fraction of invalid input vectors filled, injected as
+    /// gaps.
     pub gap_fraction: f64,
+    /// Frames per second: from the median step of the frame table's times,
+    /// 15 when the frames have none.
     pub frame_rate: f64,
+    /// AR(1) coefficient of the matched noise from frame to frame,
+    /// `(N - N_eff)/(N + N_eff)` clamped to [0, 0.95]; 0 without times or
+    /// an effective sample size.
     pub memory: f64,
     /// Phase bins and degrees per frame, when frames have phases.
     pub phase: Option<(usize, f64)>,
+    /// Median of the mean speed |(u_mean, v_mean)| over the nodes, m/s:
+    /// the matched stream.
     pub mean_speed: f64,
+    /// Largest |omega_mean| of the run, 1/s: the matched vortex's peak.
     pub peak_vorticity: f64,
     /// The matched vortex's core radius, pitches.
     pub core_pitches: f64,
+    /// What could not be matched exactly (a different y pitch, …).
     pub warnings: Vec<String>,
 }
 
 /// One run's check: what was matched and the scored rows.
 #[derive(Debug, Clone)]
 pub struct Checked {
+    /// What was taken from the run.
     pub measured: Measured,
+    /// The scored rows of the matched campaign (`coverage.csv`).
     pub rows: Vec<Row>,
 }
 
@@ -81,7 +101,9 @@ pub struct Checked {
 pub struct CheckOptions {
     /// Frames per replica (default: the run's).
     pub frames: Option<usize>,
+    /// Seed of the first replica (`--seed`, default 1).
     pub seed: u64,
+    /// Synthetic replicas per run (`--replicas`, default 4).
     pub replicas: usize,
     /// Runs to check (empty: every run).
     pub runs: Vec<String>,

@@ -60,7 +60,10 @@ pub struct Score {
 /// (`k = 1`, scale 1.96).
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Reading {
+    /// A standard uncertainty (`*_unc`): covered when |error| <= 2 u.
     Standard,
+    /// An expanded uncertainty at 95 % (`*_unc_p95`): covered when
+    /// |error| <= U, the ratio taken against U / 1.96.
     Expanded95,
     /// The "errors" are per-node RMS errors already (an RMS over frames):
     /// the ratio is scored, the coverage is not (NaN).

@@ -22,6 +22,7 @@ use crate::synth::{Scenario, SynthOptions};
 /// The flow of a cell.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub enum FlowSpec {
+    /// A uniform stream (no gradients): the `uniform` scenario.
     Uniform,
     /// Core radius in grid pitches.
     Vortex(f64),
@@ -32,9 +33,11 @@ pub enum FlowSpec {
 /// One condition of the matrix.
 #[derive(Debug, Clone)]
 pub struct Spec {
+    /// The flow of the synthetic campaign.
     pub flow: FlowSpec,
     /// Window overlap of the noise: 0, 0.5, 0.75.
     pub overlap: f64,
+    /// Fraction of nodes per frame that are gaps (filled vectors), 0 to 1.
     pub gaps: f64,
     /// `[smoothing]` body, e.g. `method = "gaussian"` (empty: none).
     pub smoothing: &'static str,
@@ -42,8 +45,11 @@ pub struct Spec {
     pub scheme: &'static str,
     /// AR(1) coefficient of the noise in time.
     pub memory: f64,
+    /// Frames per replica.
     pub frames: usize,
+    /// Independent campaigns reduced and pooled (at least 2).
     pub replicas: usize,
+    /// Seed of the first replica's random draws.
     pub seed: u64,
 }
 

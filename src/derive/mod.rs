@@ -88,6 +88,8 @@ pub use workspace::Workspace;
 /// auto is `{"name": "auto"}` (`describe`).
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub enum Scheme {
+    /// One scheme at every node (`[derivatives] scheme` = `central`,
+    /// `richardson`, `least-squares` or `circulation`).
     Fixed(DiffScheme),
     /// Per node, the candidate with the least estimated total error.
     Auto,
@@ -110,13 +112,18 @@ pub enum VelocityNoise {
 /// The resolved parameters of the gradient stage.
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct Params {
+    /// The derivative scheme (`[derivatives] scheme`).
     pub scheme: Scheme,
     /// Window and order of the least-squares scheme (5, 1: the 4-point
     /// stencil).
     pub ls_window: usize,
+    /// Polynomial order of the least-squares scheme (`[derivatives]
+    /// order`, default 1).
     pub ls_order: u32,
     /// The schemes `auto` chooses from, in tie-breaking order.
     pub candidates: Vec<DiffScheme>,
+    /// Where the per-vector random error comes from (`[uncertainty]
+    /// velocity_noise`).
     pub velocity_noise: VelocityNoise,
     /// The error-correlation model when given; see `correlation_from_data`.
     pub correlation: Correlation,
@@ -178,6 +185,7 @@ pub struct Quantity {
     pub name: &'static str,
     /// SI unit, e.g. "1/s".
     pub unit: &'static str,
+    /// The instantaneous value at each node, in `unit`.
     pub value: Array2<f64>,
     /// Propagated standard uncertainty of the instantaneous value.
     pub unc: Option<Array2<f64>>,
@@ -199,9 +207,11 @@ pub struct Quantity {
 pub struct Derived {
     /// The velocity the statistics use (smoothed when smoothing is on).
     pub u: Array2<f64>,
+    /// The y velocity the statistics use, m/s (smoothed as `u`).
     pub v: Array2<f64>,
-    /// Their standard uncertainties.
+    /// Standard uncertainty of `u`, m/s.
     pub u_unc: Array2<f64>,
+    /// Standard uncertainty of `v`, m/s.
     pub v_unc: Array2<f64>,
     /// Quantities in the order of `quantity_names`; "omega" is first.
     pub quantities: Vec<Quantity>,
@@ -219,6 +229,8 @@ pub struct Derived {
     /// The scheme at each node as an index into `scheme_names`
     /// (`u8::MAX` where no derivative was taken).
     pub scheme_map: Array2<u8>,
+    /// Names of the schemes `scheme_map` indexes (`least-squares`,
+    /// `central`, …).
     pub scheme_names: Vec<&'static str>,
     /// Nodes per scheme, in the order of `scheme_names`.
     pub scheme_counts: Vec<usize>,
@@ -239,6 +251,8 @@ pub struct Derived {
 }
 
 impl Derived {
+    /// The quantity with column stem `name` (`"omega"`, `"div"`, …);
+    /// `None` when it was not made.
     pub fn get(&self, name: &str) -> Option<&Quantity> {
         self.quantities.iter().find(|q| q.name == name)
     }

@@ -7,17 +7,29 @@ use serde::Serialize;
 /// A free condition value: a number (goes into campaign.csv) or text.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub enum Extra {
+    /// A numeric value, written as a `campaign.csv` column of its key.
     Number(f64),
+    /// A text (or boolean, as text) value, shown in the report only.
     Text(String),
 }
 
 /// A run's resolved flow conditions (SI).
 #[derive(Debug, Clone, Default, PartialEq, Serialize)]
 pub struct Conditions {
+    /// Reference velocity U, m/s (`[run.conditions] velocity`); `None`:
+    /// not given.
     pub velocity: Option<f64>,
+    /// Reference length L, m (`[run.conditions] length`); `None`: not
+    /// given.
     pub length: Option<f64>,
+    /// Kinematic viscosity ν, m²/s (`[run.conditions] viscosity`);
+    /// `None`: not given.
     pub viscosity: Option<f64>,
+    /// The run's frequency f, Hz (`[run.conditions] frequency`); `None`:
+    /// not given.
     pub frequency: Option<f64>,
+    /// The free keys of `[run.conditions]` with their values, in file
+    /// order.
     pub extra: Vec<(String, Extra)>,
 }
 

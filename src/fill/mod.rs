@@ -69,12 +69,18 @@ use crate::stencil::lsq::PolyFit;
 #[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
 #[serde(rename_all = "kebab-case")]
 pub enum Method {
+    /// `"neighbour-mean"`: in rounds, the mean of a hole's neighbours with
+    /// values, the holes with the most neighbours first.
     NeighbourMean,
+    /// `"inpaint"`: penalized least squares in the DCT basis (Garcia
+    /// 2010) with the holes at weight 0, iterated.
     Inpaint,
 }
 
+/// The resolved `[fill]` section.
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct Params {
+    /// How holes are filled (`[fill] method`, default neighbour mean).
     pub method: Method,
     /// Holes further than this (Chebyshev, nodes) from a valid vector are
     /// masked; `None` fills every hole connected to data.
@@ -122,6 +128,8 @@ impl Params {
     }
 }
 
+/// What filling did to one frame (the `n_replaced`, `n_filled` and
+/// `n_unfilled` columns of `frames.csv`).
 #[derive(Debug, Clone, Copy, Default, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
 pub struct Counts {
     /// Rejected vectors that were replaced.

@@ -45,10 +45,14 @@ pub(crate) use write::{
 #[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
 #[serde(rename_all = "lowercase")]
 pub enum Format {
+    /// Comma-separated text with a header line (`csv`).
     Csv,
+    /// Tab-separated text with a header line (`tsv`).
     Tsv,
     /// Whitespace-separated, `#` comment lines.
     Text,
+    /// A parquet long table holding every frame of a run, told apart by
+    /// the integer `frame` column (`parquet`).
     Parquet,
     /// NetCDF-3 (classic or 64-bit offset), one frame per file or one per
     /// index of a time dimension.
@@ -75,12 +79,23 @@ impl Format {
 /// Header names of the columns in the input files.
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct ColumnMap {
+    /// The x coordinate's column (`columns.x`; for `netcdf` and `mat`, the
+    /// variable name).
     pub x: String,
+    /// The y coordinate's column (`columns.y`).
     pub y: String,
+    /// The x velocity's column (`columns.u`).
     pub u: String,
+    /// The y velocity's column (`columns.v`).
     pub v: String,
+    /// Per-vector standard uncertainty of u (`columns.sigma_u`); `None`:
+    /// the files have none.
     pub sigma_u: Option<String>,
+    /// Per-vector standard uncertainty of v (`columns.sigma_v`); `None`:
+    /// the files have none.
     pub sigma_v: Option<String>,
+    /// A column whose nonzero cells mark invalid vectors (`columns.flag`);
+    /// `None`: no flag column.
     pub flag: Option<String>,
     /// The integer frame column of a parquet long table.
     pub frame: String,
@@ -91,7 +106,9 @@ pub struct ColumnMap {
 /// Everything a reader needs, resolved to SI factors.
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct InputSpec {
+    /// How the frames are stored (`[input] format`).
     pub format: Format,
+    /// The names of the columns or variables to read (`[input] columns`).
     pub columns: ColumnMap,
     /// Metres per unit of x and y (1e-3 for mm, the pixel size for px).
     pub length_scale: f64,
@@ -109,6 +126,8 @@ pub struct InputSpec {
     /// `px`), `None` where it states none: a text header's units are then
     /// taken (`units`), else metres and metres per second are assumed.
     pub length_unit: Option<String>,
+    /// The velocity unit the pipeline states (`m/s`, `mm/s`, `px`), `None`
+    /// where it states none (as `length_unit`).
     pub velocity_unit: Option<String>,
     /// What the first frame's header settled where the pipeline states no
     /// unit (`units::settle`; the unit is then also in `length_unit` or
@@ -122,10 +141,20 @@ pub enum FrameSource {
     /// One file, one snapshot.
     File(PathBuf),
     /// One frame id of a parquet long table.
-    Parquet { path: PathBuf, frame: i64 },
+    Parquet {
+        /// The long table.
+        path: PathBuf,
+        /// The frame id, a value of its frame column.
+        frame: i64,
+    },
     /// One index (0-based) of the time dimension of a NetCDF-3 file
     /// (`nctime`).
-    Indexed { path: PathBuf, index: usize },
+    Indexed {
+        /// The NetCDF-3 file.
+        path: PathBuf,
+        /// Index along its time dimension, from 0.
+        index: usize,
+    },
 }
 
 /// Expands a run's `frames` pattern (a glob in natural sort order, or one

@@ -29,14 +29,21 @@
 /// One attribute value: text, or numbers (stored as doubles).
 #[derive(Debug, Clone, PartialEq)]
 pub enum Attr {
+    /// A text (`NC_CHAR`) attribute such as `units`.
     Text(String),
+    /// A numeric attribute of any type, converted to f64 (written as
+    /// `NC_DOUBLE`).
     Num(Vec<f64>),
 }
 
 /// A variable's values.
 #[derive(Debug, Clone, PartialEq)]
 pub enum Data {
+    /// Doubles (`NC_DOUBLE`); what the reader returns for every numeric
+    /// type.
     F64(Vec<f64>),
+    /// 32-bit integers (`NC_INT`), for writing integer columns such as
+    /// counts.
     I32(Vec<i32>),
 }
 
@@ -60,13 +67,19 @@ impl Data {
 /// first), attributes and values (row-major over the dimensions).
 #[derive(Debug, Clone, PartialEq)]
 pub struct Var {
+    /// The variable's name (an output column, or the name an input's
+    /// `columns` refers to).
     pub name: String,
+    /// Its dimensions as indices into `Dataset::dims`, slowest first.
     pub dims: Vec<usize>,
+    /// Its attributes (name, value), in file order.
     pub attrs: Vec<(String, Attr)>,
+    /// Its values, row-major over `dims`.
     pub data: Data,
 }
 
 impl Var {
+    /// The attribute called `name`; `None` when the variable has none.
     pub fn attr(&self, name: &str) -> Option<&Attr> {
         self.attrs.iter().find(|(n, _)| n == name).map(|(_, a)| a)
     }
@@ -83,9 +96,14 @@ impl Var {
 /// dimension, if any (its length in `dims` is the record count).
 #[derive(Debug, Clone, PartialEq, Default)]
 pub struct Dataset {
+    /// The dimensions (name, length), in file order.
     pub dims: Vec<(String, usize)>,
+    /// Index into `dims` of the record (unlimited) dimension; `None`: the
+    /// file has none.
     pub unlimited: Option<usize>,
+    /// The global attributes (name, value), in file order.
     pub attrs: Vec<(String, Attr)>,
+    /// The variables, in file order.
     pub vars: Vec<Var>,
 }
 
@@ -104,9 +122,12 @@ fn pad4(n: usize) -> usize {
 }
 
 impl Dataset {
+    /// The variable called `name`; `None` when there is none.
     pub fn var(&self, name: &str) -> Option<&Var> {
         self.vars.iter().find(|v| v.name == name)
     }
+    /// The index into `dims` of the dimension called `name`; `None` when
+    /// there is none.
     pub fn dim_index(&self, name: &str) -> Option<usize> {
         self.dims.iter().position(|(n, _)| n == name)
     }

@@ -209,7 +209,9 @@ fn clean_leftovers(final_path: &Path, name: &str, host: &str) -> Result<()> {
 /// module docs). Dropped without `commit`, the temporary folder is removed
 /// and the old one is untouched.
 pub struct OutputDir {
+    /// Where the folder appears on `commit` (`--out`).
     pub final_path: PathBuf,
+    /// The temporary sibling folder the outputs are written into.
     pub temp_path: PathBuf,
     old_path: PathBuf,
     done: bool,

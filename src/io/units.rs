@@ -30,8 +30,9 @@ use crate::error::{Error, Result};
 pub struct Stated {
     /// Canonical: `m`, `mm`, `px`; `m/s`, `mm/s`, `px`.
     pub unit: &'static str,
-    /// The column's name and the unit as written.
+    /// The column's name without its unit (`x` of `x [mm]`).
     pub column: String,
+    /// The unit as written in the header (`mm`, `m/s`, …), before canonicalisation.
     pub written: String,
     /// The line it was written on (the header or the units line).
     pub line: usize,
@@ -47,7 +48,11 @@ impl Stated {
 /// The units a header states for the mapped columns.
 #[derive(Debug, Clone, Default, PartialEq)]
 pub struct HeaderUnits {
+    /// The length unit of the x and y columns; `None`: the header states
+    /// none.
     pub length: Option<Stated>,
+    /// The velocity unit of the u and v columns; `None`: the header states
+    /// none.
     pub velocity: Option<Stated>,
 }
 
@@ -59,7 +64,9 @@ pub struct HeaderUnits {
 pub struct Settled {
     /// The first frame's file name.
     pub file: String,
+    /// The length unit the header stated; `None`: m assumed.
     pub length: Option<Stated>,
+    /// The velocity unit the header stated; `None`: m/s assumed.
     pub velocity: Option<Stated>,
 }
 

@@ -31,6 +31,7 @@ use crate::error::{Error, Result};
 /// The POD of one run.
 #[derive(Debug, Clone)]
 pub struct Pod {
+    /// Frames the POD was built from (the run's used frames).
     pub n_frames: usize,
     /// Nodes of the grid (each mode has u then v of every node: 2 × nodes).
     pub nodes: usize,
@@ -50,7 +51,11 @@ pub struct Pod {
     pub modes: Vec<Vec<f64>>,
     /// Per frame (in frame order): index, time, and a_j for every mode.
     pub frame_index: Vec<u64>,
+    /// Per frame: its time, s (`None`: the frame table gives none).
     pub frame_time: Vec<Option<f64>>,
+    /// Per frame: the coefficient a_j of every mode, m/s (the projection
+    /// of the frame's fluctuation on the unit-norm mode;
+    /// `pod-coefficients.csv`).
     pub coefficients: Vec<Vec<f64>>,
     /// The POD's own mean (u of every node then v).
     pub mean: Vec<f64>,

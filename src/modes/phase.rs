@@ -27,9 +27,12 @@ use crate::io::{self, Table, Values};
 /// The phase of every frame and the checks of the pair.
 #[derive(Debug, Clone)]
 pub struct PhaseEstimate {
+    /// Per frame (in frame order): the phase read from a1 and a2, degrees
+    /// in [0, 360) (`phase_deg` of `phase-from-modes.csv`).
     pub phase_deg: Vec<f64>,
     /// Normalised ring radius of every frame (1 on the ideal ring).
     pub radius: Vec<f64>,
+    /// λ2/λ1; a pair needs at least 0.5.
     pub energy_ratio: f64,
     /// Coefficient of variation of the radius.
     pub radius_cv: f64,

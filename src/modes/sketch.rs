@@ -55,10 +55,14 @@ pub struct FrameSketch {
 /// The mergeable sketch of one run (or one chunk or shard of it).
 #[derive(Debug, Clone)]
 pub struct ModeSketch {
+    /// The `[modes]` parameters it was built with (modes, oversampling and
+    /// seed set k and Ψ; chunks of one run share them).
     pub params: Params,
+    /// Grid nodes; the sketched vectors have d = 2 × nodes values.
     pub nodes: usize,
     /// Sketch width k and co-range width l.
     pub k: usize,
+    /// Co-range width l = 2k + 1.
     pub l: usize,
     /// Valid frames per node.
     pub count: Vec<u64>,
@@ -72,6 +76,7 @@ pub struct ModeSketch {
     pub y: Vec<f64>,
     /// Σ ω_f over the frames where the node is valid (nodes × k).
     pub w: Vec<f64>,
+    /// One record per frame pushed, in frame order.
     pub frames: Vec<FrameSketch>,
     /// Ψ (l × d, row-major), generated from the seed, shared by chunks.
     pub psi: Arc<Vec<f64>>,

@@ -11,8 +11,9 @@ use crate::io::{ColumnMap, Format, InputSpec, Orientation};
 #[derive(Debug, Clone, Default, Deserialize, Serialize, PartialEq)]
 #[serde(deny_unknown_fields)]
 pub struct RawInput {
-    /// csv | tsv | text | parquet (default csv).
+    /// csv | tsv | text | parquet | netcdf | mat (default csv).
     pub format: Option<String>,
+    /// `columns = { x, y, u, v, … }`: the names to read (defaults below).
     pub columns: Option<RawColumns>,
     /// m | mm | px (default m).
     pub length_unit: Option<String>,
@@ -34,16 +35,26 @@ pub struct RawInput {
     pub v_axis: Option<String>,
 }
 
+/// `[input] columns` as written: the header names (for `netcdf` and
+/// `mat`, the variable names) of the columns to read; `None`: the default.
 #[derive(Debug, Clone, Default, Deserialize, Serialize, PartialEq)]
 #[serde(deny_unknown_fields)]
 pub struct RawColumns {
+    /// The x coordinate (default `x`).
     pub x: Option<String>,
+    /// The y coordinate (default `y`).
     pub y: Option<String>,
+    /// The x velocity (default `u`).
     pub u: Option<String>,
+    /// The y velocity (default `v`).
     pub v: Option<String>,
+    /// Per-vector standard uncertainty of u (default: none).
     pub sigma_u: Option<String>,
+    /// Per-vector standard uncertainty of v (default: none).
     pub sigma_v: Option<String>,
+    /// Nonzero marks an invalid vector (default: none).
     pub flag: Option<String>,
+    /// The integer frame id of a parquet long table (default `frame`).
     pub frame: Option<String>,
     /// Nonzero marks a masked node ("no flow here").
     pub mask: Option<String>,

@@ -52,6 +52,7 @@ pub(crate) const CHUNK: usize = 16;
 pub struct Shard {
     /// 1-based shard number.
     pub index: usize,
+    /// Number of shards N the run's frames are split into.
     pub count: usize,
 }
 

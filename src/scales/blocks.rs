@@ -37,6 +37,7 @@ use crate::field::Grid;
 pub struct LineBlocks {
     /// Frames of the whole run (the blocks' boundaries follow it).
     pub total: u64,
+    /// Number of blocks the run's frames are split into.
     pub blocks: usize,
     /// Per probe: the nodes of its row (x) then of its column (y).
     pub targets: Vec<Vec<usize>>,

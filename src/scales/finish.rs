@@ -42,10 +42,13 @@ pub struct AxisScale {
     pub reached_zero: bool,
     /// ρ extrapolated to zero separation.
     pub rho0: f64,
-    /// Standard uncertainties of `length`, `length_noise_removed` and
-    /// `rho0` by batch means (`blocks`); NaN without blocks.
+    /// Standard uncertainty of `length` by batch means (`blocks`), m;
+    /// NaN without blocks (runs of fewer than 40 frames).
     pub length_unc: f64,
+    /// Standard uncertainty of `length_noise_removed` by batch means, m;
+    /// NaN without blocks.
     pub length_noise_removed_unc: f64,
+    /// Standard uncertainty of `rho0` by batch means; NaN without blocks.
     pub rho0_unc: f64,
     /// Signed separation (m) and ρ along the axis through the probe.
     pub profile: Vec<(f64, f64)>,
@@ -56,7 +59,11 @@ pub struct AxisScale {
 pub struct CompScale {
     /// Variance at the probe node (m²/s², n − 1).
     pub variance: f64,
+    /// Along x through the probe (`length_x`, `rho0_x`, … of
+    /// `scales.csv`).
     pub x: AxisScale,
+    /// Along y through the probe (`length_y`, `rho0_y`, … of
+    /// `scales.csv`).
     pub y: AxisScale,
     /// σ² (1 − ρ_0), ρ_0 the mean of the x and y estimates (m²/s²).
     pub noise_var_spike: f64,
@@ -67,7 +74,11 @@ pub struct CompScale {
 /// The scales of one probe.
 #[derive(Debug, Clone, PartialEq)]
 pub struct ProbeScale {
+    /// The point asked for in `[statistics] probes`, m (`probe_x`,
+    /// `probe_y`).
     pub point: (f64, f64),
+    /// The grid node nearest it (row-major index, x fastest), whose
+    /// coordinates are the `x`, `y` columns.
     pub node: usize,
     /// Frames in which the probe node counted.
     pub n: f64,
@@ -82,7 +93,9 @@ pub struct ProbeScale {
 /// The finished two-point statistics of a run.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Scales {
+    /// The run's grid (m).
     pub grid: Grid,
+    /// One entry per probe, in the order of `[statistics] probes`.
     pub probes: Vec<ProbeScale>,
 }
 

@@ -53,16 +53,21 @@ const PARTS: usize = 5;
 /// The shape of an accumulator: what must agree for two to merge.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct Layout {
+    /// The grid the co-moments are kept on (m).
     pub grid: Grid,
     /// The probe points asked for (m) and the node traced for each.
     pub points: Vec<(f64, f64)>,
+    /// The node (row-major index) traced for each probe.
     pub nodes: Vec<usize>,
+    /// Filled vectors count as samples (`[statistics] include_filled`).
     pub include_filled: bool,
 }
 
 /// The mergeable two-point co-moments of one run (or chunk, or shard).
 #[derive(Debug, Clone, PartialEq)]
 pub struct CorrAcc {
+    /// Grid, probes and sample rule; two accumulators merge only when
+    /// theirs agree.
     pub layout: Layout,
     /// Frames pushed.
     pub frames: u64,
@@ -73,6 +78,7 @@ pub struct CorrAcc {
     /// Per probe and component: Σ of the squared propagated standard
     /// uncertainty at the probe node, and the number of terms.
     pub unc2: Vec<f64>,
+    /// The number of terms in each `unc2` sum.
     pub unc_n: Vec<f64>,
     /// The co-moments along each probe's row and column in blocks of the
     /// run's frames, for the scales' uncertainty (`blocks`); `None` for a

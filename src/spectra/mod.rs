@@ -36,12 +36,20 @@ use crate::error::{Error, Result};
 /// A one-sided PSD with its confidence interval.
 #[derive(Debug, Clone)]
 pub struct Psd {
+    /// Frequencies, 0 to fs/2 in steps of `df`, Hz (`freq_hz` of
+    /// `spectra.csv`).
     pub freq: Vec<f64>,
+    /// One-sided power spectral density, (unit of the series)²/Hz (`psd`).
     pub psd: Vec<f64>,
+    /// Lower end of the chi-squared interval at the requested coverage,
+    /// same unit (`psd_lower`).
     pub lower: Vec<f64>,
+    /// Upper end of that interval (`psd_upper`).
     pub upper: Vec<f64>,
     /// Segments averaged and the equivalent degrees of freedom.
     pub segments: usize,
+    /// Equivalent degrees of freedom of the chi-squared interval (`dof`
+    /// of `spectral-peaks.csv`).
     pub dof: f64,
     /// Frequency resolution fs / nperseg (Hz).
     pub df: f64,

@@ -511,10 +511,14 @@ fn offer(m: &mut Moments, field: &Field, d: &Derived, counts: &[bool]) {
 /// One phase bin's table.
 #[derive(Debug, Clone)]
 pub struct PhaseBin {
+    /// Bin number from 0 (`phase_bin` of `phase.csv`).
     pub bin: usize,
     /// Bin centre in degrees.
     pub centre_deg: f64,
+    /// Frames in the bin (`n_frames`).
     pub n_frames: usize,
+    /// The bin's node table: every `ensemble` column, then `u_coherent`,
+    /// `v_coherent`, `omega_coherent`.
     pub table: NodeTable,
 }
 
@@ -532,6 +536,8 @@ pub struct RunStats {
     pub n_eff: Option<f64>,
     /// Scalar results for campaign.csv, name and value in SI.
     pub summary: Vec<(String, f64)>,
+    /// What the statistics could not do as asked, for the manifest and the
+    /// report.
     pub warnings: Vec<String>,
 }
 

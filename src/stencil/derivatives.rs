@@ -41,14 +41,21 @@ use super::{Stencil, Tap};
 #[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
 #[serde(tag = "name", rename_all = "kebab-case")]
 pub enum DiffScheme {
+    /// `central`: (f1 − f−1)/(2h), truncation h² f‴/6, noise factor 0.707.
     Central,
+    /// `richardson`: (f−2 − 8f−1 + 8f1 − f2)/(12h), fourth order, noise
+    /// factor 0.950.
     Richardson,
     /// Local least-squares polynomial (Savitzky-Golay) of `order` over
     /// `window` nodes; window 5, order 1 is the 4-point stencil.
     LeastSquares {
+        /// Nodes in the fit, odd (`[derivatives] window`, default 5).
         window: usize,
+        /// Polynomial order (`[derivatives] order`, default 1).
         order: u32,
     },
+    /// `circulation`: ω = Γ/(4h²) around the 3 × 3 box (trapezoidal
+    /// rule), vorticity noise factor 0.612.
     Circulation,
 }
 

@@ -23,14 +23,20 @@ use ndarray::Array2;
 /// One weight at offset `(dj, di)` (rows are y, columns are x).
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Tap {
+    /// Row offset (along y), in nodes.
     pub dj: i32,
+    /// Column offset (along x), in nodes.
     pub di: i32,
+    /// The weight; a derivative stencil's carries the 1/h of the pitch
+    /// (1/m), a smoother's is dimensionless.
     pub w: f64,
 }
 
 /// A linear stencil.
 #[derive(Debug, Clone, PartialEq, Default)]
 pub struct Stencil {
+    /// The weights; as the crate builds them, one per offset, sorted by
+    /// (dj, di), no zeros.
     pub taps: Vec<Tap>,
 }
 

@@ -38,17 +38,31 @@ pub enum Smoother {
     /// DCT penalized least squares (Garcia 2010): `s` fixed, or chosen by
     /// GCV per frame and component when `None`; `robust` adds bisquare
     /// weights against outliers.
-    Pls { s: Option<f64>, robust: bool },
+    Pls {
+        /// The smoothing parameter (`[smoothing] s`); `None`: chosen by
+        /// GCV.
+        s: Option<f64>,
+        /// Bisquare weights against outliers (`[smoothing] robust`).
+        robust: bool,
+    },
 }
 
 /// The kernel a linear smoother was built from.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub enum Kernel {
     /// Gaussian of standard deviation `sigma`, in grid pitches.
-    Gaussian { sigma: f64 },
+    Gaussian {
+        /// `[smoothing] sigma`, grid pitches.
+        sigma: f64,
+    },
     /// 2-D Savitzky-Golay: a polynomial of total degree `order` fitted over
     /// (2 `half_width` + 1)² nodes.
-    SavitzkyGolay { half_width: usize, order: usize },
+    SavitzkyGolay {
+        /// `[smoothing] half_width`, nodes.
+        half_width: usize,
+        /// `[smoothing] order`, the total degree.
+        order: usize,
+    },
     /// Any other linear stencil (built in code, not from a pipeline).
     Custom,
 }

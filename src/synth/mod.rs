@@ -113,6 +113,8 @@ pub(crate) fn frame_name(k: usize, frames: usize) -> String {
 /// happened at each node.
 #[derive(Debug, Clone)]
 pub struct SynthFrame {
+    /// Index (0-based), name (`f00001`, …), time (s) and phase (degrees,
+    /// `None` for non-periodic scenarios) of the frame.
     pub meta: FrameMeta,
     /// Noise-free; status VALID, MASKED inside a body.
     pub truth: Field,
@@ -183,15 +185,26 @@ pub(crate) fn make_frame(
 /// What `generate` wrote, per run.
 #[derive(Debug, Clone, serde::Serialize)]
 pub struct RunSummary {
+    /// Run id and folder name: `u` and the speed in cm/s (`u015`).
     pub id: String,
+    /// The run's velocity scale, m/s: the free stream, or the peak speed.
     pub speed: f64,
+    /// Frames written.
     pub frames: usize,
+    /// The run's grid (SI, m).
     pub grid: Grid,
+    /// Time between the two exposures, s (the pipeline's
+    /// `pulse_separation`).
     pub pulse_separation: f64,
+    /// Standard deviation of the noise of each velocity component, m/s.
     pub noise_sigma: f64,
+    /// Outlier vectors written, summed over all frames.
     pub n_outliers: usize,
+    /// Node rows left out of the frame files, summed over all frames.
     pub n_missing: usize,
+    /// Rows with empty `u` and `v` cells, summed over all frames.
     pub n_empty: usize,
+    /// Rows with a nonzero `flag`, summed over all frames.
     pub n_flagged: usize,
     /// Nodes inside a body, per frame.
     pub n_body: usize,
@@ -202,8 +215,11 @@ pub struct RunSummary {
 /// What `generate` wrote.
 #[derive(Debug, Clone, serde::Serialize)]
 pub struct SynthSummary {
+    /// The campaign folder (`--out`).
     pub out: PathBuf,
+    /// The pipeline file written into it, `<out>/pipeline.toml`.
     pub pipeline: PathBuf,
+    /// One entry per run, in the order of `speeds`.
     pub runs: Vec<RunSummary>,
 }
 

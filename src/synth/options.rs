@@ -11,10 +11,19 @@ use crate::error::{Error, Result};
 #[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
 #[serde(rename_all = "kebab-case")]
 pub enum Scenario {
+    /// `wake`: a convecting double row of Lamb–Oseen vortices behind a
+    /// cylinder, shed at `strouhal` (periodic: frames carry a phase).
     Wake,
+    /// `vortex`: a steady Lamb–Oseen vortex (optionally pulsing or in a
+    /// stream: `pulse`, `stream`).
     Vortex,
+    /// `solid-body`: rigid rotation, vorticity uniform.
     SolidBody,
+    /// `cylinder`: potential flow past a cylinder (zero vorticity and
+    /// divergence outside the body, which is masked).
     Cylinder,
+    /// `taylor-green`: the Taylor–Green vortex array, one wavelength across
+    /// the domain height, decaying viscously.
     TaylorGreen,
     /// A uniform stream (no gradients at all): the speed at 20 degrees to x.
     Uniform,
@@ -36,6 +45,8 @@ impl Scenario {
         "burgers",
     ];
 
+    /// The scenario's command-line name (`curlew synth SCENARIO`), e.g.
+    /// `"solid-body"`.
     pub fn name(self) -> &'static str {
         match self {
             Scenario::Wake => "wake",
@@ -80,7 +91,9 @@ impl FromStr for Scenario {
 /// Units of the written coordinates.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
 pub enum LengthUnit {
+    /// Metres (`m`).
     M,
+    /// Millimetres (`mm`, the `curlew synth` default).
     Mm,
     /// Pixels of `pixel_size`, about the same origin as the SI coordinates
     /// (so px and mm campaigns of one seed give the same SI grid).
@@ -90,8 +103,12 @@ pub enum LengthUnit {
 /// Units of the written velocities (`Px`: displacement between exposures).
 #[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
 pub enum VelocityUnit {
+    /// Metres per second (`m/s`, the default).
     MPerS,
+    /// Millimetres per second (`mm/s`).
     MmPerS,
+    /// Pixels of displacement between the two exposures (`px`); the
+    /// pipeline then gets `pixel_size` and `pulse_separation`.
     Px,
 }
 
@@ -156,13 +173,21 @@ pub enum OutFormat {
 /// Everything `generate` needs. `Default` is the demo's wake at two speeds.
 #[derive(Debug, Clone, serde::Serialize)]
 pub struct SynthOptions {
+    /// The flow to synthesise (`curlew synth SCENARIO`).
     pub scenario: Scenario,
     /// Frames per run.
     pub frames: usize,
+    /// Seed of every random draw (`--seed`); the same seed gives
+    /// identical files.
     pub seed: u64,
-    /// Grid size and pitch (m); `None`: the scenario's default.
+    /// Nodes along x (`--nx`); `None`: the scenario's default (40 for
+    /// `wake`, 48 otherwise).
     pub nx: Option<usize>,
+    /// Nodes along y (`--ny`); `None`: the scenario's default (25 for
+    /// `wake`, 36 otherwise).
     pub ny: Option<usize>,
+    /// Grid pitch, m (`--pitch-mm` on the command line, in mm); `None`:
+    /// 2 mm for `wake`, 1 mm otherwise.
     pub pitch: Option<f64>,
     /// One run per speed (m/s): the free stream, or the scenario's velocity scale.
     pub speeds: Vec<f64>,
@@ -219,11 +244,16 @@ pub struct SynthOptions {
     /// instead of leaving them out; the pipeline then masks by that column
     /// rather than by a circle (csv only).
     pub mask_column: bool,
+    /// Unit of the written coordinates (`--length-unit`; the pipeline's
+    /// `length_unit`).
     pub length_unit: LengthUnit,
+    /// Unit of the written velocities (`--velocity-unit`; the pipeline's
+    /// `velocity_unit`).
     pub velocity_unit: VelocityUnit,
     /// Write image-oriented frames: y and v grow downwards (the files hold
     /// minus the flow's y and v; the pipeline says `y_axis = "down"`).
     pub y_down: bool,
+    /// How frames are stored (`--format`; the pipeline's `format`).
     pub format: OutFormat,
     /// Significant digits of printed values, relative to each column's scale;
     /// 16 or more: shortest exact representation.
@@ -234,6 +264,8 @@ pub struct SynthOptions {
     pub truth_frames: bool,
     /// Phase bins of the pipeline and of `truth/phase.csv`.
     pub phase_bins: usize,
+    /// Campaign name written as the pipeline's `[campaign] name`
+    /// (`--campaign`; default `synth-<scenario>`).
     pub campaign: String,
     /// Replace an existing output folder (only once the new one is complete).
     /// Not recorded in the truth, so that a forced regeneration writes the

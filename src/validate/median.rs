@@ -66,6 +66,8 @@ pub struct MedianParams {
     pub threshold: f64,
     /// Neighbourhood radius in nodes: 1 (3x3) or 2 (5x5).
     pub radius: usize,
+    /// How the u and v residuals combine (`median.combine`, default
+    /// `"either"`).
     pub combine: Combine,
     /// Fewest valid neighbours for the node to be tested (default 3 for
     /// radius 1, 8 for radius 2).

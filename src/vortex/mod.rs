@@ -145,14 +145,19 @@ impl Params {
 /// What a slice is: the run's mean, a phase bin or a frame.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub enum SliceKind {
+    /// The run's mean field (`slice_kind` `mean`, `slice` -1 in
+    /// `vortices.csv`).
     Mean,
     /// Phase bin `bin` centred on `phase_deg`.
     Bin {
+        /// Bin number from 0 (the `slice` column).
         bin: usize,
+        /// The bin's centre, degrees (the `phase_deg` column).
         phase_deg: f64,
     },
     /// Frame `index` (run-wide, 0-based).
     Frame {
+        /// Run-wide frame index from 0 (the `slice` column).
         index: u64,
     },
 }
@@ -163,30 +168,42 @@ pub enum SliceKind {
 /// `v` (NaN: unknown; the swirl criterion then finds nothing).
 #[derive(Debug, Clone, Copy)]
 pub struct Slice<'a> {
+    /// Which field this is: the mean, a phase bin or a frame.
     pub kind: SliceKind,
     /// Time of the slice in s: `phase / (2 pi f)` for a bin, the frame's
     /// time for a frame, NaN when unknown (and for the mean).
     pub time_s: f64,
+    /// The grid the arrays lie on (m).
     pub grid: Grid,
+    /// Velocity along x, m/s.
     pub u: &'a [f64],
+    /// Velocity along y, m/s.
     pub v: &'a [f64],
+    /// Vorticity, 1/s.
     pub omega: &'a [f64],
+    /// Standard uncertainty of `omega`, 1/s.
     pub omega_unc: &'a [f64],
+    /// Standard uncertainty of `u`, m/s.
     pub u_unc: &'a [f64],
+    /// Standard uncertainty of `v`, m/s.
     pub v_unc: &'a [f64],
 }
 
 /// The cores of one slice.
 #[derive(Debug, Clone)]
 pub struct SliceCores {
+    /// The slice the cores were found in.
     pub kind: SliceKind,
+    /// The slice's time, s (NaN when unknown, and for the mean).
     pub time_s: f64,
+    /// The cores, in the order of their `core` index in `vortices.csv`.
     pub cores: Vec<Core>,
 }
 
 /// Everything the vortex analysis found in a run.
 #[derive(Debug, Clone)]
 pub struct Vortices {
+    /// The run's grid (m).
     pub grid: Grid,
     /// The mean field's cores first, then one entry per phase bin (or
     /// frame), in order.
@@ -195,10 +212,13 @@ pub struct Vortices {
     pub tracks: Vec<Track>,
     /// Per-core circulation budget, when the run has a budget.
     pub budget: Vec<budget::CoreBudget>,
+    /// The `[vortices]` parameters the analysis ran with.
     pub params: Params,
     /// The error-correlation model the circulation's uncertainty used,
     /// in words.
     pub correlation: String,
+    /// Why parts were skipped (no mean columns, no frequency, untracked
+    /// frames), for the manifest and the report.
     pub warnings: Vec<String>,
 }
 

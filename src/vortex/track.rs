@@ -44,15 +44,22 @@ pub struct TrackPoint {
 /// A fitted line's slope with its standard uncertainty.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Slope {
+    /// The slope, in the unit of the fitted quantity per second.
     pub value: f64,
+    /// Its standard uncertainty (Birge-scaled when the scatter exceeds the
+    /// weights), same unit.
     pub unc: f64,
 }
 
 /// One tracked vortex.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Track {
+    /// Track number from 0 (the `track` column of `tracks.csv` and
+    /// `vortices.csv`).
     pub id: usize,
+    /// Sign of the cores' vorticity: +1 anticlockwise, -1 clockwise.
     pub sign: i8,
+    /// The matched cores, in slice order (the `point` rows).
     pub points: Vec<TrackPoint>,
     /// dx/dt, dy/dt of the centroid (m/s).
     pub velocity: Option<[Slope; 2]>,
