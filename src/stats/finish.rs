@@ -327,7 +327,9 @@ pub(super) fn finish(acc: &RunAccumulator, p: &Params) -> RunStats {
 
 /// The node of largest |ω̄| among the well-determined nodes, and its value.
 /// Well determined: the random part of u(ω̄), to first order
-/// `omega_inst_unc / sqrt(n_valid)`, at most 3 × its median over the field,
+/// `sqrt(omega_inst_unc² − omega_bias_inst²) / sqrt(n_valid)` (the random
+/// part of one frame's uncertainty over the root of the samples), at most
+/// 3 × its median over the field,
 /// which keeps a poorly sampled or one-sided-stencil edge or corner node
 /// from posing as the peak. The random part, not the whole of u(ω̄): a
 /// vortex core's truncation error, which belongs in u(ω̄), must not
@@ -340,7 +342,18 @@ pub(super) fn finish(acc: &RunAccumulator, p: &Params) -> RunStats {
 pub(crate) fn peak_node(t: &NodeTable) -> Option<(usize, f64)> {
     let w = t.get("omega_mean")?;
     let random: Option<Vec<f64>> = match (t.get("omega_inst_unc"), t.get("n_valid")) {
-        (Some(u), Some(n)) => Some(u.iter().zip(n).map(|(u, n)| u / n.sqrt()).collect()),
+        (Some(u), Some(n)) => {
+            // omega_inst_unc less its systematic part, where one is given
+            let b = t.get("omega_bias_inst");
+            Some(
+                (0..u.len())
+                    .map(|k| {
+                        let bk = b.map_or(0.0, |b| if b[k].is_finite() { b[k] } else { 0.0 });
+                        crate::derive::quantities::clip0(u[k] * u[k] - bk * bk).sqrt() / n[k].sqrt()
+                    })
+                    .collect(),
+            )
+        }
         _ => t.get("omega_mean_unc").map(|u| u.to_vec()),
     };
     let lim = random

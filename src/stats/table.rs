@@ -39,8 +39,8 @@
 //!   nu = infinity.
 //! - Appended at the end (after the per-quantity blocks):
 //!   `u_std_denoised, v_std_denoised, omega_std_denoised, k_denoised`
-//!   (`denoised`), `k_coherent_unc` (`phase`), `omega_bias_inst` (the RMS of
-//!   the per-frame debiased truncation, what `omega_bias` was before), then
+//!   (`denoised`), `k_coherent_unc` (`phase`), `omega_bias_inst` (the
+//!   debiased RMS truncation of one frame, pooled: `systematic_inst`), then
 //!   per other quantity `q_std_denoised, q_bias_inst, q_noise_shift` (the
 //!   mean analytic noise shift removed from `q_mean`; NaN: none known).
 //! - `*_std_unc`: `gum::std_unc_flat` (measured flatness) with the scale systematic of
@@ -48,8 +48,11 @@
 //!   with twice the velocity's relative scale uncertainty.
 //! - `*_mean_unc_pNN`: expanded uncertainty at coverage NN %, k from
 //!   Student t at the Welch-Satterthwaite nu_eff.
-//! - `*_inst_unc`: RMS over the counted samples of the per-frame standard
-//!   uncertainty (docs/interface.md `omega_inst_unc`); `*_bias`: RMS truncation bias.
+//! - `*_inst_unc`: the standard uncertainty of one instantaneous value: the
+//!   RMS over the counted samples of the per-frame propagated (random)
+//!   uncertainty combined in quadrature with `*_bias_inst`, its systematic
+//!   part (as `*_mean_unc` holds `*_bias`); the `*_std_denoised` columns
+//!   remove the random part only. `*_bias`: the systematic part of the mean.
 //! - N_eff: per node and series (u, v, omega) for time-resolved runs (see
 //!   `lags`); the other derived quantities use omega's, `uv_cov` the smaller
 //!   of u's and v's. Otherwise, and always inside phase bins (one frame per
@@ -123,10 +126,13 @@ struct Stat {
     std: f64,
     skew: f64,
     flat: f64,
+    /// RMS over the frames of the propagated random uncertainty.
     inst: f64,
+    /// `inst` combined with `bias_inst` (the `*_inst_unc` columns).
+    inst_total: f64,
     /// Systematic (truncation) part of the uncertainty of the mean.
     bias: f64,
-    /// RMS of the per-frame debiased truncation estimates.
+    /// Systematic part of one instantaneous value (`systematic_inst`).
     bias_inst: f64,
     /// Mean expected noise shift removed from `mean` (NaN: none known, and
     /// nothing removed).
@@ -211,11 +217,49 @@ fn systematic(s: &Scalar, ratio: &[f64], grid: &Grid) -> Vec<f64> {
     let d: Vec<f64> = (0..s.n.len())
         .map(|k| systematic_sq(s, k, ratio[k]))
         .collect();
+    pooled(&d, &s.n, grid)
+}
+
+/// The debiased mean square of the per-frame truncation at node `k`, not
+/// clipped: `mean(b_f^2) - mean(v_b) = b_mean^2 + m2_b / N_b - sum(v_b) / N_b`
+/// with each frame's model noise variance `v_b` of its estimate (the
+/// scatter cannot stand in here: a truncation that changes from frame to
+/// frame is part of what one frame's value carries). A version-1 partial
+/// state: the mean square of the per-frame debiased estimates. NaN where no
+/// estimate was made.
+fn systematic_inst_sq(s: &Scalar, k: usize) -> f64 {
+    let nb = s.tb_n[k];
+    if nb >= 1.0 {
+        let m = s.tb_mean[k];
+        m * m + (s.tb_m2[k] - s.tb_var[k]) / nb
+    } else if s.bias_n[k] > 0.0 {
+        s.bias2[k] / s.bias_n[k]
+    } else {
+        f64::NAN
+    }
+}
+
+/// The systematic part of one instantaneous value at every node: the RMS
+/// truncation over the frames (`systematic_inst_sq`), pooled over the
+/// 3 x 3 box like that of the mean (`systematic`, same reasons). It
+/// replaces the RMS of per-frame debiased estimates, whose clipping at zero
+/// left a floor of about 0.48 times the estimator's noise variance where the
+/// flow has no truncation (issue 11): `omega_bias_inst`, and combined with
+/// the random part into `omega_inst_unc`.
+fn systematic_inst(s: &Scalar, grid: &Grid) -> Vec<f64> {
+    let d: Vec<f64> = (0..s.n.len()).map(|k| systematic_inst_sq(s, k)).collect();
+    pooled(&d, &s.n, grid)
+}
+
+/// `sqrt(max(0, d_k, box mean of d))` at every node with samples (`n` > 0),
+/// the box mean alone where `d_k` is unknown, NaN where the box has no
+/// estimate (`systematic`).
+fn pooled(d: &[f64], n: &[f64], grid: &Grid) -> Vec<f64> {
     let half = POOL_HALF;
     let (nx, ny) = (grid.nx, grid.ny);
     (0..d.len())
         .map(|k| {
-            if s.n[k] <= 0.0 {
+            if n[k] <= 0.0 {
                 return f64::NAN; // no value at the node: nothing to qualify
             }
             let (j, i) = (k / nx, k % nx);
@@ -238,7 +282,7 @@ fn systematic(s: &Scalar, ratio: &[f64], grid: &Grid) -> Vec<f64> {
         .collect()
 }
 
-fn stat(s: &Scalar, k: usize, bias: f64) -> Stat {
+fn stat(s: &Scalar, k: usize, bias: f64, bias_inst: f64) -> Stat {
     let n = s.n[k];
     let nan = f64::NAN;
     // The analytic noise shift, removed from the mean (quantities module);
@@ -273,8 +317,16 @@ fn stat(s: &Scalar, k: usize, bias: f64) -> Stat {
         skew,
         flat,
         inst: rms(s.unc2[k], s.unc_n[k]),
+        inst_total: {
+            let r = rms(s.unc2[k], s.unc_n[k]);
+            if bias_inst.is_finite() {
+                r.hypot(bias_inst)
+            } else {
+                r
+            }
+        },
         bias,
-        bias_inst: rms(s.bias2[k], s.bias_n[k]),
+        bias_inst,
         shift,
     }
 }
@@ -305,10 +357,11 @@ fn full(
         .map(|k| if s.n[k] > 0.0 { neff[k] / s.n[k] } else { 1.0 })
         .collect();
     let bias = systematic(s, &ratio, grid);
+    let bias_inst = systematic_inst(s, grid);
     (0..s.n.len())
         .map(|k| {
             let ne = neff[k];
-            let st = stat(s, k, bias[k]);
+            let st = stat(s, k, bias[k], bias_inst[k]);
             let (mut mean_unc, mut mean_exp) = (f64::NAN, f64::NAN);
             if st.n >= 2.0 {
                 let strat = strata.filter(|t| t.std[k].is_finite());
@@ -432,7 +485,7 @@ pub(super) fn node_table(
     t.push("u_mean_unc", col(&fu, &|f| f.mean_unc));
     t.push("v_mean_unc", col(&fv, &|f| f.mean_unc));
     t.push("omega_mean_unc", col(&fw, &|f| f.mean_unc));
-    t.push("omega_inst_unc", col(&fw, &|f| f.st.inst));
+    t.push("omega_inst_unc", col(&fw, &|f| f.st.inst_total));
     // Our own.
     t.push("n_samples", m.u.n.clone());
     t.push("u_std_unc", col(&fu, &|f| f.std_unc));
@@ -442,8 +495,8 @@ pub(super) fn node_table(
     t.push(format!("u_mean_unc_{sfx}"), col(&fu, &|f| f.mean_exp));
     t.push(format!("v_mean_unc_{sfx}"), col(&fv, &|f| f.mean_exp));
     t.push(format!("omega_mean_unc_{sfx}"), col(&fw, &|f| f.mean_exp));
-    t.push("u_inst_unc", col(&fu, &|f| f.st.inst));
-    t.push("v_inst_unc", col(&fv, &|f| f.st.inst));
+    t.push("u_inst_unc", col(&fu, &|f| f.st.inst_total));
+    t.push("v_inst_unc", col(&fv, &|f| f.st.inst_total));
     t.push("omega_bias", col(&fw, &|f| f.st.bias));
     t.push("k", kk);
     let [k_coh, k_sto, k_coh_unc] = k_parts;
@@ -478,7 +531,7 @@ pub(super) fn node_table(
         t.push(format!("{name}_mean_unc"), col(fq, &|f| f.mean_unc));
         t.push(format!("{name}_std_unc"), col(fq, &|f| f.std_unc));
         t.push(format!("{name}_mean_unc_{sfx}"), col(fq, &|f| f.mean_exp));
-        t.push(format!("{name}_inst_unc"), col(fq, &|f| f.st.inst));
+        t.push(format!("{name}_inst_unc"), col(fq, &|f| f.st.inst_total));
         t.push(format!("{name}_bias"), col(fq, &|f| f.st.bias));
     }
     // Appended after every earlier column (format of 2026-12): the

@@ -120,13 +120,19 @@ fn report_and_campaign_numbers_equal_the_tables_they_come_from() {
     assert_all_close(&[c("noise_estimate")], &[mean_noise], 0.0, 1e-12, "noise");
 
     // The peak: largest |omega_mean| among nodes whose random part of
-    // u(omega_mean), omega_inst_unc / sqrt(n_valid), is at most 3 x its median.
+    // u(omega_mean), sqrt(omega_inst_unc^2 - omega_bias_inst^2) / sqrt(n_valid),
+    // is at most 3 x its median.
     let (om, omu) = (ens.col("omega_mean"), ens.col("omega_mean_unc"));
-    let random: Vec<f64> = ens
-        .col("omega_inst_unc")
-        .iter()
-        .zip(ens.col("n_valid"))
-        .map(|(u, n)| u / n.sqrt())
+    let (inst, bi, nv) = (
+        ens.col("omega_inst_unc"),
+        ens.col("omega_bias_inst"),
+        ens.col("n_valid"),
+    );
+    let random: Vec<f64> = (0..inst.len())
+        .map(|k| {
+            let b = if bi[k].is_finite() { bi[k] } else { 0.0 };
+            (inst[k] * inst[k] - b * b).max(0.0).sqrt() / nv[k].sqrt()
+        })
         .collect();
     let lim = 3.0 * median(&random);
     let k = (0..om.len())

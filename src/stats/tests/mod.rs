@@ -119,6 +119,15 @@ fn expected_systematic(idx: impl Iterator<Item = usize>) -> f64 {
     (m * m - s2 / n).max(0.0).sqrt()
 }
 
+/// The systematic part of one instantaneous value for the same estimates:
+/// their mean square less their model noise variance 1e-5 (`frame`),
+/// `sqrt(mean(b^2) - 1e-5)`.
+fn expected_systematic_inst(idx: impl Iterator<Item = usize>) -> f64 {
+    let b: Vec<f64> = idx.map(|i| 0.01 + 0.002 * (i % 3) as f64).collect();
+    let ms = b.iter().map(|x| x * x).sum::<f64>() / b.len() as f64;
+    (ms - 1e-5).max(0.0).sqrt()
+}
+
 /// Random frames with a few replaced and filled nodes, phases and times.
 fn random_frames(g: Grid, n: usize, seed: u64, timed: bool) -> Vec<Frame> {
     let mut r = rng(seed);

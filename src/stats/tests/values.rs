@@ -49,10 +49,14 @@ fn samples_counts_and_instantaneous_uncertainty_follow_the_rules() {
     );
     assert_close(c("outlier_frac"), 1.0 / 6.0, 1e-15, 0.0, "outlier_frac");
     assert_close(c("filled_frac"), 1.0 / 6.0, 1e-15, 0.0, "filled_frac");
-    // omega unc alternates 0.1, 0.2 over the 4 counted frames: RMS sqrt(0.025).
+    // omega unc alternates 0.1, 0.2 over the 4 counted frames: RMS
+    // sqrt(0.025), combined with the systematic part of one frame's value
+    // (b = 0.010, 0.012, 0.014, 0.010: sqrt(1.35e-4 - 1e-5) = 0.01118).
+    let bi = expected_systematic_inst(0..4);
+    assert_close(bi, 1.25e-4f64.sqrt(), 1e-15, 0.0, "worked by hand");
     assert_close(
         c("omega_inst_unc"),
-        0.025f64.sqrt(),
+        (0.025 + bi * bi).sqrt(),
         1e-15,
         0.0,
         "omega_inst_unc",
@@ -63,7 +67,7 @@ fn samples_counts_and_instantaneous_uncertainty_follow_the_rules() {
     let r = (5.0f64 / 3.0).sqrt() / 2.0;
     let b = expected_systematic(0..4);
     assert_close(c("omega_bias"), b, 1e-15, 0.0, "omega_bias");
-    assert_close(c("omega_bias_inst"), 0.01, 1e-15, 0.0, "omega_bias_inst");
+    assert_close(c("omega_bias_inst"), bi, 1e-15, 0.0, "omega_bias_inst");
     assert_close(
         c("omega_mean_unc"),
         (r * r + b * b).sqrt(),
