@@ -18,7 +18,7 @@
 //! composite stencil `C = S∘S - S`: `var(b) = sum_ab c_a c_b rho_ab sig_a sig_b`
 //! (GUM eq. 13 with the run's error-correlation model, `Correlation`).
 //! `stats` averages the signed estimates over the frames and removes that
-//! noise (`stats::table::systematic`), so where the flow is linear over the
+//! noise (`stats::systematic`), so where the flow is linear over the
 //! smoother's support the bias part falls to zero, and where the smoother
 //! flattens a peak it stays.
 //!

@@ -337,7 +337,7 @@ pub(super) fn finish(acc: &RunAccumulator, p: &Params) -> RunStats {
 /// from posing as the peak. The random part, not the whole of u(ω̄): a
 /// vortex core's truncation error, which belongs in u(ω̄), must not
 /// disqualify the core itself (with the truncation pooled over
-/// neighbourhoods, `table::systematic`, the demo's cores had u(ω̄) up to 7
+/// neighbourhoods, `systematic::systematic`, the demo's cores had u(ω̄) up to 7
 /// times the median and the peak fell on a weaker node). Tables without
 /// those two columns use u(ω̄) itself; without any uncertainty column every
 /// finite node counts. The one peak rule of campaign.csv, the report and

@@ -34,6 +34,7 @@ mod phase;
 mod probes;
 pub(crate) use probes::nearest_node;
 mod strata;
+mod systematic;
 mod table;
 #[cfg(test)]
 mod tests;
@@ -477,7 +478,7 @@ fn offer(m: &mut Moments, field: &Field, d: &Derived, counts: &[bool]) {
         }
     }
     // The smoother's bias, as the truncation of the velocity
-    // (derive::smoothing_bias; table::systematic averages and debiases it).
+    // (derive::smoothing_bias; systematic::systematic averages and debiases it).
     if let Some([bu, vbu, bv, vbv]) = &d.vel_trunc {
         let (bu, vbu, bv, vbv) = (sl(bu), sl(vbu), sl(bv), sl(vbv));
         for (k, &c) in counts.iter().enumerate() {

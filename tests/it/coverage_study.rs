@@ -122,7 +122,7 @@ fn coverage_of_the_resolved_vortex_meets_its_targets_where_it_does_today() {
         ("v_mean_unc", "interior"),
         ("u_mean_unc", "edge"),
         ("omega_inst_unc", "far"),
-        // the truncation pooled over 3 x 3 nodes (stats/table.rs
+        // the truncation pooled over 3 x 3 nodes (stats/systematic.rs
         // `systematic`): 0.853 / 0.68 before, 0.942 / 0.95 with it
         ("omega_mean_unc", "far"),
     ] {
@@ -142,7 +142,7 @@ fn coverage_of_the_mean_vorticity_holds_in_vortex_cores_resolved_and_not() {
     // Issue 11's bar for the mean vorticity: k = 2 coverage >= 0.90 over the
     // field and in the core, for a core of 4 pitches and one of only 1.5
     // (Lamb-Oseen; Saffman 1992), raw least squares, white noise. Before the
-    // pooled truncation (stats/table.rs `systematic`) the 1.5-pitch core
+    // pooled truncation (stats/systematic.rs `systematic`) the 1.5-pitch core
     // covered 0.875 and the 4-pitch interior 0.882.
     for core in [4.0, 1.5] {
         let w = Work::new();
