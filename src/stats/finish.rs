@@ -34,6 +34,77 @@ pub(super) fn finish(acc: &RunAccumulator, p: &Params) -> RunStats {
     if omega.is_none() {
         warnings.push("no omega among the derived quantities; the omega columns are empty".into());
     }
+    let ctx = context(acc, p, &mut warnings);
+    if let Some(w) = concentrated_rejections(&acc.ens.n_replaced, acc.ens.frames, &grid) {
+        warnings.push(w);
+    }
+    let ne = effective_samples(acc, p, &mut warnings);
+
+    // Phase bins and the energy split.
+    let has_phase = acc.bins.iter().any(|b| b.is_some()) || acc.outside > 0;
+    let empty = Moments::new(nodes, acc.quantities.len());
+    let bin_moments: Vec<&Moments> = acc
+        .bins
+        .iter()
+        .map(|b| b.as_ref().unwrap_or(&empty))
+        .collect();
+    let [k_coh, k_sto, k_coh_unc] = if has_phase {
+        phase::energy_split(&bin_moments, nodes)
+    } else {
+        std::array::from_fn(|_| vec![f64::NAN; nodes])
+    };
+    // Phase bins as strata of the ensemble mean (`strata`), when the bins
+    // partition the circle: no narrower windows, no frame outside them.
+    let partition = has_phase
+        && acc.outside == 0
+        && acc
+            .params
+            .phase_width_deg
+            .is_none_or(|w| (w * acc.params.phase_bins as f64 - 360.0).abs() < 1e-9 * 360.0);
+    let strata: Option<Vec<Strata>> = partition.then(|| {
+        let of = |pick: &dyn Fn(&Moments) -> &Scalar| {
+            let bins: Vec<&Scalar> = bin_moments.iter().map(|m| pick(m)).collect();
+            strata(pick(&acc.ens), &bins)
+        };
+        let mut v = vec![of(&|m| &m.u), of(&|m| &m.v)];
+        v.extend((0..acc.quantities.len()).map(|i| of(&|m| &m.q[i])));
+        v
+    });
+    let ensemble = node_table(
+        &acc.ens,
+        &ne.neff,
+        [k_coh.clone(), k_sto.clone(), k_coh_unc],
+        &ctx,
+        strata.as_deref(),
+    );
+    let mut summary = Vec::new();
+    let phase_tables = if has_phase {
+        bin_tables(
+            acc,
+            &ctx,
+            &bin_moments,
+            [&k_coh, &k_sto],
+            &mut summary,
+            &mut warnings,
+        )
+    } else {
+        Vec::new()
+    };
+    summary_scalars(&ensemble, &grid, &ne, &mut summary);
+    let convergence = probe_convergence(acc, p, &ne.neff, &mut warnings);
+    RunStats {
+        ensemble,
+        phase: phase_tables,
+        convergence,
+        n_eff: ne.run,
+        summary,
+        warnings,
+    }
+}
+
+/// The table context: the relative scale uncertainty of every quantity and
+/// of the velocity (warning for a unit not of the form m^a/s^b).
+fn context<'a>(acc: &'a RunAccumulator, p: &'a Params, warnings: &mut Vec<String>) -> Ctx<'a> {
     let rel = |unit: &str, name: &str, warnings: &mut Vec<String>| -> f64 {
         if p.calibration_unc == 0.0 && p.pulse_separation_unc == 0.0 {
             return 0.0;
@@ -54,22 +125,37 @@ pub(super) fn finish(acc: &RunAccumulator, p: &Params) -> RunStats {
         .quantities
         .iter()
         .zip(&acc.units)
-        .map(|(q, u)| rel(u, q, &mut warnings))
+        .map(|(q, u)| rel(u, q, warnings))
         .collect();
-    let ctx = Ctx {
-        grid,
+    Ctx {
+        grid: acc.grid,
         p,
         quantities: &acc.quantities,
         q_rel,
-        vel_rel: rel("m/s", "velocity", &mut warnings),
-        omega,
+        vel_rel: rel("m/s", "velocity", warnings),
+        omega: acc.omega(),
         suffix: coverage_suffix(p.coverage),
-    };
-
-    // Effective sample size.
-    if let Some(w) = concentrated_rejections(&acc.ens.n_replaced, acc.ens.frames, &grid) {
-        warnings.push(w);
     }
+}
+
+/// N_eff per node and series, and what the summary says of it.
+struct Neff {
+    /// Per node, for u, v and omega.
+    neff: [Vec<f64>; 3],
+    /// The run's mean over nodes of (u_n_eff + v_n_eff) / 2, when estimated.
+    run: Option<f64>,
+    /// The uniform time step, s.
+    step: Option<f64>,
+    /// No frame times: N_eff estimated over the frame index.
+    by_index: bool,
+}
+
+/// Effective sample sizes from the lag sums (time-resolved runs, and runs
+/// without frame times taken as evenly spaced), with their warnings;
+/// N_eff = N otherwise.
+fn effective_samples(acc: &RunAccumulator, p: &Params, warnings: &mut Vec<String>) -> Neff {
+    let nodes = acc.grid.len();
+    let omega = acc.omega();
     let mut neff = independent(&acc.ens, omega);
     let mut run_neff = None;
     let base = acc.clock.time_base();
@@ -134,126 +220,116 @@ pub(super) fn finish(acc: &RunAccumulator, p: &Params) -> RunStats {
             run_neff = Some(vals.iter().sum::<f64>() / vals.len() as f64);
         }
     }
+    Neff {
+        neff,
+        run: run_neff,
+        step,
+        by_index,
+    }
+}
 
-    // Phase bins and the energy split.
-    let has_phase = acc.bins.iter().any(|b| b.is_some()) || acc.outside > 0;
-    let empty = Moments::new(nodes, acc.quantities.len());
-    let bin_moments: Vec<&Moments> = acc
-        .bins
-        .iter()
-        .map(|b| b.as_ref().unwrap_or(&empty))
-        .collect();
+/// The phase-bin tables (bin moments, coherent parts, energies), their
+/// warnings and the phase summary scalars.
+fn bin_tables(
+    acc: &RunAccumulator,
+    ctx: &Ctx,
+    bin_moments: &[&Moments],
+    [k_coh, k_sto]: [&Vec<f64>; 2],
+    summary: &mut Vec<(String, f64)>,
+    warnings: &mut Vec<String>,
+) -> Vec<PhaseBin> {
+    let nodes = acc.grid.len();
+    let omega = acc.omega();
     let mut phase_tables = Vec::new();
-    let [k_coh, k_sto, k_coh_unc] = if has_phase {
-        phase::energy_split(&bin_moments, nodes)
-    } else {
-        std::array::from_fn(|_| vec![f64::NAN; nodes])
-    };
-    // Phase bins as strata of the ensemble mean (`strata`), when the bins
-    // partition the circle: no narrower windows, no frame outside them.
-    let partition = has_phase
-        && acc.outside == 0
-        && acc
-            .params
-            .phase_width_deg
-            .is_none_or(|w| (w * acc.params.phase_bins as f64 - 360.0).abs() < 1e-9 * 360.0);
-    let strata: Option<Vec<Strata>> = partition.then(|| {
-        let of = |pick: &dyn Fn(&Moments) -> &Scalar| {
-            let bins: Vec<&Scalar> = bin_moments.iter().map(|m| pick(m)).collect();
-            strata(pick(&acc.ens), &bins)
-        };
-        let mut v = vec![of(&|m| &m.u), of(&|m| &m.v)];
-        v.extend((0..acc.quantities.len()).map(|i| of(&|m| &m.q[i])));
-        v
-    });
-    let ensemble = node_table(
-        &acc.ens,
-        &neff,
-        [k_coh.clone(), k_sto.clone(), k_coh_unc],
-        &ctx,
-        strata.as_deref(),
-    );
-    let mut summary = Vec::new();
-    if has_phase {
-        let mean = |s: &Scalar, k: usize| if s.n[k] > 0.0 { s.mean[k] } else { f64::NAN };
-        for (b, m) in bin_moments.iter().enumerate() {
-            let coh: Vec<[f64; 3]> = (0..nodes)
-                .map(|k| {
-                    let w = omega.map_or(f64::NAN, |o| mean(&m.q[o], k) - mean(&acc.ens.q[o], k));
-                    [
-                        mean(&m.u, k) - mean(&acc.ens.u, k),
-                        mean(&m.v, k) - mean(&acc.ens.v, k),
-                        w,
-                    ]
-                })
-                .collect();
-            let [kc, kc_unc] = phase::bin_coherent(m, &acc.ens, nodes);
-            let ks = (0..nodes)
-                .map(|k| {
-                    if m.u.n[k] >= 2.0 {
-                        0.5 * (m.u.m2[k] + m.v.m2[k]) / (m.u.n[k] - 1.0)
-                    } else {
-                        f64::NAN
-                    }
-                })
-                .collect();
-            let mut table = node_table(m, &independent(m, omega), [kc, ks, kc_unc], &ctx, None);
-            for (i, name) in ["u_coherent", "v_coherent", "omega_coherent"]
-                .iter()
-                .enumerate()
-            {
-                table.push(*name, coh.iter().map(|c| c[i]).collect());
-            }
-            phase_tables.push(PhaseBin {
-                bin: b,
-                centre_deg: phase::centre_deg(acc.params.phase_bins, b),
-                n_frames: m.frames as usize,
-                table,
-            });
-        }
-        let empty_bins: Vec<String> = phase_tables
-            .iter()
-            .filter(|b| b.n_frames == 0)
-            .map(|b| b.bin.to_string())
+    let mean = |s: &Scalar, k: usize| if s.n[k] > 0.0 { s.mean[k] } else { f64::NAN };
+    for (b, m) in bin_moments.iter().enumerate() {
+        let coh: Vec<[f64; 3]> = (0..nodes)
+            .map(|k| {
+                let w = omega.map_or(f64::NAN, |o| mean(&m.q[o], k) - mean(&acc.ens.q[o], k));
+                [
+                    mean(&m.u, k) - mean(&acc.ens.u, k),
+                    mean(&m.v, k) - mean(&acc.ens.v, k),
+                    w,
+                ]
+            })
             .collect();
-        if !empty_bins.is_empty() {
-            warnings.push(format!(
-                "phase bins {} hold no frames",
-                empty_bins.join(", ")
-            ));
+        let [kc, kc_unc] = phase::bin_coherent(m, &acc.ens, nodes);
+        let ks = (0..nodes)
+            .map(|k| {
+                if m.u.n[k] >= 2.0 {
+                    0.5 * (m.u.m2[k] + m.v.m2[k]) / (m.u.n[k] - 1.0)
+                } else {
+                    f64::NAN
+                }
+            })
+            .collect();
+        let mut table = node_table(m, &independent(m, omega), [kc, ks, kc_unc], ctx, None);
+        for (i, name) in ["u_coherent", "v_coherent", "omega_coherent"]
+            .iter()
+            .enumerate()
+        {
+            table.push(*name, coh.iter().map(|c| c[i]).collect());
         }
-        if acc.unphased > 0 {
-            warnings.push(format!(
-                "{} of {} frames have no phase_deg; they are left out of the phase bins",
-                acc.unphased, acc.clock.frames
-            ));
-        }
-        if acc.outside > 0 {
-            warnings.push(format!(
+        phase_tables.push(PhaseBin {
+            bin: b,
+            centre_deg: phase::centre_deg(acc.params.phase_bins, b),
+            n_frames: m.frames as usize,
+            table,
+        });
+    }
+    let empty_bins: Vec<String> = phase_tables
+        .iter()
+        .filter(|b| b.n_frames == 0)
+        .map(|b| b.bin.to_string())
+        .collect();
+    if !empty_bins.is_empty() {
+        warnings.push(format!(
+            "phase bins {} hold no frames",
+            empty_bins.join(", ")
+        ));
+    }
+    if acc.unphased > 0 {
+        warnings.push(format!(
+            "{} of {} frames have no phase_deg; they are left out of the phase bins",
+            acc.unphased, acc.clock.frames
+        ));
+    }
+    if acc.outside > 0 {
+        warnings.push(format!(
                 "{} frames lie outside every phase window ({} degrees wide); they are left out of the phase bins",
                 acc.outside,
                 acc.params.phase_width_deg.unwrap_or(f64::NAN)
             ));
-        }
-        let (sc, ss): (f64, f64) = k_coh
-            .iter()
-            .zip(&k_sto)
-            .filter(|(a, b)| a.is_finite() && b.is_finite())
-            .fold((0.0, 0.0), |(x, y), (a, b)| (x + a, y + b));
-        if sc + ss > 0.0 {
-            summary.push(("k_coherent_frac".to_string(), sc / (sc + ss)));
-            summary.push(("k_stochastic_frac".to_string(), ss / (sc + ss)));
-        }
-        summary.push((
-            "phase_frames".to_string(),
-            bin_moments.iter().map(|m| m.frames).sum(),
-        ));
     }
+    let (sc, ss): (f64, f64) = k_coh
+        .iter()
+        .zip(k_sto)
+        .filter(|(a, b)| a.is_finite() && b.is_finite())
+        .fold((0.0, 0.0), |(x, y), (a, b)| (x + a, y + b));
+    if sc + ss > 0.0 {
+        summary.push(("k_coherent_frac".to_string(), sc / (sc + ss)));
+        summary.push(("k_stochastic_frac".to_string(), ss / (sc + ss)));
+    }
+    summary.push((
+        "phase_frames".to_string(),
+        bin_moments.iter().map(|m| m.frames).sum(),
+    ));
+    phase_tables
+}
 
-    // Summary scalars.
+/// The summary scalars of campaign.csv from the ensemble table: the peak
+/// (`peak_node`), the median uncertainties, N_eff and the samples.
+fn summary_scalars(
+    ensemble: &NodeTable,
+    grid: &crate::field::Grid,
+    ne: &Neff,
+    summary: &mut Vec<(String, f64)>,
+) {
+    let nodes = grid.len();
+    let (neff, step, by_index) = (&ne.neff, ne.step, ne.by_index);
     let col = |n: &str| ensemble.get(n).expect("column");
     let (om, omu) = (col("omega_mean"), col("omega_mean_unc"));
-    if let Some((k, _)) = peak_node(&ensemble) {
+    if let Some((k, _)) = peak_node(ensemble) {
         summary.push(("omega_mean_peak".into(), om[k]));
         summary.push(("omega_mean_peak_unc".into(), omu[k]));
         summary.push(("omega_mean_peak_x".into(), grid.x(k % grid.nx)));
@@ -269,8 +345,8 @@ pub(super) fn finish(acc: &RunAccumulator, p: &Params) -> RunStats {
             summary.push((format!("{name}_median"), crate::robust::median(&mut v)));
         }
     }
-    if let Some(ne) = run_neff {
-        summary.push(("n_eff_mean".into(), ne));
+    if let Some(run) = ne.run {
+        summary.push(("n_eff_mean".into(), run));
         let n = col("n_samples");
         let r: Vec<f64> = (0..nodes)
             .filter(|&k| n[k] > 0.0)
@@ -286,9 +362,18 @@ pub(super) fn finish(acc: &RunAccumulator, p: &Params) -> RunStats {
         "samples_per_node_mean".into(),
         samples.iter().sum::<f64>() / nodes.max(1) as f64,
     ));
+}
 
-    // Convergence at the probes.
-    let convergence = (!acc.traces.is_empty()).then(|| {
+/// Convergence of the running statistics at the probes (`probes`).
+fn probe_convergence(
+    acc: &RunAccumulator,
+    p: &Params,
+    neff: &[Vec<f64>; 3],
+    warnings: &mut Vec<String>,
+) -> Option<crate::field::Table> {
+    let omega = acc.omega();
+    let grid = acc.grid;
+    (!acc.traces.is_empty()).then(|| {
         let inputs: Vec<ProbeInput> = acc
             .traces
             .iter()
@@ -309,23 +394,8 @@ pub(super) fn finish(acc: &RunAccumulator, p: &Params) -> RunStats {
                 }
             })
             .collect();
-        probes::convergence(
-            &grid,
-            &inputs,
-            p.convergence_tail,
-            p.coverage,
-            &mut warnings,
-        )
-    });
-
-    RunStats {
-        ensemble,
-        phase: phase_tables,
-        convergence,
-        n_eff: run_neff,
-        summary,
-        warnings,
-    }
+        probes::convergence(&grid, &inputs, p.convergence_tail, p.coverage, warnings)
+    })
 }
 
 /// The node of largest |ω̄| among the well-determined nodes, and its value.
