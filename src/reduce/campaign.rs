@@ -10,7 +10,7 @@ use sha2::{Digest, Sha256};
 
 use super::{outputs, InputFile, Reduced};
 use crate::error::{Error, Result};
-use crate::plan::Plan;
+use crate::plan::{Plan, RunPlan};
 use crate::result::{CampaignResult, RunResult};
 use crate::{compare, io, plot, report};
 
@@ -39,135 +39,12 @@ pub(crate) fn finish_campaign(
     let mut manifest_runs = Vec::new();
     let mut inputs: Vec<InputFile> = Vec::new();
     let mut warnings: Vec<String> = Vec::new();
-    for mut r in reduced {
-        let rp = plan
-            .runs
-            .iter()
-            .find(|p| p.id == r.id)
-            .ok_or_else(|| Error::usage(format!("run '{}' is not in the pipeline", r.id)))?;
-        let t = Instant::now();
-        let stats = r.state.acc.finish(&rp.stats);
-        let mut timings = r.timings.clone();
-        timings.push(("statistics".into(), t.elapsed().as_secs_f64()));
-        let mut run_warnings = r.warnings.clone();
-        run_warnings.extend(stats.warnings.iter().cloned());
-        let mut rr = RunResult {
-            id: r.id.clone(),
-            grid: r.grid,
-            frames: r.state.frames,
-            stats,
-            warnings: Vec::new(),
-            figures: Vec::new(),
-            conditions: rp.conditions.clone(),
-            description: rp.description.clone(),
-            budget: None,
-            vortices: None,
-            mask: None,
-            structures: Default::default(),
-        };
-        let geometry = rp.mask.nodes(&r.grid, rp.input.grid_tolerance).ok();
-        rr.mask = crate::mask::figure_mask(geometry.as_ref(), &rr.stats.ensemble);
-        let sketch = r.state.modes.take();
-        if let Some(b) = &r.state.budget {
-            let t = Instant::now();
-            let tp: Vec<_> = rr
-                .frames
-                .iter()
-                .map(|f| (f.meta.time_s, f.meta.phase_deg))
-                .collect();
-            let bud = crate::reduce::budget::finish(b, rp, &tp)?;
-            run_warnings.extend(bud.warnings.iter().map(|w| format!("run '{}': {w}", rr.id)));
-            rr.budget = Some(bud);
-            timings.push(("budget".into(), t.elapsed().as_secs_f64()));
-        }
-        // the cycle's frequency by the budget's one resolution
-        let f = match rp.vortices.is_some() && !rr.stats.phase.is_empty() {
-            true => {
-                let tp: Vec<_> = rr
-                    .frames
-                    .iter()
-                    .map(|f| (f.meta.time_s, f.meta.phase_deg))
-                    .collect();
-                crate::reduce::budget::frequency(rp, &crate::reduce::budget::time_phase(&tp))?
-                    .map(|f| f.hz)
-            }
-            false => None,
-        };
-        if let Some(v) = crate::reduce::vortices::analyse(&rr, rp, f, r.state.frame_cores.take()) {
-            run_warnings.extend(v.warnings.iter().map(|w| format!("run '{}': {w}", rr.id)));
-            rr.vortices = Some(v);
-        }
-        let t = Instant::now();
-        outputs::write_run_tables(&out.join(&rr.id), &rr)?;
-        outputs::write_run_netcdf(&out.join(&rr.id), &rr, &plan.text)?;
-        let parts = super::structures::Parts {
-            acc: &r.state.acc,
-            sketch: sketch.as_ref(),
-            corr: r.state.corr.as_ref(),
-        };
-        let (st, w) = super::structures::finish(rp, &rr, parts, &out.join(&rr.id))?;
-        run_warnings.extend(w);
-        rr.structures = st;
-        timings.push(("write".into(), t.elapsed().as_secs_f64()));
-        if plan.figures {
-            let t = Instant::now();
-            match plot::run_figures(&rp.plot, &rr, out).and_then(|mut f| {
-                f.extend(crate::plot::vortices::draw(&rp.plot, &rr, out)?);
-                Ok(f)
-            }) {
-                Ok(f) => rr.figures = f,
-                Err(e) => {
-                    run_warnings.push(format!("run '{}': figures could not be drawn: {e}", rr.id))
-                }
-            }
-            timings.push(("figures".into(), t.elapsed().as_secs_f64()));
-        }
-        rr.warnings = run_warnings.clone();
-        warnings.extend(run_warnings);
-        // Per-test totals over the run's frames (each vector counted once, by
-        // the first test of the chain that rejected it), and the filling.
-        let mut tests = serde_json::Map::new();
-        for f in &rr.frames {
-            let counts = [
-                serde_json::to_value(f.validation),
-                serde_json::to_value(f.fill),
-            ];
-            for v in counts.into_iter().flatten() {
-                if let serde_json::Value::Object(m) = v {
-                    for (k, x) in m {
-                        let e = tests.entry(k).or_insert(serde_json::json!(0));
-                        *e = serde_json::json!(e.as_u64().unwrap_or(0) + x.as_u64().unwrap_or(0));
-                    }
-                }
-            }
-        }
-        let frames_rejected = rr
-            .frames
-            .iter()
-            .filter(|f| f.rejected)
-            .map(|f| f.meta.name.clone())
-            .collect::<Vec<_>>();
-        manifest_runs.push(serde_json::json!({
-            "id": rr.id,
-            "vector_counts": tests,
-            "frames_rejected": frames_rejected,
-            "frames": rr.frames.len(),
-            "frames_in_run": r.n_frames_run,
-            "grid": rr.grid,
-            "orientation": rp.input.orientation.describe(),
-            "units": crate::io::units::describe(&rp.input),
-            "timings_s": timings.iter().map(|(k, v)| (k.clone(), serde_json::json!(v))).collect::<serde_json::Map<_, _>>(),
-            "resolved": rp.resolved_json()?,
-            "resolved_in_words": rp.describe_json(),
-            "warnings": rr.warnings,
-            "derivative_schemes": r.state.scheme_counts.iter().map(|(k, v)| (k.clone(), serde_json::json!(v))).collect::<serde_json::Map<_, _>>(),
-            "peak_locking": r.peak_lock.as_ref().map(|p| serde_json::json!({
-                "n": p.n, "R": p.r, "p_value": p.p_value, "inconclusive": p.inconclusive,
-                "warning": p.warning, "histogram": p.histogram,
-            })),
-        }));
-        inputs.extend(r.state.inputs);
-        runs.push(rr);
+    for r in reduced {
+        let done = finish_run(plan, r, out)?;
+        warnings.extend(done.run.warnings.iter().cloned());
+        manifest_runs.push(done.manifest);
+        inputs.extend(done.inputs);
+        runs.push(done.run);
     }
 
     let mut compare_s = 0.0;
@@ -233,6 +110,168 @@ pub(crate) fn finish_campaign(
     std::fs::write(&mpath, text).map_err(|e| Error::io(&mpath, e))?;
     report::write_report(&result, out)?;
     Ok(result)
+}
+
+/// One run finished: its result, its entry of the manifest and its inputs.
+struct FinishedRun {
+    run: RunResult,
+    manifest: serde_json::Value,
+    inputs: Vec<InputFile>,
+}
+
+/// Statistics, derived products (budget, vortices), tables, structures and
+/// figures of one reduced run, written under `out/<id>`.
+fn finish_run(plan: &Plan, mut r: Reduced, out: &Path) -> Result<FinishedRun> {
+    let rp = plan
+        .runs
+        .iter()
+        .find(|p| p.id == r.id)
+        .ok_or_else(|| Error::usage(format!("run '{}' is not in the pipeline", r.id)))?;
+    let t = Instant::now();
+    let stats = r.state.acc.finish(&rp.stats);
+    let mut timings = r.timings.clone();
+    timings.push(("statistics".into(), t.elapsed().as_secs_f64()));
+    let mut run_warnings = r.warnings.clone();
+    run_warnings.extend(stats.warnings.iter().cloned());
+    let mut rr = RunResult {
+        id: r.id.clone(),
+        grid: r.grid,
+        frames: r.state.frames,
+        stats,
+        warnings: Vec::new(),
+        figures: Vec::new(),
+        conditions: rp.conditions.clone(),
+        description: rp.description.clone(),
+        budget: None,
+        vortices: None,
+        mask: None,
+        structures: Default::default(),
+    };
+    let geometry = rp.mask.nodes(&r.grid, rp.input.grid_tolerance).ok();
+    rr.mask = crate::mask::figure_mask(geometry.as_ref(), &rr.stats.ensemble);
+    let sketch = r.state.modes.take();
+    if let Some(b) = &r.state.budget {
+        let t = Instant::now();
+        let tp: Vec<_> = rr
+            .frames
+            .iter()
+            .map(|f| (f.meta.time_s, f.meta.phase_deg))
+            .collect();
+        let bud = crate::reduce::budget::finish(b, rp, &tp)?;
+        run_warnings.extend(bud.warnings.iter().map(|w| format!("run '{}': {w}", rr.id)));
+        rr.budget = Some(bud);
+        timings.push(("budget".into(), t.elapsed().as_secs_f64()));
+    }
+    // the cycle's frequency by the budget's one resolution
+    let f = match rp.vortices.is_some() && !rr.stats.phase.is_empty() {
+        true => {
+            let tp: Vec<_> = rr
+                .frames
+                .iter()
+                .map(|f| (f.meta.time_s, f.meta.phase_deg))
+                .collect();
+            crate::reduce::budget::frequency(rp, &crate::reduce::budget::time_phase(&tp))?
+                .map(|f| f.hz)
+        }
+        false => None,
+    };
+    if let Some(v) = crate::reduce::vortices::analyse(&rr, rp, f, r.state.frame_cores.take()) {
+        run_warnings.extend(v.warnings.iter().map(|w| format!("run '{}': {w}", rr.id)));
+        rr.vortices = Some(v);
+    }
+    let t = Instant::now();
+    outputs::write_run_tables(&out.join(&rr.id), &rr)?;
+    outputs::write_run_netcdf(&out.join(&rr.id), &rr, &plan.text)?;
+    let parts = super::structures::Parts {
+        acc: &r.state.acc,
+        sketch: sketch.as_ref(),
+        corr: r.state.corr.as_ref(),
+    };
+    let (st, w) = super::structures::finish(rp, &rr, parts, &out.join(&rr.id))?;
+    run_warnings.extend(w);
+    rr.structures = st;
+    timings.push(("write".into(), t.elapsed().as_secs_f64()));
+    if plan.figures {
+        let t = Instant::now();
+        match plot::run_figures(&rp.plot, &rr, out).and_then(|mut f| {
+            f.extend(crate::plot::vortices::draw(&rp.plot, &rr, out)?);
+            Ok(f)
+        }) {
+            Ok(f) => rr.figures = f,
+            Err(e) => {
+                run_warnings.push(format!("run '{}': figures could not be drawn: {e}", rr.id))
+            }
+        }
+        timings.push(("figures".into(), t.elapsed().as_secs_f64()));
+    }
+    rr.warnings = run_warnings;
+    let manifest = run_manifest(
+        &rr,
+        rp,
+        &timings,
+        r.n_frames_run,
+        &r.state.scheme_counts,
+        r.peak_lock.as_ref(),
+    )?;
+    Ok(FinishedRun {
+        run: rr,
+        manifest,
+        inputs: r.state.inputs,
+    })
+}
+
+/// The manifest's entry of one run: per-test vector totals, rejected frames,
+/// timings, the resolved settings, warnings, schemes and peak-locking.
+fn run_manifest(
+    rr: &RunResult,
+    rp: &RunPlan,
+    timings: &[(String, f64)],
+    n_frames_run: usize,
+    scheme_counts: &[(String, usize)],
+    peak_lock: Option<&crate::validate::peaklock::PeakLock>,
+) -> Result<serde_json::Value> {
+    // Per-test totals over the run's frames (each vector counted once, by
+    // the first test of the chain that rejected it), and the filling.
+    let mut tests = serde_json::Map::new();
+    for f in &rr.frames {
+        let counts = [
+            serde_json::to_value(f.validation),
+            serde_json::to_value(f.fill),
+        ];
+        for v in counts.into_iter().flatten() {
+            if let serde_json::Value::Object(m) = v {
+                for (k, x) in m {
+                    let e = tests.entry(k).or_insert(serde_json::json!(0));
+                    *e = serde_json::json!(e.as_u64().unwrap_or(0) + x.as_u64().unwrap_or(0));
+                }
+            }
+        }
+    }
+    let frames_rejected = rr
+        .frames
+        .iter()
+        .filter(|f| f.rejected)
+        .map(|f| f.meta.name.clone())
+        .collect::<Vec<_>>();
+    Ok(serde_json::json!({
+        "id": rr.id,
+        "vector_counts": tests,
+        "frames_rejected": frames_rejected,
+        "frames": rr.frames.len(),
+        "frames_in_run": n_frames_run,
+        "grid": rr.grid,
+        "orientation": rp.input.orientation.describe(),
+        "units": crate::io::units::describe(&rp.input),
+        "timings_s": timings.iter().map(|(k, v)| (k.clone(), serde_json::json!(v))).collect::<serde_json::Map<_, _>>(),
+        "resolved": rp.resolved_json()?,
+        "resolved_in_words": rp.describe_json(),
+        "warnings": rr.warnings,
+        "derivative_schemes": scheme_counts.iter().map(|(k, v)| (k.clone(), serde_json::json!(v))).collect::<serde_json::Map<_, _>>(),
+        "peak_locking": peak_lock.map(|p| serde_json::json!({
+            "n": p.n, "R": p.r, "p_value": p.p_value, "inconclusive": p.inconclusive,
+            "warning": p.warning, "histogram": p.histogram,
+        })),
+    }))
 }
 
 /// Lower-case hex of bytes.
