@@ -22,6 +22,18 @@ pub(crate) fn assert_close(a: f64, b: f64, abs: f64, rel: f64, what: &str) {
     );
 }
 
+/// A grid of `nx` x `ny` nodes at pitch `h` (m) from the origin.
+pub(crate) fn grid(nx: usize, ny: usize, h: f64) -> crate::field::Grid {
+    crate::field::Grid {
+        nx,
+        ny,
+        x0: 0.0,
+        y0: 0.0,
+        dx: h,
+        dy: h,
+    }
+}
+
 /// A seeded generator; the seed is printed so a failure can be replayed.
 pub(crate) fn rng(seed: u64) -> rand_chacha::ChaCha8Rng {
     use rand::SeedableRng;

@@ -195,9 +195,9 @@ mod tests {
         }
     }
 
-    #[test]
-    fn a_poorly_determined_node_is_not_the_peak() {
-        let g = grid(10, 8);
+    /// An ensemble table of a Lamb-Oseen vortex on 10 x 8 nodes
+    /// (`plot::fixtures`), u(omega_mean) 2 1/s everywhere.
+    fn vortex_table() -> NodeTable {
         let v = Vortex {
             gamma: 0.004,
             rc: 0.004,
@@ -205,7 +205,12 @@ mod tests {
             yc: 0.0,
             u_inf: 0.0,
         };
-        let mut t = ensemble(g, &v, 0.004, 2.0, 10);
+        ensemble(grid(10, 8), &v, 0.004, 2.0, 10)
+    }
+
+    #[test]
+    fn a_poorly_determined_node_is_not_the_peak() {
+        let mut t = vortex_table();
         let (k_true, w_true) = peak_node(&t).unwrap();
         let k_bad = 0;
         for (n, c) in t.columns.iter_mut() {
@@ -233,15 +238,7 @@ mod tests {
     fn a_core_with_a_large_truncation_part_stays_the_peak() {
         // u(omega_mean) 20 x the field's median at the peak, all of it
         // systematic (omega_inst_unc and n_valid as elsewhere): still the peak.
-        let g = grid(10, 8);
-        let v = Vortex {
-            gamma: 0.004,
-            rc: 0.004,
-            xc: 0.005,
-            yc: 0.0,
-            u_inf: 0.0,
-        };
-        let mut t = ensemble(g, &v, 0.004, 2.0, 10);
+        let mut t = vortex_table();
         let (k_true, _) = peak_node(&t).unwrap();
         for (n, c) in t.columns.iter_mut() {
             if n == "omega_mean_unc" {

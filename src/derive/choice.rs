@@ -38,6 +38,7 @@ use ndarray::Array2;
 use super::gradient::Grad;
 use super::quantities::{clip0, debias, linear, Node};
 use super::workspace::Workspace;
+use crate::field::box_mean;
 
 /// Frames the pilot uses at most.
 pub(crate) const PILOT_FRAMES: usize = 32;
@@ -173,17 +174,8 @@ impl Pilot {
                 if !e[j * nx + i].is_finite() {
                     continue;
                 }
-                let (mut sum, mut cnt) = (0.0, 0);
-                for jj in j.saturating_sub(REGION)..(j + REGION + 1).min(ny) {
-                    for ii in i.saturating_sub(REGION)..(i + REGION + 1).min(nx) {
-                        let x = e[jj * nx + ii];
-                        if x.is_finite() {
-                            sum += x;
-                            cnt += 1;
-                        }
-                    }
-                }
-                let m = sum / cnt as f64;
+                // the node's own value is finite, so the box holds one
+                let m = box_mean(e, nx, ny, j, i, REGION).unwrap_or(f64::INFINITY);
                 if m < best.0 {
                     best = (m, c as u8);
                 }

@@ -269,6 +269,32 @@ impl NodeTable {
     }
 }
 
+/// Mean of the finite values of `v` (one per node, `k = j*nx + i`, on a
+/// grid of `nx` x `ny` nodes) over the box of half-width `half` around node
+/// `(j, i)`, cut by the grid's edges; NaN and infinite entries (masked or
+/// unknown nodes) are left out. `None` when the box holds no finite value.
+/// Summed row by row, `j` outer: the one neighbourhood mean of the `auto`
+/// scheme's choice and of the pooled truncation (`stats::systematic`).
+pub(crate) fn box_mean(
+    v: &[f64],
+    nx: usize,
+    ny: usize,
+    j: usize,
+    i: usize,
+    half: usize,
+) -> Option<f64> {
+    let (mut sum, mut cnt) = (0.0, 0usize);
+    for jj in j.saturating_sub(half)..(j + half + 1).min(ny) {
+        for x in &v[jj * nx + i.saturating_sub(half)..jj * nx + (i + half + 1).min(nx)] {
+            if x.is_finite() {
+                sum += x;
+                cnt += 1;
+            }
+        }
+    }
+    (cnt > 0).then(|| sum / cnt as f64)
+}
+
 /// Makes every array of `field` row-major contiguous (a no-op for fields
 /// built by io), so kernels can index flat slices by `k = j*nx + i`.
 pub(crate) fn ensure_standard_layout(field: &mut Field) {

@@ -495,14 +495,7 @@ mod tests {
     use super::*;
 
     fn grid() -> crate::field::Grid {
-        crate::field::Grid {
-            nx: 4,
-            ny: 3,
-            x0: 0.0,
-            y0: 0.0,
-            dx: 1e-3,
-            dy: 1e-3,
-        }
+        crate::testutil::grid(4, 3, 1e-3)
     }
 
     #[test]

@@ -168,20 +168,20 @@ fn stat(s: &Scalar, k: usize, bias: f64, bias_inst: f64) -> Stat {
         (nan, nan)
     };
     let rms = |sum: f64, c: f64| if c > 0.0 { (sum / c).sqrt() } else { nan };
+    let inst = rms(s.unc2[k], s.unc_n[k]);
     Stat {
         n,
         mean,
         std,
         skew,
         flat,
-        inst: rms(s.unc2[k], s.unc_n[k]),
-        inst_total: {
-            let r = rms(s.unc2[k], s.unc_n[k]);
-            if bias_inst.is_finite() {
-                r.hypot(bias_inst)
-            } else {
-                r
-            }
+        inst,
+        // GUM eq. 10 with unit sensitivities; no systematic part known: the
+        // random part alone
+        inst_total: if bias_inst.is_finite() {
+            inst.hypot(bias_inst)
+        } else {
+            inst
         },
         bias,
         bias_inst,
