@@ -32,8 +32,8 @@ fn coverage_command_matches_the_demo_run_and_writes_a_scored_table() {
         serde_json::from_str(&std::fs::read_to_string(out.join("matched.json")).unwrap()).unwrap();
     let r = &m["runs"][0];
     assert_eq!(r["run"], "u015");
-    assert_eq!((r["nx"].as_u64(), r["ny"].as_u64()), (Some(40), Some(25)));
-    assert!((r["pitch"].as_f64().unwrap() - 2e-3).abs() < 1e-9);
+    assert_eq!((r["nx"].as_u64(), r["ny"].as_u64()), (Some(52), Some(24)));
+    assert!((r["pitch"].as_f64().unwrap() - 1.5e-3).abs() < 1e-9);
     assert_eq!(r["frames"].as_u64(), Some(100));
     // noise 0.1 px x 40e-6 m / 2.1e-3 s = 1.905e-3 m/s; the estimate is
     // within 10 % (the flow's curvature adds a little)
@@ -47,7 +47,7 @@ fn coverage_command_matches_the_demo_run_and_writes_a_scored_table() {
     assert!((r["phase"][1].as_f64().unwrap() - 75.6).abs() < 1e-6);
 
     // the table: the documented columns, a row per column and region, and
-    // counts that follow from the grid (2 replicas x 36 x 21 interior nodes)
+    // counts that follow from the grid (2 replicas x 48 x 20 interior nodes)
     let text = std::fs::read_to_string(out.join("coverage.csv")).unwrap();
     let mut lines = text.lines();
     assert_eq!(
@@ -61,7 +61,7 @@ fn coverage_command_matches_the_demo_run_and_writes_a_scored_table() {
             .unwrap_or_else(|| panic!("no row {table} {col} {reg}"))
     };
     let row = find("ensemble", "u_mean_unc", "interior");
-    assert_eq!(row[4], "1512");
+    assert_eq!(row[4], "1920");
     for col in [
         "u_mean_unc",
         "v_mean_unc",
