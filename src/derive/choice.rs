@@ -294,19 +294,48 @@ fn omega_from_map(
     ([om, unc], used)
 }
 
-/// Keeps, per node, the scheme of a fixed map (`scheme_at`).
-///
-/// Truncation of a scheme other than the first candidate (the reference,
-/// least squares by default) is measured against the reference where the
-/// reference has a value and an estimate: `b = (T_c - T_ref) + b_ref`, the
-/// difference of the two schemes applied to the same data plus the
-/// reference's own estimate, with noise variance `var_c + var_ref +
-/// bvar_ref` (an upper bound: the two schemes' errors are positively
-/// correlated). The degree-5 fit (`gradient`) estimates a second-order
-/// scheme's leading error well but a fourth-order scheme's poorly where a
-/// core spans few nodes: on a Lamb-Oseen core of 1.5 pitches, 60 frames,
-/// the fit gave Richardson's mean truncation as 4 1/s where it was 25 1/s,
-/// the reference route 27 1/s.
+/// Measures the truncation of `g` against the reference tensor at a node,
+/// where the reference has a value and an estimate and `g` a value:
+/// `b = (T_c - T_ref) + b_ref`, the difference of the two schemes applied
+/// to the same data plus the reference's own estimate, with noise variance
+/// `var_c + var_ref + bvar_ref` (an upper bound: the two schemes' errors
+/// are positively correlated). Elsewhere `g` keeps its own estimate. The
+/// degree-5 fit (`gradient`) estimates a second-order scheme's leading
+/// error well but a fourth-order scheme's poorly where a core spans few
+/// nodes: on a Lamb-Oseen core of 1.5 pitches, 60 frames, the fit gave
+/// Richardson's mean truncation as 4 1/s where it was 25 1/s, the
+/// reference route 27 1/s.
+fn against_reference_at(reference: &Grad, g: &mut Grad, j: usize, i: usize) {
+    for c in 0..4 {
+        let (tr, br) = (reference.val[c][[j, i]], reference.bias[c][[j, i]]);
+        let (vr, bvr) = (reference.var[c][[j, i]], reference.bvar[c][[j, i]]);
+        if tr.is_finite() && br.is_finite() && g.val[c][[j, i]].is_finite() {
+            g.bias[c][[j, i]] = g.val[c][[j, i]] - tr + br;
+            g.bvar[c][[j, i]] = g.var[c][[j, i]] + vr + bvr;
+        }
+    }
+}
+
+/// The truncation of a fixed scheme that the fit cannot estimate
+/// (`DiffScheme::truncation_from_reference`) measured against the
+/// reference scheme's tensor at every node (`against_reference_at`).
+/// Nothing happens without truncation estimates.
+pub(super) fn against_reference(reference: &Grad, g: &mut Grad) {
+    if !(reference.has_truncation() && g.has_truncation()) {
+        return;
+    }
+    let (ny, nx) = g.val[1].dim();
+    for j in 0..ny {
+        for i in 0..nx {
+            against_reference_at(reference, g, j, i);
+        }
+    }
+}
+
+/// Keeps, per node, the scheme of a fixed map (`scheme_at`). The
+/// truncation of a scheme other than the first candidate (the reference,
+/// least squares by default) is measured against the reference
+/// (`against_reference_at`).
 fn keep_map(
     ws: &mut Workspace,
     mut grads: Vec<Grad>,
@@ -326,15 +355,7 @@ fn keep_map(
             if m == u8::MAX || m == 0 {
                 continue;
             }
-            let g = &mut others[m as usize - 1];
-            for c in 0..4 {
-                let (tr, br) = (reference.val[c][[j, i]], reference.bias[c][[j, i]]);
-                let (vr, bvr) = (reference.var[c][[j, i]], reference.bvar[c][[j, i]]);
-                if tr.is_finite() && br.is_finite() && g.val[c][[j, i]].is_finite() {
-                    g.bias[c][[j, i]] = g.val[c][[j, i]] - tr + br;
-                    g.bvar[c][[j, i]] = g.var[c][[j, i]] + vr + bvr;
-                }
-            }
+            against_reference_at(reference, &mut others[m as usize - 1], j, i);
         }
     }
     let out = merge_by_map(ws, &mut grads, &used);

@@ -299,7 +299,17 @@ pub(crate) fn derive_with(
         Scheme::Fixed(s) => vec![s],
         Scheme::Auto => p.candidates.clone(),
     };
-    let grads = gradients(ws, p, field, &vel, &sm, &schemes);
+    let mut grads = gradients(ws, p, field, &vel, &sm, &schemes);
+    if let Scheme::Fixed(s) = p.scheme {
+        if p.truncation && s.truncation_from_reference() {
+            // the fourth-order scheme's truncation, measured against the
+            // reference as `auto` measures it (one extra tensor per frame)
+            let mut r = gradients(ws, p, field, &vel, &sm, &[p.least_squares()]);
+            let reference = r.pop().expect("one scheme");
+            choice::against_reference(&reference, &mut grads[0]);
+            reference.recycle(ws);
+        }
+    }
     if let Some(pl) = pilot {
         pl.push(&grads, &vel.ok);
     }

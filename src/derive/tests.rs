@@ -504,3 +504,56 @@ fn edge_caches_do_not_mix_correlation_models() {
         );
     }
 }
+
+#[test]
+fn richardson_truncation_in_a_core_of_one_and_a_half_pitches_is_measured_against_the_reference() {
+    // Lamb-Oseen (Saffman 1992), core radius rc = 1.5 h, noise-free. The
+    // fourth-order scheme's error there is of the degree-5 fit's own order,
+    // so the fit alone misses most of it (measured in the coverage study:
+    // a mean truncation of 4 1/s where it was 25); the stage measures it
+    // against the least-squares reference (`choice::against_reference`),
+    // as `auto` does. The signed estimate must track the actual error.
+    let h = 1e-3;
+    let (gam, rc) = (0.01, 1.5e-3);
+    let g = grid(40, h);
+    let (xc, yc) = (0.0198, 0.0193);
+    let f = lamb_oseen(gam, rc, xc, yc, 0.0);
+    let wt = lamb_oseen_omega(gam, rc, xc, yc);
+    let fld = Field::from_fn(g, &f);
+    let d = derive(&params(DiffScheme::Richardson, 0.0), &fld);
+    let om = d.get("omega").unwrap();
+    let trunc = &om.trunc.as_ref().unwrap()[0];
+    let (mut se, mut st, mut n, mut same_sign) = (0.0, 0.0, 0, 0);
+    for j in 0..40 {
+        for i in 0..40 {
+            let (x, y) = (g.x(i), g.y(j));
+            if (x - xc).hypot(y - yc) > 2.0 * rc {
+                continue;
+            }
+            let (err, t) = (om.value[[j, i]] - wt(x, y), trunc[[j, i]]);
+            se += err * err;
+            st += t * t;
+            n += 1;
+            same_sign += usize::from(err * t > 0.0);
+        }
+    }
+    let (rms_err, rms_est) = ((se / n as f64).sqrt(), (st / n as f64).sqrt());
+    let peak = gam / (PI * rc * rc);
+    eprintln!(
+        "richardson, core 1.5 h: peak {peak:.0}, {n} nodes, rms error {rms_err:.1}, rms estimate {rms_est:.1} (1/s), same sign at {same_sign}"
+    );
+    // The error is about 2 % of the peak (measured 1.9 %). The estimate is
+    // on the safe side in size: not smaller than the error (the fit alone
+    // gave about a sixth of it in the coverage study) and at most 4 times
+    // it (measured 1.45; the study's width ratio in such a core is 1.9).
+    // Its sign is not the error's here (measured: opposite at all 29
+    // nodes): the reference's own estimate misses the 4-point stencil's
+    // error of 181 1/s by 48 1/s rms, more than the fourth-order scheme's
+    // whole error. The uncertainty uses the size only, so this stays on
+    // the safe side; `same_sign` is printed, not asserted.
+    assert!(rms_err > 0.01 * peak, "rms error {rms_err} of peak {peak}");
+    assert!(
+        rms_est >= rms_err && rms_est < 4.0 * rms_err,
+        "estimate {rms_est} against error {rms_err}"
+    );
+}

@@ -70,6 +70,15 @@ impl DiffScheme {
         }
     }
 
+    /// Whether this scheme's truncation is measured against the reference
+    /// scheme (least squares) rather than by the degree-5 fit of
+    /// `derive::gradient`: true for the fourth-order scheme, whose leading
+    /// error is of the fit's own order, so that where a core spans few
+    /// nodes the fit misses most of it (`derive::choice::against_reference`).
+    pub(crate) fn truncation_from_reference(&self) -> bool {
+        matches!(self, DiffScheme::Richardson)
+    }
+
     /// The scheme in plain words: "central differences", "least squares,
     /// window 5, order 1", …
     pub(crate) fn describe(&self) -> String {
