@@ -182,13 +182,29 @@ fn robust_correlation(sum: &mut [f64], diff: &mut [f64]) -> f64 {
 /// The overlap fraction `c` of the window correlation model estimated from
 /// the valid vectors of `field` (module docs), on the grid 0, 0.025, ...,
 /// 0.9; `None` with fewer than `MIN_PAIRS` residual pairs at some lag.
+///
+/// Steps: the high-pass residual along every row and column
+/// (`residual_lines`), a check that there is noise to correlate
+/// (`has_measurable_noise`), the robust correlation at lags 1..LAGS
+/// (`lag_correlations`), the model fit (`best_overlap`).
 pub(crate) fn estimate_overlap(field: &Field) -> Option<f64> {
+    let lines = residual_lines(field);
+    if !has_measurable_noise(&lines, field) {
+        return None;
+    }
+    let (measured, n_pairs) = lag_correlations(&lines)?;
+    best_overlap(&measured, n_pairs)
+}
+
+/// The residual (`residual_weights`, centred on each node) along x per
+/// row and along y per column, for u and v; NaN where the residual's
+/// reach leaves the grid or meets a vector that is not valid.
+fn residual_lines(field: &Field) -> Vec<Vec<f64>> {
     let (ny, nx) = field.status.dim();
     let valid = Array2::from_shape_fn((ny, nx), |ix| {
         field.status[ix] == VALID && field.u[ix].is_finite() && field.v[ix].is_finite()
     });
     let w = residual_weights();
-    // Residual lines: along x per row, along y per column, for u and v.
     let mut lines: Vec<Vec<f64>> = Vec::new();
     for a in [&field.u, &field.v] {
         for (len, n_lines, at) in [
@@ -220,8 +236,13 @@ pub(crate) fn estimate_overlap(field: &Field) -> Option<f64> {
             }
         }
     }
-    // No measurable noise (a synthetic field without errors): nothing to
-    // correlate.
+    lines
+}
+
+/// Whether the residuals hold measurable noise: a synthetic field without
+/// errors has residuals at rounding level (below 1e-9 of the largest
+/// velocity), and there is nothing to correlate.
+fn has_measurable_noise(lines: &[Vec<f64>], field: &Field) -> bool {
     let scale = lines
         .iter()
         .flatten()
@@ -233,9 +254,14 @@ pub(crate) fn estimate_overlap(field: &Field) -> Option<f64> {
         .chain(field.v.iter())
         .filter(|x| x.is_finite())
         .fold(0.0f64, |m, x| m.max(x.abs()));
-    if scale <= 1e-9 * level {
-        return None;
-    }
+    scale > 1e-9 * level
+}
+
+/// The robust correlation (`robust_correlation`) of the residuals at lags
+/// 1..=LAGS along the lines, from at most `MAX_PAIRS` pairs per lag taken
+/// at an even stride, with the fewest pairs any lag had; `None` when a
+/// lag has fewer than `MIN_PAIRS`.
+fn lag_correlations(lines: &[Vec<f64>]) -> Option<([f64; LAGS], usize)> {
     let mut measured = [0.0; LAGS];
     let mut n_pairs = usize::MAX;
     for (m, lag) in measured.iter_mut().zip(1..=LAGS) {
@@ -243,7 +269,7 @@ pub(crate) fn estimate_overlap(field: &Field) -> Option<f64> {
         let stride = (total / MAX_PAIRS).max(1);
         let (mut sum, mut diff) = (Vec::new(), Vec::new());
         let mut n = 0usize;
-        for l in &lines {
+        for l in lines {
             for k in 0..l.len().saturating_sub(lag) {
                 let (a, b) = (l[k], l[k + lag]);
                 if a.is_finite() && b.is_finite() {
@@ -261,15 +287,20 @@ pub(crate) fn estimate_overlap(field: &Field) -> Option<f64> {
         n_pairs = n_pairs.min(sum.len());
         *m = robust_correlation(&mut sum, &mut diff);
     }
-    // Least squares over the grid, then the smallest c whose misfit is
-    // within the sampling noise of the best (PARSIMONY / pairs: the
-    // variance of a lag correlation is about 1/pairs, four lags), so that
-    // white noise next to a vortex is not read as strong overlap.
+    Some((measured, n_pairs))
+}
+
+/// The overlap whose model lags (`model_lags`) fit the measured ones:
+/// least squares over the grid 0, C_STEP, ..., C_MAX, then the smallest c
+/// whose misfit is within the sampling noise of the best (PARSIMONY /
+/// pairs: the variance of a lag correlation is about 1/pairs, four lags),
+/// so that white noise next to a vortex is not read as strong overlap.
+fn best_overlap(measured: &[f64; LAGS], n_pairs: usize) -> Option<f64> {
     let steps = (C_MAX / C_STEP).round() as usize;
     let cost: Vec<f64> = (0..=steps)
         .map(|k| {
             let r = model_lags(k as f64 * C_STEP);
-            r.iter().zip(&measured).map(|(a, b)| (a - b).powi(2)).sum()
+            r.iter().zip(measured).map(|(a, b)| (a - b).powi(2)).sum()
         })
         .collect();
     let best = cost.iter().copied().fold(f64::INFINITY, f64::min);

@@ -257,7 +257,10 @@ pub(crate) fn window(half: (i32, i32)) -> Vec<(i32, i32)> {
 }
 
 impl AxisOp {
-    /// The operator `spec` describes.
+    /// The operator `spec` describes: the scheme's chain of stencils, their
+    /// composites with the smoother (`composites`), the truncation stencils
+    /// (`bias_stencils`), the cache keys (`fingerprints`) and the flat
+    /// views of the first (full-stencil) entry.
     pub(crate) fn new(spec: &OpSpec) -> AxisOp {
         let (scheme, axis, nx) = (spec.scheme, spec.axis, spec.nx);
         let h = match axis {
@@ -265,51 +268,9 @@ impl AxisOp {
             Axis::Y => spec.dy,
         };
         let chain = chain(scheme, axis, h);
-        let comp: Vec<Stencil> = chain
-            .iter()
-            .map(|d| spec.smoother.map_or_else(|| d.clone(), |s| d.after(s)))
-            .collect();
-        let sr = spec.smoother.map_or((0, 0), |s| s.reach());
-        let comp_box: Vec<(i32, i32)> = chain
-            .iter()
-            .map(|d| {
-                let r = d.reach();
-                ((r.0 + sr.0) as i32, (r.1 + sr.1) as i32)
-            })
-            .collect();
-        // The fit window covers the box the composite depends on, so the
-        // fit window's validity pattern determines the whole slow path.
-        let fit_half: Vec<(i32, i32)> = comp_box
-            .iter()
-            .map(|&(a, b)| fit_half((a as usize, b as usize)))
-            .collect();
-        let bias: Vec<Option<Shared>> = comp
-            .iter()
-            .zip(&fit_half)
-            .map(|(c, &fh)| {
-                if !spec.truncation {
-                    return None;
-                }
-                bias_stencil(c, axis, h, window(fh), fh).map(|b| {
-                    let g = spec.corr.gain(&b);
-                    Rc::new((b, g))
-                })
-            })
-            .collect();
-        // The cached entries hold correlation gains: the model is part of
-        // every key.
-        let ax = axis as u64;
-        let cf = corr_fingerprint(&spec.corr);
-        let sm_fp = spec.smoother.map_or(0, |s| fingerprint(0, s, &[]));
-        let fp_comp = chain
-            .iter()
-            .map(|d| fingerprint(1, d, &[ax, sm_fp, cf]))
-            .collect();
-        let fp_bias = comp
-            .iter()
-            .zip(&fit_half)
-            .map(|(c, fh)| fingerprint(2, c, &[ax, h.to_bits(), fh.0 as u64, fh.1 as u64, cf]))
-            .collect();
+        let (comp, comp_box, fit_half) = composites(spec, &chain);
+        let bias = bias_stencils(spec, &comp, &fit_half, h);
+        let (fp_comp, fp_bias) = fingerprints(spec, &chain, &comp, &fit_half, h);
         let flat_d = Flat::new(&chain[0], nx);
         let flat_b = bias[0].as_ref().map(|b| Flat::new(&b.0, nx));
         let mut r = chain[0].reach();
@@ -348,6 +309,81 @@ impl AxisOp {
             box_r: r,
         }
     }
+}
+
+/// Half-widths (rows, columns) of a box of nodes around a node.
+type HalfBox = (i32, i32);
+
+/// Each stencil of `chain` composed with the smoother (itself without
+/// one), the half-box each composite depends on, and the truncation fit's
+/// half-window over that box.
+fn composites(spec: &OpSpec, chain: &[Stencil]) -> (Vec<Stencil>, Vec<HalfBox>, Vec<HalfBox>) {
+    let comp: Vec<Stencil> = chain
+        .iter()
+        .map(|d| spec.smoother.map_or_else(|| d.clone(), |s| d.after(s)))
+        .collect();
+    let sr = spec.smoother.map_or((0, 0), |s| s.reach());
+    let comp_box: Vec<(i32, i32)> = chain
+        .iter()
+        .map(|d| {
+            let r = d.reach();
+            ((r.0 + sr.0) as i32, (r.1 + sr.1) as i32)
+        })
+        .collect();
+    // The fit window covers the box the composite depends on, so the
+    // fit window's validity pattern determines the whole slow path.
+    let fit_half: Vec<(i32, i32)> = comp_box
+        .iter()
+        .map(|&(a, b)| fit_half((a as usize, b as usize)))
+        .collect();
+    (comp, comp_box, fit_half)
+}
+
+/// The truncation stencil of each composite (`bias_stencil` on its fit
+/// window) with its correlation gain; all `None` without truncation
+/// estimates, and `None` where the fit has too few nodes.
+fn bias_stencils(
+    spec: &OpSpec,
+    comp: &[Stencil],
+    fit_half: &[(i32, i32)],
+    h: f64,
+) -> Vec<Option<Shared>> {
+    comp.iter()
+        .zip(fit_half)
+        .map(|(c, &fh)| {
+            if !spec.truncation {
+                return None;
+            }
+            bias_stencil(c, spec.axis, h, window(fh), fh).map(|b| {
+                let g = spec.corr.gain(&b);
+                Rc::new((b, g))
+            })
+        })
+        .collect()
+}
+
+/// The cache keys of the composites and of the truncation stencils. The
+/// cached entries hold correlation gains: the model is part of every key.
+fn fingerprints(
+    spec: &OpSpec,
+    chain: &[Stencil],
+    comp: &[Stencil],
+    fit_half: &[(i32, i32)],
+    h: f64,
+) -> (Vec<u64>, Vec<u64>) {
+    let ax = spec.axis as u64;
+    let cf = corr_fingerprint(&spec.corr);
+    let sm_fp = spec.smoother.map_or(0, |s| fingerprint(0, s, &[]));
+    let fp_comp = chain
+        .iter()
+        .map(|d| fingerprint(1, d, &[ax, sm_fp, cf]))
+        .collect();
+    let fp_bias = comp
+        .iter()
+        .zip(fit_half)
+        .map(|(c, fh)| fingerprint(2, c, &[ax, h.to_bits(), fh.0 as u64, fh.1 as u64, cf]))
+        .collect();
+    (fp_comp, fp_bias)
 }
 
 /// A fingerprint of a correlation model (part of every cache key: the

@@ -98,58 +98,11 @@ pub(crate) fn welch_gapped(
     noverlap: usize,
     coverage: f64,
 ) -> Result<Psd> {
-    if nperseg < 2 || noverlap >= nperseg {
-        return Err(Error::usage(format!(
-            "{name}: Welch segments of {nperseg} samples overlapping by {noverlap} are not possible"
-        )));
-    }
-    if x.len() < nperseg {
-        return Err(Error::data(format!(
-            "{name}: {} samples are fewer than one segment of {nperseg}",
-            x.len()
-        )));
-    }
+    let starts = whole_segments(name, x, nperseg, noverlap)?;
     let w = hann(nperseg);
-    let step = nperseg - noverlap;
-    let k_all = (x.len() - nperseg) / step + 1;
-    let whole: Vec<bool> = (0..k_all)
-        .map(|s| {
-            x[s * step..s * step + nperseg]
-                .iter()
-                .all(|v| v.is_finite())
-        })
-        .collect();
-    let k = whole.iter().filter(|&&b| b).count();
-    if k == 0 {
-        return Err(Error::data(format!(
-            "{name}: no segment of {nperseg} samples is free of missing samples"
-        )));
-    }
-    let fft = FftPlanner::<f64>::new().plan_fft_forward(nperseg);
+    let per_segment = segment_periodograms(x, fs, &w, &starts);
+    let k = starts.len();
     let nf = nperseg / 2 + 1;
-    let scale = 1.0 / (fs * w.iter().map(|v| v * v).sum::<f64>());
-    let one_sided = |i: usize| {
-        if i == 0 || (nperseg % 2 == 0 && i == nf - 1) {
-            1.0
-        } else {
-            2.0
-        }
-    };
-    let mut per_segment = Vec::with_capacity(k);
-    let mut buf = vec![Complex::new(0.0, 0.0); nperseg];
-    for s in (0..k_all).filter(|&s| whole[s]) {
-        let seg = &x[s * step..s * step + nperseg];
-        let mean = seg.iter().sum::<f64>() / nperseg as f64;
-        for ((b, v), wt) in buf.iter_mut().zip(seg).zip(&w) {
-            *b = Complex::new((v - mean) * wt, 0.0);
-        }
-        fft.process(&mut buf);
-        per_segment.push(
-            (0..nf)
-                .map(|i| buf[i].norm_sqr() * scale * one_sided(i))
-                .collect::<Vec<f64>>(),
-        );
-    }
     // the mean in the order `welch` always summed (segment by segment)
     let mut acc = vec![0.0; nf];
     for p in &per_segment {
@@ -158,7 +111,6 @@ pub(crate) fn welch_gapped(
         }
     }
     let psd: Vec<f64> = acc.iter().map(|a| a / k as f64).collect();
-    let starts: Vec<usize> = (0..k_all).filter(|&s| whole[s]).map(|s| s * step).collect();
     let dof = dof_segments(&w, &starts);
     let chi = ChiSquared::new(dof).map_err(|e| Error::data(format!("{name}: {e}")))?;
     let (hi_q, lo_q) = (
@@ -175,6 +127,69 @@ pub(crate) fn welch_gapped(
         df: fs / nperseg as f64,
         per_segment,
     })
+}
+
+/// The start of every Welch segment of `x` (`nperseg` samples, shifted by
+/// `nperseg - noverlap`) that holds no NaN; a usage error for impossible
+/// segments, a data error when the series is shorter than one segment or
+/// no segment is whole.
+fn whole_segments(name: &str, x: &[f64], nperseg: usize, noverlap: usize) -> Result<Vec<usize>> {
+    if nperseg < 2 || noverlap >= nperseg {
+        return Err(Error::usage(format!(
+            "{name}: Welch segments of {nperseg} samples overlapping by {noverlap} are not possible"
+        )));
+    }
+    if x.len() < nperseg {
+        return Err(Error::data(format!(
+            "{name}: {} samples are fewer than one segment of {nperseg}",
+            x.len()
+        )));
+    }
+    let step = nperseg - noverlap;
+    let k_all = (x.len() - nperseg) / step + 1;
+    let starts: Vec<usize> = (0..k_all)
+        .map(|s| s * step)
+        .filter(|&t| x[t..t + nperseg].iter().all(|v| v.is_finite()))
+        .collect();
+    if starts.is_empty() {
+        return Err(Error::data(format!(
+            "{name}: no segment of {nperseg} samples is free of missing samples"
+        )));
+    }
+    Ok(starts)
+}
+
+/// The one-sided periodogram of each segment starting at `starts`: the
+/// segment's mean removed, the window `w` applied, `|FFT|^2 / (fs sum w^2)`,
+/// doubled but at zero and (even length) Nyquist frequency.
+fn segment_periodograms(x: &[f64], fs: f64, w: &[f64], starts: &[usize]) -> Vec<Vec<f64>> {
+    let nperseg = w.len();
+    let fft = FftPlanner::<f64>::new().plan_fft_forward(nperseg);
+    let nf = nperseg / 2 + 1;
+    let scale = 1.0 / (fs * w.iter().map(|v| v * v).sum::<f64>());
+    let one_sided = |i: usize| {
+        if i == 0 || (nperseg % 2 == 0 && i == nf - 1) {
+            1.0
+        } else {
+            2.0
+        }
+    };
+    let mut per_segment = Vec::with_capacity(starts.len());
+    let mut buf = vec![Complex::new(0.0, 0.0); nperseg];
+    for &t in starts {
+        let seg = &x[t..t + nperseg];
+        let mean = seg.iter().sum::<f64>() / nperseg as f64;
+        for ((b, v), wt) in buf.iter_mut().zip(seg).zip(w) {
+            *b = Complex::new((v - mean) * wt, 0.0);
+        }
+        fft.process(&mut buf);
+        per_segment.push(
+            (0..nf)
+                .map(|i| buf[i].norm_sqr() * scale * one_sided(i))
+                .collect::<Vec<f64>>(),
+        );
+    }
+    per_segment
 }
 
 /// Equivalent degrees of freedom of K averaged segments of window `w`

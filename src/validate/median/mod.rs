@@ -297,66 +297,33 @@ pub(crate) fn normalized_residual(u0: f64, nb: &mut [f64], eps: f64) -> f64 {
 pub(crate) fn apply(p: &MedianParams, field: &mut Field) -> usize {
     let eps = p.eps_for(field);
     let (ny, nx) = field.status.dim();
-    let r = p.radius.clamp(1, 2) as isize;
-    let need = p.min_neighbours.max(1);
     let st = field.status.as_slice().expect("standard layout");
     let us = field.u.as_slice().expect("standard layout");
     let vs = field.v.as_slice().expect("standard layout");
-    let mask: Vec<bool> = (0..st.len())
+    let ok: Vec<bool> = (0..st.len())
         .map(|k| st[k] == VALID && us[k].is_finite() && vs[k].is_finite())
         .collect();
-    let ok = |k: usize| mask[k];
+    let nb = Neighbourhood {
+        us,
+        vs,
+        ok: &ok,
+        nx,
+        ny,
+        r: p.radius.clamp(1, 2) as isize,
+        need: p.min_neighbours.max(1),
+        eps,
+    };
     let mut rejected: Vec<usize> = Vec::new();
     let mut bu = [0.0f64; MAX_NB];
     let mut bv = [0.0f64; MAX_NB];
     for j in 0..ny {
-        let j0 = (j as isize - r).max(0) as usize;
-        let j1 = (j as isize + r).min(ny as isize - 1) as usize;
         for i in 0..nx {
             let k = j * nx + i;
-            if !ok(k) {
+            if !ok[k] {
                 continue;
             }
-            let i0 = (i as isize - r).max(0) as usize;
-            let i1 = (i as isize + r).min(nx as isize - 1) as usize;
-            let (ru, rv) = if r == 1 {
-                // radius 1: both components through the paired network
-                let mut b = [Pair::splat(f64::INFINITY); 8];
-                let mut n = 0;
-                for jj in j0..=j1 {
-                    let row = jj * nx;
-                    for q in row + i0..=row + i1 {
-                        if q != k && ok(q) {
-                            b[n] = Pair::new(us[q], vs[q]);
-                            n += 1;
-                        }
-                    }
-                }
-                if n < need {
-                    continue;
-                }
-                let [ru, rv] = residual_pair8(Pair::new(us[k], vs[k]), &mut b, n, eps);
-                (ru, rv)
-            } else {
-                let mut n = 0;
-                for jj in j0..=j1 {
-                    let row = jj * nx;
-                    for ii in i0..=i1 {
-                        let q = row + ii;
-                        if q != k && ok(q) {
-                            bu[n] = us[q];
-                            bv[n] = vs[q];
-                            n += 1;
-                        }
-                    }
-                }
-                if n < need {
-                    continue;
-                }
-                (
-                    normalized_residual(us[k], &mut bu[..n], eps),
-                    normalized_residual(vs[k], &mut bv[..n], eps),
-                )
+            let Some((ru, rv)) = nb.residuals(j, i, &mut bu, &mut bv) else {
+                continue;
             };
             let bad = match p.combine {
                 Combine::Either => ru > p.threshold || rv > p.threshold,
@@ -378,214 +345,79 @@ pub(crate) fn apply(p: &MedianParams, field: &mut Field) -> usize {
     rejected.len()
 }
 
-#[cfg(test)]
-mod tests {
-    use super::*;
-    use crate::field::{Grid, FILLED};
-    use crate::testutil::assert_close;
+/// What the test reads around a node: both components and the validity of
+/// every node (row-major, `nx` per row), the radius, the fewest valid
+/// neighbours a test needs, and epsilon.
+struct Neighbourhood<'a> {
+    us: &'a [f64],
+    vs: &'a [f64],
+    ok: &'a [bool],
+    nx: usize,
+    ny: usize,
+    r: isize,
+    need: usize,
+    eps: f64,
+}
 
-    fn grid(nx: usize, ny: usize) -> Grid {
-        Grid {
-            nx,
-            ny,
-            x0: 0.0,
-            y0: 0.0,
-            dx: 1.0,
-            dy: 1.0,
+impl Neighbourhood<'_> {
+    /// The normalized residuals of u and v at node (j, i) from its valid
+    /// neighbours within the radius (the box cut by the grid's edges), or
+    /// `None` with fewer than `need` of them. Radius 1 runs both
+    /// components through the paired sorting network (`residual_pair8`);
+    /// radius 2 sorts each component in the buffers `bu`, `bv`.
+    #[inline]
+    fn residuals(
+        &self,
+        j: usize,
+        i: usize,
+        bu: &mut [f64; MAX_NB],
+        bv: &mut [f64; MAX_NB],
+    ) -> Option<(f64, f64)> {
+        let (nx, r) = (self.nx, self.r);
+        let (us, vs, k) = (self.us, self.vs, j * nx + i);
+        let j0 = (j as isize - r).max(0) as usize;
+        let j1 = (j as isize + r).min(self.ny as isize - 1) as usize;
+        let i0 = (i as isize - r).max(0) as usize;
+        let i1 = (i as isize + r).min(nx as isize - 1) as usize;
+        if r == 1 {
+            let mut b = [Pair::splat(f64::INFINITY); 8];
+            let mut n = 0;
+            for jj in j0..=j1 {
+                let row = jj * nx;
+                for q in row + i0..=row + i1 {
+                    if q != k && self.ok[q] {
+                        b[n] = Pair::new(us[q], vs[q]);
+                        n += 1;
+                    }
+                }
+            }
+            if n < self.need {
+                return None;
+            }
+            let [ru, rv] = residual_pair8(Pair::new(us[k], vs[k]), &mut b, n, self.eps);
+            return Some((ru, rv));
         }
-    }
-
-    /// docs/methods.md check values (derived): neighbours 1..8, eps 0.1:
-    /// Um = 4.5, rm = 2.0; U0 = 9.0 gives r0 = 2.142857, U0 = 8.5 gives
-    /// 1.904762; eight equal neighbours 1.0 and U0 = 1.5 give r0 = 5.
-    /// The 0-1 principle (Knuth, TAOCP vol. 3, 5.3.4): a comparator network
-    /// sorts every input if it sorts all 2^8 inputs of zeros and ones.
-    #[test]
-    fn the_eight_input_network_sorts_and_selection_gives_medians() {
-        for bits in 0u32..256 {
-            let mut a: Vec<f64> = (0..8).map(|b| ((bits >> b) & 1) as f64).collect();
-            median_small(&mut a);
-            assert!(a.windows(2).all(|w| w[0] <= w[1]), "{bits:08b}: {a:?}");
-        }
-        // padded: fewer than 8 values come back sorted too
-        let mut a = [3.0, -1.0, 2.0, 0.5, 7.0];
-        assert_eq!(median_small(&mut a), 2.0);
-        assert_eq!(a, [-1.0, 0.5, 2.0, 3.0, 7.0]);
-        // other counts against the one median of the crate (crate::robust),
-        // bit for bit
-        let mut r = crate::testutil::rng(9);
-        for n in 1..=24 {
-            let v: Vec<f64> = (0..n)
-                .map(|_| rand::Rng::random_range(&mut r, -5.0..5.0))
-                .collect();
-            let want = crate::robust::median(&mut v.clone());
-            assert_eq!(median_small(&mut v.clone()), want, "n {n}");
-        }
-    }
-
-    #[test]
-    fn methods_check_values_of_the_normalized_residual() {
-        let mut nb = [8.0, 3.0, 1.0, 6.0, 2.0, 7.0, 5.0, 4.0];
-        assert_close(
-            normalized_residual(9.0, &mut nb, 0.1),
-            4.5 / 2.1,
-            1e-12,
-            0.0,
-            "U0 = 9",
-        );
-        let mut nb = [8.0, 3.0, 1.0, 6.0, 2.0, 7.0, 5.0, 4.0];
-        assert_close(
-            normalized_residual(9.0, &mut nb, 0.1),
-            2.142857,
-            1e-6,
-            0.0,
-            "U0 = 9 rounded",
-        );
-        let mut nb = [8.0, 3.0, 1.0, 6.0, 2.0, 7.0, 5.0, 4.0];
-        assert_close(
-            normalized_residual(8.5, &mut nb, 0.1),
-            1.904762,
-            1e-6,
-            0.0,
-            "U0 = 8.5",
-        );
-        let mut nb = [1.0; 8];
-        assert_close(
-            normalized_residual(1.5, &mut nb, 0.1),
-            5.0,
-            1e-12,
-            0.0,
-            "equal neighbours",
-        );
-    }
-
-    /// A 3x3 field whose centre has the docs/methods.md neighbourhood in u (and
-    /// a constant v), judged with both combination rules.
-    fn centre_case(u0: f64, v_nb: [f64; 8], v0: f64, combine: Combine) -> bool {
-        let mut f = Field::from_fn(grid(3, 3), |_, _| (0.0, 0.0));
-        let us = [1.0, 2.0, 3.0, 4.0, 5.0, 6.0, 7.0, 8.0];
         let mut n = 0;
-        for j in 0..3 {
-            for i in 0..3 {
-                if (j, i) == (1, 1) {
-                    f.u[[1, 1]] = u0;
-                    f.v[[1, 1]] = v0;
-                } else {
-                    f.u[[j, i]] = us[n];
-                    f.v[[j, i]] = v_nb[n];
+        for jj in j0..=j1 {
+            let row = jj * nx;
+            for ii in i0..=i1 {
+                let q = row + ii;
+                if q != k && self.ok[q] {
+                    bu[n] = us[q];
+                    bv[n] = vs[q];
                     n += 1;
                 }
             }
         }
-        // only the centre has 8 neighbours; corners/edges have 3-5 and are
-        // tested too, so look at the centre's status alone
-        let p = MedianParams {
-            eps: 0.1,
-            min_neighbours: 8,
-            combine,
-            ..MedianParams::default()
-        };
-        apply(&p, &mut f);
-        f.status[[1, 1]] == REPLACED
-    }
-
-    /// The paired kernel against the crate's one median of each component
-    /// (crate::robust, numpy's convention: mean of the two middle values
-    /// when even), bit for bit.
-    #[test]
-    fn the_paired_network_equals_a_sort_per_component() {
-        fn med(mut v: Vec<f64>) -> f64 {
-            crate::robust::median(&mut v)
+        if n < self.need {
+            return None;
         }
-        fn r0(c: f64, nb: &[f64], eps: f64) -> f64 {
-            let m = med(nb.to_vec());
-            let rm = med(nb.iter().map(|x| (x - m).abs()).collect());
-            (c - m).abs() / (rm + eps)
-        }
-        let mut r = crate::testutil::rng(17);
-        for trial in 0..2000 {
-            let n = 1 + trial % 8;
-            let u: Vec<f64> = (0..n)
-                .map(|_| rand::Rng::random_range(&mut r, -3.0..3.0))
-                .collect();
-            let v: Vec<f64> = (0..n)
-                .map(|_| rand::Rng::random_range(&mut r, -3.0..3.0))
-                .collect();
-            let (cu, cv) = (rand::Rng::random_range(&mut r, -6.0..6.0), 0.5);
-            let mut b = [Pair::splat(f64::INFINITY); 8];
-            for q in 0..n {
-                b[q] = Pair::new(u[q], v[q]);
-            }
-            let [ru, rv] = residual_pair8(Pair::new(cu, cv), &mut b, n, 0.1);
-            assert_eq!(ru, r0(cu, &u, 0.1), "u, n {n}");
-            assert_eq!(rv, r0(cv, &v, 0.1), "v, n {n}");
-        }
-    }
-
-    #[test]
-    fn both_combination_rules_on_the_methods_check_values() {
-        let flat = [0.0; 8];
-        // u alone: r0u = 2.142857 > 2 rejects under both rules (rv = 0)
-        assert!(centre_case(9.0, flat, 0.0, Combine::Either));
-        assert!(centre_case(9.0, flat, 0.0, Combine::Magnitude));
-        // r0u = 1.904762 is kept under both
-        assert!(!centre_case(8.5, flat, 0.0, Combine::Either));
-        assert!(!centre_case(8.5, flat, 0.0, Combine::Magnitude));
-        // v neighbours 1..8 too and v0 = 8.5: each 1.904762 (kept by
-        // "either"), magnitude sqrt(2)*1.904762 = 2.693712 (rejected)
-        let v = [1.0, 2.0, 3.0, 4.0, 5.0, 6.0, 7.0, 8.0];
-        assert!(!centre_case(8.5, v, 8.5, Combine::Either));
-        assert!(centre_case(8.5, v, 8.5, Combine::Magnitude));
-    }
-
-    #[test]
-    fn invalid_neighbours_are_left_out_and_sparse_nodes_not_tested() {
-        let mut f = Field::from_fn(grid(5, 5), |x, y| (1.0 + 0.01 * x, 0.01 * y));
-        // an outlier surrounded by invalid vectors on one side
-        f.u[[2, 2]] = 10.0;
-        for i in 1..4 {
-            f.status[[1, i]] = FILLED;
-            f.u[[1, i]] = f64::NAN;
-            f.v[[1, i]] = f64::NAN;
-        }
-        let p = MedianParams {
-            eps: 0.01,
-            ..MedianParams::default()
-        };
-        let n = apply(&p, &mut f);
-        assert_eq!(n, 1);
-        assert_eq!(f.status[[2, 2]], REPLACED);
-        assert!(f.u[[2, 2]].is_nan());
-        // with min 6 neighbours the centre (5 valid) is not tested
-        let mut f2 = Field::from_fn(grid(5, 5), |x, y| (1.0 + 0.01 * x, 0.01 * y));
-        f2.u[[2, 2]] = 10.0;
-        for i in 1..4 {
-            f2.status[[1, i]] = FILLED;
-        }
-        let p = MedianParams {
-            eps: 0.01,
-            min_neighbours: 6,
-            ..MedianParams::default()
-        };
-        apply(&p, &mut f2);
-        assert_eq!(f2.status[[2, 2]], VALID);
-    }
-
-    #[test]
-    fn radius_two_catches_a_pair_of_adjacent_outliers() {
-        // two identical outliers side by side: in 3x3 each has the other as
-        // one of 8 neighbours (median unaffected), both caught; a 2x2 block
-        // is also caught with radius 2 (3 of 24 neighbours wrong)
-        let mut f = Field::from_fn(grid(9, 9), |x, y| (1.0 + 0.01 * x, 0.02 * y));
-        for (j, i) in [(4, 4), (4, 5), (5, 4), (5, 5)] {
-            f.u[[j, i]] = 5.0;
-        }
-        let p = MedianParams {
-            eps: 0.01,
-            radius: 2,
-            min_neighbours: 8,
-            ..MedianParams::default()
-        };
-        assert_eq!(apply(&p, &mut f), 4);
+        Some((
+            normalized_residual(us[k], &mut bu[..n], self.eps),
+            normalized_residual(vs[k], &mut bv[..n], self.eps),
+        ))
     }
 }
+
+#[cfg(test)]
+mod tests;
