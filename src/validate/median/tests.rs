@@ -3,19 +3,8 @@
 //! residual, and hand-made fields for the neighbourhood rules.
 
 use super::*;
-use crate::field::{Grid, FILLED};
-use crate::testutil::assert_close;
-
-fn grid(nx: usize, ny: usize) -> Grid {
-    Grid {
-        nx,
-        ny,
-        x0: 0.0,
-        y0: 0.0,
-        dx: 1.0,
-        dy: 1.0,
-    }
-}
+use crate::field::FILLED;
+use crate::testutil::{assert_close, grid};
 
 /// docs/methods.md check values (derived): neighbours 1..8, eps 0.1:
 /// Um = 4.5, rm = 2.0; U0 = 9.0 gives r0 = 2.142857, U0 = 8.5 gives
@@ -84,7 +73,7 @@ fn methods_check_values_of_the_normalized_residual() {
 /// A 3x3 field whose centre has the docs/methods.md neighbourhood in u (and
 /// a constant v), judged with both combination rules.
 fn centre_case(u0: f64, v_nb: [f64; 8], v0: f64, combine: Combine) -> bool {
-    let mut f = Field::from_fn(grid(3, 3), |_, _| (0.0, 0.0));
+    let mut f = Field::from_fn(grid(3, 3, 1.0), |_, _| (0.0, 0.0));
     let us = [1.0, 2.0, 3.0, 4.0, 5.0, 6.0, 7.0, 8.0];
     let mut n = 0;
     for j in 0..3 {
@@ -162,7 +151,7 @@ fn both_combination_rules_on_the_methods_check_values() {
 
 #[test]
 fn invalid_neighbours_are_left_out_and_sparse_nodes_not_tested() {
-    let mut f = Field::from_fn(grid(5, 5), |x, y| (1.0 + 0.01 * x, 0.01 * y));
+    let mut f = Field::from_fn(grid(5, 5, 1.0), |x, y| (1.0 + 0.01 * x, 0.01 * y));
     // an outlier surrounded by invalid vectors on one side
     f.u[[2, 2]] = 10.0;
     for i in 1..4 {
@@ -179,7 +168,7 @@ fn invalid_neighbours_are_left_out_and_sparse_nodes_not_tested() {
     assert_eq!(f.status[[2, 2]], REPLACED);
     assert!(f.u[[2, 2]].is_nan());
     // with min 6 neighbours the centre (5 valid) is not tested
-    let mut f2 = Field::from_fn(grid(5, 5), |x, y| (1.0 + 0.01 * x, 0.01 * y));
+    let mut f2 = Field::from_fn(grid(5, 5, 1.0), |x, y| (1.0 + 0.01 * x, 0.01 * y));
     f2.u[[2, 2]] = 10.0;
     for i in 1..4 {
         f2.status[[1, i]] = FILLED;
@@ -198,7 +187,7 @@ fn radius_two_catches_a_pair_of_adjacent_outliers() {
     // two identical outliers side by side: in 3x3 each has the other as
     // one of 8 neighbours (median unaffected), both caught; a 2x2 block
     // is also caught with radius 2 (3 of 24 neighbours wrong)
-    let mut f = Field::from_fn(grid(9, 9), |x, y| (1.0 + 0.01 * x, 0.02 * y));
+    let mut f = Field::from_fn(grid(9, 9, 1.0), |x, y| (1.0 + 0.01 * x, 0.02 * y));
     for (j, i) in [(4, 4), (4, 5), (5, 4), (5, 5)] {
         f.u[[j, i]] = 5.0;
     }
