@@ -4,7 +4,9 @@
 # a one-node cluster on localhost, submits the README's job-array script for
 # the demo campaign with 4 shards, waits, merges, and checks that the merged
 # outputs equal a single run (frames.csv byte for byte, every other table
-# to 1e-10 relative: accumulators merge in another grouping than one run's).
+# to rounding: 1e-10 relative, or 1e-6 of the standard uncertainty for
+# fitted and debiased numbers; accumulators merge in another grouping than
+# one run's).
 #
 # Usage: .ci/slurm.sh [CURLEW_BINARY]   (default: the debug binary that
 # `cargo test` built, else a release build). Needs root (packages, daemons). Exit 0: proven;
@@ -135,27 +137,52 @@ for f in $(cd single && find . -name 'frames.csv' | sort); do
 done
 [ "$n" -gt 0 ] || fail "no frames.csv to compare"
 python3 - single merged <<'PY' || fail "the merged tables differ from a single run beyond rounding"
-import csv, math, pathlib, sys
+# Equal to rounding. The shards' accumulators add in another grouping than
+# one run's, so the inputs of every derived number differ in the last bits.
+# Plain numbers: 1e-12 + 1e-10 |value|. Rounding is amplified where a
+# number comes from an ill-conditioned solve (the Lamb-Oseen fit: measured
+# up to 8e-10 relative on the demo) or from a debiased difference of
+# squares (the *_bias columns); the same conditioning amplifies the noise
+# into that number's uncertainty, so there a difference passes when it is
+# at most 1e-6 of the number's standard uncertainty (its `_unc` column in
+# the same row), and an uncertainty, bias or chi-square itself to 1e-6 of
+# its value.
+import csv, pathlib, sys
 a, b = map(pathlib.Path, sys.argv[1:3])
-worst, files = 0.0, 0
+worst, files, by_unc = 0.0, 0, 0
 for fa in sorted(a.rglob("*.csv")):
     fb = b / fa.relative_to(a)
     ra, rb = list(csv.reader(open(fa))), list(csv.reader(open(fb)))
     assert len(ra) == len(rb), f"{fa}: {len(ra)} vs {len(rb)} rows"
+    head = ra[0]
+    col = {name: k for k, name in enumerate(head)}
     for x, y in zip(ra, rb):
         assert len(x) == len(y), f"{fa}: row lengths differ"
-        for p, q in zip(x, y):
+        for k, (p, q) in enumerate(zip(x, y)):
             if p == q:
                 continue
             try:
                 u, v = float(p), float(q)
             except ValueError:
-                raise AssertionError(f"{fa}: {p!r} vs {q!r}")
+                raise AssertionError(f"{fa}: {head[k]}: {p!r} vs {q!r}")
             d = abs(u - v)
-            assert d <= 1e-12 + 1e-10 * abs(v), f"{fa}: {p} vs {q}"
-            worst = max(worst, d / (1e-12 + 1e-10 * abs(v)))
+            if d <= 1e-12 + 1e-10 * abs(v):
+                worst = max(worst, d / (1e-12 + 1e-10 * abs(v)))
+                continue
+            name = head[k]
+            # fit_x, fit_y have no column of their own: the core's x_unc, y_unc.
+            unc = col.get(name + "_unc", col.get(name.removeprefix("fit_") + "_unc"))
+            if unc is not None and x[unc] not in ("", "NaN"):
+                scale = abs(float(x[unc]))
+            elif name.endswith("_unc") or "_bias" in name or "chi2" in name:
+                scale = abs(v)
+            else:
+                scale = 0.0
+            assert d <= 1e-6 * scale, f"{fa}: {name}: {p} vs {q}"
+            by_unc += 1
     files += 1
-print(f"slurm: {files} CSV tables agree; the largest difference is {worst:.3f} of the tolerance 1e-12 + 1e-10 |value|")
+print(f"slurm: {files} CSV tables agree; the largest plain difference is {worst:.3f} of the tolerance "
+      f"1e-12 + 1e-10 |value|; {by_unc} fitted or debiased values agree to 1e-6 of their uncertainty")
 PY
 echo "slurm: ok: 4 array tasks on a one-node Slurm cluster merged into outputs equal to a single run (frames.csv byte for byte, statistics to rounding)"
 rm -rf "$WORK"
