@@ -31,7 +31,7 @@
 
 use ndarray::Array2;
 
-use super::ops::{bias_stencil, window, OpSpec, Shared};
+use super::ops::{bias_stencil, window, AxisOp, OpSpec, Shared};
 use super::workspace::Workspace;
 use crate::stencil::correlation::Correlation;
 use crate::stencil::cut::{cut, Cut};
@@ -162,15 +162,7 @@ fn pattern(ok: &Array2<bool>, j: usize, i: usize, r: (i32, i32)) -> Option<u128>
 /// The gradient tensor of `scheme` at every node.
 pub(crate) fn gradient(ws: &mut Workspace, scheme: DiffScheme, inp: &Inputs) -> Grad {
     let (ny, nx) = inp.ok.dim();
-    let mut nan = || ws.buffer(ny * nx);
-    let mut val = [nan(), nan(), nan(), nan()];
-    let mut var = [nan(), nan(), nan(), nan()];
-    // Without a truncation estimate the truncation slots are empty (shape
-    // (0, 0)): nothing reads them then (`Grad::has_truncation`).
-    let mut nb = || if inp.truncation { nan() } else { Vec::new() };
-    let mut bias_ = [nb(), nb(), nb(), nb()];
-    let mut bvar = [nb(), nb(), nb(), nb()];
-    let mut fallback = 0usize;
+    let mut out = Slots::new(ws, ny * nx, inp.truncation);
     let spec = |axis| OpSpec {
         scheme,
         axis,
@@ -183,13 +175,7 @@ pub(crate) fn gradient(ws: &mut Workspace, scheme: DiffScheme, inp: &Inputs) -> 
     };
     let ops = [ws.axis_op(&spec(Axis::X)), ws.axis_op(&spec(Axis::Y))];
     let ops = [&*ops[0], &*ops[1]];
-    let us = inp.us.as_slice().expect("standard layout");
-    let vs = inp.vs.as_slice().expect("standard layout");
-    let u = inp.u.as_slice().expect("standard layout");
-    let v = inp.v.as_slice().expect("standard layout");
-    let sig_u = inp.sig_u.as_slice().expect("standard layout");
-    let sig_v = inp.sig_v.as_slice().expect("standard layout");
-    let (ru2, rv2) = (inp.sig_ref.0 * inp.sig_ref.0, inp.sig_ref.1 * inp.sig_ref.1);
+    let flat = FlatInputs::new(inp);
     let ok_s = inp.ok.as_slice().expect("standard layout");
     for j in 0..ny {
         for i in 0..nx {
@@ -201,126 +187,257 @@ pub(crate) fn gradient(ws: &mut Workspace, scheme: DiffScheme, inp: &Inputs) -> 
             for (ax, op) in ops.iter().enumerate() {
                 // Component slots: x -> (a, c), y -> (b, d).
                 let (su, sv) = if ax == 0 { (0, 2) } else { (1, 3) };
-                let (nu, nv) = (inp.need[su], inp.need[sv]);
+                let pair = Pair {
+                    su,
+                    sv,
+                    nu: inp.need[su],
+                    nv: inp.need[sv],
+                };
                 if box_plain(inp.not_plain, j, i, op.box_r) {
-                    (val[su][k], val[sv][k]) = op.flat_d.apply_uv(us, vs, k, nu, nv);
-                    let g0 = op.comp[0].1;
-                    if nu {
-                        var[su][k] = g0 * ru2;
-                    }
-                    if nv {
-                        var[sv][k] = g0 * rv2;
-                    }
-                    if let (Some(fb), Some(b0)) = (&op.flat_b, &op.bias[0]) {
-                        let bg = b0.1;
-                        (bias_[su][k], bias_[sv][k]) = fb.apply_uv(u, v, k, nu, nv);
-                        if nu {
-                            bvar[su][k] = bg * ru2;
-                        }
-                        if nv {
-                            bvar[sv][k] = bg * rv2;
-                        }
-                    }
-                    continue;
-                }
-                if box_plain(inp.not_ok, j, i, op.box_r) {
-                    // Every node of the box has a value, so the scheme's own
-                    // stencil, its composite and its truncation stencil all
-                    // fit (what the general path below would find), but the
-                    // uncertainties differ from node to node.
-                    (val[su][k], val[sv][k]) = op.flat_d.apply_uv(us, vs, k, nu, nv);
-                    if nu {
-                        var[su][k] = op.var_d.at(sig_u, k);
-                    }
-                    if nv {
-                        var[sv][k] = op.var_d.at(sig_v, k);
-                    }
-                    if let (Some(fb), Some(vb)) = (&op.flat_b, &op.var_b) {
-                        (bias_[su][k], bias_[sv][k]) = fb.apply_uv(u, v, k, nu, nv);
-                        if nu {
-                            bvar[su][k] = vb.at(sig_u, k);
-                        }
-                        if nv {
-                            bvar[sv][k] = vb.at(sig_v, k);
-                        }
-                    }
-                    continue;
-                }
-                let Some(c) = op.chain.iter().position(|s| s.fits(j, i, inp.ok)) else {
-                    fell_back = true;
-                    continue;
-                };
-                fell_back |= c > 0;
-                let d = &op.chain[c];
-                if nu {
-                    val[su][k] = d.apply_at(inp.us, j, i);
-                }
-                if nv {
-                    val[sv][k] = d.apply_at(inp.vs, j, i);
-                }
-                // The stencil actually applied, composed with the smoother.
-                let comp: Option<Shared> = if op.comp[c].0.fits(j, i, inp.ok) {
-                    Some(op.comp[c].clone())
+                    out.plain_box(op, &flat, k, pair);
+                } else if box_plain(inp.not_ok, j, i, op.box_r) {
+                    out.full_box(op, &flat, k, pair);
                 } else {
-                    let key = pattern(inp.ok, j, i, op.comp_box[c]).map(|m| (op.fp_comp[c], m));
-                    ws.stencil(key, || effective_composite(d, inp, j, i), &inp.corr)
-                };
-                if let Some(cs) = &comp {
-                    let (s, gain) = (&cs.0, cs.1);
-                    if nu {
-                        var[su][k] = inp.corr.variance_at(s, gain, inp.sig_u, j, i);
-                    }
-                    if nv {
-                        var[sv][k] = inp.corr.variance_at(s, gain, inp.sig_v, j, i);
-                    }
-                }
-                if !inp.truncation {
-                    continue;
-                }
-                let bias: Option<Shared> = match &op.bias[c] {
-                    Some(b) if b.0.fits(j, i, inp.ok) => Some(b.clone()),
-                    _ => {
-                        let fh = op.fit_half[c];
-                        let key = pattern(inp.ok, j, i, fh).map(|m| (op.fp_bias[c], m));
-                        let comp_s = comp.as_ref().map_or(&op.comp[c].0, |cs| &cs.0);
-                        let make = || {
-                            let offs: Vec<(i32, i32)> = window(fh)
-                                .into_iter()
-                                .filter(|&(dj, di)| in_ok(inp.ok, j, i, dj, di))
-                                .collect();
-                            bias_stencil(comp_s, op.axis, op.h, offs, fh)
-                        };
-                        ws.stencil(key, make, &inp.corr)
-                    }
-                };
-                if let Some(bs) = &bias {
-                    let (b, bg) = (&bs.0, &bs.1);
-                    if nu {
-                        bias_[su][k] = b.apply_at(inp.u, j, i);
-                        bvar[su][k] = inp.corr.variance_at(b, *bg, inp.sig_u, j, i);
-                    }
-                    if nv {
-                        bias_[sv][k] = b.apply_at(inp.v, j, i);
-                        bvar[sv][k] = inp.corr.variance_at(b, *bg, inp.sig_v, j, i);
-                    }
+                    fell_back |= out.cut_box(ws, op, inp, (j, i), pair);
                 }
             }
-            fallback += fell_back as usize;
+            out.fallback += fell_back as usize;
         }
     }
-    let arr = |v: [Vec<f64>; 4]| {
-        v.map(|x| {
-            let sh = if x.is_empty() { (0, 0) } else { (ny, nx) };
-            Array2::from_shape_vec(sh, x).expect("grid shape")
-        })
-    };
-    Grad {
-        val: arr(val),
-        var: arr(var),
-        bias: arr(bias_),
-        bvar: arr(bvar),
-        fallback,
+    out.finish(ny, nx)
+}
+
+/// The two component slots one axis fills at a node (x: a and c, y: b and
+/// d) and whether the quantities need each.
+#[derive(Clone, Copy)]
+struct Pair {
+    su: usize,
+    sv: usize,
+    nu: bool,
+    nv: bool,
+}
+
+/// The inputs as flat row-major slices, for the fast paths.
+struct FlatInputs<'a> {
+    us: &'a [f64],
+    vs: &'a [f64],
+    u: &'a [f64],
+    v: &'a [f64],
+    sig_u: &'a [f64],
+    sig_v: &'a [f64],
+    /// Variances of plain nodes' u and v.
+    ru2: f64,
+    rv2: f64,
+}
+
+impl<'a> FlatInputs<'a> {
+    fn new(inp: &'a Inputs) -> Self {
+        let flat = |a: &'a Array2<f64>| a.as_slice().expect("standard layout");
+        FlatInputs {
+            us: flat(inp.us),
+            vs: flat(inp.vs),
+            u: flat(inp.u),
+            v: flat(inp.v),
+            sig_u: flat(inp.sig_u),
+            sig_v: flat(inp.sig_v),
+            ru2: inp.sig_ref.0 * inp.sig_ref.0,
+            rv2: inp.sig_ref.1 * inp.sig_ref.1,
+        }
     }
+}
+
+/// The tensor being built: `[a, b, c, d]` of values, variances, truncation
+/// estimates and their noise variances, as flat buffers of the workspace.
+struct Slots {
+    val: [Vec<f64>; 4],
+    var: [Vec<f64>; 4],
+    bias: [Vec<f64>; 4],
+    bvar: [Vec<f64>; 4],
+    fallback: usize,
+}
+
+impl Slots {
+    /// NaN-filled buffers of `n` nodes. Without a truncation estimate the
+    /// truncation slots are empty (shape (0, 0)): nothing reads them then
+    /// (`Grad::has_truncation`).
+    fn new(ws: &mut Workspace, n: usize, truncation: bool) -> Self {
+        let mut nan = || ws.buffer(n);
+        let val = [nan(), nan(), nan(), nan()];
+        let var = [nan(), nan(), nan(), nan()];
+        let mut nb = || if truncation { nan() } else { Vec::new() };
+        let bias = [nb(), nb(), nb(), nb()];
+        let bvar = [nb(), nb(), nb(), nb()];
+        Slots {
+            val,
+            var,
+            bias,
+            bvar,
+            fallback: 0,
+        }
+    }
+
+    /// Fast path: every node of the operator's box has a value and the
+    /// plain uncertainty, so one flat stencil and one gain serve.
+    #[inline]
+    fn plain_box(&mut self, op: &AxisOp, f: &FlatInputs, k: usize, p: Pair) {
+        let Pair { su, sv, nu, nv } = p;
+        (self.val[su][k], self.val[sv][k]) = op.flat_d.apply_uv(f.us, f.vs, k, nu, nv);
+        let g0 = op.comp[0].1;
+        if nu {
+            self.var[su][k] = g0 * f.ru2;
+        }
+        if nv {
+            self.var[sv][k] = g0 * f.rv2;
+        }
+        if let (Some(fb), Some(b0)) = (&op.flat_b, &op.bias[0]) {
+            let bg = b0.1;
+            (self.bias[su][k], self.bias[sv][k]) = fb.apply_uv(f.u, f.v, k, nu, nv);
+            if nu {
+                self.bvar[su][k] = bg * f.ru2;
+            }
+            if nv {
+                self.bvar[sv][k] = bg * f.rv2;
+            }
+        }
+    }
+
+    /// Every node of the box has a value, so the scheme's own stencil, its
+    /// composite and its truncation stencil all fit (what `cut_box` would
+    /// find), but the uncertainties differ from node to node.
+    #[inline]
+    fn full_box(&mut self, op: &AxisOp, f: &FlatInputs, k: usize, p: Pair) {
+        let Pair { su, sv, nu, nv } = p;
+        (self.val[su][k], self.val[sv][k]) = op.flat_d.apply_uv(f.us, f.vs, k, nu, nv);
+        if nu {
+            self.var[su][k] = op.var_d.at(f.sig_u, k);
+        }
+        if nv {
+            self.var[sv][k] = op.var_d.at(f.sig_v, k);
+        }
+        if let (Some(fb), Some(vb)) = (&op.flat_b, &op.var_b) {
+            (self.bias[su][k], self.bias[sv][k]) = fb.apply_uv(f.u, f.v, k, nu, nv);
+            if nu {
+                self.bvar[su][k] = vb.at(f.sig_u, k);
+            }
+            if nv {
+                self.bvar[sv][k] = vb.at(f.sig_v, k);
+            }
+        }
+    }
+
+    /// A box cut by an edge or a mask: the first stencil of the fallback
+    /// chain that fits, the composite with the smoother actually applied
+    /// there, and a truncation fit on the nodes that carry values. Returns
+    /// whether the stencil is a fallback (or none fits).
+    fn cut_box(
+        &mut self,
+        ws: &mut Workspace,
+        op: &AxisOp,
+        inp: &Inputs,
+        (j, i): (usize, usize),
+        p: Pair,
+    ) -> bool {
+        let Pair { su, sv, nu, nv } = p;
+        let Some(c) = op.chain.iter().position(|s| s.fits(j, i, inp.ok)) else {
+            return true;
+        };
+        let d = &op.chain[c];
+        let k = k_of(inp, j, i);
+        if nu {
+            self.val[su][k] = d.apply_at(inp.us, j, i);
+        }
+        if nv {
+            self.val[sv][k] = d.apply_at(inp.vs, j, i);
+        }
+        // The stencil actually applied, composed with the smoother.
+        let comp: Option<Shared> = if op.comp[c].0.fits(j, i, inp.ok) {
+            Some(op.comp[c].clone())
+        } else {
+            let key = pattern(inp.ok, j, i, op.comp_box[c]).map(|m| (op.fp_comp[c], m));
+            ws.stencil(key, || effective_composite(d, inp, j, i), &inp.corr)
+        };
+        if let Some(cs) = &comp {
+            let (s, gain) = (&cs.0, cs.1);
+            if nu {
+                self.var[su][k] = inp.corr.variance_at(s, gain, inp.sig_u, j, i);
+            }
+            if nv {
+                self.var[sv][k] = inp.corr.variance_at(s, gain, inp.sig_v, j, i);
+            }
+        }
+        if inp.truncation {
+            let comp_s = comp.as_ref().map_or(&op.comp[c].0, |cs| &cs.0);
+            self.cut_truncation(ws, op, inp, (j, i), c, comp_s, p);
+        }
+        c > 0
+    }
+
+    /// The truncation estimate of chain stencil `c` (composite `comp_s`)
+    /// at a node whose box is cut: the fit window restricted to the nodes
+    /// with values.
+    #[allow(clippy::too_many_arguments)]
+    fn cut_truncation(
+        &mut self,
+        ws: &mut Workspace,
+        op: &AxisOp,
+        inp: &Inputs,
+        (j, i): (usize, usize),
+        c: usize,
+        comp_s: &Stencil,
+        p: Pair,
+    ) {
+        let Pair { su, sv, nu, nv } = p;
+        let bias: Option<Shared> = match &op.bias[c] {
+            Some(b) if b.0.fits(j, i, inp.ok) => Some(b.clone()),
+            _ => {
+                let fh = op.fit_half[c];
+                let key = pattern(inp.ok, j, i, fh).map(|m| (op.fp_bias[c], m));
+                let make = || {
+                    let offs: Vec<(i32, i32)> = window(fh)
+                        .into_iter()
+                        .filter(|&(dj, di)| in_ok(inp.ok, j, i, dj, di))
+                        .collect();
+                    bias_stencil(comp_s, op.axis, op.h, offs, fh)
+                };
+                ws.stencil(key, make, &inp.corr)
+            }
+        };
+        let k = k_of(inp, j, i);
+        if let Some(bs) = &bias {
+            let (b, bg) = (&bs.0, &bs.1);
+            if nu {
+                self.bias[su][k] = b.apply_at(inp.u, j, i);
+                self.bvar[su][k] = inp.corr.variance_at(b, *bg, inp.sig_u, j, i);
+            }
+            if nv {
+                self.bias[sv][k] = b.apply_at(inp.v, j, i);
+                self.bvar[sv][k] = inp.corr.variance_at(b, *bg, inp.sig_v, j, i);
+            }
+        }
+    }
+
+    /// The filled buffers as the tensor's arrays.
+    fn finish(self, ny: usize, nx: usize) -> Grad {
+        let arr = |v: [Vec<f64>; 4]| {
+            v.map(|x| {
+                let sh = if x.is_empty() { (0, 0) } else { (ny, nx) };
+                Array2::from_shape_vec(sh, x).expect("grid shape")
+            })
+        };
+        Grad {
+            val: arr(self.val),
+            var: arr(self.var),
+            bias: arr(self.bias),
+            bvar: arr(self.bvar),
+            fallback: self.fallback,
+        }
+    }
+}
+
+/// The row-major index of node `(j, i)`.
+#[inline]
+fn k_of(inp: &Inputs, j: usize, i: usize) -> usize {
+    j * inp.ok.ncols() + i
 }
 
 #[inline]
