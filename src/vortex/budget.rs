@@ -37,7 +37,7 @@
 //! for the core (no partial integrals), and so is its uncertainty.
 
 use super::corr::OmegaCorrelation;
-use super::{find_cores, Params, Slice, SliceKind};
+use super::{find_cores, Core, Params, Slice, SliceKind};
 use crate::budget::integral::Weights;
 use crate::budget::ops::{F_W, NF};
 use crate::budget::terms::{jacobians, SliceBudget};
@@ -76,7 +76,6 @@ pub(crate) fn core_budgets(
     vel: Correlation,
 ) -> Vec<CoreBudget> {
     let g = b.grid;
-    let da = g.dx * g.dy;
     let nan = vec![f64::NAN; g.len()];
     let mut out = Vec::new();
     let shape = Params {
@@ -84,16 +83,7 @@ pub(crate) fn core_budgets(
         ..p.clone()
     };
     for s in &b.slices {
-        let (kind, time_s) = match s.kind {
-            BudgetKind::Bin { bin, centre_deg } => (
-                SliceKind::Bin {
-                    bin,
-                    phase_deg: centre_deg,
-                },
-                frequency.map_or(f64::NAN, |f| centre_deg / 360.0 / f),
-            ),
-            BudgetKind::Frame { index, time_s } => (SliceKind::Frame { index }, time_s),
-        };
+        let (kind, time_s) = slice_kind(&s.kind, frequency);
         // the velocity uncertainty the budget keeps (a bin's of its means,
         // a frame's noise), for the swirl criterion
         let sd = |var: Option<&Vec<f64>>| {
@@ -121,58 +111,87 @@ pub(crate) fn core_budgets(
             &OmegaCorrelation::independent(),
         );
         for (ci, c) in cores.iter().enumerate() {
-            let sum = |v: &[f64]| c.nodes.iter().map(|&k| v[k]).sum::<f64>() * da;
-            let rss = |v: &[f64]| c.nodes.iter().map(|&k| v[k] * v[k]).sum::<f64>().sqrt() * da;
-            let value: [f64; 5] = std::array::from_fn(|t| sum(&s.value[t]));
-            let residual = sum(&s.residual);
-            let (lin, var_lin) = integrated(b, s, &c.nodes, vel);
-            // The linear functional where every stencil fits; next to the
-            // field's edge or a gap (the integral kernel refuses a cut
-            // stencil: NaN) the node uncertainties' root sum of squares,
-            // the independent-node rule, which overstates a divergence's
-            // integral (docs/vortices.md). Never f64::max(NaN, 0), which
-            // is 0: a zero uncertainty.
-            let mut unc: [f64; 5] = std::array::from_fn(|t| {
-                if t < 4 && value[t].is_finite() {
-                    if lin[t].is_finite() {
-                        clip0(lin[t]).sqrt()
-                    } else {
-                        rss(&s.unc[t])
-                    }
-                } else {
-                    f64::NAN
-                }
-            });
-            unc[4] = rss(&s.unc[4]);
-            let var_t = if value[4].is_finite() {
-                unc[4] * unc[4]
-            } else {
-                0.0
-            };
-            out.push(CoreBudget {
-                kind,
-                time_s,
-                core: ci,
-                sign: c.sign,
-                x: c.x,
-                y: c.y,
-                n_nodes: c.nodes.len(),
-                circulation: c.circulation,
-                value,
-                unc,
-                residual,
-                residual_unc: if !residual.is_finite() {
-                    f64::NAN
-                } else if (lin[0] + var_lin).is_finite() {
-                    clip0(lin[0] + var_lin + var_t).sqrt()
-                } else {
-                    rss(&s.residual_unc)
-                },
-            });
+            out.push(core_budget(b, s, (kind, time_s, ci), c, vel));
         }
     }
     debug_assert_eq!(TERMS.len(), 5);
     out
+}
+
+/// The vortex slice kind and time of a budget slice (a bin's time is its
+/// phase over `2 pi f`; NaN without `f`).
+fn slice_kind(kind: &BudgetKind, frequency: Option<f64>) -> (SliceKind, f64) {
+    match *kind {
+        BudgetKind::Bin { bin, centre_deg } => (
+            SliceKind::Bin {
+                bin,
+                phase_deg: centre_deg,
+            },
+            frequency.map_or(f64::NAN, |f| centre_deg / 360.0 / f),
+        ),
+        BudgetKind::Frame { index, time_s } => (SliceKind::Frame { index }, time_s),
+    }
+}
+
+/// The budget of core `c` of slice `s` (`at`: the slice's kind and time,
+/// the core's index in the slice): every term and the residual summed over
+/// the core's nodes times `dA`, with their uncertainties.
+fn core_budget(
+    b: &Budget,
+    s: &SliceBudget,
+    (kind, time_s, core): (SliceKind, f64, usize),
+    c: &Core,
+    vel: Correlation,
+) -> CoreBudget {
+    let da = b.grid.dx * b.grid.dy;
+    let sum = |v: &[f64]| c.nodes.iter().map(|&k| v[k]).sum::<f64>() * da;
+    let rss = |v: &[f64]| c.nodes.iter().map(|&k| v[k] * v[k]).sum::<f64>().sqrt() * da;
+    let value: [f64; 5] = std::array::from_fn(|t| sum(&s.value[t]));
+    let residual = sum(&s.residual);
+    let (lin, var_lin) = integrated(b, s, &c.nodes, vel);
+    // The linear functional where every stencil fits; next to the
+    // field's edge or a gap (the integral kernel refuses a cut
+    // stencil: NaN) the node uncertainties' root sum of squares,
+    // the independent-node rule, which overstates a divergence's
+    // integral (docs/vortices.md). Never f64::max(NaN, 0), which
+    // is 0: a zero uncertainty.
+    let mut unc: [f64; 5] = std::array::from_fn(|t| {
+        if t < 4 && value[t].is_finite() {
+            if lin[t].is_finite() {
+                clip0(lin[t]).sqrt()
+            } else {
+                rss(&s.unc[t])
+            }
+        } else {
+            f64::NAN
+        }
+    });
+    unc[4] = rss(&s.unc[4]);
+    let var_t = if value[4].is_finite() {
+        unc[4] * unc[4]
+    } else {
+        0.0
+    };
+    CoreBudget {
+        kind,
+        time_s,
+        core,
+        sign: c.sign,
+        x: c.x,
+        y: c.y,
+        n_nodes: c.nodes.len(),
+        circulation: c.circulation,
+        value,
+        unc,
+        residual,
+        residual_unc: if !residual.is_finite() {
+            f64::NAN
+        } else if (lin[0] + var_lin).is_finite() {
+            clip0(lin[0] + var_lin + var_t).sqrt()
+        } else {
+            rss(&s.residual_unc)
+        },
+    }
 }
 
 /// The variances of the integrals over `nodes` (times dA) of unsteady,
