@@ -90,13 +90,7 @@ pub(crate) fn measure(
     let circulation_unc = da * sd(vec![1.0; nodes.len()]);
     let x_unc = sd(xy.iter().map(|p| (p.0 - x) / sum).collect());
     let y_unc = sd(xy.iter().map(|p| (p.1 - y) / sum).collect());
-    let r2: Vec<f64> = xy
-        .iter()
-        .map(|p| (p.0 - x).powi(2) + (p.1 - y).powi(2))
-        .collect();
-    let m2 = om.iter().zip(&r2).map(|(w, r)| w * r).sum::<f64>() / sum;
-    let radius_moment = m2.max(0.0).sqrt();
-    let m2_unc = sd(r2.iter().map(|r| (r - m2) / sum).collect());
+    let (radius_moment, radius_moment_unc) = radius_moment(&om, &xy, (x, y), sum, sd);
     let peak = (0..nodes.len())
         .max_by(|&a, &b| om[a].abs().total_cmp(&om[b].abs()))
         .expect("a region has nodes");
@@ -105,20 +99,16 @@ pub(crate) fn measure(
         .expect("a region has nodes");
     let area = da * nodes.len() as f64;
     let radius_eq = (area / std::f64::consts::PI).sqrt();
-    let fit = if with_fit {
-        let rc0 = radius_eq.max(1.5 * radius_moment);
-        let d = FitData {
-            nodes,
-            nx: g.nx,
-            xy: &xy,
-            omega: &om,
-            sig: &sig,
-        };
-        let p0 = [x, y, om[peak] * std::f64::consts::PI * rc0 * rc0, rc0];
-        fit::fit(&d, p0, radius_eq, corr)
-    } else {
-        None
+    let d = FitData {
+        nodes,
+        nx: g.nx,
+        xy: &xy,
+        omega: &om,
+        sig: &sig,
     };
+    let fit = with_fit
+        .then(|| fit_from(&d, (x, y), om[peak], radius_eq, radius_moment, corr))
+        .flatten();
     Core {
         sign: region.sign,
         nodes: nodes.clone(),
@@ -131,11 +121,7 @@ pub(crate) fn measure(
         area,
         radius_eq,
         radius_moment,
-        radius_moment_unc: if radius_moment > 0.0 {
-            m2_unc / (2.0 * radius_moment)
-        } else {
-            f64::NAN
-        },
+        radius_moment_unc,
         circulation: da * sum,
         circulation_unc,
         peak_omega: om[peak],
@@ -143,4 +129,46 @@ pub(crate) fn measure(
         fit,
         edge: false,
     }
+}
+
+/// The Lamb-Oseen fit of a core, started at its centroid with the radius
+/// `max(radius_eq, 1.5 radius_moment)` and the circulation that gives the
+/// core's peak vorticity at the centre.
+fn fit_from(
+    d: &FitData,
+    (x, y): (f64, f64),
+    peak_omega: f64,
+    radius_eq: f64,
+    radius_moment: f64,
+    corr: &OmegaCorrelation,
+) -> Option<fit::LambOseen> {
+    let rc0 = radius_eq.max(1.5 * radius_moment);
+    let p0 = [x, y, peak_omega * std::f64::consts::PI * rc0 * rc0, rc0];
+    fit::fit(d, p0, radius_eq, corr)
+}
+
+/// The vorticity-weighted second-moment radius about the centroid `(x, y)`
+/// (`sum` the vorticity's sum) and its standard uncertainty from `sd`, the
+/// standard deviation of a linear functional of the nodes' vorticity (NaN
+/// for a radius of 0).
+fn radius_moment(
+    om: &[f64],
+    xy: &[(f64, f64)],
+    (x, y): (f64, f64),
+    sum: f64,
+    sd: impl Fn(Vec<f64>) -> f64,
+) -> (f64, f64) {
+    let r2: Vec<f64> = xy
+        .iter()
+        .map(|p| (p.0 - x).powi(2) + (p.1 - y).powi(2))
+        .collect();
+    let m2 = om.iter().zip(&r2).map(|(w, r)| w * r).sum::<f64>() / sum;
+    let radius_moment = m2.max(0.0).sqrt();
+    let m2_unc = sd(r2.iter().map(|r| (r - m2) / sum).collect());
+    let unc = if radius_moment > 0.0 {
+        m2_unc / (2.0 * radius_moment)
+    } else {
+        f64::NAN
+    };
+    (radius_moment, unc)
 }
