@@ -110,58 +110,16 @@ pub(crate) fn fit(
     } else {
         vec![1.0; n]
     };
-    let mut p = Vector4::from(p0);
-    let mut lambda = 1e-3;
-    let (mut ss, mut h, mut b) = normal(d, &w, &p);
-    let mut converged = false;
-    for _ in 0..100 {
-        let mut a = h;
-        for i in 0..4 {
-            a[(i, i)] *= 1.0 + lambda;
-        }
-        let step = a.lu().solve(&b)?;
-        let trial = p + step;
-        let (ss2, h2, b2) = normal(d, &w, &trial);
-        if ss2.is_finite() && ss2 <= ss && trial[3] > 0.0 {
-            // Stop on the step, not on the sum of squares: a relative
-            // change of 1e-12 in `ss` leaves the parameters uncertain to
-            // about 1e-6 of themselves, and the same core reduced in
-            // another grouping of frames (threads, shards) would then give
-            // other digits. Near the minimum the steps shrink
-            // quadratically, so a step of 1e-13 of each parameter's scale
-            // means the parameters are at rounding.
-            let scale = [r_eq, r_eq, trial[2].abs(), trial[3]];
-            let small = (0..4).all(|i| step[i].abs() <= 1e-13 * scale[i]);
-            p = trial;
-            (ss, h, b) = (ss2, h2, b2);
-            lambda = (lambda * 0.3).max(1e-12);
-            if small {
-                converged = true;
-                break;
-            }
-        } else {
-            lambda *= 10.0;
-            if lambda > 1e10 {
-                converged = true;
-                break;
-            }
-        }
-    }
+    let (p, ss, h) = minimise(d, &w, Vector4::from(p0), r_eq)?;
     let rc = p[3].abs();
-    if !(converged && rc > 0.1 * r_eq && rc < 20.0 * r_eq) {
+    if !(rc > 0.1 * r_eq && rc < 20.0 * r_eq) {
         return None;
     }
     let hinv = h.try_inverse()?;
     let dof = (n - 4) as f64;
     let chi2_red = ss / dof;
     let cov = if known {
-        // J^T W C W J with C_ab = sig_a sig_b rho_ab: sum J_a J_b rho / (sig_a sig_b).
-        let jac: Vec<Vector4<f64>> = (0..n).map(|k| model(&p, d.xy[k].0, d.xy[k].1).1).collect();
-        let mut meat = Matrix4::zeros();
-        corr.pairs(d.nodes, d.nx, |a, bb, rho| {
-            meat += jac[a] * jac[bb].transpose() * (rho / (d.sig[a] * d.sig[bb]));
-        });
-        hinv * meat * hinv * chi2_red.max(1.0)
+        sandwich(d, &p, &hinv, corr) * chi2_red.max(1.0)
     } else {
         hinv * chi2_red
     };
@@ -184,6 +142,70 @@ pub(crate) fn fit(
         rc_unc,
         chi2_red,
     })
+}
+
+/// Levenberg-Marquardt from `p`: the parameters, the weighted sum of
+/// squares and the normal matrix `H = J^T W J` at the minimum, or `None`
+/// when a step cannot be solved or 100 iterations do not converge.
+fn minimise(
+    d: &FitData,
+    w: &[f64],
+    mut p: Vector4<f64>,
+    r_eq: f64,
+) -> Option<(Vector4<f64>, f64, Matrix4<f64>)> {
+    let mut lambda = 1e-3;
+    let (mut ss, mut h, mut b) = normal(d, w, &p);
+    for _ in 0..100 {
+        let mut a = h;
+        for i in 0..4 {
+            a[(i, i)] *= 1.0 + lambda;
+        }
+        let step = a.lu().solve(&b)?;
+        let trial = p + step;
+        let (ss2, h2, b2) = normal(d, w, &trial);
+        if ss2.is_finite() && ss2 <= ss && trial[3] > 0.0 {
+            // Stop on the step, not on the sum of squares: a relative
+            // change of 1e-12 in `ss` leaves the parameters uncertain to
+            // about 1e-6 of themselves, and the same core reduced in
+            // another grouping of frames (threads, shards) would then give
+            // other digits. Near the minimum the steps shrink
+            // quadratically, so a step of 1e-13 of each parameter's scale
+            // means the parameters are at rounding.
+            let scale = [r_eq, r_eq, trial[2].abs(), trial[3]];
+            let small = (0..4).all(|i| step[i].abs() <= 1e-13 * scale[i]);
+            p = trial;
+            (ss, h, b) = (ss2, h2, b2);
+            lambda = (lambda * 0.3).max(1e-12);
+            if small {
+                return Some((p, ss, h));
+            }
+        } else {
+            lambda *= 10.0;
+            if lambda > 1e10 {
+                return Some((p, ss, h));
+            }
+        }
+    }
+    None
+}
+
+/// The sandwich covariance `H^-1 (J^T W C W J) H^-1` of the parameters `p`
+/// with `C_ab = sig_a sig_b rho_ab` (the nodes' correlated omega errors),
+/// so `J^T W C W J = sum J_a J_b^T rho_ab / (sig_a sig_b)`.
+fn sandwich(
+    d: &FitData,
+    p: &Vector4<f64>,
+    hinv: &Matrix4<f64>,
+    corr: &OmegaCorrelation,
+) -> Matrix4<f64> {
+    let jac: Vec<Vector4<f64>> = (0..d.nodes.len())
+        .map(|k| model(p, d.xy[k].0, d.xy[k].1).1)
+        .collect();
+    let mut meat = Matrix4::zeros();
+    corr.pairs(d.nodes, d.nx, |a, bb, rho| {
+        meat += jac[a] * jac[bb].transpose() * (rho / (d.sig[a] * d.sig[bb]));
+    });
+    hinv * meat * hinv
 }
 
 #[cfg(test)]
