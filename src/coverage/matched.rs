@@ -186,12 +186,38 @@ pub(crate) fn measure(rp: &RunPlan) -> Result<Measured> {
         Correlation::Adjacent(r) => window_overlap(r),
         _ => 0.0,
     };
-    let times: Vec<f64> = red
-        .state
-        .frames
-        .iter()
-        .filter_map(|f| f.meta.time_s)
-        .collect();
+    let (frame_rate, memory, phase) = timing(&red.state.frames, &stats);
+    let (mean_speed, peak_vorticity, core_pitches) = flow_scale(&stats, g);
+    Ok(Measured {
+        run: rp.id.clone(),
+        nx: g.nx,
+        ny: g.ny,
+        pitch: g.dx,
+        frames: n,
+        noise,
+        overlap,
+        outlier_fraction: replaced as f64 / nodes,
+        gap_fraction: filled as f64 / nodes,
+        frame_rate,
+        memory,
+        phase,
+        mean_speed,
+        peak_vorticity,
+        core_pitches,
+        warnings,
+    })
+}
+
+/// The run's frame rate (15 Hz without frame times), its noise memory
+/// (the AR(1) coefficient that gives its effective sample size; 0 without
+/// times for every frame) and, when every frame has a phase, the bin count
+/// and the median phase step in degrees.
+fn timing(
+    frames: &[crate::result::FrameRecord],
+    stats: &crate::stats::RunStats,
+) -> (f64, f64, Option<(usize, f64)>) {
+    let n = frames.len().max(1);
+    let times: Vec<f64> = frames.iter().filter_map(|f| f.meta.time_s).collect();
     let frame_rate = median_step(&times).map_or(15.0, |dt| 1.0 / dt);
     let memory = match stats.n_eff {
         Some(ne) if ne.is_finite() && ne > 0.0 && times.len() == n => {
@@ -199,12 +225,7 @@ pub(crate) fn measure(rp: &RunPlan) -> Result<Measured> {
         }
         _ => 0.0,
     };
-    let phases: Vec<f64> = red
-        .state
-        .frames
-        .iter()
-        .filter_map(|f| f.meta.phase_deg)
-        .collect();
+    let phases: Vec<f64> = frames.iter().filter_map(|f| f.meta.phase_deg).collect();
     let phase = (phases.len() == n && !stats.phase.is_empty()).then(|| {
         let steps: Vec<f64> = phases
             .windows(2)
@@ -213,6 +234,12 @@ pub(crate) fn measure(rp: &RunPlan) -> Result<Measured> {
         let mut s = steps.clone();
         (stats.phase.len(), super::score::median(&mut s))
     });
+    (frame_rate, memory, phase)
+}
+
+/// The run's median mean speed, its peak mean vorticity (|omega_mean| at
+/// its maximum) and the matched vortex's core radius in pitches.
+fn flow_scale(stats: &crate::stats::RunStats, g: crate::field::Grid) -> (f64, f64, f64) {
     let e = &stats.ensemble;
     let col = |name: &str| e.get(name).map(|c| c.to_vec()).unwrap_or_default();
     let (u, v, w) = (col("u_mean"), col("v_mean"), col("omega_mean"));
@@ -233,24 +260,7 @@ pub(crate) fn measure(rp: &RunPlan) -> Result<Measured> {
     } else {
         4.0f64.min(lim)
     };
-    Ok(Measured {
-        run: rp.id.clone(),
-        nx: g.nx,
-        ny: g.ny,
-        pitch: g.dx,
-        frames: n,
-        noise,
-        overlap,
-        outlier_fraction: replaced as f64 / nodes,
-        gap_fraction: filled as f64 / nodes,
-        frame_rate,
-        memory,
-        phase,
-        mean_speed,
-        peak_vorticity,
-        core_pitches,
-        warnings,
-    })
+    (mean_speed, peak_vorticity, core_pitches)
 }
 
 /// The window overlap whose lag-one correlation is nearest `rho` among
