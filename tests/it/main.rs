@@ -18,6 +18,8 @@ mod modes;
 mod netcdf_out;
 mod reference;
 mod reliability;
+mod reliability_shards;
+mod reliability_signals;
 mod report_numbers;
 mod resolved;
 mod run;
