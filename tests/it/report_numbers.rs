@@ -116,8 +116,15 @@ fn report_words_say_the_numbers_of_the_pod_spectra_and_scales_tables() {
     let html = std::fs::read_to_string(w.path("o/index.html")).unwrap();
     let dir = w.path("o/u015");
 
-    // POD.
-    let para = paragraph(&html, "Coherent structures (POD)");
+    pod_words(&html, &dir);
+    spectra_words(&html, &dir);
+    scales_words(&html, &dir);
+}
+
+/// The POD paragraph says the numbers of `pod.csv` and
+/// `pod-coefficients.csv`.
+fn pod_words(html: &str, dir: &std::path::Path) {
+    let para = paragraph(html, "Coherent structures (POD)");
     let pod = Csv::read(&dir.join("pod.csv"));
     let (frac, unc, cum) = (
         pod.col("energy_fraction"),
@@ -153,9 +160,12 @@ fn report_words_say_the_numbers_of_the_pod_spectra_and_scales_tables() {
             && para.contains(&format!("mode 2 {}", word(sep[1]))),
         "{para}"
     );
+}
 
-    // Spectra.
-    let para = paragraph(&html, "Spectra");
+/// The spectra paragraph says the numbers of `spectral-peaks.csv`
+/// (7 segments of 16, as check said).
+fn spectra_words(html: &str, dir: &std::path::Path) {
+    let para = paragraph(html, "Spectra");
     let peaks = Csv::read(&dir.join("spectral-peaks.csv"));
     let names = first_column(&dir.join("spectral-peaks.csv"));
     assert_eq!(names.len(), 8, "2 probes x (u, v) and a1..a4: {names:?}");
@@ -214,9 +224,11 @@ fn report_words_say_the_numbers_of_the_pod_spectra_and_scales_tables() {
             &format!("{label} (f - f_run) / u(f)"),
         );
     }
+}
 
-    // Length scales.
-    let para = paragraph(&html, "Length scales");
+/// The length-scales paragraph says the numbers of `scales.csv`.
+fn scales_words(html: &str, dir: &std::path::Path) {
+    let para = paragraph(html, "Length scales");
     let sc = Csv::read(&dir.join("scales.csv"));
     assert_eq!(sc.rows.len(), 4, "2 probes x (u, v)");
     let chunks: Vec<&str> = para.split("Probe ").skip(1).collect();
