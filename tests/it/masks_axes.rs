@@ -173,24 +173,7 @@ fn a_masked_cylinder_gives_zero_vorticity_around_it_and_nothing_inside() {
     let (x, y) = (ens.col("x"), ens.col("y"));
     let (om, unc) = (ens.col("omega_mean"), ens.col("omega_mean_unc"));
     let h = (x[1] - x[0]).abs();
-    // Potential flow past a cylinder of radius r in a stream U along +x
-    // (complex velocity u - i v = U (1 - r^2 / z^2), any fluid-mechanics
-    // text), and the least-squares stencil applied to it along each axis.
-    let speed = 0.2;
-    let exact = |x: f64, y: f64| {
-        let (zr, zi) = (x * x - y * y, 2.0 * x * y); // z^2
-        let m = zr * zr + zi * zi;
-        let (ir, ii) = (zr / m, -zi / m); // 1 / z^2
-        (speed * (1.0 - r * r * ir), speed * r * r * ii)
-    };
-    let scheme = |x: f64, y: f64| {
-        let mut om = 0.0;
-        for (c, w) in [(-2.0, -2.0), (-1.0, -1.0), (1.0, 1.0), (2.0, 2.0)] {
-            om += w * exact(x + c * h, y).1 / (10.0 * h);
-            om -= w * exact(x, y + c * h).0 / (10.0 * h);
-        }
-        om
-    };
+    let scheme = |x: f64, y: f64| cylinder_scheme_omega(x, y, h, r, 0.2);
     let (mut ring, mut worst, mut worst_vs_zero, mut sum_z2) = (0, 0.0f64, 0.0f64, 0.0);
     for k in 0..x.len() {
         let d = x[k].hypot(y[k]);
@@ -231,20 +214,7 @@ fn a_masked_cylinder_gives_zero_vorticity_around_it_and_nothing_inside() {
         "against zero {worst_vs_zero}, against the scheme {worst}"
     );
 
-    // Without the mask the body's nodes are holes that get filled from the
-    // flow around them: the very error the mask prevents.
-    let start = text.find("\n[mask]").unwrap();
-    let end = start + 1 + text[start + 1..].find("\n[").unwrap();
-    let no_mask = format!("{}{}", &text[..start], &text[end..])
-        .replace("frame_fields = false", "frame_fields = true");
-    w.write("c/nomask.toml", &no_mask);
-    w.ok(&["run", "c/nomask.toml", "--out", "o2", "--quiet"]);
-    let f = field(&w.path("o2/u020/fields/f00001.csv"));
-    let filled = f
-        .iter()
-        .filter(|n| n[0].hypot(n[1]) < r && n[2] == 2.0)
-        .count();
-    assert!(filled > 20, "unmasked, {filled} body nodes are filled");
+    unmasked_body_is_filled(&w, &text, r);
 }
 
 /// Next to the mask (closer than 2.5 pitches) the stencils use the stencil
@@ -359,4 +329,40 @@ fn a_mask_column_is_drawn_grey_like_a_geometry_mask() {
         }
     }
     assert!(n > 50, "{n} body nodes");
+}
+
+/// Potential flow past a cylinder of radius `r` in a stream `speed` along
+/// +x (complex velocity u - i v = U (1 - r^2 / z^2), any fluid-mechanics
+/// text), and the least-squares vorticity stencil of pitch `h` applied to
+/// it along each axis at `(x, y)`.
+fn cylinder_scheme_omega(x: f64, y: f64, h: f64, r: f64, speed: f64) -> f64 {
+    let exact = |x: f64, y: f64| {
+        let (zr, zi) = (x * x - y * y, 2.0 * x * y); // z^2
+        let m = zr * zr + zi * zi;
+        let (ir, ii) = (zr / m, -zi / m); // 1 / z^2
+        (speed * (1.0 - r * r * ir), speed * r * r * ii)
+    };
+    let mut om = 0.0;
+    for (c, w) in [(-2.0, -2.0), (-1.0, -1.0), (1.0, 1.0), (2.0, 2.0)] {
+        om += w * exact(x + c * h, y).1 / (10.0 * h);
+        om -= w * exact(x, y + c * h).0 / (10.0 * h);
+    }
+    om
+}
+
+/// Without the mask the body's nodes (radius `r`) are holes that get filled
+/// from the flow around them: the very error the mask prevents.
+fn unmasked_body_is_filled(w: &Work, text: &str, r: f64) {
+    let start = text.find("\n[mask]").unwrap();
+    let end = start + 1 + text[start + 1..].find("\n[").unwrap();
+    let no_mask = format!("{}{}", &text[..start], &text[end..])
+        .replace("frame_fields = false", "frame_fields = true");
+    w.write("c/nomask.toml", &no_mask);
+    w.ok(&["run", "c/nomask.toml", "--out", "o2", "--quiet"]);
+    let f = field(&w.path("o2/u020/fields/f00001.csv"));
+    let filled = f
+        .iter()
+        .filter(|n| n[0].hypot(n[1]) < r && n[2] == 2.0)
+        .count();
+    assert!(filled > 20, "unmasked, {filled} body nodes are filled");
 }
