@@ -142,70 +142,81 @@ fn frame_cores_of_a_time_resolved_street_are_tracked_at_its_speed() {
     street(&w, "80", &["--frame-rate", "255"]);
     let text = std::fs::read_to_string(w.path("c/pipeline.toml")).unwrap();
     for criterion in ["gamma2", "swirl"] {
-        w.write(
-            &format!("c/{criterion}.toml"),
-            &format!(
-                "[vortices]\nframes = true\ncriterion = \"{criterion}\"\n\n{text}\n[run.conditions]\nfrequency = {F}\n"
-            ),
+        frame_tracks_at_the_street_speed(&w, &text, criterion);
+    }
+    shards_merge_the_frame_cores(&w);
+}
+
+/// With `criterion`, every one of the 80 frames holds cores, and the frame
+/// tracks of 50 points or more convect at `UC` within 2 % and grow at
+/// `4 nu` within 15 %.
+fn frame_tracks_at_the_street_speed(w: &Work, text: &str, criterion: &str) {
+    w.write(
+        &format!("c/{criterion}.toml"),
+        &format!(
+            "[vortices]\nframes = true\ncriterion = \"{criterion}\"\n\n{text}\n[run.conditions]\nfrequency = {F}\n"
+        ),
+    );
+    let check = w.ok(&["check", &format!("c/{criterion}.toml")]);
+    assert!(check.contains("cores in every used frame"), "{check}");
+    let out = format!("out-{criterion}");
+    w.ok(&[
+        "run",
+        &format!("c/{criterion}.toml"),
+        "--out",
+        &out,
+        "--quiet",
+    ]);
+    let raw = std::fs::read_to_string(w.path(&format!("{out}/u015/vortices.csv"))).unwrap();
+    let frames: std::collections::BTreeSet<&str> = raw
+        .lines()
+        .filter(|l| l.starts_with("frame,"))
+        .map(|l| l.split(',').nth(1).unwrap())
+        .collect();
+    assert_eq!(frames.len(), 80, "{criterion}: every frame holds cores");
+    let t = Csv::read(&w.path(&format!("{out}/u015/tracks.csv")));
+    let traw = std::fs::read_to_string(w.path(&format!("{out}/u015/tracks.csv"))).unwrap();
+    let is_frame: Vec<bool> = traw
+        .lines()
+        .skip(1)
+        .map(|l| l.split(',').nth(2) == Some("frame"))
+        .collect();
+    let (n, uc, ucu) = (t.col("n_points"), t.col("u_conv"), t.col("u_conv_unc"));
+    let (gr, p) = (t.col("growth"), t.col("point"));
+    let mut long = 0;
+    for k in (0..n.len()).filter(|&k| is_frame[k] && p[k] == 0.0 && n[k] >= 50.0) {
+        long += 1;
+        eprintln!(
+            "{criterion}: frame track of {} points: u_conv {} ± {}, growth {}",
+            n[k], uc[k], ucu[k], gr[k]
         );
-        let check = w.ok(&["check", &format!("c/{criterion}.toml")]);
-        assert!(check.contains("cores in every used frame"), "{check}");
-        let out = format!("out-{criterion}");
-        w.ok(&[
-            "run",
-            &format!("c/{criterion}.toml"),
-            "--out",
-            &out,
-            "--quiet",
-        ]);
-        let raw = std::fs::read_to_string(w.path(&format!("{out}/u015/vortices.csv"))).unwrap();
-        let frames: std::collections::BTreeSet<&str> = raw
-            .lines()
-            .filter(|l| l.starts_with("frame,"))
-            .map(|l| l.split(',').nth(1).unwrap())
-            .collect();
-        assert_eq!(frames.len(), 80, "{criterion}: every frame holds cores");
-        let t = Csv::read(&w.path(&format!("{out}/u015/tracks.csv")));
-        let traw = std::fs::read_to_string(w.path(&format!("{out}/u015/tracks.csv"))).unwrap();
-        let is_frame: Vec<bool> = traw
-            .lines()
-            .skip(1)
-            .map(|l| l.split(',').nth(2) == Some("frame"))
-            .collect();
-        let (n, uc, ucu) = (t.col("n_points"), t.col("u_conv"), t.col("u_conv_unc"));
-        let (gr, p) = (t.col("growth"), t.col("point"));
-        let mut long = 0;
-        for k in (0..n.len()).filter(|&k| is_frame[k] && p[k] == 0.0 && n[k] >= 50.0) {
-            long += 1;
-            eprintln!(
-                "{criterion}: frame track of {} points: u_conv {} ± {}, growth {}",
-                n[k], uc[k], ucu[k], gr[k]
-            );
-            assert!(
-                (uc[k] / UC - 1.0).abs() < 0.02,
-                "{criterion}: u_conv {} vs {UC}",
-                uc[k]
-            );
-            assert!(
-                ucu[k] > 0.0 && ucu[k] < 0.01 * UC,
-                "{criterion}: ± {}",
-                ucu[k]
-            );
-            assert!(
-                (gr[k] / 4e-6 - 1.0).abs() < 0.15,
-                "{criterion}: growth {}",
-                gr[k]
-            );
-        }
         assert!(
-            long >= 3,
-            "{criterion}: {long} frame tracks of 50 frames or more"
+            (uc[k] / UC - 1.0).abs() < 0.02,
+            "{criterion}: u_conv {} vs {UC}",
+            uc[k]
+        );
+        assert!(
+            ucu[k] > 0.0 && ucu[k] < 0.01 * UC,
+            "{criterion}: ± {}",
+            ucu[k]
+        );
+        assert!(
+            (gr[k] / 4e-6 - 1.0).abs() < 0.15,
+            "{criterion}: growth {}",
+            gr[k]
         );
     }
-    // shards: the frames' cores travel in frame-cores.bin and merge in
-    // frame order, so the frame rows equal the single run's byte for byte;
-    // the mean and bin rows come from merged sums (equal to rounding, as
-    // the shard test of tests/it/run.rs allows for ensemble.csv)
+    assert!(
+        long >= 3,
+        "{criterion}: {long} frame tracks of 50 frames or more"
+    );
+}
+
+/// Shards: the frames' cores travel in frame-cores.bin and merge in frame
+/// order, so the frame rows equal the single run's byte for byte; the mean
+/// and bin rows come from merged sums (equal to rounding, as the shard test
+/// of tests/it/run.rs allows for ensemble.csv).
+fn shards_merge_the_frame_cores(w: &Work) {
     for s in ["1/2", "2/2"] {
         let out = format!("part{}", &s[..1]);
         w.ok(&[
