@@ -108,37 +108,11 @@ fn report_and_campaign_numbers_equal_the_tables_they_come_from() {
         assert_all_close(&[c(fraction)], &[k / total], 1e-15, 0.0, fraction);
     }
     assert!(c("outlier_fraction") > 0.01, "synth plants 3 % outliers");
-    // The noise estimate: the mean over the frames the statistics used.
-    let noise: Vec<f64> = frames
-        .col("noise_estimate")
-        .iter()
-        .zip(&rejected)
-        .filter(|(n, r)| **r == 0.0 && n.is_finite())
-        .map(|(n, _)| *n)
-        .collect();
-    let mean_noise = noise.iter().sum::<f64>() / noise.len() as f64;
+    let mean_noise = mean_used_noise(&frames);
     assert_all_close(&[c("noise_estimate")], &[mean_noise], 0.0, 1e-12, "noise");
 
-    // The peak: largest |omega_mean| among nodes whose random part of
-    // u(omega_mean), sqrt(omega_inst_unc^2 - omega_bias_inst^2) / sqrt(n_valid),
-    // is at most 3 x its median.
     let (om, omu) = (ens.col("omega_mean"), ens.col("omega_mean_unc"));
-    let (inst, bi, nv) = (
-        ens.col("omega_inst_unc"),
-        ens.col("omega_bias_inst"),
-        ens.col("n_valid"),
-    );
-    let random: Vec<f64> = (0..inst.len())
-        .map(|k| {
-            let b = if bi[k].is_finite() { bi[k] } else { 0.0 };
-            (inst[k] * inst[k] - b * b).max(0.0).sqrt() / nv[k].sqrt()
-        })
-        .collect();
-    let lim = 3.0 * median(&random);
-    let k = (0..om.len())
-        .filter(|&k| om[k].is_finite() && random[k].is_finite() && random[k] <= lim)
-        .max_by(|&a, &b| om[a].abs().total_cmp(&om[b].abs()))
-        .unwrap();
+    let k = expected_peak(&ens);
     assert_eq!(c("omega_mean_peak"), om[k]);
     assert_eq!(c("omega_mean_peak_unc"), omu[k]);
     assert_all_close(
@@ -405,4 +379,42 @@ fn the_ensemble_test_and_smoothing_through_run_recover_the_synth_truth() {
             "{q}: median |e|/u {med:.2}: error bars far too wide"
         );
     }
+}
+
+/// The noise estimate campaign.csv should give: the mean over the frames
+/// the statistics used (not rejected, with an estimate).
+fn mean_used_noise(frames: &Csv) -> f64 {
+    let rejected = frames.col("frame_rejected");
+    let noise: Vec<f64> = frames
+        .col("noise_estimate")
+        .iter()
+        .zip(&rejected)
+        .filter(|(n, r)| **r == 0.0 && n.is_finite())
+        .map(|(n, _)| *n)
+        .collect();
+    noise.iter().sum::<f64>() / noise.len() as f64
+}
+
+/// The node campaign.csv's peak should be: the largest |omega_mean| among
+/// nodes whose random part of u(omega_mean),
+/// sqrt(omega_inst_unc^2 - omega_bias_inst^2) / sqrt(n_valid), is at most
+/// 3 x its median.
+fn expected_peak(ens: &Csv) -> usize {
+    let om = ens.col("omega_mean");
+    let (inst, bi, nv) = (
+        ens.col("omega_inst_unc"),
+        ens.col("omega_bias_inst"),
+        ens.col("n_valid"),
+    );
+    let random: Vec<f64> = (0..inst.len())
+        .map(|k| {
+            let b = if bi[k].is_finite() { bi[k] } else { 0.0 };
+            (inst[k] * inst[k] - b * b).max(0.0).sqrt() / nv[k].sqrt()
+        })
+        .collect();
+    let lim = 3.0 * median(&random);
+    (0..om.len())
+        .filter(|&k| om[k].is_finite() && random[k].is_finite() && random[k] <= lim)
+        .max_by(|&a, &b| om[a].abs().total_cmp(&om[b].abs()))
+        .unwrap()
 }
