@@ -99,46 +99,7 @@ fn the_manifest_holds_the_resolved_stages_as_typed_si_values() {
         1e-12,
         "calibration",
     );
-    // the median test: threshold 2, eps = 0.1 px in m/s (the default,
-    // Westerweel & Scarano 2005's typical noise level; common practice)
-    let med = &r["validation"]["median"];
-    assert_eq!(med["threshold"].as_f64(), Some(2.0));
-    close(med["eps"].as_f64().unwrap(), 0.1 * cal, 1e-12, "eps");
-    assert!(med["eps_noise"].is_null(), "{med}");
-    assert_eq!(med["radius"].as_u64(), Some(1));
-    assert_eq!(med["combine"], "either");
-    assert_eq!(med["min_neighbours"].as_u64(), Some(3));
-    assert!(r["validation"]["limits"].is_null());
-    // the fill
-    assert_eq!(r["fill"]["method"], "neighbour-mean");
-    assert_eq!(r["fill"]["max_distance"].as_u64(), Some(3));
-    // the derivatives: the synth pipeline asks for least squares
-    let d = &r["derive"];
-    assert_eq!(
-        d["scheme"],
-        serde_json::json!({"name": "least-squares", "window": 5, "order": 1})
-    );
-    assert_eq!(d["velocity_noise"], "estimate");
-    assert_eq!(
-        d["correlation"],
-        serde_json::json!({"model": "window", "overlap": 0.25})
-    );
-    assert_eq!(d["correlation_from_data"], false);
-    assert_eq!(d["smoother"], serde_json::json!({"method": "none"}));
-    assert_eq!(d["truncation"], true);
-    // the statistics
-    let s = &r["stats"];
-    assert_eq!(s["coverage"].as_f64(), Some(0.95));
-    assert_eq!(s["phase_bins"].as_u64(), Some(8));
-    assert_eq!(s["max_lag"].as_u64(), Some(50));
-    // the input, in SI factors
-    assert_eq!(r["input"]["format"], "csv");
-    close(
-        r["input"]["length_scale"].as_f64().unwrap(),
-        1e-3,
-        1e-12,
-        "mm",
-    );
+    resolved_stages_match_the_synth_pipeline(r, cal);
     // the same in words
     let words = &run["resolved_in_words"];
     let v = words["validation"].as_str().unwrap();
@@ -253,4 +214,49 @@ fn without_a_calibration_eps_is_stated_as_the_frames_noise() {
     );
     assert_eq!(r["derive"]["correlation_from_data"], true);
     assert_eq!(r["stats"]["coverage"].as_f64(), Some(0.9));
+}
+
+/// The typed stages of the manifest (`resolved`) of synth's wake pipeline,
+/// `cal` its calibration in m/s per pixel.
+fn resolved_stages_match_the_synth_pipeline(r: &serde_json::Value, cal: f64) {
+    // the median test: threshold 2, eps = 0.1 px in m/s (the default,
+    // Westerweel & Scarano 2005's typical noise level; common practice)
+    let med = &r["validation"]["median"];
+    assert_eq!(med["threshold"].as_f64(), Some(2.0));
+    close(med["eps"].as_f64().unwrap(), 0.1 * cal, 1e-12, "eps");
+    assert!(med["eps_noise"].is_null(), "{med}");
+    assert_eq!(med["radius"].as_u64(), Some(1));
+    assert_eq!(med["combine"], "either");
+    assert_eq!(med["min_neighbours"].as_u64(), Some(3));
+    assert!(r["validation"]["limits"].is_null());
+    // the fill
+    assert_eq!(r["fill"]["method"], "neighbour-mean");
+    assert_eq!(r["fill"]["max_distance"].as_u64(), Some(3));
+    // the derivatives: the synth pipeline asks for least squares
+    let d = &r["derive"];
+    assert_eq!(
+        d["scheme"],
+        serde_json::json!({"name": "least-squares", "window": 5, "order": 1})
+    );
+    assert_eq!(d["velocity_noise"], "estimate");
+    assert_eq!(
+        d["correlation"],
+        serde_json::json!({"model": "window", "overlap": 0.25})
+    );
+    assert_eq!(d["correlation_from_data"], false);
+    assert_eq!(d["smoother"], serde_json::json!({"method": "none"}));
+    assert_eq!(d["truncation"], true);
+    // the statistics
+    let s = &r["stats"];
+    assert_eq!(s["coverage"].as_f64(), Some(0.95));
+    assert_eq!(s["phase_bins"].as_u64(), Some(8));
+    assert_eq!(s["max_lag"].as_u64(), Some(50));
+    // the input, in SI factors
+    assert_eq!(r["input"]["format"], "csv");
+    close(
+        r["input"]["length_scale"].as_f64().unwrap(),
+        1e-3,
+        1e-12,
+        "mm",
+    );
 }
