@@ -73,25 +73,7 @@ fn wake_cores_are_tracked_at_the_street_speed_and_their_budget_is_written() {
     // slice -1 is the mean field; bins are 0..11
     let bins = v.col("slice").iter().filter(|s| **s >= 0.0).count();
     assert!(bins >= 24, "{bins} bin cores");
-    // Every core off the edge has a finite, positive circulation
-    // uncertainty smaller than its circulation; cut cores may have none
-    // (NaN, never 0: a regression of NaN turned into 0 by f64::max).
-    let (g, u, e) = (
-        v.col("circulation"),
-        v.col("circulation_unc"),
-        v.col("edge"),
-    );
-    for k in 0..g.len() {
-        assert!(u[k] != 0.0, "circulation {} ± 0", g[k]);
-        if e[k] == 0.0 {
-            assert!(
-                u[k] > 0.0 && u[k] < g[k].abs(),
-                "circulation {} ± {}",
-                g[k],
-                u[k]
-            );
-        }
-    }
+    circulations_are_finite_and_smaller_than_their_value(&v);
     let t = Csv::read(&w.path("out/u015/tracks.csv"));
     let (n, uc, ucu) = (t.col("n_points"), t.col("u_conv"), t.col("u_conv_unc"));
     let mut seen = 0;
@@ -251,6 +233,28 @@ fn shards_merge_the_frame_cores(w: &Work) {
         assert_eq!(a.header, b.header);
         for name in &a.header {
             assert_all_close(&b.col(name), &a.col(name), 1e-15, 1e-9, name);
+        }
+    }
+}
+
+/// Every core off the edge has a finite, positive circulation
+/// uncertainty smaller than its circulation; cut cores may have none
+/// (NaN, never 0: a regression of NaN turned into 0 by f64::max).
+fn circulations_are_finite_and_smaller_than_their_value(v: &Csv) {
+    let (g, u, e) = (
+        v.col("circulation"),
+        v.col("circulation_unc"),
+        v.col("edge"),
+    );
+    for k in 0..g.len() {
+        assert!(u[k] != 0.0, "circulation {} ± 0", g[k]);
+        if e[k] == 0.0 {
+            assert!(
+                u[k] > 0.0 && u[k] < g[k].abs(),
+                "circulation {} ± {}",
+                g[k],
+                u[k]
+            );
         }
     }
 }
