@@ -192,6 +192,69 @@ fn square(n: usize, h: f64) -> Grid {
     }
 }
 
+/// What the Lamb-Oseen Monte Carlo collects per seed.
+#[derive(Default)]
+struct LambOseenSeeds {
+    /// Circulation of the core minus the estimator's own target.
+    errs: Vec<f64>,
+    /// Its reported uncertainty, and the one with independent nodes.
+    uncs: Vec<f64>,
+    uncs_indep: Vec<f64>,
+    /// Seeds whose error is within 2 reported uncertainties.
+    in_k2: usize,
+    /// (region circulation, G0 (1 - exp(-R²/rc²)) of its equivalent radius).
+    windows: Vec<(f64, f64)>,
+    /// Relative truncation of the discrete circulation.
+    truncation: Vec<f64>,
+    /// (value, uncertainty) of the fitted Gamma and rc.
+    fit_g: Vec<(f64, f64)>,
+    fit_rc: Vec<(f64, f64)>,
+}
+
+/// 200 seeds of the vortex `f` (G0 `g0`, radius `rc`) with noise `sigma`
+/// on grid `g`; `clean` the noise-free sample.
+fn lamb_oseen_seeds(
+    g: Grid,
+    f: &dyn Fn(f64, f64) -> Sample,
+    (g0, rc, sigma): (f64, f64, f64),
+    clean: &Sampled,
+    corr: &OmegaCorrelation,
+    r: &mut impl Rng,
+) -> LambOseenSeeds {
+    let h = g.dx;
+    let mut m = LambOseenSeeds::default();
+    for _ in 0..200 {
+        let s = sample(g, f, sigma, r);
+        let cores = find_cores(
+            &slice(&s, SliceKind::Mean, f64::NAN),
+            &Params::default(),
+            2,
+            corr,
+        );
+        assert_eq!(cores.len(), 1, "one core");
+        let c = &cores[0];
+        let target: f64 = c.nodes.iter().map(|&k| clean.omega[k]).sum::<f64>() * h * h;
+        let truth: f64 = c.nodes.iter().map(|&k| s.truth[k]).sum::<f64>() * h * h;
+        m.truncation.push((target - truth) / truth);
+        let e = c.circulation - target;
+        m.in_k2 += usize::from(e.abs() <= 2.0 * c.circulation_unc);
+        m.errs.push(e);
+        m.uncs.push(c.circulation_unc);
+        let sig = vec![sigma / h; c.nodes.len()];
+        let ones = vec![1.0; c.nodes.len()];
+        let indep = OmegaCorrelation::independent().variance(&c.nodes, &ones, &sig, g.nx);
+        m.uncs_indep.push(indep.sqrt() * h * h);
+        m.windows.push((
+            c.circulation,
+            g0 * (1.0 - (-(c.radius_eq / rc).powi(2)).exp()),
+        ));
+        let fit = c.fit.expect("fit");
+        m.fit_g.push((fit.gamma, fit.gamma_unc));
+        m.fit_rc.push((fit.rc, fit.rc_unc));
+    }
+    m
+}
+
 #[test]
 fn lamb_oseen_circulation_within_its_uncertainty_and_what_the_window_misses() {
     // Lamb-Oseen (Saffman 1992 §1.3): omega = G0/(pi rc²) exp(-r²/rc²);
@@ -202,55 +265,24 @@ fn lamb_oseen_circulation_within_its_uncertainty_and_what_the_window_misses() {
     let corr = central_corr(h);
     let f = |x, y| lamb_oseen(x, y, 0.2e-3, -0.1e-3, g0, rc);
     let sigma = 0.02 * 0.638 * g0 / (2.0 * std::f64::consts::PI * rc);
-    let mut r = rng(7);
     // The estimator's own target: the central-difference vorticity of the
     // noise-free field (its truncation is checked apart below).
+    let mut r = rng(7);
     let clean = sample(g, &f, 0.0, &mut r);
-    let (mut errs, mut uncs, mut in_k2) = (Vec::new(), Vec::new(), 0);
-    let (mut fit_g, mut fit_rc, mut windows) = (Vec::new(), Vec::new(), Vec::new());
-    let mut truncation = Vec::new();
-    let mut uncs_indep = Vec::new();
-    for _ in 0..200 {
-        let s = sample(g, &f, sigma, &mut r);
-        let cores = find_cores(
-            &slice(&s, SliceKind::Mean, f64::NAN),
-            &Params::default(),
-            2,
-            &corr,
-        );
-        assert_eq!(cores.len(), 1, "one core");
-        let c = &cores[0];
-        let target: f64 = c.nodes.iter().map(|&k| clean.omega[k]).sum::<f64>() * h * h;
-        let truth: f64 = c.nodes.iter().map(|&k| s.truth[k]).sum::<f64>() * h * h;
-        truncation.push((target - truth) / truth);
-        let e = c.circulation - target;
-        in_k2 += usize::from(e.abs() <= 2.0 * c.circulation_unc);
-        errs.push(e);
-        uncs.push(c.circulation_unc);
-        let sig = vec![sigma / h; c.nodes.len()];
-        let ones = vec![1.0; c.nodes.len()];
-        let indep = OmegaCorrelation::independent().variance(&c.nodes, &ones, &sig, g.nx);
-        uncs_indep.push(indep.sqrt() * h * h);
-        windows.push((
-            c.circulation,
-            g0 * (1.0 - (-(c.radius_eq / rc).powi(2)).exp()),
-        ));
-        let fit = c.fit.expect("fit");
-        fit_g.push((fit.gamma, fit.gamma_unc));
-        fit_rc.push((fit.rc, fit.rc_unc));
-    }
+    let m = lamb_oseen_seeds(g, &f, (g0, rc, sigma), &clean, &corr, &mut r);
+    let (errs, in_k2) = (&m.errs, m.in_k2);
     let n = errs.len() as f64;
     let mean_e = errs.iter().sum::<f64>() / n;
     let sd = (errs.iter().map(|e| (e - mean_e).powi(2)).sum::<f64>() / (n - 1.0)).sqrt();
-    let u = uncs.iter().sum::<f64>() / n;
-    let (gam, win) = windows[0];
+    let u = m.uncs.iter().sum::<f64>() / n;
+    let (gam, win) = m.windows[0];
     eprintln!(
         "circulation: scatter {sd:.3e}, reported {u:.3e} (ratio {:.3}), bias {mean_e:.2e}; within k=2: {in_k2}/200; region {gam:.4e} vs G0(1-exp(-R²/rc²)) {win:.4e} (G0 {g0:.1e})",
         sd / u
     );
     // Monte Carlo: the propagated uncertainty with the stencil correlation
     // matches the scatter within 15 %; independent nodes overstate it.
-    let ui = uncs_indep.iter().sum::<f64>() / n;
+    let ui = m.uncs_indep.iter().sum::<f64>() / n;
     eprintln!("scatter / independent-node uncertainty: {:.3}", sd / ui);
     assert!((sd / u - 1.0).abs() < 0.15, "scatter {sd} vs reported {u}");
     assert!(sd / ui < 0.7, "independent nodes: scatter {sd} vs {ui}");
@@ -262,27 +294,39 @@ fn lamb_oseen_circulation_within_its_uncertainty_and_what_the_window_misses() {
     // summed on the same nodes, at rc = 5 pitches: below 1.5 % (measured
     // -0.9 %; O(h²/rc²)). Pipelines carry it in omega_mean_unc's systematic
     // part (the truncation estimate, docs/uncertainty.md).
-    let tr = truncation.iter().fold(0.0f64, |m, t| m.max(t.abs()));
+    let tr = m.truncation.iter().fold(0.0f64, |m, t| m.max(t.abs()));
     eprintln!(
         "truncation of the region circulation: {:.3} %",
-        100.0 * truncation[0]
+        100.0 * m.truncation[0]
     );
     assert!(tr < 0.015, "truncation {tr}");
     // The window: the region holds G0 (1 - exp(-R²/rc²)) within 3 %, about
     // 70 % of G0 (Gamma2 > 2/pi ends near r = 1.1 rc).
-    for (gam, win) in &windows {
+    for (gam, win) in &m.windows {
         assert!((gam / win - 1.0).abs() < 0.03, "region {gam} vs {win}");
         assert!(*gam > 0.6 * g0 && *gam < 0.8 * g0, "region {gam} of {g0}");
     }
-    // The fit extrapolates to the whole vortex: on the noise-free field it
-    // returns G0 and rc within 1.5 % (the rest is the central differences'
-    // truncation at rc = 5 pitches: measured +0.02 % and +1.0 %); with noise, its reported
-    // uncertainties cover the scatter about that (3 u, 95 % of seeds).
+    fit_extrapolates_to_the_whole_vortex(&clean, &corr, (g0, rc), &m);
+}
+
+/// The fit extrapolates to the whole vortex: on the noise-free field it
+/// returns G0 and rc within 1.5 % (the rest is the central differences'
+/// truncation at rc = 5 pitches: measured +0.02 % and +1.0 %); with noise,
+/// its reported uncertainties cover the scatter about that (3 u, 95 % of
+/// seeds).
+fn fit_extrapolates_to_the_whole_vortex(
+    clean: &Sampled,
+    corr: &OmegaCorrelation,
+    (g0, rc): (f64, f64),
+    m: &LambOseenSeeds,
+) {
+    let (fit_g, fit_rc) = (&m.fit_g, &m.fit_rc);
+    let n = fit_g.len() as f64;
     let cf = find_cores(
-        &slice(&clean, SliceKind::Mean, f64::NAN),
+        &slice(clean, SliceKind::Mean, f64::NAN),
         &Params::default(),
         2,
-        &corr,
+        corr,
     )[0]
     .fit
     .expect("clean fit");
@@ -298,18 +342,18 @@ fn lamb_oseen_circulation_within_its_uncertainty_and_what_the_window_misses() {
     };
     eprintln!(
         "fit scatter / reported: gamma {:.3}, rc {:.3}",
-        spread(&fit_g, cf.gamma),
-        spread(&fit_rc, cf.rc)
+        spread(fit_g, cf.gamma),
+        spread(fit_rc, cf.rc)
     );
     assert!(
-        z(&fit_g, cf.gamma) >= 190,
+        z(fit_g, cf.gamma) >= 190,
         "fit gamma within 3 u: {}",
-        z(&fit_g, cf.gamma)
+        z(fit_g, cf.gamma)
     );
     assert!(
-        z(&fit_rc, cf.rc) >= 190,
+        z(fit_rc, cf.rc) >= 190,
         "fit rc within 3 u: {}",
-        z(&fit_rc, cf.rc)
+        z(fit_rc, cf.rc)
     );
 }
 
