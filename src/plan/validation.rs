@@ -286,9 +286,11 @@ fn resolve_limits(l: &RawLimits, ctx: &ResolveCtx, floor: Option<f64>) -> Result
     let shape = match l.shape.as_deref().unwrap_or("box") {
         "box" => Shape::Box,
         "ellipse" => Shape::Ellipse,
-        other => return Err(Error::usage(format!(
+        other => {
+            return Err(Error::usage(format!(
             "[validation] limits.shape = '{other}' is not known; expected \"box\" or \"ellipse\""
-        ))),
+        )))
+        }
     };
     let bounds = match (l.u, l.v, l.spread) {
         (Some(u), Some(v), None) => {
