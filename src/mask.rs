@@ -256,12 +256,6 @@ fn inside(p: &[(f64, f64)], x: f64, y: f64) -> bool {
 /// Reads a mask file (see the module documentation for the two layouts).
 fn read_file(path: &Path, length_scale: f64, o: Orientation) -> Result<FileMask> {
     let text = std::fs::read_to_string(path).map_err(|e| Error::io(path, e))?;
-    let cells = |line: &str| -> Vec<String> {
-        line.split(|c: char| c == ',' || c == ';' || c.is_whitespace())
-            .filter(|c| !c.is_empty())
-            .map(|c| c.trim_matches('"').to_string())
-            .collect()
-    };
     let mut lines = text
         .lines()
         .enumerate()
@@ -270,36 +264,11 @@ fn read_file(path: &Path, length_scale: f64, o: Orientation) -> Result<FileMask>
     let Some((first_no, first)) = lines.next() else {
         return Err(Error::data("the mask file is empty").with_path(path));
     };
-    let head = cells(first);
+    let head = mask_cells(first);
     let numeric = |c: &str| c.parse::<f64>().is_ok();
     if head.iter().all(|c| numeric(c)) {
         // A 0/1 grid.
-        let mut rows = Vec::new();
-        for (no, line) in std::iter::once((first_no, first)).chain(lines) {
-            let row: Result<Vec<bool>> = cells(line)
-                .iter()
-                .map(|c| match c.as_str() {
-                    "0" => Ok(false),
-                    "1" => Ok(true),
-                    other => Err(Error::data(format!(
-                        "'{other}': a 0/1 mask grid holds only 0 and 1"
-                    ))
-                    .with_path(path)
-                    .with_line(no)),
-                })
-                .collect();
-            let row = row?;
-            if let Some(r0) = rows.first().map(Vec::len).filter(|&n| n != row.len()) {
-                return Err(Error::data(format!(
-                    "the row has {} cells, the first row {r0}",
-                    row.len()
-                ))
-                .with_path(path)
-                .with_line(no));
-            }
-            rows.push(row);
-        }
-        return Ok(FileMask::Grid(rows));
+        return read_grid(path, std::iter::once((first_no, first)).chain(lines));
     }
     // Nodes listed under a header with x and y.
     let col = |name: &str| {
@@ -314,9 +283,60 @@ fn read_file(path: &Path, length_scale: f64, o: Orientation) -> Result<FileMask>
         })
     };
     let (kx, ky) = (col("x")?, col("y")?);
+    read_nodes(path, lines, (kx, ky), length_scale, o)
+}
+
+/// The cells of a mask file's line: split at commas, semicolons and
+/// blanks, quotes removed.
+fn mask_cells(line: &str) -> Vec<String> {
+    line.split(|c: char| c == ',' || c == ';' || c.is_whitespace())
+        .filter(|c| !c.is_empty())
+        .map(|c| c.trim_matches('"').to_string())
+        .collect()
+}
+
+/// A 0/1 grid mask from its numbered lines; every row as long as the first.
+fn read_grid<'a>(path: &Path, lines: impl Iterator<Item = (usize, &'a str)>) -> Result<FileMask> {
+    let mut rows = Vec::new();
+    for (no, line) in lines {
+        let row: Result<Vec<bool>> = mask_cells(line)
+            .iter()
+            .map(|c| match c.as_str() {
+                "0" => Ok(false),
+                "1" => Ok(true),
+                other => Err(
+                    Error::data(format!("'{other}': a 0/1 mask grid holds only 0 and 1"))
+                        .with_path(path)
+                        .with_line(no),
+                ),
+            })
+            .collect();
+        let row = row?;
+        if let Some(r0) = rows.first().map(Vec::len).filter(|&n| n != row.len()) {
+            return Err(Error::data(format!(
+                "the row has {} cells, the first row {r0}",
+                row.len()
+            ))
+            .with_path(path)
+            .with_line(no));
+        }
+        rows.push(row);
+    }
+    Ok(FileMask::Grid(rows))
+}
+
+/// The masked nodes listed on the data lines below the header, x and y in
+/// cells `kx` and `ky`, scaled to metres and oriented.
+fn read_nodes<'a>(
+    path: &Path,
+    lines: impl Iterator<Item = (usize, &'a str)>,
+    (kx, ky): (usize, usize),
+    length_scale: f64,
+    o: Orientation,
+) -> Result<FileMask> {
     let mut nodes = Vec::new();
     for (no, line) in lines {
-        let c = cells(line);
+        let c = mask_cells(line);
         let get = |k: usize, name: &str| -> Result<f64> {
             c.get(k)
                 .and_then(|s| s.parse::<f64>().ok())

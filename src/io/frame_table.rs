@@ -35,6 +35,14 @@ pub(crate) fn parse_frame_table(bytes: &[u8], path: &Path) -> Result<FrameTable>
         .with_path(path)
         .with_line(hline));
     }
+    let cols = TableColumns {
+        path,
+        ncol: names.len(),
+        fcol,
+        tcol,
+        pcol,
+        fq,
+    };
     let mut table = FrameTable::default();
     let mut seen: std::collections::HashMap<String, usize> = Default::default();
     let mut freqs: Vec<f64> = Vec::new();
@@ -42,6 +50,60 @@ pub(crate) fn parse_frame_table(bytes: &[u8], path: &Path) -> Result<FrameTable>
         if is_comment_or_blank(line) {
             continue;
         }
+        let row = cols.row(no, line)?;
+        freqs.extend(row.hz);
+        if let Some(first) = seen.insert(row.name.clone(), no) {
+            return Err(Error::data(format!(
+                "frame '{}' is listed twice, on lines {first} and {no}",
+                clip(&row.name)
+            ))
+            .with_path(path)
+            .with_line(no)
+            .with_column("frame"));
+        }
+        table.rows.push((row.name, row.time, row.phase));
+    }
+    if let (Some((_, column)), false) = (fq, freqs.is_empty()) {
+        let hz = freqs.iter().sum::<f64>() / freqs.len() as f64;
+        let spread = freqs
+            .iter()
+            .fold(0.0_f64, |m, f| m.max((f - hz).abs() / hz));
+        table.frequency = Some(TableFrequency {
+            column,
+            hz,
+            spread,
+            rows: freqs.len(),
+        });
+    }
+    Ok(table)
+}
+
+/// Where the frame table's columns are.
+struct TableColumns<'a> {
+    path: &'a Path,
+    /// Cells the header names.
+    ncol: usize,
+    fcol: usize,
+    tcol: Option<usize>,
+    pcol: Option<usize>,
+    /// The frequency or period column and its name.
+    fq: Option<(usize, &'static str)>,
+}
+
+/// One row of the frame table.
+struct Row {
+    name: String,
+    time: Option<f64>,
+    phase: Option<f64>,
+    /// The row's frequency in Hz (from `frequency_hz` or `period_s`).
+    hz: Option<f64>,
+}
+
+impl TableColumns<'_> {
+    /// Reads data line `no`; every present column needs a number.
+    fn row(&self, no: usize, line: &[u8]) -> Result<Row> {
+        let path = self.path;
+        let (fq, fcol, tcol, pcol) = (self.fq, self.fcol, self.tcol, self.pcol);
         let (mut frame, mut t, mut p, mut fc): (&[u8], &[u8], &[u8], &[u8]) = (b"", b"", b"", b"");
         let n = for_cells(line, Format::Csv, |k, c| {
             if Some(k) == fq.map(|q| q.0) {
@@ -57,10 +119,10 @@ pub(crate) fn parse_frame_table(bytes: &[u8], path: &Path) -> Result<FrameTable>
                 p = c;
             }
         });
-        if n != names.len() {
+        if n != self.ncol {
             return Err(Error::data(format!(
                 "the line has {n} cells, the header names {}",
-                names.len()
+                self.ncol
             ))
             .with_path(path)
             .with_line(no));
@@ -71,25 +133,12 @@ pub(crate) fn parse_frame_table(bytes: &[u8], path: &Path) -> Result<FrameTable>
                 .with_line(no)
                 .with_column("frame"));
         }
-        let value = |cell: &[u8], col: Option<usize>, name: &str| -> Result<Option<f64>> {
-            if col.is_none() {
-                return Ok(None);
-            }
-            match number(cell) {
-                Ok(Some(x)) => Ok(Some(x)),
-                Ok(None) => Err(Error::data(format!(
-                    "'{}' is not a number",
-                    clip(&show(cell))
-                ))),
-                Err(m) => Err(Error::data(m)),
-            }
-            .map_err(|e| e.with_path(path).with_line(no).with_column(name))
-        };
         let name = show(frame);
-        let time = value(t, tcol, "time_s")?;
-        let phase = value(p, pcol, "phase_deg")?;
+        let time = self.value(no, t, tcol, "time_s")?;
+        let phase = self.value(no, p, pcol, "phase_deg")?;
+        let mut hz = None;
         if let Some((col, name)) = fq {
-            let x = value(fc, Some(col), name)?.unwrap_or(f64::NAN);
+            let x = self.value(no, fc, Some(col), name)?.unwrap_or(f64::NAN);
             if !(x.is_finite() && x > 0.0) {
                 return Err(
                     Error::data(format!("{name} = {x} must be a positive number"))
@@ -98,32 +147,32 @@ pub(crate) fn parse_frame_table(bytes: &[u8], path: &Path) -> Result<FrameTable>
                         .with_column(name),
                 );
             }
-            freqs.push(if name == "period_s" { 1.0 / x } else { x });
+            hz = Some(if name == "period_s" { 1.0 / x } else { x });
         }
-        if let Some(first) = seen.insert(name.clone(), no) {
-            return Err(Error::data(format!(
-                "frame '{}' is listed twice, on lines {first} and {no}",
-                clip(&name)
-            ))
-            .with_path(path)
-            .with_line(no)
-            .with_column("frame"));
-        }
-        table.rows.push((name, time, phase));
-    }
-    if let (Some((_, column)), false) = (fq, freqs.is_empty()) {
-        let hz = freqs.iter().sum::<f64>() / freqs.len() as f64;
-        let spread = freqs
-            .iter()
-            .fold(0.0_f64, |m, f| m.max((f - hz).abs() / hz));
-        table.frequency = Some(TableFrequency {
-            column,
+        Ok(Row {
+            name,
+            time,
+            phase,
             hz,
-            spread,
-            rows: freqs.len(),
-        });
+        })
     }
-    Ok(table)
+
+    /// The number in `cell` of column `name` on line `no`, or None when the
+    /// table has no such column (`col`).
+    fn value(&self, no: usize, cell: &[u8], col: Option<usize>, name: &str) -> Result<Option<f64>> {
+        if col.is_none() {
+            return Ok(None);
+        }
+        match number(cell) {
+            Ok(Some(x)) => Ok(Some(x)),
+            Ok(None) => Err(Error::data(format!(
+                "'{}' is not a number",
+                clip(&show(cell))
+            ))),
+            Err(m) => Err(Error::data(m)),
+        }
+        .map_err(|e| e.with_path(self.path).with_line(no).with_column(name))
+    }
 }
 
 /// The column holding the run's frequency (`frequency_hz`) or period

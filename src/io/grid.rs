@@ -133,7 +133,44 @@ pub(crate) fn infer_axis(values: &[f64], tol: f64) -> std::result::Result<Axis, 
         return Err(AxisError::TooFew(d.len()));
     }
     // Step 2: pitch estimate and clustering.
-    let mut gs = gaps(&d);
+    let centres = cluster_centres(&d, tol);
+    if centres.len() < 2 {
+        return Err(AxisError::TooFew(centres.len()));
+    }
+    let h = crate::robust::median(&mut gaps(&centres));
+    let largest = d[0].abs().max(d[d.len() - 1].abs());
+    if !h.is_normal() {
+        return Err(AxisError::Unresolved { pitch: h, largest });
+    }
+    // Step 3: indices from the gaps. A grid of more nodes than 8 per value
+    // (+ 64) is a stray coordinate, refused before any index can overflow.
+    let most = 8.0 * values.len() as f64 + 64.0;
+    let idx = node_indices(&centres, h, tol, most)?;
+    // Step 4: the line through the centres.
+    let (origin, pitch) = line_through(&centres, &idx);
+    if !(pitch.is_normal() && pitch > 1e-12 * largest) {
+        return Err(AxisError::Unresolved { pitch, largest });
+    }
+    // Step 5: every value on a node.
+    for &x in &d {
+        let i = ((x - origin) / pitch).round();
+        let nearest = origin + i * pitch;
+        if (x - nearest).abs() > tol * pitch {
+            return Err(AxisError::Irregular {
+                value: x,
+                nearest,
+                pitch,
+            });
+        }
+    }
+    let n = ((d[d.len() - 1] - origin) / pitch).round() as usize + 1;
+    Ok(Axis { origin, pitch, n })
+}
+
+/// Step 2: the centres of the clusters of the distinct sorted values `d`
+/// (values closer than the merge distance are copies of one node).
+fn cluster_centres(d: &[f64], tol: f64) -> Vec<f64> {
+    let mut gs = gaps(d);
     gs.sort_unstable_by(f64::total_cmp);
     let ratio_limit = ((1.0 - 2.0 * tol) / (2.0 * tol)).max(3.0);
     let (jump, k_jump) = gs
@@ -161,17 +198,17 @@ pub(crate) fn infer_axis(values: &[f64], tol: f64) -> std::result::Result<Axis, 
         }
     }
     centres.push(sum / count as f64);
-    if centres.len() < 2 {
-        return Err(AxisError::TooFew(centres.len()));
-    }
-    let h = crate::robust::median(&mut gaps(&centres));
-    let largest = d[0].abs().max(d[d.len() - 1].abs());
-    if !h.is_normal() {
-        return Err(AxisError::Unresolved { pitch: h, largest });
-    }
-    // Step 3: indices from the gaps. A grid of more nodes than 8 per value
-    // (+ 64) is a stray coordinate, refused before any index can overflow.
-    let most = 8.0 * values.len() as f64 + 64.0;
+    centres
+}
+
+/// Step 3: the node index of each centre from the gaps in pitches `h`;
+/// more than `most` nodes is a stray value.
+fn node_indices(
+    centres: &[f64],
+    h: f64,
+    tol: f64,
+    most: f64,
+) -> std::result::Result<Vec<usize>, AxisError> {
     let mut idx = Vec::with_capacity(centres.len());
     idx.push(0usize);
     for w in centres.windows(2) {
@@ -195,45 +232,34 @@ pub(crate) fn infer_axis(values: &[f64], tol: f64) -> std::result::Result<Axis, 
         }
         idx.push(idx.last().unwrap() + steps as usize);
     }
-    // Step 4: the line through the centres.
+    Ok(idx)
+}
+
+/// Step 4: (origin, pitch) of the line through the centres at their
+/// indices: through the end centres when every centre lies on it, else the
+/// least-squares line.
+fn line_through(centres: &[f64], idx: &[usize]) -> (f64, f64) {
     let last = centres.len() - 1;
     let end_pitch = (centres[last] - centres[0]) / idx[last] as f64;
     let end_fits = centres
         .iter()
-        .zip(&idx)
+        .zip(idx)
         .all(|(&c, &i)| (c - (centres[0] + i as f64 * end_pitch)).abs() <= 1e-9 * end_pitch);
-    let (origin, pitch) = if end_fits {
+    if end_fits {
         (centres[0], end_pitch)
     } else {
         let n = centres.len() as f64;
         let im = idx.iter().map(|&i| i as f64).sum::<f64>() / n;
         let cm = centres.iter().sum::<f64>() / n;
         let (mut sxy, mut sxx) = (0.0, 0.0);
-        for (&c, &i) in centres.iter().zip(&idx) {
+        for (&c, &i) in centres.iter().zip(idx) {
             let di = i as f64 - im;
             sxy += di * (c - cm);
             sxx += di * di;
         }
         let b = sxy / sxx;
         (cm - b * im, b)
-    };
-    if !(pitch.is_normal() && pitch > 1e-12 * largest) {
-        return Err(AxisError::Unresolved { pitch, largest });
     }
-    // Step 5: every value on a node.
-    for &x in &d {
-        let i = ((x - origin) / pitch).round();
-        let nearest = origin + i * pitch;
-        if (x - nearest).abs() > tol * pitch {
-            return Err(AxisError::Irregular {
-                value: x,
-                nearest,
-                pitch,
-            });
-        }
-    }
-    let n = ((d[d.len() - 1] - origin) / pitch).round() as usize + 1;
-    Ok(Axis { origin, pitch, n })
 }
 
 /// Rows of one frame as parsed, in the file's units. `invalid[k]` marks a

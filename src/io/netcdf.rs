@@ -241,85 +241,28 @@ impl Dataset {
     /// header is truncated.
     pub(crate) fn header(bytes: &[u8], file_len: usize) -> Result<(Dataset, Vec<Layout>), String> {
         let mut r = Reader { b: bytes, p: 0 };
-        let magic = r
-            .take(4)
-            .map_err(|_| "not a NetCDF file: too short".to_string())?;
-        if &magic[..3] != b"CDF" {
-            let hdf5 = bytes.starts_with(b"\x89HDF");
-            return Err(if hdf5 {
-                "this is an HDF5 file (NetCDF-4 or MAT 7.3), not NetCDF-3".into()
-            } else {
-                "not a NetCDF-3 file (it does not start with 'CDF')".into()
-            });
-        }
-        let wide = match magic[3] {
-            1 => false,
-            2 => true,
-            v => return Err(format!("NetCDF-3 version byte {v} is not 1 or 2")),
-        };
+        let wide = read_magic(&mut r, bytes)?;
         let numrecs = r.u32()?;
         let mut ds = Dataset::default();
-        let (tag, n) = (r.u32()?, r.u32()? as usize);
-        if tag == NC_DIMENSION {
-            for k in 0..n {
-                let name = r.name()?;
-                let len = r.u32()? as usize;
-                if len == 0 {
-                    ds.unlimited = Some(k);
-                }
-                ds.dims.push((name, len));
-            }
-        } else if tag != 0 || n != 0 {
-            return Err("the dimension list is malformed".into());
-        }
+        read_dims(&mut r, &mut ds)?;
         ds.attrs = r.attrs()?;
-        let (tag, n) = (r.u32()?, r.u32()? as usize);
-        if tag != NC_VARIABLE && (tag != 0 || n != 0) {
-            return Err("the variable list is malformed".into());
-        }
-        let mut layout = Vec::with_capacity(n);
-        for _ in 0..if tag == NC_VARIABLE { n } else { 0 } {
-            let name = r.name()?;
-            let nd = r.u32()? as usize;
-            let mut dims = Vec::with_capacity(nd.min(64));
-            for _ in 0..nd {
-                let d = r.u32()? as usize;
-                if d >= ds.dims.len() {
-                    return Err(format!(
-                        "variable '{name}' names dimension {d}, which does not exist"
-                    ));
-                }
-                dims.push(d);
-            }
-            let attrs = r.attrs()?;
-            let ty = r.u32()?;
-            let vsize = r.u32()? as usize;
-            let begin = if wide { r.u64()? } else { r.u32()? as u64 };
-            layout.push((ty, vsize, begin as usize));
-            ds.vars.push(Var {
-                name,
-                dims,
-                attrs,
-                data: Data::F64(Vec::new()),
-            });
-        }
+        let layout = read_vars(&mut r, &mut ds, wide)?;
         // The record count: as stated, or (streaming, -1) as the file holds.
-        let is_rec = |v: &Var| v.dims.first().is_some_and(|&d| Some(d) == ds.unlimited);
         let rec_size: usize = ds
             .vars
             .iter()
             .zip(&layout)
-            .filter(|(v, _)| is_rec(v))
+            .filter(|(v, _)| ds.is_rec(v))
             .map(|(_, l)| l.1)
             .sum();
-        let n_rec_vars = ds.vars.iter().filter(|v| is_rec(v)).count();
+        let n_rec_vars = ds.vars.iter().filter(|v| ds.is_rec(v)).count();
         if let Some(u) = ds.unlimited {
             let recs = if numrecs == u32::MAX {
                 let first = ds
                     .vars
                     .iter()
                     .zip(&layout)
-                    .filter(|(v, _)| is_rec(v))
+                    .filter(|(v, _)| ds.is_rec(v))
                     .map(|(_, l)| l.2)
                     .min();
                 match first {
@@ -331,13 +274,31 @@ impl Dataset {
             };
             ds.dims[u].1 = recs;
         }
+        let out = ds.layouts(&layout, rec_size, n_rec_vars)?;
+        Ok((ds, out))
+    }
+
+    /// True when `v`'s first dimension is the record (unlimited) one.
+    fn is_rec(&self, v: &Var) -> bool {
+        v.dims.first().is_some_and(|&d| Some(d) == self.unlimited)
+    }
+
+    /// Where each variable's values lie, from its (type, vsize, begin) in
+    /// the header; `rec_size` is the bytes of one record, `n_rec_vars` the
+    /// record variables.
+    fn layouts(
+        &self,
+        layout: &[(u32, usize, usize)],
+        rec_size: usize,
+        n_rec_vars: usize,
+    ) -> Result<Vec<Layout>, String> {
         let mut out = Vec::with_capacity(layout.len());
         for (k, &(ty, _, begin)) in layout.iter().enumerate() {
-            let v = &ds.vars[k];
-            let shape = ds.shape(v);
+            let v = &self.vars[k];
+            let shape = self.shape(v);
             let size = type_size(ty)
                 .ok_or_else(|| format!("variable '{}' has unknown type {ty}", v.name))?;
-            let rec = is_rec(v);
+            let rec = self.is_rec(v);
             let per: usize = if rec {
                 shape[1..].iter().product()
             } else {
@@ -358,8 +319,87 @@ impl Dataset {
                 stride,
             });
         }
-        Ok((ds, out))
+        Ok(out)
     }
+}
+
+/// Checks the magic `CDF` and the version byte; true for the 64-bit offset
+/// format (version 2).
+fn read_magic(r: &mut Reader<'_>, bytes: &[u8]) -> Result<bool, String> {
+    let magic = r
+        .take(4)
+        .map_err(|_| "not a NetCDF file: too short".to_string())?;
+    if &magic[..3] != b"CDF" {
+        let hdf5 = bytes.starts_with(b"\x89HDF");
+        return Err(if hdf5 {
+            "this is an HDF5 file (NetCDF-4 or MAT 7.3), not NetCDF-3".into()
+        } else {
+            "not a NetCDF-3 file (it does not start with 'CDF')".into()
+        });
+    }
+    match magic[3] {
+        1 => Ok(false),
+        2 => Ok(true),
+        v => Err(format!("NetCDF-3 version byte {v} is not 1 or 2")),
+    }
+}
+
+/// Reads the dimension list into `ds` (a length 0 is the record dimension).
+fn read_dims(r: &mut Reader<'_>, ds: &mut Dataset) -> Result<(), String> {
+    let (tag, n) = (r.u32()?, r.u32()? as usize);
+    if tag == NC_DIMENSION {
+        for k in 0..n {
+            let name = r.name()?;
+            let len = r.u32()? as usize;
+            if len == 0 {
+                ds.unlimited = Some(k);
+            }
+            ds.dims.push((name, len));
+        }
+    } else if tag != 0 || n != 0 {
+        return Err("the dimension list is malformed".into());
+    }
+    Ok(())
+}
+
+/// Reads the variable list into `ds` (without values); returns each
+/// variable's (type, vsize, begin).
+fn read_vars(
+    r: &mut Reader<'_>,
+    ds: &mut Dataset,
+    wide: bool,
+) -> Result<Vec<(u32, usize, usize)>, String> {
+    let (tag, n) = (r.u32()?, r.u32()? as usize);
+    if tag != NC_VARIABLE && (tag != 0 || n != 0) {
+        return Err("the variable list is malformed".into());
+    }
+    let mut layout = Vec::with_capacity(n);
+    for _ in 0..if tag == NC_VARIABLE { n } else { 0 } {
+        let name = r.name()?;
+        let nd = r.u32()? as usize;
+        let mut dims = Vec::with_capacity(nd.min(64));
+        for _ in 0..nd {
+            let d = r.u32()? as usize;
+            if d >= ds.dims.len() {
+                return Err(format!(
+                    "variable '{name}' names dimension {d}, which does not exist"
+                ));
+            }
+            dims.push(d);
+        }
+        let attrs = r.attrs()?;
+        let ty = r.u32()?;
+        let vsize = r.u32()? as usize;
+        let begin = if wide { r.u64()? } else { r.u32()? as u64 };
+        layout.push((ty, vsize, begin as usize));
+        ds.vars.push(Var {
+            name,
+            dims,
+            attrs,
+            data: Data::F64(Vec::new()),
+        });
+    }
+    Ok(layout)
 }
 
 /// Where a variable's values lie in the file.

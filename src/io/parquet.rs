@@ -165,6 +165,38 @@ pub(crate) fn read_rows(
         .frames
         .get(&frame)
         .ok_or_else(|| Error::data(format!("frame {frame} is not in the table")).with_path(path))?;
+    let wanted = wanted_columns(cols, grid_only, &ix, path)?;
+    let mut rows = RawRows {
+        sigma_u: (!grid_only && cols.sigma_u.is_some()).then(Vec::new),
+        sigma_v: (!grid_only && cols.sigma_v.is_some()).then(Vec::new),
+        masked: cols.mask.is_some().then(Vec::new),
+        ..RawRows::default()
+    };
+    let reader = RowReader { path, cols };
+    for &(offset, len) in runs {
+        let mut r = ParquetReader::new(open(path)?)
+            .with_columns(Some(wanted.iter().map(|s| s.to_string()).collect()))
+            .with_slice(Some((offset, len)))
+            .read_parallel(ParallelStrategy::None);
+        r.set_metadata(ix.metadata.clone());
+        let df = r.finish().map_err(|e| perr(path, e))?;
+        reader.push_positions(&mut rows, &df, offset, len)?;
+        if grid_only {
+            rows.invalid.extend(std::iter::repeat_n(false, len));
+            continue;
+        }
+        reader.push_velocities(&mut rows, &df, offset, len)?;
+    }
+    Ok(rows)
+}
+
+/// The mapped columns a frame read decodes; error if the table lacks one.
+fn wanted_columns<'c>(
+    cols: &'c ColumnMap,
+    grid_only: bool,
+    ix: &FrameIndex,
+    path: &Path,
+) -> Result<Vec<&'c str>> {
     let mut wanted: Vec<&str> = vec![&cols.x, &cols.y];
     if !grid_only {
         wanted.push(&cols.u);
@@ -189,21 +221,28 @@ pub(crate) fn read_rows(
             .with_column(*w));
         }
     }
-    let mut rows = RawRows {
-        sigma_u: (!grid_only && cols.sigma_u.is_some()).then(Vec::new),
-        sigma_v: (!grid_only && cols.sigma_v.is_some()).then(Vec::new),
-        masked: cols.mask.is_some().then(Vec::new),
-        ..RawRows::default()
-    };
-    for &(offset, len) in runs {
-        let mut r = ParquetReader::new(open(path)?)
-            .with_columns(Some(wanted.iter().map(|s| s.to_string()).collect()))
-            .with_slice(Some((offset, len)))
-            .read_parallel(ParallelStrategy::None);
-        r.set_metadata(ix.metadata.clone());
-        let df = r.finish().map_err(|e| perr(path, e))?;
-        let x = f64_column(&df, &cols.x, path)?;
-        let y = f64_column(&df, &cols.y, path)?;
+    Ok(wanted)
+}
+
+/// Appends the decoded rows of one run of a frame (`len` rows from table
+/// row `offset`) to `RawRows`, checking them.
+struct RowReader<'a> {
+    path: &'a Path,
+    cols: &'a ColumnMap,
+}
+
+impl RowReader<'_> {
+    /// Appends the node positions, line numbers and mask of the run.
+    fn push_positions(
+        &self,
+        rows: &mut RawRows,
+        df: &DataFrame,
+        offset: usize,
+        len: usize,
+    ) -> Result<()> {
+        let (path, cols) = (self.path, self.cols);
+        let x = f64_column(df, &cols.x, path)?;
+        let y = f64_column(df, &cols.y, path)?;
         for (k, (&xv, &yv)) in x.iter().zip(&y).enumerate() {
             for (name, val) in [(&cols.x, xv), (&cols.y, yv)] {
                 if !val.is_finite() {
@@ -221,17 +260,25 @@ pub(crate) fn read_rows(
         rows.x.extend(x);
         rows.y.extend(y);
         if let (Some(name), Some(dst)) = (&cols.mask, rows.masked.as_mut()) {
-            let m = f64_column(&df, name, path)?;
+            let m = f64_column(df, name, path)?;
             dst.extend(m.iter().map(|&c| c.is_finite() && c != 0.0));
         }
-        if grid_only {
-            rows.invalid.extend(std::iter::repeat_n(false, len));
-            continue;
-        }
-        let u = f64_column(&df, &cols.u, path)?;
-        let v = f64_column(&df, &cols.v, path)?;
+        Ok(())
+    }
+
+    /// Appends the velocities, their validity and uncertainties of the run.
+    fn push_velocities(
+        &self,
+        rows: &mut RawRows,
+        df: &DataFrame,
+        offset: usize,
+        len: usize,
+    ) -> Result<()> {
+        let (path, cols) = (self.path, self.cols);
+        let u = f64_column(df, &cols.u, path)?;
+        let v = f64_column(df, &cols.v, path)?;
         let flag = match &cols.flag {
-            Some(c) => Some(f64_column(&df, c, path)?),
+            Some(c) => Some(f64_column(df, c, path)?),
             None => None,
         };
         for k in 0..len {
@@ -258,7 +305,7 @@ pub(crate) fn read_rows(
             (&cols.sigma_v, &mut rows.sigma_v),
         ] {
             if let (Some(name), Some(dst)) = (name, dst) {
-                let s = f64_column(&df, name, path)?;
+                let s = f64_column(df, name, path)?;
                 if let Some(k) = s.iter().position(|&x| x < 0.0 || x.is_infinite()) {
                     return Err(Error::data(format!(
                         "row {}: uncertainty {} must be a finite non-negative number",
@@ -272,8 +319,8 @@ pub(crate) fn read_rows(
                 dst.extend(s);
             }
         }
+        Ok(())
     }
-    Ok(rows)
 }
 
 /// The column names of a parquet file (its schema; no data is decoded).

@@ -29,6 +29,7 @@ use crate::error::{Error, Result, WithPath};
 use super::grid::RawRows;
 use super::{ColumnMap, Format};
 use number::{parse_number, parse_partial};
+use rows::{units_line, Roles, RowParser};
 
 /// A line of the file: its 1-based number and its bytes (no line ending).
 #[derive(Clone)]
@@ -352,127 +353,27 @@ pub(crate) fn parse_frame(
     let mut units = super::units::strip(&mut names, &super::units::mapped(cols));
     let mut uline = hline;
     // a units line right below the header
-    let mut peek = it.clone();
-    if let Some((no, line)) = peek.find(|(_, l)| !is_comment_or_blank(l)) {
-        let mut cells = Vec::new();
-        for_cells(line, format, |_, c| cells.push(show(c)));
-        if super::units::is_units_line(&cells, &names, cols) {
-            units = cells
-                .iter()
-                .map(|c| Some(super::units::unit_cell(c)).filter(|u| !u.is_empty()))
-                .collect();
-            uline = no;
-            it = peek;
-        }
+    if let Some((no, cells)) = units_line(&mut it, format, &names, cols) {
+        units = cells;
+        uline = no;
     }
     let header_units = super::units::collect(&names, &units, cols, path, uline)?;
-    let mut wanted: Vec<(usize, &str)> = vec![(X, &cols.x), (Y, &cols.y)];
-    if let Some(c) = &cols.mask {
-        wanted.push((MASK, c));
-    }
-    if !grid_only {
-        wanted.push((U, &cols.u));
-        wanted.push((V, &cols.v));
-        for (role, c) in [(SU, &cols.sigma_u), (SV, &cols.sigma_v), (FLAG, &cols.flag)] {
-            if let Some(c) = c {
-                wanted.push((role, c));
-            }
-        }
-    }
-    let mut role_of = vec![NONE; names.len()];
-    let mut role_name = [""; 8];
-    for &(role, name) in &wanted {
-        let k = find(&names, name, path, hline)?;
-        if let Some(k2) = names[k + 1..].iter().position(|n| n == name) {
-            return Err(Error::data(format!(
-                "the header names column '{}' twice (cells {} and {}); which one is meant?",
-                clip(name),
-                k + 1,
-                k + k2 + 2
-            ))
-            .with_path(path)
-            .with_line(hline)
-            .with_column(name));
-        }
-        role_of[k] = role as u8;
-        role_name[role] = name;
-    }
-    let mut present = [false; 8];
-    for w in &wanted {
-        present[w.0] = true;
-    }
-    let has = |r: usize| present[r];
-    let cap = memchr::memchr_iter(b'\n', bytes).count() + 1;
-    let vec = || Vec::with_capacity(cap);
-    let mut rows = RawRows {
-        x: vec(),
-        y: vec(),
-        u: if grid_only { Vec::new() } else { vec() },
-        v: if grid_only { Vec::new() } else { vec() },
-        sigma_u: has(SU).then(vec),
-        sigma_v: has(SV).then(vec),
-        invalid: Vec::with_capacity(cap),
-        line: Vec::with_capacity(cap),
-        masked: has(MASK).then(|| Vec::with_capacity(cap)),
-        units: header_units,
+    let roles = Roles::map(&names, cols, grid_only, path, hline)?;
+    let parser = RowParser {
+        path,
+        format,
+        hline,
+        ncol: names.len(),
+        roles,
+        grid_only,
     };
-    let ncol = names.len();
+    let mut rows = parser.empty_rows(bytes, header_units);
     let mut vals: [Option<f64>; 8] = [None; 8];
     for (no, line) in it {
         if is_comment_or_blank(line) {
             continue;
         }
-        let n = scan_row(line, format, &role_of, &mut vals).map_err(|(r, m)| {
-            Error::data(m)
-                .with_path(path)
-                .with_line(no)
-                .with_column(role_name[r])
-        })?;
-        if n != ncol {
-            return Err(Error::data(format!(
-                "the line has {n} cells, the header (line {hline}) names {ncol}"
-            ))
-            .with_path(path)
-            .with_line(no));
-        }
-        let pos = |r: usize| -> Result<f64> {
-            vals[r].ok_or_else(|| {
-                Error::data("empty or NaN cell: a node position must be a number")
-                    .with_path(path)
-                    .with_line(no)
-                    .with_column(role_name[r])
-            })
-        };
-        rows.x.push(pos(X)?);
-        rows.y.push(pos(Y)?);
-        rows.line.push(no);
-        if let Some(m) = rows.masked.as_mut() {
-            m.push(vals[MASK].is_some_and(|c| c != 0.0));
-        }
-        if grid_only {
-            rows.invalid.push(false);
-            continue;
-        }
-        let (u, v) = (vals[U], vals[V]);
-        let flagged = has(FLAG) && vals[FLAG].is_some_and(|f| f != 0.0);
-        for (r, dst) in [(SU, &mut rows.sigma_u), (SV, &mut rows.sigma_v)] {
-            if let Some(dst) = dst {
-                let s = vals[r].unwrap_or(f64::NAN);
-                if s < 0.0 {
-                    return Err(
-                        Error::data(format!("'{s}': an uncertainty cannot be negative"))
-                            .with_path(path)
-                            .with_line(no)
-                            .with_column(role_name[r]),
-                    );
-                }
-                dst.push(s);
-            }
-        }
-        let invalid = u.is_none() || v.is_none() || flagged;
-        rows.u.push(u.unwrap_or(f64::NAN));
-        rows.v.push(v.unwrap_or(f64::NAN));
-        rows.invalid.push(invalid);
+        parser.push_row(&mut rows, no, line, &mut vals)?;
     }
     if rows.is_empty() {
         return Err(Error::data("the file has a header but no data rows").with_path(path));
@@ -509,5 +410,6 @@ pub(crate) fn scan_table(
 }
 
 mod number;
+mod rows;
 #[cfg(test)]
 mod tests;

@@ -74,6 +74,7 @@ fn parse_scheme(s: &str, key: &str, ls: DiffScheme) -> Result<Option<DiffScheme>
     })
 }
 
+/// Resolves `[derivatives]` and `[uncertainty]` into the derivative parameters.
 pub(crate) fn resolve_derive(
     d: &RawDerivatives,
     u: &RawUncertainty,
@@ -102,7 +103,31 @@ pub(crate) fn resolve_derive(
         Some(s) => Scheme::Fixed(s),
         None => Scheme::Auto,
     };
-    p.candidates = match &d.candidates {
+    p.candidates = resolve_candidates(d.candidates.as_deref(), ls)?;
+    if let Some(list) = &d.quantities {
+        p.quantities = resolve_quantities(list)?;
+    }
+    let gr = d.gamma_radius.unwrap_or(2);
+    if !(1..=10).contains(&gr) {
+        return Err(Error::usage(format!(
+            "[derivatives] gamma_radius = {gr}: expected 1 to 10 nodes"
+        )));
+    }
+    p.gamma_radius = gr;
+    p.truncation = d.truncation.unwrap_or(true);
+
+    p.velocity_noise = resolve_velocity_noise(u)?;
+    // Without either key the correlation is estimated from each frame
+    // (`derive::noise::estimate_overlap`); a given value wins.
+    p.correlation_from_data = u.neighbour_correlation.is_none() && u.window_overlap.is_none();
+    p.correlation = resolve_correlation(u)?;
+    p.smoother = smoother;
+    Ok(p)
+}
+
+/// The schemes `auto` chooses from (`candidates`; by default all four).
+fn resolve_candidates(candidates: Option<&[String]>, ls: DiffScheme) -> Result<Vec<DiffScheme>> {
+    Ok(match candidates {
         None => vec![
             ls,
             DiffScheme::Central,
@@ -129,36 +154,33 @@ pub(crate) fn resolve_derive(
             }
             out
         }
-    };
-    if let Some(list) = &d.quantities {
-        let mut q = Vec::new();
-        for name in list {
-            if name == "omega" {
-                continue;
-            }
-            match quantities::ALL.iter().skip(1).find(|(n, _)| n == name) {
-                Some((n, _)) => q.push(*n),
-                None => {
-                    let known: Vec<&str> = quantities::ALL.iter().map(|(n, _)| *n).collect();
-                    return Err(Error::usage(format!(
-                        "[derivatives] quantities: unknown quantity '{name}'; expected any of {}",
-                        known.join(", ")
-                    )));
-                }
+    })
+}
+
+/// The quantities named in `quantities` besides omega (always derived).
+fn resolve_quantities(list: &[String]) -> Result<Vec<&'static str>> {
+    let mut q = Vec::new();
+    for name in list {
+        if name == "omega" {
+            continue;
+        }
+        match quantities::ALL.iter().skip(1).find(|(n, _)| n == name) {
+            Some((n, _)) => q.push(*n),
+            None => {
+                let known: Vec<&str> = quantities::ALL.iter().map(|(n, _)| *n).collect();
+                return Err(Error::usage(format!(
+                    "[derivatives] quantities: unknown quantity '{name}'; expected any of {}",
+                    known.join(", ")
+                )));
             }
         }
-        p.quantities = q;
     }
-    let gr = d.gamma_radius.unwrap_or(2);
-    if !(1..=10).contains(&gr) {
-        return Err(Error::usage(format!(
-            "[derivatives] gamma_radius = {gr}: expected 1 to 10 nodes"
-        )));
-    }
-    p.gamma_radius = gr;
-    p.truncation = d.truncation.unwrap_or(true);
+    Ok(q)
+}
 
-    p.velocity_noise = match &u.velocity_noise {
+/// The velocity noise of `[uncertainty]`: estimated, from columns, or given.
+fn resolve_velocity_noise(u: &RawUncertainty) -> Result<VelocityNoise> {
+    Ok(match &u.velocity_noise {
         None => VelocityNoise::Estimate,
         Some(toml::Value::String(s)) if s == "estimate" => VelocityNoise::Estimate,
         Some(toml::Value::String(s)) if s == "columns" => VelocityNoise::Columns,
@@ -169,10 +191,11 @@ pub(crate) fn resolve_derive(
                 "[uncertainty] velocity_noise = {other}: expected \"estimate\", \"columns\" or a non-negative number in m/s"
             )))
         }
-    };
-    // Without either key the correlation is estimated from each frame
-    // (`derive::noise::estimate_overlap`); a given value wins.
-    p.correlation_from_data = u.neighbour_correlation.is_none() && u.window_overlap.is_none();
+    })
+}
+
+/// The correlation model of neighbouring vectors' noise in `[uncertainty]`.
+fn resolve_correlation(u: &RawUncertainty) -> Result<Correlation> {
     let c = match (u.neighbour_correlation, u.window_overlap) {
         (Some(_), Some(_)) => {
             return Err(Error::usage(
@@ -189,7 +212,7 @@ pub(crate) fn resolve_derive(
             c.0, c.1
         )));
     }
-    p.correlation = match u.correlation_model.as_deref().unwrap_or("window") {
+    let correlation = match u.correlation_model.as_deref().unwrap_or("window") {
         _ if c.1 == 0.0 => Correlation::Independent,
         "window" => Correlation::Window(c.1),
         "adjacent" => Correlation::Adjacent(c.1),
@@ -206,8 +229,7 @@ pub(crate) fn resolve_derive(
             )));
         }
     }
-    p.smoother = smoother;
-    Ok(p)
+    Ok(correlation)
 }
 
 #[cfg(test)]

@@ -98,7 +98,33 @@ impl RawInput {
     /// Resolves units to SI factors. `what` names the section for errors
     /// (e.g. `[input]` or `run 're2000' [run.input]`).
     pub fn resolve(&self, what: &str) -> Result<InputSpec> {
-        let format = match self.format.as_deref().unwrap_or("csv") {
+        let format = self.resolve_format(what)?;
+        let columns = self.column_map();
+        let (length_scale, velocity_scale) = self.unit_scales(what)?;
+        let grid_tolerance = self.grid_tolerance.unwrap_or(0.05);
+        if !(grid_tolerance > 0.0 && grid_tolerance < 0.5) {
+            return Err(Error::usage(format!(
+                "{what}: grid_tolerance = {grid_tolerance} must lie between 0 and 0.5 grid pitches"
+            )));
+        }
+        let orientation = self.orientation(what)?;
+        Ok(InputSpec {
+            orientation,
+            format,
+            columns,
+            length_scale,
+            velocity_scale,
+            skip_lines: self.skip_lines.unwrap_or(0),
+            grid_tolerance,
+            length_unit: self.length_unit.clone(),
+            velocity_unit: self.velocity_unit.clone(),
+            units_from_header: None,
+        })
+    }
+
+    /// The frame file format (`format`, default csv).
+    fn resolve_format(&self, what: &str) -> Result<Format> {
+        Ok(match self.format.as_deref().unwrap_or("csv") {
             "csv" => Format::Csv,
             "tsv" => Format::Tsv,
             "text" => Format::Text,
@@ -110,9 +136,13 @@ impl RawInput {
                     "{what}: format = '{other}' is not known; expected csv, tsv, text, parquet, netcdf or mat"
                 )))
             }
-        };
+        })
+    }
+
+    /// The column names, defaults filled in.
+    fn column_map(&self) -> ColumnMap {
         let c = self.columns.clone().unwrap_or_default();
-        let columns = ColumnMap {
+        ColumnMap {
             x: c.x.unwrap_or_else(|| "x".into()),
             y: c.y.unwrap_or_else(|| "y".into()),
             u: c.u.unwrap_or_else(|| "u".into()),
@@ -122,7 +152,11 @@ impl RawInput {
             flag: c.flag,
             frame: c.frame.unwrap_or_else(|| "frame".into()),
             mask: c.mask,
-        };
+        }
+    }
+
+    /// Metres per length unit and (m/s) per velocity unit of the input.
+    fn unit_scales(&self, what: &str) -> Result<(f64, f64)> {
         let positive = |name: &str, v: Option<f64>| -> Result<Option<f64>> {
             match v {
                 Some(x) if !(x.is_finite() && x > 0.0) => Err(Error::usage(format!(
@@ -169,25 +203,7 @@ impl RawInput {
                 )))
             }
         };
-        let grid_tolerance = self.grid_tolerance.unwrap_or(0.05);
-        if !(grid_tolerance > 0.0 && grid_tolerance < 0.5) {
-            return Err(Error::usage(format!(
-                "{what}: grid_tolerance = {grid_tolerance} must lie between 0 and 0.5 grid pitches"
-            )));
-        }
-        let orientation = self.orientation(what)?;
-        Ok(InputSpec {
-            orientation,
-            format,
-            columns,
-            length_scale,
-            velocity_scale,
-            skip_lines: self.skip_lines.unwrap_or(0),
-            grid_tolerance,
-            length_unit: self.length_unit.clone(),
-            velocity_unit: self.velocity_unit.clone(),
-            units_from_header: None,
-        })
+        Ok((length_scale, velocity_scale))
     }
 
     /// `y_axis` and `v_axis` (v follows y unless stated).

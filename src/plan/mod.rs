@@ -249,6 +249,7 @@ impl Plan {
         Plan::resolve(raw, text.to_string(), path, &base_dir).map_err(|e| with_place(e, text, path))
     }
 
+    /// Checks the pipeline as read and resolves every run into a plan.
     fn resolve(raw: RawPipeline, text: String, path: &Path, base_dir: &Path) -> Result<Plan> {
         bounds::check_raw(&raw)?;
         if raw.campaign.name.trim().is_empty() {
@@ -268,70 +269,7 @@ impl Plan {
                     r.id
                 )));
             }
-            let what = format!("run '{}'", r.id);
-            let mut raw_input = match &r.input {
-                Some(o) => raw.input.overridden_by(o),
-                None => raw.input.clone(),
-            };
-            let mut spec = raw_input.resolve(&what)?;
-            // units the pipeline leaves open, settled by the first frame's
-            // header (`io::units`); every key in the input's units follows
-            let frames_abs = resolve_path(base_dir, &r.frames);
-            if let Some(st) = crate::io::units::settle(&spec, &frames_abs.to_string_lossy()) {
-                if let Some(l) = &st.length {
-                    raw_input.length_unit = Some(l.unit.to_string());
-                }
-                if let Some(v) = &st.velocity {
-                    raw_input.velocity_unit = Some(v.unit.to_string());
-                }
-                spec = raw_input.resolve(&what)?;
-                spec.units_from_header = Some(st);
-            }
-            let ctx = ResolveCtx {
-                velocity_scale: spec.velocity_scale,
-                px_velocity: raw_input.px_velocity(),
-                length_scale: spec.length_scale,
-            };
-            let smoother: Smoother = validation::resolve_smoothing(&raw.smoothing, &ctx)?;
-            let stats = statistics::resolve_stats(&raw.statistics, &raw.phase, &ctx)?;
-            let vortices = vortices::resolve_vortices(raw.vortices.as_ref(), stats.coverage)?;
-            runs.push(RunPlan {
-                id: r.id.clone(),
-                frames: resolve_path(base_dir, &r.frames)
-                    .to_string_lossy()
-                    .into_owned(),
-                frame_table: r.frame_table.as_ref().map(|t| resolve_path(base_dir, t)),
-                px_velocity: ctx.px_velocity,
-                validation: validation::resolve_validation(&raw.validation, &ctx)?,
-                fill: validation::resolve_fill(&raw.fill, &ctx)?,
-                derive: derivatives::resolve_derive(
-                    &raw.derivatives,
-                    &raw.uncertainty,
-                    smoother,
-                    &ctx,
-                )?,
-                stats,
-                plot: report::resolve_figures(&raw.figures, &ctx)?,
-                modes: modes::resolve_modes(&raw.modes)?,
-                spectra: modes::resolve_spectra(&raw.spectra)?,
-                conditions: report::resolve_conditions(
-                    &r.conditions.clone().unwrap_or_default(),
-                    &ctx,
-                )?,
-                description: r.description.clone(),
-                input_warnings: raw_input.orientation_warning(&what).into_iter().collect(),
-                mask: crate::mask::MaskSpec::resolve(
-                    raw.mask.as_ref(),
-                    r.mask.as_ref(),
-                    spec.length_scale,
-                    spec.orientation,
-                    base_dir,
-                    &what,
-                )?,
-                input: spec,
-                budget: budget::resolve_budget(raw.budget.as_ref())?,
-                vortices,
-            });
+            runs.push(resolve_run(&raw, r, base_dir)?);
         }
         Ok(Plan {
             path: path.to_path_buf(),
@@ -377,6 +315,79 @@ impl Plan {
             })
             .collect()
     }
+}
+
+/// Resolves one `[[run]]`: its input (units settled by the first frame's
+/// header when the pipeline leaves them open) and every section.
+fn resolve_run(raw: &RawPipeline, r: &RawRun, base_dir: &Path) -> Result<RunPlan> {
+    let what = format!("run '{}'", r.id);
+    let (raw_input, spec) = resolve_input(raw, r, base_dir, &what)?;
+    let ctx = ResolveCtx {
+        velocity_scale: spec.velocity_scale,
+        px_velocity: raw_input.px_velocity(),
+        length_scale: spec.length_scale,
+    };
+    let smoother: Smoother = validation::resolve_smoothing(&raw.smoothing, &ctx)?;
+    let stats = statistics::resolve_stats(&raw.statistics, &raw.phase, &ctx)?;
+    let vortices = vortices::resolve_vortices(raw.vortices.as_ref(), stats.coverage)?;
+    Ok(RunPlan {
+        id: r.id.clone(),
+        frames: resolve_path(base_dir, &r.frames)
+            .to_string_lossy()
+            .into_owned(),
+        frame_table: r.frame_table.as_ref().map(|t| resolve_path(base_dir, t)),
+        px_velocity: ctx.px_velocity,
+        validation: validation::resolve_validation(&raw.validation, &ctx)?,
+        fill: validation::resolve_fill(&raw.fill, &ctx)?,
+        derive: derivatives::resolve_derive(&raw.derivatives, &raw.uncertainty, smoother, &ctx)?,
+        stats,
+        plot: report::resolve_figures(&raw.figures, &ctx)?,
+        modes: modes::resolve_modes(&raw.modes)?,
+        spectra: modes::resolve_spectra(&raw.spectra)?,
+        conditions: report::resolve_conditions(&r.conditions.clone().unwrap_or_default(), &ctx)?,
+        description: r.description.clone(),
+        input_warnings: raw_input.orientation_warning(&what).into_iter().collect(),
+        mask: crate::mask::MaskSpec::resolve(
+            raw.mask.as_ref(),
+            r.mask.as_ref(),
+            spec.length_scale,
+            spec.orientation,
+            base_dir,
+            &what,
+        )?,
+        input: spec,
+        budget: budget::resolve_budget(raw.budget.as_ref())?,
+        vortices,
+    })
+}
+
+/// The run's input, as written and resolved; units the pipeline leaves
+/// open are settled by the first frame's header.
+fn resolve_input(
+    raw: &RawPipeline,
+    r: &RawRun,
+    base_dir: &Path,
+    what: &str,
+) -> Result<(input::RawInput, InputSpec)> {
+    let mut raw_input = match &r.input {
+        Some(o) => raw.input.overridden_by(o),
+        None => raw.input.clone(),
+    };
+    let mut spec = raw_input.resolve(what)?;
+    // units the pipeline leaves open, settled by the first frame's
+    // header (`io::units`); every key in the input's units follows
+    let frames_abs = resolve_path(base_dir, &r.frames);
+    if let Some(st) = crate::io::units::settle(&spec, &frames_abs.to_string_lossy()) {
+        if let Some(l) = &st.length {
+            raw_input.length_unit = Some(l.unit.to_string());
+        }
+        if let Some(v) = &st.velocity {
+            raw_input.velocity_unit = Some(v.unit.to_string());
+        }
+        spec = raw_input.resolve(what)?;
+        spec.units_from_header = Some(st);
+    }
+    Ok((raw_input, spec))
 }
 
 /// Names at the top of an output folder that a run's folder must not take.

@@ -71,12 +71,51 @@ fn range(
     }
 }
 
+/// Resolves `[statistics]` and `[phase]` into the statistics parameters.
 pub(crate) fn resolve_stats(
     s: &RawStatistics,
     ph: &RawPhase,
     ctx: &ResolveCtx,
 ) -> Result<stats::Params> {
     let mut p = stats::Params::default();
+    resolve_phase(ph, &mut p)?;
+    if let Some(c) = s.coverage {
+        if !(c > 0.0 && c < 1.0) {
+            return Err(Error::usage(format!(
+                "[statistics] coverage = {c} must be a probability strictly between 0 and 1 (e.g. 0.95)"
+            )));
+        }
+        p.coverage = c;
+    }
+    if let Some(l) = s.max_lag {
+        if l == 0 || l > 10_000 {
+            return Err(Error::usage(format!(
+                "[statistics] max_lag = {l} must be a number of frames between 1 and 10000"
+            )));
+        }
+        p.max_lag = l;
+    }
+    resolve_relative_uncertainties(s, &mut p)?;
+    if let Some(b) = s.include_filled {
+        p.include_filled = b;
+    }
+    if let Some(t) = s.convergence_tail {
+        p.convergence_tail = range(
+            "statistics",
+            "convergence_tail",
+            t,
+            0.05,
+            0.5,
+            false,
+            "a fraction of the frames between 0.05 and 0.5",
+        )?;
+    }
+    resolve_probes(s, ctx, &mut p)?;
+    Ok(p)
+}
+
+/// `[phase]`: the number of phase bins and their width.
+fn resolve_phase(ph: &RawPhase, p: &mut stats::Params) -> Result<()> {
     if let Some(b) = ph.bins {
         if b == 0 || b > 3600 {
             return Err(Error::usage(format!(
@@ -99,22 +138,11 @@ pub(crate) fn resolve_stats(
         )?;
         p.phase_width_deg = (w < spacing).then_some(w);
     }
-    if let Some(c) = s.coverage {
-        if !(c > 0.0 && c < 1.0) {
-            return Err(Error::usage(format!(
-                "[statistics] coverage = {c} must be a probability strictly between 0 and 1 (e.g. 0.95)"
-            )));
-        }
-        p.coverage = c;
-    }
-    if let Some(l) = s.max_lag {
-        if l == 0 || l > 10_000 {
-            return Err(Error::usage(format!(
-                "[statistics] max_lag = {l} must be a number of frames between 1 and 10000"
-            )));
-        }
-        p.max_lag = l;
-    }
+    Ok(())
+}
+
+/// The relative uncertainties of the calibration and the pulse separation.
+fn resolve_relative_uncertainties(s: &RawStatistics, p: &mut stats::Params) -> Result<()> {
     if let Some(r) = s.calibration_unc {
         p.calibration_unc = range(
             "statistics",
@@ -137,20 +165,11 @@ pub(crate) fn resolve_stats(
             "a relative uncertainty between 0 and 0.5 (0.001 = 0.1 %)",
         )?;
     }
-    if let Some(b) = s.include_filled {
-        p.include_filled = b;
-    }
-    if let Some(t) = s.convergence_tail {
-        p.convergence_tail = range(
-            "statistics",
-            "convergence_tail",
-            t,
-            0.05,
-            0.5,
-            false,
-            "a fraction of the frames between 0.05 and 0.5",
-        )?;
-    }
+    Ok(())
+}
+
+/// The probe points, scaled to metres.
+fn resolve_probes(s: &RawStatistics, ctx: &ResolveCtx, p: &mut stats::Params) -> Result<()> {
     if let Some(pr) = &s.probes {
         for (i, &[x, y]) in pr.iter().enumerate() {
             if !(x.is_finite() && y.is_finite()) {
@@ -161,7 +180,7 @@ pub(crate) fn resolve_stats(
             p.probes.push((x * ctx.length_scale, y * ctx.length_scale));
         }
     }
-    Ok(p)
+    Ok(())
 }
 
 #[cfg(test)]

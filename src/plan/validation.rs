@@ -166,6 +166,7 @@ fn velocity(
     }
 }
 
+/// Resolves `[validation]` into the validation parameters (velocities in m/s).
 pub(crate) fn resolve_validation(
     raw: &RawValidation,
     ctx: &ResolveCtx,
@@ -181,39 +182,7 @@ pub(crate) fn resolve_validation(
         0.1,
     )?;
     p.median = if m.enabled.unwrap_or(true) {
-        let radius = m.radius.unwrap_or(1);
-        if radius != 1 && radius != 2 {
-            return Err(Error::usage(format!(
-                "[validation] median.radius = {radius}; expected 1 (3 x 3) or 2 (5 x 5)"
-            )));
-        }
-        let most = (2 * radius + 1).pow(2) - 1;
-        let min_neighbours = m.min_neighbours.unwrap_or(if radius == 1 { 3 } else { 8 });
-        if min_neighbours < 1 || min_neighbours > most {
-            return Err(Error::usage(format!(
-                "[validation] median.min_neighbours = {min_neighbours}; expected 1 to {most} for radius {radius}"
-            )));
-        }
-        let combine = match m.combine.as_deref().unwrap_or("either") {
-            "either" => Combine::Either,
-            "magnitude" => Combine::Magnitude,
-            other => {
-                return Err(Error::usage(format!(
-                    "[validation] median.combine = '{other}' is not known; expected \"either\" or \"magnitude\""
-                )))
-            }
-        };
-        Some(MedianParams {
-            // Without a calibration and without eps: eps = the frame's
-            // estimated noise (Westerweel & Scarano 2005 give eps = 0.1 px
-            // as the typical noise level of PIV; from memory).
-            eps: eps.unwrap_or(0.0),
-            eps_noise: eps.is_none().then_some(1.0),
-            threshold: positive("[validation] median.threshold", m.threshold.unwrap_or(2.0))?,
-            radius,
-            combine,
-            min_neighbours,
-        })
+        Some(resolve_median(&m, eps)?)
     } else {
         None
     };
@@ -228,66 +197,11 @@ pub(crate) fn resolve_validation(
             0.1,
         )?;
         if e.enabled.unwrap_or(true) {
-            let Some(floor) = floor else {
-                return Err(Error::usage(
-                    "[validation] ensemble needs its noise floor: without pixel_size and \
-                     pulse_separation in [input] the 0.1 px default cannot be converted; give \
-                     ensemble.floor in the input velocity unit (about the random error of one \
-                     vector), or the calibration",
-                ));
-            };
-            let min_samples = e.min_samples.unwrap_or(10);
-            if min_samples < 3 {
-                return Err(Error::usage(format!(
-                    "[validation] ensemble.min_samples = {min_samples}; expected at least 3"
-                )));
-            }
-            p.ensemble = Some(EnsembleParams {
-                k: positive("[validation] ensemble.k", e.k.unwrap_or(5.0))?,
-                floor,
-                min_samples,
-            });
+            p.ensemble = Some(resolve_ensemble(e, floor)?);
         }
     }
     if let Some(l) = &raw.limits {
-        let shape = match l.shape.as_deref().unwrap_or("box") {
-            "box" => Shape::Box,
-            "ellipse" => Shape::Ellipse,
-            other => {
-                return Err(Error::usage(format!(
-                    "[validation] limits.shape = '{other}' is not known; expected \"box\" or \"ellipse\""
-                )))
-            }
-        };
-        let bounds = match (l.u, l.v, l.spread) {
-            (Some(u), Some(v), None) => {
-                for (name, r) in [("u", u), ("v", v)] {
-                    if !(r[0].is_finite() && r[1].is_finite() && r[0] < r[1]) {
-                        return Err(Error::usage(format!(
-                            "[validation] limits.{name} = [{}, {}] must be [min, max] with min < max",
-                            r[0], r[1]
-                        )));
-                    }
-                }
-                let s = ctx.velocity_scale;
-                Bounds::Given {
-                    u: [u[0] * s, u[1] * s],
-                    v: [v[0] * s, v[1] * s],
-                }
-            }
-            (None, None, Some(spread)) => Bounds::Robust {
-                spread: positive("[validation] limits.spread", spread)?,
-                // no floor without a calibration or a given eps/floor
-                floor: floor.unwrap_or(0.0),
-            },
-            _ => {
-                return Err(Error::usage(
-                    "[validation] limits needs either u = [min, max] and v = [min, max] \
-                     (input velocity unit), or spread = <robust standard deviations> alone",
-                ))
-            }
-        };
-        p.limits = Some(Limits { shape, bounds });
+        p.limits = Some(resolve_limits(l, ctx, floor)?);
     }
     if let Some(f) = raw.max_rejected_fraction {
         if !(f > 0.0 && f <= 1.0) {
@@ -302,6 +216,111 @@ pub(crate) fn resolve_validation(
     // not a threshold)
     p.histogram_resolution = floor.map_or(1e-3 * ctx.velocity_scale, |f| 0.2 * f);
     Ok(p)
+}
+
+/// The normalized median test of an enabled `median = { ... }`, with its
+/// resolved `eps` (m/s; None without a calibration or a given eps).
+fn resolve_median(m: &RawMedian, eps: Option<f64>) -> Result<MedianParams> {
+    let radius = m.radius.unwrap_or(1);
+    if radius != 1 && radius != 2 {
+        return Err(Error::usage(format!(
+            "[validation] median.radius = {radius}; expected 1 (3 x 3) or 2 (5 x 5)"
+        )));
+    }
+    let most = (2 * radius + 1).pow(2) - 1;
+    let min_neighbours = m.min_neighbours.unwrap_or(if radius == 1 { 3 } else { 8 });
+    if min_neighbours < 1 || min_neighbours > most {
+        return Err(Error::usage(format!(
+            "[validation] median.min_neighbours = {min_neighbours}; expected 1 to {most} for radius {radius}"
+        )));
+    }
+    let combine = match m.combine.as_deref().unwrap_or("either") {
+        "either" => Combine::Either,
+        "magnitude" => Combine::Magnitude,
+        other => {
+            return Err(Error::usage(format!(
+                "[validation] median.combine = '{other}' is not known; expected \"either\" or \"magnitude\""
+            )))
+        }
+    };
+    Ok(MedianParams {
+        // Without a calibration and without eps: eps = the frame's
+        // estimated noise (Westerweel & Scarano 2005 give eps = 0.1 px
+        // as the typical noise level of PIV; from memory).
+        eps: eps.unwrap_or(0.0),
+        eps_noise: eps.is_none().then_some(1.0),
+        threshold: positive("[validation] median.threshold", m.threshold.unwrap_or(2.0))?,
+        radius,
+        combine,
+        min_neighbours,
+    })
+}
+
+/// The ensemble test of an enabled `ensemble = { ... }`, with its resolved
+/// noise floor (m/s), which it cannot do without.
+fn resolve_ensemble(e: &RawEnsemble, floor: Option<f64>) -> Result<EnsembleParams> {
+    let Some(floor) = floor else {
+        return Err(Error::usage(
+            "[validation] ensemble needs its noise floor: without pixel_size and \
+             pulse_separation in [input] the 0.1 px default cannot be converted; give \
+             ensemble.floor in the input velocity unit (about the random error of one \
+             vector), or the calibration",
+        ));
+    };
+    let min_samples = e.min_samples.unwrap_or(10);
+    if min_samples < 3 {
+        return Err(Error::usage(format!(
+            "[validation] ensemble.min_samples = {min_samples}; expected at least 3"
+        )));
+    }
+    Ok(EnsembleParams {
+        k: positive("[validation] ensemble.k", e.k.unwrap_or(5.0))?,
+        floor,
+        min_samples,
+    })
+}
+
+/// The global limits of `limits = { ... }`; `floor` (m/s) is the robust
+/// limits' noise floor when known.
+fn resolve_limits(l: &RawLimits, ctx: &ResolveCtx, floor: Option<f64>) -> Result<Limits> {
+    let shape = match l.shape.as_deref().unwrap_or("box") {
+        "box" => Shape::Box,
+        "ellipse" => Shape::Ellipse,
+        other => {
+            return Err(Error::usage(format!(
+            "[validation] limits.shape = '{other}' is not known; expected \"box\" or \"ellipse\""
+        )))
+        }
+    };
+    let bounds = match (l.u, l.v, l.spread) {
+        (Some(u), Some(v), None) => {
+            for (name, r) in [("u", u), ("v", v)] {
+                if !(r[0].is_finite() && r[1].is_finite() && r[0] < r[1]) {
+                    return Err(Error::usage(format!(
+                        "[validation] limits.{name} = [{}, {}] must be [min, max] with min < max",
+                        r[0], r[1]
+                    )));
+                }
+            }
+            let s = ctx.velocity_scale;
+            Bounds::Given {
+                u: [u[0] * s, u[1] * s],
+                v: [v[0] * s, v[1] * s],
+            }
+        }
+        (None, None, Some(spread)) => Bounds::Robust {
+            spread: positive("[validation] limits.spread", spread)?,
+            // no floor without a calibration or a given eps/floor
+            floor: floor.unwrap_or(0.0),
+        },
+        _ => {
+            return Err(Error::usage(
+                "[validation] limits needs either u = [min, max] and v = [min, max] \
+                 (input velocity unit), or spread = <robust standard deviations> alone",
+            ))
+        }
+    };
+    Ok(Limits { shape, bounds })
 }
 
 pub(crate) fn resolve_fill(raw: &RawFill, _ctx: &ResolveCtx) -> Result<fill::Params> {

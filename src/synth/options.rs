@@ -334,38 +334,39 @@ impl SynthOptions {
         if self.mask_column && self.format != OutFormat::Csv {
             return Err(Error::usage("--mask-column is written in csv frames only"));
         }
-        let frac = |name: &str, v: f64| {
-            if (0.0..=1.0).contains(&v) {
-                Ok(())
-            } else {
-                Err(Error::usage(format!(
-                    "{name} = {v} must lie between 0 and 1"
-                )))
-            }
-        };
-        let pos = |name: &str, v: f64| {
-            if v.is_finite() && v > 0.0 {
-                Ok(())
-            } else {
-                Err(Error::usage(format!(
-                    "{name} = {v} must be a positive number"
-                )))
-            }
-        };
         if self.frames == 0 {
             return Err(Error::usage("frames must be at least 1"));
         }
         if self.speeds.is_empty() {
             return Err(Error::usage("give at least one speed"));
         }
-        frac("outlier fraction", self.outlier_fraction)?;
+        self.check_corruption()?;
+        self.check_scenario()?;
+        if self.outlier_fraction + self.gap_fraction > 1.0 {
+            return Err(Error::usage(
+                "outlier fraction plus gap fraction must not exceed 1",
+            ));
+        }
+        if !(self.noise_px.is_finite() && self.noise_px >= 0.0) {
+            return Err(Error::usage(format!(
+                "noise = {} px must be zero or positive",
+                self.noise_px
+            )));
+        }
+        self.check_acquisition()?;
+        self.check_output()
+    }
+
+    /// Checks the measurement errors: outliers, gaps and noise.
+    fn check_corruption(&self) -> Result<()> {
+        fraction("outlier fraction", self.outlier_fraction)?;
         if !(0.0..=super::corrupt::MAX_NOISE_CORRELATION).contains(&self.noise_correlation) {
             return Err(Error::usage(format!(
                 "noise correlation = {} must lie between 0 and 0.7071 (1/sqrt 2)",
                 self.noise_correlation
             )));
         }
-        frac("gap fraction", self.gap_fraction)?;
+        fraction("gap fraction", self.gap_fraction)?;
         if self.noise_window > 16 {
             return Err(Error::usage(format!(
                 "noise window = {} sub-cells must lie between 0 and 16 (overlap at most 94 %)",
@@ -383,6 +384,11 @@ impl SynthOptions {
                 "noise correlation cannot be combined with window noise or noise memory",
             ));
         }
+        Ok(())
+    }
+
+    /// Checks the flow's options: stream, core radius and pulse.
+    fn check_scenario(&self) -> Result<()> {
         if !(self.stream.is_finite() && self.stream >= 0.0) {
             return Err(Error::usage(format!(
                 "stream = {} m/s must be zero or positive",
@@ -390,23 +396,17 @@ impl SynthOptions {
             )));
         }
         if let Some(c) = self.core_pitches {
-            pos("core radius", c)?;
+            positive("core radius", c)?;
         }
         if let Some((a, f)) = self.pulse {
-            frac("pulse amplitude", a)?;
-            pos("pulse frequency", f)?;
+            fraction("pulse amplitude", a)?;
+            positive("pulse frequency", f)?;
         }
-        if self.outlier_fraction + self.gap_fraction > 1.0 {
-            return Err(Error::usage(
-                "outlier fraction plus gap fraction must not exceed 1",
-            ));
-        }
-        if !(self.noise_px.is_finite() && self.noise_px >= 0.0) {
-            return Err(Error::usage(format!(
-                "noise = {} px must be zero or positive",
-                self.noise_px
-            )));
-        }
+        Ok(())
+    }
+
+    /// Checks the camera, the flow's sizes and the outliers' scale.
+    fn check_acquisition(&self) -> Result<()> {
         for (n, v) in [
             ("pixel size", self.pixel_size),
             ("displacement", self.displacement_px),
@@ -414,10 +414,10 @@ impl SynthOptions {
             ("diameter", self.diameter),
             ("strouhal", self.strouhal),
         ] {
-            pos(n, v)?;
+            positive(n, v)?;
         }
         if let Some(p) = self.pitch {
-            pos("pitch", p)?;
+            positive("pitch", p)?;
         }
         if !(self.convection > 0.0 && self.convection < 1.0) {
             return Err(Error::usage(format!(
@@ -431,6 +431,11 @@ impl SynthOptions {
                 self.outlier_scale
             )));
         }
+        Ok(())
+    }
+
+    /// Checks the grid size and what is written: digits, phase bins, campaign name.
+    fn check_output(&self) -> Result<()> {
         if self.nx.is_some_and(|n| n < 3) || self.ny.is_some_and(|n| n < 3) {
             return Err(Error::usage("the grid needs at least 3 x 3 nodes"));
         }
@@ -471,5 +476,27 @@ impl SynthOptions {
             out.push(r);
         }
         Ok(out)
+    }
+}
+
+/// Usage error unless `v` (option `name`) lies between 0 and 1.
+fn fraction(name: &str, v: f64) -> Result<()> {
+    if (0.0..=1.0).contains(&v) {
+        Ok(())
+    } else {
+        Err(Error::usage(format!(
+            "{name} = {v} must lie between 0 and 1"
+        )))
+    }
+}
+
+/// Usage error unless `v` (option `name`) is a positive number.
+fn positive(name: &str, v: f64) -> Result<()> {
+    if v.is_finite() && v > 0.0 {
+        Ok(())
+    } else {
+        Err(Error::usage(format!(
+            "{name} = {v} must be a positive number"
+        )))
     }
 }

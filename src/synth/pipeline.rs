@@ -106,6 +106,17 @@ fn mask_section(opts: &SynthOptions, runs: &[RunSetup]) -> String {
 /// pipeline's folder).
 pub(crate) fn pipeline_toml(opts: &SynthOptions, runs: &[RunSetup], prefix: &str) -> String {
     let mut t = String::new();
+    t.push_str(&pipeline_header(opts));
+    t.push_str(&input_section(opts));
+    t.push_str(&mask_section(opts, runs));
+    t.push_str(&processing_sections(opts));
+    t.push_str(&run_sections(opts, runs, prefix));
+    t
+}
+
+/// The pipeline's opening comments and its `[campaign]`.
+fn pipeline_header(opts: &SynthOptions) -> String {
+    let mut t = String::new();
     t.push_str("# A synthetic campaign written by `curlew synth`; ground truth in <run>/truth/.\n");
     t.push_str(&format!(
         "# scenario: {}; seed: {}; frames per run: {}; noise {} px; outliers {}; gaps {}\n",
@@ -125,6 +136,12 @@ pub(crate) fn pipeline_toml(opts: &SynthOptions, runs: &[RunSetup], prefix: &str
         opts.scenario.name(),
         opts.seed
     ));
+    t
+}
+
+/// The pipeline's `[input]`: format, columns, units and the camera.
+fn input_section(opts: &SynthOptions) -> String {
+    let mut t = String::new();
     let format = match opts.format {
         OutFormat::Csv => "csv",
         OutFormat::Parquet => "parquet",
@@ -146,7 +163,13 @@ pub(crate) fn pipeline_toml(opts: &SynthOptions, runs: &[RunSetup], prefix: &str
         tidy(opts.pixel_size),
         if opts.y_down { "down" } else { "up" }
     ));
-    t.push_str(&mask_section(opts, runs));
+    t
+}
+
+/// The processing sections: derivatives, uncertainty, phase, output,
+/// budget, validation and fill.
+fn processing_sections(opts: &SynthOptions) -> String {
+    let mut t = String::new();
     t.push_str("\n[derivatives]\nscheme = \"least-squares\"\n");
     t.push_str(&format!(
         "\n[uncertainty]\nvelocity_noise = \"{}\"\nneighbour_correlation = {:?}   # as generated\n",
@@ -181,6 +204,12 @@ pub(crate) fn pipeline_toml(opts: &SynthOptions, runs: &[RunSetup], prefix: &str
          max_rejected_fraction = 0.3\n\
          \n[fill]\nmethod = \"neighbour-mean\"\n",
     );
+    t
+}
+
+/// One `[[run]]` per run; `prefix` as in `pipeline_toml`.
+fn run_sections(opts: &SynthOptions, runs: &[RunSetup], prefix: &str) -> String {
+    let mut t = String::new();
     for r in runs {
         let (frames, table) = run_paths(opts, &r.id);
         t.push_str(&format!(
@@ -202,6 +231,19 @@ pub(crate) fn pipeline_toml(opts: &SynthOptions, runs: &[RunSetup], prefix: &str
 /// The README of a synthetic campaign.
 pub(crate) fn readme(opts: &SynthOptions, runs: &[RunSetup], sums: &[RunSummary]) -> String {
     let mut t = String::new();
+    t.push_str(&readme_intro(opts));
+    if opts.scenario == Scenario::Wake {
+        t.push_str(&readme_wake(opts));
+    }
+    t.push_str(&readme_acquisition(opts));
+    t.push_str(&readme_runs(runs, sums));
+    t.push_str(&readme_layout(opts));
+    t
+}
+
+/// The README's title, what the data is, and the command that made it.
+fn readme_intro(opts: &SynthOptions) -> String {
+    let mut t = String::new();
     t.push_str(&format!(
         "# Synthetic campaign `{}` ({} scenario)\n\n",
         opts.campaign,
@@ -216,24 +258,34 @@ pub(crate) fn readme(opts: &SynthOptions, runs: &[RunSetup], sums: &[RunSummary]
             "Regenerate it byte for byte with:\n\n```\n{c}\n```\n\n"
         ));
     }
-    if opts.scenario == Scenario::Wake {
-        t.push_str(
-            "The flow: the wake behind a circular cylinder in a water channel, modelled as a\n\
-             staggered double row of Lamb-Oseen vortices (clockwise above the centreline,\n\
-             anticlockwise below) convecting at a fraction of the free stream over a uniform\n\
-             stream. Vortices are shed at f = St U / D; each frame has a time and a phase\n\
-             (degrees of the shedding cycle) in its frame table. The circulation follows from\n\
-             the street's self-induced speed (von Karman street); the cores spread viscously.\n",
-        );
-        t.push_str(&format!(
-            "Parameters: St = {}, the street convects at {} U, row spacing b = 0.281 a\n\
-             (a the wavelength), core radius 0.25 D growing as rc^2 = rc0^2 + 4 nu t with\n\
-             nu = 1e-6 m^2/s (water near 20 C, from memory). The model is kinematic: it is\n\
-             not a solution of the Navier-Stokes equations, and its mean velocity deficit\n\
-             is only what the vortices induce.\n\n",
-            opts.strouhal, opts.convection
-        ));
-    }
+    t
+}
+
+/// The README's description of the wake model and its parameters.
+fn readme_wake(opts: &SynthOptions) -> String {
+    let mut t = String::new();
+    t.push_str(
+        "The flow: the wake behind a circular cylinder in a water channel, modelled as a\n\
+         staggered double row of Lamb-Oseen vortices (clockwise above the centreline,\n\
+         anticlockwise below) convecting at a fraction of the free stream over a uniform\n\
+         stream. Vortices are shed at f = St U / D; each frame has a time and a phase\n\
+         (degrees of the shedding cycle) in its frame table. The circulation follows from\n\
+         the street's self-induced speed (von Karman street); the cores spread viscously.\n",
+    );
+    t.push_str(&format!(
+        "Parameters: St = {}, the street convects at {} U, row spacing b = 0.281 a\n\
+         (a the wavelength), core radius 0.25 D growing as rc^2 = rc0^2 + 4 nu t with\n\
+         nu = 1e-6 m^2/s (water near 20 C, from memory). The model is kinematic: it is\n\
+         not a solution of the Navier-Stokes equations, and its mean velocity deficit\n\
+         is only what the vortices induce.\n\n",
+        opts.strouhal, opts.convection
+    ));
+    t
+}
+
+/// The README's acquisition and corruption parameters.
+fn readme_acquisition(opts: &SynthOptions) -> String {
+    let mut t = String::new();
     t.push_str(&format!(
         "Acquisition: {} m/px, {} frames per second, pulse separation set per run so the\n\
          peak speed moves {} px; noise {} px of displacement per component; {} of the\n\
@@ -248,6 +300,12 @@ pub(crate) fn readme(opts: &SynthOptions, runs: &[RunSetup], sums: &[RunSummary]
         opts.gap_fraction,
         opts.seed
     ));
+    t
+}
+
+/// The README's table of runs.
+fn readme_runs(runs: &[RunSetup], sums: &[RunSummary]) -> String {
+    let mut t = String::new();
     t.push_str("| run | flow | grid | pulse separation | outliers | missing | empty |\n|---|---|---|---|---|---|---|\n");
     for (r, s) in runs.iter().zip(sums) {
         t.push_str(&format!(
@@ -263,6 +321,12 @@ pub(crate) fn readme(opts: &SynthOptions, runs: &[RunSetup], sums: &[RunSummary]
             s.n_empty
         ));
     }
+    t
+}
+
+/// The README's description of the folder layout.
+fn readme_layout(opts: &SynthOptions) -> String {
+    let mut t = String::new();
     t.push_str(&format!(
         "\nLayout: `pipeline.toml` reduces it (`curlew run pipeline.toml`). Each run folder\n\
          holds the frames ({}; x, y in {}, u, v in {}), `frames.csv` (frame, time_s{}),\n\

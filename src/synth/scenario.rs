@@ -209,6 +209,23 @@ pub(crate) fn setup_run(opts: &SynthOptions, speed: f64) -> Result<RunSetup> {
             "speed {speed} m/s must be a positive number"
         )));
     }
+    let grid = run_grid(opts);
+    let (flow, peak) = scenario_flow(opts, &grid, speed);
+    let pulse_separation = round2(opts.displacement_px * opts.pixel_size / peak);
+    let px_velocity = opts.pixel_size / pulse_separation;
+    Ok(RunSetup {
+        id: run_id(speed),
+        speed,
+        grid,
+        pulse_separation,
+        px_velocity,
+        noise_sigma: opts.noise_px * px_velocity,
+        flow,
+    })
+}
+
+/// The grid of a run: the scenario's default, or the size and pitch asked.
+fn run_grid(opts: &SynthOptions) -> Grid {
     let (dnx, dny, dpitch) = default_grid(opts.scenario);
     let nx = opts.nx.unwrap_or(dnx);
     let ny = opts.ny.unwrap_or(dny);
@@ -222,57 +239,26 @@ pub(crate) fn setup_run(opts: &SynthOptions, speed: f64) -> Result<RunSetup> {
             -0.5 * (ny - 1) as f64 * pitch,
         ),
     };
-    let grid = Grid {
+    Grid {
         nx,
         ny,
         x0,
         y0,
         dx: pitch,
         dy: pitch,
-    };
+    }
+}
+
+/// The flow of the run's scenario at `speed` (m/s) on `grid`, and its peak
+/// speed (m/s), which sets the pulse separation.
+fn scenario_flow(opts: &SynthOptions, grid: &Grid, speed: f64) -> (Flow, f64) {
+    let (nx, ny, pitch) = (grid.nx, grid.ny, grid.dx);
+    let d = opts.diameter;
     let half_w = 0.5 * (nx - 1) as f64 * pitch;
     let half_h = 0.5 * (ny - 1) as f64 * pitch;
-    let (flow, peak) = match opts.scenario {
-        Scenario::Wake => {
-            let street = Street::behind_cylinder(
-                speed,
-                d,
-                opts.strouhal,
-                opts.convection,
-                0.281,
-                0.25,
-                NU_WATER,
-                grid.x(nx - 1),
-            );
-            let frequency = opts.strouhal * speed / d;
-            (
-                Flow::Wake {
-                    street,
-                    frequency,
-                    diameter: d,
-                },
-                speed,
-            )
-        }
-        Scenario::Vortex => {
-            // core radius an eighth of the domain height (or as asked); peak swirl = speed
-            let rc = opts.core_pitches.map_or(half_h / 4.0, |c| c * pitch);
-            let gamma = 2.0 * std::f64::consts::PI * rc * speed / flows::LAMB_OSEEN_PEAK_SWIRL;
-            let flow = match opts.pulse {
-                Some((amplitude, frequency)) => Flow::Pulsing {
-                    gamma,
-                    rc,
-                    amplitude,
-                    frequency,
-                },
-                None => Flow::Vortex { gamma, rc },
-            };
-            // the pulse's peak circulation sets the peak speed
-            (
-                flow,
-                speed * (1.0 + opts.pulse.map_or(0.0, |p| p.0)) + opts.stream,
-            )
-        }
+    match opts.scenario {
+        Scenario::Wake => wake_flow(opts, grid, speed),
+        Scenario::Vortex => vortex_flow(opts, half_h, pitch, speed),
         Scenario::Uniform => {
             let a = UNIFORM_ANGLE_DEG.to_radians();
             (
@@ -309,18 +295,53 @@ pub(crate) fn setup_run(opts: &SynthOptions, speed: f64) -> Result<RunSetup> {
                 speed,
             )
         }
-    };
-    let pulse_separation = round2(opts.displacement_px * opts.pixel_size / peak);
-    let px_velocity = opts.pixel_size / pulse_separation;
-    Ok(RunSetup {
-        id: run_id(speed),
+    }
+}
+
+/// The wake behind the cylinder: a convecting vortex street and its
+/// shedding frequency; peak speed the free stream.
+fn wake_flow(opts: &SynthOptions, grid: &Grid, speed: f64) -> (Flow, f64) {
+    let d = opts.diameter;
+    let street = Street::behind_cylinder(
         speed,
-        grid,
-        pulse_separation,
-        px_velocity,
-        noise_sigma: opts.noise_px * px_velocity,
+        d,
+        opts.strouhal,
+        opts.convection,
+        0.281,
+        0.25,
+        NU_WATER,
+        grid.x(grid.nx - 1),
+    );
+    let frequency = opts.strouhal * speed / d;
+    (
+        Flow::Wake {
+            street,
+            frequency,
+            diameter: d,
+        },
+        speed,
+    )
+}
+
+/// One Lamb–Oseen vortex, steady or pulsing; peak swirl `speed`.
+fn vortex_flow(opts: &SynthOptions, half_h: f64, pitch: f64, speed: f64) -> (Flow, f64) {
+    // core radius an eighth of the domain height (or as asked); peak swirl = speed
+    let rc = opts.core_pitches.map_or(half_h / 4.0, |c| c * pitch);
+    let gamma = 2.0 * std::f64::consts::PI * rc * speed / flows::LAMB_OSEEN_PEAK_SWIRL;
+    let flow = match opts.pulse {
+        Some((amplitude, frequency)) => Flow::Pulsing {
+            gamma,
+            rc,
+            amplitude,
+            frequency,
+        },
+        None => Flow::Vortex { gamma, rc },
+    };
+    // the pulse's peak circulation sets the peak speed
+    (
         flow,
-    })
+        speed * (1.0 + opts.pulse.map_or(0.0, |p| p.0)) + opts.stream,
+    )
 }
 
 /// The diffusing Lamb–Oseen and Burgers vortices: core radius (at t = 0)

@@ -116,6 +116,7 @@ struct Made {
     bytes: u64,
 }
 
+/// Writes one run (frames, frame table, truth) into `dir`.
 fn write_run(opts: &SynthOptions, run: usize, setup: &RunSetup, dir: &Path) -> Result<RunSummary> {
     let truth_dir = dir.join("truth");
     fs::create_dir_all(&truth_dir).with_path(&truth_dir)?;
@@ -123,80 +124,161 @@ fn write_run(opts: &SynthOptions, run: usize, setup: &RunSetup, dir: &Path) -> R
         let p = truth_dir.join("fields");
         fs::create_dir_all(&p).with_path(&p)?;
     }
-    let g = setup.grid;
-    let (ls, vs) = unit_scales(opts, setup);
-    let (dxy, dvel) = value_decimals(opts, setup, ls, vs);
-    // "x,y," of every node, formatted once
-    let prefixes: Vec<Vec<u8>> = (0..g.len())
-        .map(|k| {
-            let mut b = Vec::with_capacity(24);
-            push(&mut b, g.x(k % g.nx) / ls, dxy);
-            b.push(b',');
-            push(&mut b, ysign(opts) * (g.y(k / g.nx) / ls), dxy);
-            b.push(b',');
-            b
-        })
-        .collect();
-    let xy = prefixes_xy(opts, setup, ls);
-    let cols = Columns::new(opts, setup, vs, dvel);
-    let mut stats = TruthStats::new(g, opts.phase_bins);
-    let mut events = Vec::with_capacity(1 << 16);
-    events.extend_from_slice(b"frame,i,j,kind\n");
-    let mut frame_table = Vec::with_capacity(opts.frames * 32);
-    frame_table.extend_from_slice(if opts.periodic() {
-        b"frame,time_s,phase_deg\n".as_slice()
-    } else {
-        b"frame,time_s\n".as_slice()
-    });
+    let layout = RunLayout::new(opts, run, setup, dir);
+    let mut gathered = Gathered::new(opts, setup);
     let mut parquet = match opts.format {
-        OutFormat::Parquet => Some(ParquetFrames::create(&dir.join("vectors.parquet"), &cols)?),
+        OutFormat::Parquet => Some(ParquetFrames::create(
+            &dir.join("vectors.parquet"),
+            &layout.cols,
+        )?),
         OutFormat::Csv => None,
-    };
-    let mut summary = RunSummary {
-        id: setup.id.clone(),
-        speed: setup.speed,
-        frames: opts.frames,
-        grid: g,
-        pulse_separation: setup.pulse_separation,
-        noise_sigma: setup.noise_sigma,
-        n_outliers: 0,
-        n_missing: 0,
-        n_empty: 0,
-        n_flagged: 0,
-        n_body: 0,
-        bytes: 0,
     };
     let mut start = 0;
     while start < opts.frames {
         let end = (start + CHUNK).min(opts.frames);
-        let made: Vec<Made> = (start..end)
-            .into_par_iter()
-            .map(|k| -> Result<Made> {
-                let truth = setup.truth(opts, k);
-                let measured = corrupt::corrupt(opts, setup, &truth, run, k);
-                let name = frame_name(k, opts.frames);
-                let mut bytes = 0;
-                if opts.format == OutFormat::Csv {
-                    let buf = frame_csv(&measured, &prefixes, &cols);
-                    let p = dir.join(format!("{name}.csv"));
-                    fs::write(&p, &buf).with_path(&p)?;
-                    bytes = buf.len() as u64;
-                }
-                if opts.truth_frames {
-                    let buf = truth_frame_csv(setup, &truth);
-                    let p = dir.join("truth").join("fields").join(format!("{name}.csv"));
-                    fs::write(&p, &buf).with_path(&p)?;
-                }
-                Ok(Made {
-                    truth,
-                    measured,
-                    bytes,
-                })
-            })
-            .collect::<Result<Vec<Made>>>()?;
+        let made = layout.make_chunk(start, end)?;
         if let Some(pq) = parquet.as_mut() {
-            pq.write_chunk(start, &made, &xy)?;
+            pq.write_chunk(start, &made, &layout.xy)?;
         }
+        gathered.add_chunk(&layout, start, &made);
+        start = end;
+    }
+    if let Some(pq) = parquet {
+        gathered.summary.bytes = pq.finish()?;
+    }
+    let p = dir.join("frames.csv");
+    fs::write(&p, &gathered.frame_table).with_path(&p)?;
+    if opts.truth {
+        write_truth(opts, setup, &gathered, &truth_dir)?;
+    } else {
+        fs::remove_dir_all(&truth_dir).with_path(&truth_dir)?;
+    }
+    Ok(gathered.summary)
+}
+
+/// What every frame of a run shares: its setup, folder and the formatted
+/// coordinates of its nodes.
+struct RunLayout<'a> {
+    opts: &'a SynthOptions,
+    run: usize,
+    setup: &'a RunSetup,
+    dir: &'a Path,
+    /// "x,y," of every node, formatted once.
+    prefixes: Vec<Vec<u8>>,
+    /// x and y of every node in written units (the parquet columns).
+    xy: (Vec<f64>, Vec<f64>),
+    cols: Columns,
+}
+
+impl<'a> RunLayout<'a> {
+    /// The layout of run `run` written into `dir`.
+    fn new(opts: &'a SynthOptions, run: usize, setup: &'a RunSetup, dir: &'a Path) -> Self {
+        let g = setup.grid;
+        let (ls, vs) = unit_scales(opts, setup);
+        let (dxy, dvel) = value_decimals(opts, setup, ls, vs);
+        // "x,y," of every node, formatted once
+        let prefixes: Vec<Vec<u8>> = (0..g.len())
+            .map(|k| {
+                let mut b = Vec::with_capacity(24);
+                push(&mut b, g.x(k % g.nx) / ls, dxy);
+                b.push(b',');
+                push(&mut b, ysign(opts) * (g.y(k / g.nx) / ls), dxy);
+                b.push(b',');
+                b
+            })
+            .collect();
+        RunLayout {
+            opts,
+            run,
+            setup,
+            dir,
+            prefixes,
+            xy: prefixes_xy(opts, setup, ls),
+            cols: Columns::new(opts, setup, vs, dvel),
+        }
+    }
+
+    /// Makes frames `start..end` in parallel, writing their CSV files (and
+    /// truth fields when asked); returned in frame order.
+    fn make_chunk(&self, start: usize, end: usize) -> Result<Vec<Made>> {
+        (start..end)
+            .into_par_iter()
+            .map(|k| self.make_frame(k))
+            .collect::<Result<Vec<Made>>>()
+    }
+
+    /// Makes frame `k` and writes its CSV file (and truth field when asked).
+    fn make_frame(&self, k: usize) -> Result<Made> {
+        let (opts, setup, dir) = (self.opts, self.setup, self.dir);
+        let truth = setup.truth(opts, k);
+        let measured = corrupt::corrupt(opts, setup, &truth, self.run, k);
+        let name = frame_name(k, opts.frames);
+        let mut bytes = 0;
+        if opts.format == OutFormat::Csv {
+            let buf = frame_csv(&measured, &self.prefixes, &self.cols);
+            let p = dir.join(format!("{name}.csv"));
+            fs::write(&p, &buf).with_path(&p)?;
+            bytes = buf.len() as u64;
+        }
+        if opts.truth_frames {
+            let buf = truth_frame_csv(setup, &truth);
+            let p = dir.join("truth").join("fields").join(format!("{name}.csv"));
+            fs::write(&p, &buf).with_path(&p)?;
+        }
+        Ok(Made {
+            truth,
+            measured,
+            bytes,
+        })
+    }
+}
+
+/// What a run gathers in frame order: truth statistics, events, the frame
+/// table and the summary's counts.
+struct Gathered {
+    stats: TruthStats,
+    events: Vec<u8>,
+    frame_table: Vec<u8>,
+    summary: RunSummary,
+}
+
+impl Gathered {
+    /// Nothing gathered yet: the headers of the events and frame tables.
+    fn new(opts: &SynthOptions, setup: &RunSetup) -> Self {
+        let g = setup.grid;
+        let mut events = Vec::with_capacity(1 << 16);
+        events.extend_from_slice(b"frame,i,j,kind\n");
+        let mut frame_table = Vec::with_capacity(opts.frames * 32);
+        frame_table.extend_from_slice(if opts.periodic() {
+            b"frame,time_s,phase_deg\n".as_slice()
+        } else {
+            b"frame,time_s\n".as_slice()
+        });
+        let summary = RunSummary {
+            id: setup.id.clone(),
+            speed: setup.speed,
+            frames: opts.frames,
+            grid: g,
+            pulse_separation: setup.pulse_separation,
+            noise_sigma: setup.noise_sigma,
+            n_outliers: 0,
+            n_missing: 0,
+            n_empty: 0,
+            n_flagged: 0,
+            n_body: 0,
+            bytes: 0,
+        };
+        Gathered {
+            stats: TruthStats::new(g, opts.phase_bins),
+            events,
+            frame_table,
+            summary,
+        }
+    }
+
+    /// Adds the frames `made` (the first is frame `start`) in frame order.
+    fn add_chunk(&mut self, layout: &RunLayout, start: usize, made: &[Made]) {
+        let (opts, setup) = (layout.opts, layout.setup);
         for (off, m) in made.iter().enumerate() {
             let k = start + off;
             let name = frame_name(k, opts.frames);
@@ -207,67 +289,73 @@ fn write_run(opts: &SynthOptions, run: usize, setup: &RunSetup, dir: &Path) -> R
                 OutFormat::Parquet => (k + 1).to_string(),
             };
             let phase = setup.phase_deg(opts, k);
-            stats.add(&m.truth, phase);
-            summary.bytes += m.bytes;
-            frame_table.extend_from_slice(key.as_bytes());
-            frame_table.push(b',');
-            push(&mut frame_table, setup.time(opts, k), Some(9));
+            self.stats.add(&m.truth, phase);
+            self.summary.bytes += m.bytes;
+            self.frame_table.extend_from_slice(key.as_bytes());
+            self.frame_table.push(b',');
+            push(&mut self.frame_table, setup.time(opts, k), Some(9));
             if let Some(p) = phase {
-                frame_table.push(b',');
-                push(&mut frame_table, p, Some(4));
+                self.frame_table.push(b',');
+                push(&mut self.frame_table, p, Some(4));
             }
-            frame_table.push(b'\n');
-            for ((j, i), &c) in m.measured.kind.indexed_iter() {
-                let kind = Kind::from_code(c);
-                match kind {
-                    Kind::Measured => continue,
-                    Kind::Body => {
-                        if k == 0 {
-                            summary.n_body += 1;
-                        }
-                        continue;
+            self.frame_table.push(b'\n');
+            self.add_events(&key, k, &m.measured);
+        }
+    }
+
+    /// Counts the corrupted nodes of frame `k` and lists them as events.
+    fn add_events(&mut self, key: &str, k: usize, measured: &Measured) {
+        let summary = &mut self.summary;
+        for ((j, i), &c) in measured.kind.indexed_iter() {
+            let kind = Kind::from_code(c);
+            match kind {
+                Kind::Measured => continue,
+                Kind::Body => {
+                    if k == 0 {
+                        summary.n_body += 1;
                     }
-                    Kind::Outlier => summary.n_outliers += 1,
-                    Kind::Missing => summary.n_missing += 1,
-                    Kind::Empty => summary.n_empty += 1,
-                    Kind::Flagged => summary.n_flagged += 1,
+                    continue;
                 }
-                events.extend_from_slice(key.as_bytes());
-                events.extend_from_slice(format!(",{i},{j},{}\n", kind.name()).as_bytes());
+                Kind::Outlier => summary.n_outliers += 1,
+                Kind::Missing => summary.n_missing += 1,
+                Kind::Empty => summary.n_empty += 1,
+                Kind::Flagged => summary.n_flagged += 1,
             }
+            self.events.extend_from_slice(key.as_bytes());
+            self.events
+                .extend_from_slice(format!(",{i},{j},{}\n", kind.name()).as_bytes());
         }
-        start = end;
     }
-    if let Some(pq) = parquet {
-        summary.bytes = pq.finish()?;
+}
+
+/// Writes a run's truth: mean and phase tables, events and parameters.
+fn write_truth(
+    opts: &SynthOptions,
+    setup: &RunSetup,
+    gathered: &Gathered,
+    truth_dir: &Path,
+) -> Result<()> {
+    let stats = &gathered.stats;
+    let td = opts.digits.max(8);
+    let p = truth_dir.join("mean.csv");
+    fs::write(&p, stats.mean_csv(setup.speed, td)).with_path(&p)?;
+    if opts.periodic() {
+        let p = truth_dir.join("phase.csv");
+        fs::write(&p, stats.phase_csv(setup.speed, td)).with_path(&p)?;
     }
-    let p = dir.join("frames.csv");
-    fs::write(&p, &frame_table).with_path(&p)?;
-    if opts.truth {
-        let td = opts.digits.max(8);
-        let p = truth_dir.join("mean.csv");
-        fs::write(&p, stats.mean_csv(setup.speed, td)).with_path(&p)?;
-        if opts.periodic() {
-            let p = truth_dir.join("phase.csv");
-            fs::write(&p, stats.phase_csv(setup.speed, td)).with_path(&p)?;
-        }
-        let p = truth_dir.join("events.csv");
-        fs::write(&p, &events).with_path(&p)?;
-        let params = serde_json::json!({
-            "generator": format!("curlew {} synth", crate::VERSION),
-            "seed": opts.seed,
-            "options": opts,
-            "run": setup,
-            "summary": summary,
-        });
-        let p = truth_dir.join("params.json");
-        let text = serde_json::to_string_pretty(&params)
-            .map_err(|e| Error::data(format!("cannot encode parameters: {e}")))?;
-        fs::write(&p, text + "\n").with_path(&p)?;
-    } else {
-        fs::remove_dir_all(&truth_dir).with_path(&truth_dir)?;
-    }
-    Ok(summary)
+    let p = truth_dir.join("events.csv");
+    fs::write(&p, &gathered.events).with_path(&p)?;
+    let params = serde_json::json!({
+        "generator": format!("curlew {} synth", crate::VERSION),
+        "seed": opts.seed,
+        "options": opts,
+        "run": setup,
+        "summary": gathered.summary,
+    });
+    let p = truth_dir.join("params.json");
+    let text = serde_json::to_string_pretty(&params)
+        .map_err(|e| Error::data(format!("cannot encode parameters: {e}")))?;
+    fs::write(&p, text + "\n").with_path(&p)
 }
 
 /// The column layout of written frames.
