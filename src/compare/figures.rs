@@ -174,6 +174,7 @@ fn delta_figure(
     ))
 }
 
+/// Profiles of every run at up to four stations, one panel per station.
 pub(crate) fn profile_figure(
     p: &ComparePlan,
     sel: &[&RunResult],
@@ -189,49 +190,9 @@ pub(crate) fn profile_figure(
     }
     stations.truncate(4);
     let k = p.coverage;
-    let unit = unit_of(&p.profile);
     let panels: Vec<LinePanel> = stations
         .iter()
-        .map(|st| {
-            let curves = profiles
-                .iter()
-                .filter(|pr| pr.station == *st)
-                .map(|pr| {
-                    let ci = sel.iter().position(|r| r.id == pr.run).unwrap_or(0);
-                    let xy: Vec<(f64, f64)> =
-                        pr.s.iter()
-                            .zip(&pr.value)
-                            .map(|(s, v)| (s * 1e3, *v))
-                            .collect();
-                    let band = pr.uncertainty.iter().any(|u| u.is_finite()).then(|| {
-                        pr.s.iter()
-                            .zip(&pr.value)
-                            .zip(&pr.uncertainty)
-                            .map(|((s, v), u)| (s * 1e3, v - k * u, v + k * u))
-                            .collect()
-                    });
-                    Curve {
-                        label: pr.run.clone(),
-                        xy,
-                        band,
-                        color: RUN_COLORS[ci % RUN_COLORS.len()],
-                        markers: false,
-                    }
-                })
-                .collect();
-            let along = if st.starts_with('x') {
-                "y (mm)"
-            } else {
-                "x (mm)"
-            };
-            LinePanel {
-                title: st.to_string(),
-                x_label: along.into(),
-                y_label: format!("{} ({unit})", p.profile),
-                curves,
-                x_names: None,
-            }
-        })
+        .map(|st| profile_panel(p, sel, profiles, st))
         .collect();
     let n = panels.len() as u32;
     let fig = LineFigure {
@@ -247,6 +208,51 @@ pub(crate) fn profile_figure(
         "Profiles",
         format!("{} along lines at the stations; shaded bands are ±{k}·u (standard uncertainty of the mean).", p.profile),
     )])
+}
+
+/// The panel of one station: each run's profile with its ±k·u band where
+/// the uncertainty is known.
+fn profile_panel(p: &ComparePlan, sel: &[&RunResult], profiles: &[Profile], st: &str) -> LinePanel {
+    let k = p.coverage;
+    let unit = unit_of(&p.profile);
+    let curves = profiles
+        .iter()
+        .filter(|pr| pr.station == st)
+        .map(|pr| {
+            let ci = sel.iter().position(|r| r.id == pr.run).unwrap_or(0);
+            let xy: Vec<(f64, f64)> =
+                pr.s.iter()
+                    .zip(&pr.value)
+                    .map(|(s, v)| (s * 1e3, *v))
+                    .collect();
+            let band = pr.uncertainty.iter().any(|u| u.is_finite()).then(|| {
+                pr.s.iter()
+                    .zip(&pr.value)
+                    .zip(&pr.uncertainty)
+                    .map(|((s, v), u)| (s * 1e3, v - k * u, v + k * u))
+                    .collect()
+            });
+            Curve {
+                label: pr.run.clone(),
+                xy,
+                band,
+                color: RUN_COLORS[ci % RUN_COLORS.len()],
+                markers: false,
+            }
+        })
+        .collect();
+    let along = if st.starts_with('x') {
+        "y (mm)"
+    } else {
+        "x (mm)"
+    };
+    LinePanel {
+        title: st.to_string(),
+        x_label: along.into(),
+        y_label: format!("{} ({unit})", p.profile),
+        curves,
+        x_names: None,
+    }
 }
 
 /// The scalars across conditions with ±k·u error bars, one panel per
