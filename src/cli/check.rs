@@ -6,6 +6,7 @@ use std::path::PathBuf;
 use rayon::prelude::*;
 
 use curlew::describe::num;
+use curlew::field::{FrameMeta, Grid};
 use curlew::io::{self, FrameSource};
 use curlew::plan::{Plan, RunPlan};
 use curlew::reduce;
@@ -21,10 +22,24 @@ fn path_of(src: &FrameSource) -> &std::path::Path {
     src.path()
 }
 
+/// Checks one run without computing anything and prints its plan: frames,
+/// grid, inputs, stages and what the analyses will find.
 fn check_run(plan: &Plan, r: &RunPlan) -> Result<()> {
     let frames = reduce::list_run_frames(r)?;
     let first = io::read_grid(&r.input, &frames[0].1)?;
     curlew::plan::bounds::check_grid(r, &first).map_err(|e| plan.pipeline_error(e))?;
+    check_frame_grids(r, &frames, &first)?;
+    let with_time = frames.iter().filter(|(m, _)| m.time_s.is_some()).count();
+    let with_phase = frames.iter().filter(|(m, _)| m.phase_deg.is_some()).count();
+    print_frames(r, &frames, with_time, with_phase);
+    print_grid_and_input(r, &first)?;
+    print_stages(r);
+    print_analysis_checks(r, &frames, with_phase)
+}
+
+/// Reads every frame's header and grid (each file once) and fails on the
+/// first that cannot be read or whose grid differs from `first`.
+fn check_frame_grids(r: &RunPlan, frames: &[(FrameMeta, FrameSource)], first: &Grid) -> Result<()> {
     // Every frame's header and grid, in parallel; the first that differs is named.
     let files: Vec<&FrameSource> = {
         let mut seen: Vec<&std::path::Path> = Vec::new();
@@ -53,8 +68,16 @@ fn check_run(plan: &Plan, r: &RunPlan) -> Result<()> {
     if let Some(e) = bad {
         return Err(e);
     }
-    let with_time = frames.iter().filter(|(m, _)| m.time_s.is_some()).count();
-    let with_phase = frames.iter().filter(|(m, _)| m.phase_deg.is_some()).count();
+    Ok(())
+}
+
+/// Prints the run's name, its frame count and where the frames come from.
+fn print_frames(
+    r: &RunPlan,
+    frames: &[(FrameMeta, FrameSource)],
+    with_time: usize,
+    with_phase: usize,
+) {
     println!("run '{}'", r.id);
     let files = {
         let mut p: Vec<&std::path::Path> = frames.iter().map(|(_, s)| s.path()).collect();
@@ -77,6 +100,11 @@ fn check_run(plan: &Plan, r: &RunPlan) -> Result<()> {
             t.display()
         );
     }
+}
+
+/// Prints the grid, units, orientation, mask, input warnings and
+/// calibration.
+fn print_grid_and_input(r: &RunPlan, first: &Grid) -> Result<()> {
     println!(
         "  grid          {} x {} nodes, pitch {:.4} x {:.4} mm, x {:.3}..{:.3} mm, y {:.3}..{:.3} mm",
         first.nx,
@@ -97,7 +125,7 @@ fn check_run(plan: &Plan, r: &RunPlan) -> Result<()> {
     println!("  unit source   {}", io::units::describe(&r.input));
     println!("  orientation   {}", r.input.orientation.describe());
     if !r.mask.is_empty() {
-        let m = r.mask.nodes(&first, r.input.grid_tolerance)?;
+        let m = r.mask.nodes(first, r.input.grid_tolerance)?;
         let n = m.iter().filter(|&&b| b).count();
         println!(
             "  mask          {n} of {} nodes masked (status 3: never filled, never counted)",
@@ -114,12 +142,26 @@ fn check_run(plan: &Plan, r: &RunPlan) -> Result<()> {
         Some(p) => println!("  calibration   1 px of displacement = {} m/s", num(p, 6)),
         None => println!("  calibration   none (pixel size and pulse separation not given)"),
     }
+    Ok(())
+}
+
+/// Prints the processing stages, each stage's name once.
+fn print_stages(r: &RunPlan) {
     let mut last = "";
     for (stage, text) in r.describe_stages() {
         let label = if stage == last { "" } else { stage };
         println!("  {label:<13} {text}");
         last = stage;
     }
+}
+
+/// Prints what the vortex, budget and structure analyses will do with the
+/// run's times and phases.
+fn print_analysis_checks(
+    r: &RunPlan,
+    frames: &[(FrameMeta, FrameSource)],
+    with_phase: usize,
+) -> Result<()> {
     let tp: Vec<_> = frames
         .iter()
         .map(|(m, _)| (m.time_s, m.phase_deg))

@@ -5,7 +5,9 @@
 use std::path::PathBuf;
 use std::time::Instant;
 
-use curlew::synth::{self, LengthUnit, OutFormat, Scenario, SynthOptions, VelocityUnit};
+use curlew::synth::{
+    self, LengthUnit, OutFormat, Scenario, SynthOptions, SynthSummary, VelocityUnit,
+};
 use curlew::{Error, Result};
 
 #[derive(clap::Args, Debug)]
@@ -148,7 +150,20 @@ fn parse_format(s: &str) -> std::result::Result<OutFormat, String> {
     }
 }
 
+/// Writes the synthetic campaign the arguments describe and prints its
+/// summary.
 pub fn run(args: Args) -> Result<()> {
+    let opts = options(&args)?;
+    let t0 = Instant::now();
+    let s = synth::generate(&opts, &args.out)?;
+    let secs = t0.elapsed().as_secs_f64();
+    print_summary(&opts, &s, secs);
+    Ok(())
+}
+
+/// The generator's options from the command-line arguments (lengths in
+/// metres).
+fn options(args: &Args) -> Result<SynthOptions> {
     let speeds = if !args.speeds.is_empty() {
         args.speeds.clone()
     } else if args.scenario == Scenario::Wake {
@@ -156,25 +171,7 @@ pub fn run(args: Args) -> Result<()> {
     } else {
         vec![0.2]
     };
-    // the command as typed, without --force, so that regenerating with
-    // --force writes identical files
-    let command = std::env::args()
-        .filter(|a| a != "--force")
-        .map(|a| {
-            if a.chars()
-                .all(|c| c.is_ascii_alphanumeric() || "-_./,=:".contains(c))
-            {
-                a
-            } else {
-                format!("'{a}'")
-            }
-        })
-        .collect::<Vec<_>>();
-    let mut command = command;
-    if let Some(first) = command.first_mut() {
-        *first = "curlew".into();
-    }
-    let opts = SynthOptions {
+    Ok(SynthOptions {
         scenario: args.scenario,
         frames: args.frames,
         seed: args.seed,
@@ -214,12 +211,36 @@ pub fn run(args: Args) -> Result<()> {
             .clone()
             .unwrap_or_else(|| format!("synth-{}", args.scenario.name())),
         force: args.force,
-        command: Some(command.join(" ")),
+        command: Some(typed_command()),
         pipeline_copy: args.pipeline.clone(),
-    };
-    let t0 = Instant::now();
-    let s = synth::generate(&opts, &args.out)?;
-    let secs = t0.elapsed().as_secs_f64();
+    })
+}
+
+/// The command as typed, without --force (so that regenerating with
+/// --force writes identical files), the program named `curlew` and words
+/// other than plain ones quoted.
+fn typed_command() -> String {
+    let mut command = std::env::args()
+        .filter(|a| a != "--force")
+        .map(|a| {
+            if a.chars()
+                .all(|c| c.is_ascii_alphanumeric() || "-_./,=:".contains(c))
+            {
+                a
+            } else {
+                format!("'{a}'")
+            }
+        })
+        .collect::<Vec<_>>();
+    if let Some(first) = command.first_mut() {
+        *first = "curlew".into();
+    }
+    command.join(" ")
+}
+
+/// Prints what was written: the campaign, each run's frames, grid, noise
+/// and corruption counts, and the pipeline's path.
+fn print_summary(opts: &SynthOptions, s: &SynthSummary, secs: f64) {
     let total: u64 = s.runs.iter().map(|r| r.bytes).sum();
     println!(
         "wrote {} scenario '{}' to {} in {:.2} s ({:.1} MB of frames)",
@@ -249,5 +270,4 @@ pub fn run(args: Args) -> Result<()> {
     if let Some(p) = &opts.pipeline_copy {
         println!("  pipeline copy: {}", p.display());
     }
-    Ok(())
 }

@@ -17,7 +17,7 @@ mod figures;
 pub(crate) mod interp;
 pub(crate) mod scalars;
 
-use std::path::Path;
+use std::path::{Path, PathBuf};
 
 use crate::error::{Error, Result};
 use crate::plan::report::ComparePlan;
@@ -47,8 +47,46 @@ pub(crate) fn run_comparisons(
     plans.iter().map(|p| run_one(p, runs, out)).collect()
 }
 
+/// Runs one comparison: scalars, the difference map of the first two runs,
+/// profiles and the scalar figure, under `OUT/compare/<slug>/`.
 fn run_one(p: &ComparePlan, runs: &[RunResult], out: &Path) -> Result<ComparisonResult> {
-    let mut res = ComparisonResult {
+    let mut res = empty_result(p);
+    let sel = select_runs(p, runs, &mut res);
+    if sel.len() < p.runs.len() {
+        return Ok(res);
+    }
+    let dir = out.join("compare").join(&p.slug);
+    std::fs::create_dir_all(&dir).map_err(|e| Error::io(&dir, e))?;
+    let ctx = Outputs { dir: &dir, out };
+
+    // Scalars across conditions.
+    write_scalars(p, &sel, &ctx, &mut res)?;
+    // Difference map of the first two runs.
+    write_difference(p, sel[0], sel[1], &ctx, &mut res)?;
+    // Profiles.
+    write_profiles(p, &sel, &ctx, &mut res)?;
+    res.figures
+        .extend(figures::scalar_figure(p, &sel, &res.scalars, &dir, out)?);
+    Ok(res)
+}
+
+/// Where one comparison writes: its own folder and the output root that
+/// recorded paths are relative to.
+struct Outputs<'a> {
+    dir: &'a Path,
+    out: &'a Path,
+}
+
+impl Outputs<'_> {
+    /// `q` relative to the output root (unchanged when outside it).
+    fn rel(&self, q: &Path) -> PathBuf {
+        q.strip_prefix(self.out).unwrap_or(q).to_path_buf()
+    }
+}
+
+/// The result of a comparison before anything is compared.
+fn empty_result(p: &ComparePlan) -> ComparisonResult {
+    ComparisonResult {
         title: p.title.clone(),
         slug: p.slug.clone(),
         runs: p.runs.clone(),
@@ -63,7 +101,16 @@ fn run_one(p: &ComparePlan, runs: &[RunResult], out: &Path) -> Result<Comparison
         significant_fraction: None,
         interpolated: false,
         warnings: Vec::new(),
-    };
+    }
+}
+
+/// The plan's runs among the reduced ones, in the plan's order; a warning
+/// in `res` for each run that was not reduced.
+fn select_runs<'r>(
+    p: &ComparePlan,
+    runs: &'r [RunResult],
+    res: &mut ComparisonResult,
+) -> Vec<&'r RunResult> {
     let mut sel: Vec<&RunResult> = Vec::new();
     for id in &p.runs {
         match runs.iter().find(|r| &r.id == id) {
@@ -73,15 +120,17 @@ fn run_one(p: &ComparePlan, runs: &[RunResult], out: &Path) -> Result<Comparison
             )),
         }
     }
-    if sel.len() < p.runs.len() {
-        return Ok(res);
-    }
-    let dir = out.join("compare").join(&p.slug);
-    std::fs::create_dir_all(&dir).map_err(|e| Error::io(&dir, e))?;
-    let rel = |q: &Path| q.strip_prefix(out).unwrap_or(q).to_path_buf();
+    sel
+}
 
-    // Scalars across conditions.
-    for r in &sel {
+/// Computes the scalars of every run into `res` and writes `scalars.csv`.
+fn write_scalars(
+    p: &ComparePlan,
+    sel: &[&RunResult],
+    ctx: &Outputs,
+    res: &mut ComparisonResult,
+) -> Result<()> {
+    for r in sel {
         res.scalars.extend(scalars::run_scalars(
             &r.id,
             &r.stats.ensemble,
@@ -91,7 +140,7 @@ fn run_one(p: &ComparePlan, runs: &[RunResult], out: &Path) -> Result<Comparison
             p.wake_x,
         ));
     }
-    let path = dir.join("scalars.csv");
+    let path = ctx.dir.join("scalars.csv");
     write_rows(
         &path,
         &["run", "quantity", "value", "uncertainty", "unit"],
@@ -105,92 +154,108 @@ fn run_one(p: &ComparePlan, runs: &[RunResult], out: &Path) -> Result<Comparison
             ]
         }),
     )?;
-    res.tables.push(rel(&path));
+    res.tables.push(ctx.rel(&path));
+    Ok(())
+}
 
-    // Difference map of the first two runs.
-    let (a, b) = (sel[0], sel[1]);
-    match interp::difference(
+/// The difference `b − a` of the plan's quantity: its counts and warnings
+/// into `res`, `difference.csv` and the difference figures.
+fn write_difference(
+    p: &ComparePlan,
+    a: &RunResult,
+    b: &RunResult,
+    ctx: &Outputs,
+    res: &mut ComparisonResult,
+) -> Result<()> {
+    let Some(d) = interp::difference(
         &a.stats.ensemble,
         &b.stats.ensemble,
         &p.quantity,
         p.coverage,
-    ) {
-        None => res.warnings.push(format!(
+    ) else {
+        res.warnings.push(format!(
             "'{}' is not a column of both runs; no difference map",
             p.quantity
-        )),
-        Some(d) => {
-            if d.n_compared == 0 {
-                res.warnings.push(format!(
-                    "no node has both a difference and an uncertainty ('{}' missing or the grids do not overlap)",
-                    interp::uncertainty_column(&p.quantity)
-                ));
-            }
-            res.n_compared = d.n_compared;
-            res.n_significant = d.n_significant;
-            res.interpolated = d.interpolated;
-            res.significant_fraction =
-                (d.n_compared > 0).then(|| d.n_significant as f64 / d.n_compared as f64);
-            if d.interpolated {
-                res.warnings.push(format!(
-                    "the grids of '{}' and '{}' differ; '{}' was interpolated bilinearly onto the grid of '{}'",
-                    a.id, b.id, b.id, a.id
-                ));
-            }
-            let path = dir.join("difference.csv");
-            let g = d.grid;
-            write_rows(
-                &path,
-                &["x", "y", "a", "b", "delta", "delta_unc", "significant"],
-                (0..g.len()).map(|k| {
-                    vec![
-                        num(g.x(k % g.nx)),
-                        num(g.y(k / g.nx)),
-                        num(d.a[k]),
-                        num(d.b[k]),
-                        num(d.delta[k]),
-                        num(d.u_delta[k]),
-                        u8::from(d.significant[k]).to_string(),
-                    ]
-                }),
-            )?;
-            res.tables.push(rel(&path));
-            res.figures
-                .extend(figures::difference_figures(p, a, b, &d, &dir, out)?);
-        }
+        ));
+        return Ok(());
+    };
+    if d.n_compared == 0 {
+        res.warnings.push(format!(
+            "no node has both a difference and an uncertainty ('{}' missing or the grids do not overlap)",
+            interp::uncertainty_column(&p.quantity)
+        ));
     }
+    res.n_compared = d.n_compared;
+    res.n_significant = d.n_significant;
+    res.interpolated = d.interpolated;
+    res.significant_fraction =
+        (d.n_compared > 0).then(|| d.n_significant as f64 / d.n_compared as f64);
+    if d.interpolated {
+        res.warnings.push(format!(
+            "the grids of '{}' and '{}' differ; '{}' was interpolated bilinearly onto the grid of '{}'",
+            a.id, b.id, b.id, a.id
+        ));
+    }
+    let path = ctx.dir.join("difference.csv");
+    let g = d.grid;
+    write_rows(
+        &path,
+        &["x", "y", "a", "b", "delta", "delta_unc", "significant"],
+        (0..g.len()).map(|k| {
+            vec![
+                num(g.x(k % g.nx)),
+                num(g.y(k / g.nx)),
+                num(d.a[k]),
+                num(d.b[k]),
+                num(d.delta[k]),
+                num(d.u_delta[k]),
+                u8::from(d.significant[k]).to_string(),
+            ]
+        }),
+    )?;
+    res.tables.push(ctx.rel(&path));
+    res.figures
+        .extend(figures::difference_figures(p, a, b, &d, ctx.dir, ctx.out)?);
+    Ok(())
+}
 
-    // Profiles.
-    let profiles = profiles(p, &sel);
+/// Profiles of the plan's profile quantity: `profiles.csv` and the profile
+/// figure, or a warning when no run has the column.
+fn write_profiles(
+    p: &ComparePlan,
+    sel: &[&RunResult],
+    ctx: &Outputs,
+    res: &mut ComparisonResult,
+) -> Result<()> {
+    let profiles = profiles(p, sel);
     if profiles.is_empty() {
         res.warnings.push(format!(
             "'{}' is not a column of the runs; no profiles",
             p.profile
         ));
-    } else {
-        let path = dir.join("profiles.csv");
-        write_rows(
-            &path,
-            &["run", "station", "s", "value", "uncertainty"],
-            profiles.iter().flat_map(|pr| {
-                (0..pr.s.len()).map(move |k| {
-                    vec![
-                        pr.run.clone(),
-                        pr.station.clone(),
-                        num(pr.s[k]),
-                        num(pr.value[k]),
-                        num(pr.uncertainty[k]),
-                    ]
-                })
-            }),
-        )?;
-        res.tables.push(rel(&path));
-        res.figures
-            .extend(figures::profile_figure(p, &sel, &profiles, &dir, out)?);
+        return Ok(());
     }
-    res.figures
-        .extend(figures::scalar_figure(p, &sel, &res.scalars, &dir, out)?);
-    Ok(res)
+    let path = ctx.dir.join("profiles.csv");
+    write_rows(
+        &path,
+        &["run", "station", "s", "value", "uncertainty"],
+        profiles.iter().flat_map(|pr| {
+            (0..pr.s.len()).map(move |k| {
+                vec![
+                    pr.run.clone(),
+                    pr.station.clone(),
+                    num(pr.s[k]),
+                    num(pr.value[k]),
+                    num(pr.uncertainty[k]),
+                ]
+            })
+        }),
+    )?;
+    res.tables.push(ctx.rel(&path));
+    res.figures.extend(figures::profile_figure(
+        p, sel, &profiles, ctx.dir, ctx.out,
+    )?);
+    Ok(())
 }
 
 /// The stations of a plan: its own, or three vertical lines at 25, 50 and

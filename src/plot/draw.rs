@@ -11,6 +11,7 @@
 use std::path::{Path, PathBuf};
 use std::sync::Once;
 
+use plotters::coord::types::RangedCoordf64;
 use plotters::coord::Shift;
 use plotters::prelude::*;
 use plotters::style::FontStyle;
@@ -242,6 +243,10 @@ pub(crate) struct Overlay {
     pub points: Vec<((f64, f64), RGBColor)>,
 }
 
+/// The chart of one map panel: plot coordinates are metres / `axes.scale`.
+pub(crate) type MapChart<'a, DB> =
+    ChartContext<'a, DB, Cartesian2d<RangedCoordf64, RangedCoordf64>>;
+
 /// `draw_map` with an optional overlay drawn last (with a pale halo).
 pub(crate) fn draw_map_over<DB: DrawingBackend>(
     area: &DrawingArea<DB, Shift>,
@@ -250,6 +255,39 @@ pub(crate) fn draw_map_over<DB: DrawingBackend>(
     layout: &MapLayout,
     over: Option<&Overlay>,
 ) -> DrawResult<DB> {
+    let g = p.grid;
+    let s = axes.scale;
+    let mut chart = map_chart(area, p, axes, layout)?;
+    draw_cells(&mut chart, p, s)?;
+    if let Some(m) = &p.mask {
+        chart.draw_series(
+            mask_outline(&g, m, s)
+                .into_iter()
+                .map(|seg| PathElement::new(seg, MASK_EDGE.stroke_width(2))),
+        )?;
+    }
+    if let Some(m) = &p.marks {
+        draw_marks(&mut chart, &g, m, s, layout)?;
+    }
+    if let Some((u, v, every)) = p.vectors {
+        if let Some(arrows) = arrow_paths(&g, s, u, v, every) {
+            draw_arrows(&mut chart, arrows)?;
+        }
+    }
+    if let Some(o) = over {
+        draw_overlay(&mut chart, o, s)?;
+    }
+    Ok(())
+}
+
+/// The panel's chart with its title, axes, labels and ticks, over the
+/// grid's extent (cell edges, not nodes).
+fn map_chart<'a, DB: DrawingBackend>(
+    area: &'a DrawingArea<DB, Shift>,
+    p: &MapPanel,
+    axes: &Axes,
+    layout: &MapLayout,
+) -> std::result::Result<MapChart<'a, DB>, DrawingAreaErrorKind<DB::ErrorType>> {
     let g = p.grid;
     let s = axes.scale;
     let xr = (g.x0 - 0.5 * g.dx) / s..(g.x(g.nx - 1) + 0.5 * g.dx) / s;
@@ -275,6 +313,17 @@ pub(crate) fn draw_map_over<DB: DrawingBackend>(
         .x_labels(6)
         .y_labels(6)
         .draw()?;
+    Ok(chart)
+}
+
+/// One filled cell per node in its colour: faded toward white where asked,
+/// grey where masked.
+fn draw_cells<DB: DrawingBackend>(
+    chart: &mut MapChart<DB>,
+    p: &MapPanel,
+    s: f64,
+) -> DrawResult<DB> {
+    let g = p.grid;
     let (lo, hi) = p.range;
     chart.draw_series(
         (0..g.ny)
@@ -293,83 +342,112 @@ pub(crate) fn draw_map_over<DB: DrawingBackend>(
                 Rectangle::new([(x - hx, y - hy), (x + hx, y + hy)], c.filled())
             }),
     )?;
-    if let Some(m) = &p.mask {
-        chart.draw_series(
-            mask_outline(&g, m, s)
-                .into_iter()
-                .map(|seg| PathElement::new(seg, MASK_EDGE.stroke_width(2))),
-        )?;
+    Ok(())
+}
+
+/// A small dark ring at every marked node.
+fn draw_marks<DB: DrawingBackend>(
+    chart: &mut MapChart<DB>,
+    g: &Grid,
+    m: &[bool],
+    s: f64,
+    layout: &MapLayout,
+) -> DrawResult<DB> {
+    let r = (0.3 * layout.panel_w as f64 / g.nx as f64).clamp(1.5, 6.0) as u32;
+    let ink = RGBColor(20, 20, 24);
+    chart.draw_series((0..g.len()).filter(|&k| m[k]).map(|k| {
+        Circle::new(
+            (g.x(k % g.nx) / s, g.y(k / g.nx) / s),
+            r,
+            ink.stroke_width(1),
+        )
+    }))?;
+    Ok(())
+}
+
+/// The arrows of the velocity (`u`, `v`) at every `every`-th node, shaft and
+/// two head strokes each, in plot units; the largest speed spans 0.9 of
+/// `every` pitches. `None` when no speed is positive.
+fn arrow_paths(
+    g: &Grid,
+    s: f64,
+    u: &[f64],
+    v: &[f64],
+    every: usize,
+) -> Option<Vec<Vec<(f64, f64)>>> {
+    let every = every.max(1);
+    let smax = u
+        .iter()
+        .zip(v)
+        .map(|(a, b)| a.hypot(*b))
+        .filter(|x| x.is_finite())
+        .fold(0.0, f64::max);
+    if smax <= 0.0 {
+        return None;
     }
-    if let Some(m) = &p.marks {
-        let r = (0.3 * layout.panel_w as f64 / g.nx as f64).clamp(1.5, 6.0) as u32;
-        let ink = RGBColor(20, 20, 24);
-        chart.draw_series((0..g.len()).filter(|&k| m[k]).map(|k| {
-            Circle::new(
-                (g.x(k % g.nx) / s, g.y(k / g.nx) / s),
-                r,
-                ink.stroke_width(1),
-            )
-        }))?;
-    }
-    if let Some((u, v, every)) = p.vectors {
-        let every = every.max(1);
-        let smax = u
-            .iter()
-            .zip(v)
-            .map(|(a, b)| a.hypot(*b))
-            .filter(|x| x.is_finite())
-            .fold(0.0, f64::max);
-        if smax > 0.0 {
-            let len = 0.9 * every as f64 * g.dx.min(g.dy) / s / smax;
-            let ink = RGBColor(25, 25, 30);
-            let mut arrows = Vec::new();
-            for j in (every / 2..g.ny).step_by(every) {
-                for i in (every / 2..g.nx).step_by(every) {
-                    let k = j * g.nx + i;
-                    let (a, b) = (u[k], v[k]);
-                    if !(a.is_finite() && b.is_finite()) {
-                        continue;
-                    }
-                    let (x, y) = (g.x(i) / s, g.y(j) / s);
-                    let (ex, ey) = (x + len * a, y + len * b);
-                    arrows.push(vec![(x, y), (ex, ey)]);
-                    let (l, ang) = ((len * a).hypot(len * b), b.atan2(a));
-                    if l > 0.0 {
-                        let h = 0.3 * l;
-                        for d in [2.7_f64, -2.7] {
-                            arrows.push(vec![
-                                (ex, ey),
-                                (ex + h * (ang + d).cos(), ey + h * (ang + d).sin()),
-                            ]);
-                        }
-                    }
+    let len = 0.9 * every as f64 * g.dx.min(g.dy) / s / smax;
+    let mut arrows = Vec::new();
+    for j in (every / 2..g.ny).step_by(every) {
+        for i in (every / 2..g.nx).step_by(every) {
+            let k = j * g.nx + i;
+            let (a, b) = (u[k], v[k]);
+            if !(a.is_finite() && b.is_finite()) {
+                continue;
+            }
+            let (x, y) = (g.x(i) / s, g.y(j) / s);
+            let (ex, ey) = (x + len * a, y + len * b);
+            arrows.push(vec![(x, y), (ex, ey)]);
+            let (l, ang) = ((len * a).hypot(len * b), b.atan2(a));
+            if l > 0.0 {
+                let h = 0.3 * l;
+                for d in [2.7_f64, -2.7] {
+                    arrows.push(vec![
+                        (ex, ey),
+                        (ex + h * (ang + d).cos(), ey + h * (ang + d).sin()),
+                    ]);
                 }
             }
-            // A pale halo keeps the arrows readable on dark and light cells.
-            chart.draw_series(
-                arrows
-                    .iter()
-                    .map(|pts| PathElement::new(pts.clone(), WHITE.mix(0.55).stroke_width(3))),
-            )?;
-            chart.draw_series(
-                arrows
-                    .into_iter()
-                    .map(|pts| PathElement::new(pts, ink.stroke_width(1))),
-            )?;
         }
     }
-    if let Some(o) = over {
-        let sc = |pts: &[(f64, f64)]| pts.iter().map(|q| (q.0 / s, q.1 / s)).collect::<Vec<_>>();
-        for (pts, c) in &o.lines {
-            chart.draw_series([PathElement::new(sc(pts), WHITE.mix(0.7).stroke_width(5))])?;
-            chart.draw_series([PathElement::new(sc(pts), c.stroke_width(2))])?;
-        }
-        chart.draw_series(
-            o.points
-                .iter()
-                .map(|(q, c)| Circle::new((q.0 / s, q.1 / s), 4, c.stroke_width(2))),
-        )?;
+    Some(arrows)
+}
+
+/// Draws the arrow strokes dark over a pale halo.
+fn draw_arrows<DB: DrawingBackend>(
+    chart: &mut MapChart<DB>,
+    arrows: Vec<Vec<(f64, f64)>>,
+) -> DrawResult<DB> {
+    let ink = RGBColor(25, 25, 30);
+    // A pale halo keeps the arrows readable on dark and light cells.
+    chart.draw_series(
+        arrows
+            .iter()
+            .map(|pts| PathElement::new(pts.clone(), WHITE.mix(0.55).stroke_width(3))),
+    )?;
+    chart.draw_series(
+        arrows
+            .into_iter()
+            .map(|pts| PathElement::new(pts, ink.stroke_width(1))),
+    )?;
+    Ok(())
+}
+
+/// Draws an overlay's lines (each over a pale halo), then its ringed points.
+fn draw_overlay<DB: DrawingBackend>(
+    chart: &mut MapChart<DB>,
+    o: &Overlay,
+    s: f64,
+) -> DrawResult<DB> {
+    let sc = |pts: &[(f64, f64)]| pts.iter().map(|q| (q.0 / s, q.1 / s)).collect::<Vec<_>>();
+    for (pts, c) in &o.lines {
+        chart.draw_series([PathElement::new(sc(pts), WHITE.mix(0.7).stroke_width(5))])?;
+        chart.draw_series([PathElement::new(sc(pts), c.stroke_width(2))])?;
     }
+    chart.draw_series(
+        o.points
+            .iter()
+            .map(|(q, c)| Circle::new((q.0 / s, q.1 / s), 4, c.stroke_width(2))),
+    )?;
     Ok(())
 }
 

@@ -1,6 +1,7 @@
 //! Line charts: curves with shaded bands or points with error bars, a
 //! legend in the emptiest corner, several panels side by side.
 
+use plotters::coord::types::RangedCoordf64;
 use plotters::coord::Shift;
 use plotters::prelude::*;
 
@@ -46,6 +47,8 @@ pub(crate) const RUN_COLORS: [RGBColor; 6] = [
     RGBColor(90, 90, 90),
 ];
 
+/// The finite extent of `vals` padded by 5 % (a constant one padded by
+/// 5 % of its value, or 1 at zero); `None` when nothing is finite.
 fn finite_range(vals: impl Iterator<Item = f64>) -> Option<(f64, f64)> {
     let (mut lo, mut hi) = (f64::INFINITY, f64::NEG_INFINITY);
     for v in vals.filter(|v| v.is_finite()) {
@@ -63,7 +66,38 @@ fn finite_range(vals: impl Iterator<Item = f64>) -> Option<(f64, f64)> {
     Some((lo - pad, hi + pad))
 }
 
+/// The chart of one line panel.
+type LineChart<'a, DB> = ChartContext<'a, DB, Cartesian2d<RangedCoordf64, RangedCoordf64>>;
+
+/// Draws one line panel: axes, bands, curves or points, then the legend.
 fn draw_lines<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, p: &LinePanel) -> DrawResult<DB> {
+    let ((x0, x1), (y0, y1)) = panel_ranges(p);
+    let mut chart = line_chart(area, p, (x0, x1), (y0, y1))?;
+    for c in &p.curves {
+        if c.markers {
+            draw_points(&mut chart, c)?;
+            continue;
+        }
+        if let Some(b) = &c.band {
+            draw_band(&mut chart, b, c.color, (y0, y1))?;
+        }
+        draw_curve(&mut chart, c)?;
+    }
+    if p.curves.iter().filter(|c| !c.label.is_empty()).count() > 0 {
+        chart
+            .configure_series_labels()
+            .label_font((FAMILY, TICK_PX))
+            .background_style(WHITE.mix(0.85))
+            .border_style(RGBColor(160, 160, 160))
+            .position(legend_corner(p, (x0, x1), (y0, y1)))
+            .draw()?;
+    }
+    Ok(())
+}
+
+/// The x and y ranges of a panel: its finite values and bands, padded by
+/// 5 %, with room for markers and a legend when it draws points.
+fn panel_ranges(p: &LinePanel) -> ((f64, f64), (f64, f64)) {
     let xs = p.curves.iter().flat_map(|c| c.xy.iter().map(|q| q.0));
     let (x0, x1) = finite_range(xs).unwrap_or((0.0, 1.0));
     let ys = p.curves.iter().flat_map(|c| {
@@ -83,6 +117,17 @@ fn draw_lines<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, p: &LinePanel) 
         y1 += 0.3 * wy;
         y0 -= 0.05 * wy;
     }
+    ((x0, x1), (y0, y1))
+}
+
+/// The panel's chart with its title, light grid, labels and ticks (the
+/// run names on a categorical x axis).
+fn line_chart<'a, DB: DrawingBackend>(
+    area: &'a DrawingArea<DB, Shift>,
+    p: &LinePanel,
+    (x0, x1): (f64, f64),
+    (y0, y1): (f64, f64),
+) -> std::result::Result<LineChart<'a, DB>, DrawingAreaErrorKind<DB::ErrorType>> {
     let mut builder = ChartBuilder::on(area);
     builder
         .caption(&p.title, (FAMILY, LABEL_PX + 1.0))
@@ -113,78 +158,83 @@ fn draw_lines<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, p: &LinePanel) 
         .x_labels(6)
         .y_labels(6)
         .draw()?;
-    for c in &p.curves {
-        if c.markers {
-            let color = c.color;
-            if let Some(b) = &c.band {
-                chart.draw_series(b.iter().filter(|q| q.1.is_finite() && q.2.is_finite()).map(
-                    |q| PathElement::new(vec![(q.0, q.1), (q.0, q.2)], color.stroke_width(2)),
-                ))?;
-            }
-            let s = chart.draw_series(
-                c.xy.iter()
-                    .filter(|q| q.0.is_finite() && q.1.is_finite())
-                    .map(|q| Circle::new(*q, 6, color.filled())),
-            )?;
-            if !c.label.is_empty() {
-                s.label(c.label.clone())
-                    .legend(move |(x, y)| Circle::new((x + 12, y), 6, color.filled()));
-            }
-            continue;
-        }
-        if let Some(b) = &c.band {
-            let mut poly: Vec<(f64, f64)> = b
-                .iter()
+    Ok(chart)
+}
+
+/// A markers curve: error bars from its band, then filled points, with a
+/// legend entry when labelled.
+fn draw_points<DB: DrawingBackend>(chart: &mut LineChart<DB>, c: &Curve) -> DrawResult<DB> {
+    let color = c.color;
+    if let Some(b) = &c.band {
+        chart.draw_series(
+            b.iter()
                 .filter(|q| q.1.is_finite() && q.2.is_finite())
-                .map(|q| (q.0, q.2.min(y1).max(y0)))
-                .collect();
-            let lower: Vec<(f64, f64)> = b
-                .iter()
-                .rev()
-                .filter(|q| q.1.is_finite() && q.2.is_finite())
-                .map(|q| (q.0, q.1.min(y1).max(y0)))
-                .collect();
-            poly.extend(lower);
-            if poly.len() >= 3 {
-                chart.draw_series(std::iter::once(Polygon::new(
-                    poly,
-                    c.color.mix(0.2).filled(),
-                )))?;
-            }
-        }
-        // Break the line at missing values.
-        let mut seg: Vec<(f64, f64)> = Vec::new();
-        let mut segs = Vec::new();
-        for &q in &c.xy {
-            if q.0.is_finite() && q.1.is_finite() {
-                seg.push(q);
-            } else if !seg.is_empty() {
-                segs.push(std::mem::take(&mut seg));
-            }
-        }
-        if !seg.is_empty() {
-            segs.push(seg);
-        }
-        let color = c.color;
-        let mut first = true;
-        for s in segs {
-            let series = chart.draw_series(LineSeries::new(s, color.stroke_width(3)))?;
-            if first && !c.label.is_empty() {
-                series.label(c.label.clone()).legend(move |(x, y)| {
-                    PathElement::new(vec![(x, y), (x + 24, y)], color.stroke_width(3))
-                });
-                first = false;
-            }
+                .map(|q| PathElement::new(vec![(q.0, q.1), (q.0, q.2)], color.stroke_width(2))),
+        )?;
+    }
+    let s = chart.draw_series(
+        c.xy.iter()
+            .filter(|q| q.0.is_finite() && q.1.is_finite())
+            .map(|q| Circle::new(*q, 6, color.filled())),
+    )?;
+    if !c.label.is_empty() {
+        s.label(c.label.clone())
+            .legend(move |(x, y)| Circle::new((x + 12, y), 6, color.filled()));
+    }
+    Ok(())
+}
+
+/// A shaded band between its lower and upper ends, clipped to `y0..y1`.
+fn draw_band<DB: DrawingBackend>(
+    chart: &mut LineChart<DB>,
+    b: &[(f64, f64, f64)],
+    color: RGBColor,
+    (y0, y1): (f64, f64),
+) -> DrawResult<DB> {
+    let mut poly: Vec<(f64, f64)> = b
+        .iter()
+        .filter(|q| q.1.is_finite() && q.2.is_finite())
+        .map(|q| (q.0, q.2.min(y1).max(y0)))
+        .collect();
+    let lower: Vec<(f64, f64)> = b
+        .iter()
+        .rev()
+        .filter(|q| q.1.is_finite() && q.2.is_finite())
+        .map(|q| (q.0, q.1.min(y1).max(y0)))
+        .collect();
+    poly.extend(lower);
+    if poly.len() >= 3 {
+        chart.draw_series(std::iter::once(Polygon::new(poly, color.mix(0.2).filled())))?;
+    }
+    Ok(())
+}
+
+/// A line curve, broken at missing values, with one legend entry when
+/// labelled.
+fn draw_curve<DB: DrawingBackend>(chart: &mut LineChart<DB>, c: &Curve) -> DrawResult<DB> {
+    // Break the line at missing values.
+    let mut seg: Vec<(f64, f64)> = Vec::new();
+    let mut segs = Vec::new();
+    for &q in &c.xy {
+        if q.0.is_finite() && q.1.is_finite() {
+            seg.push(q);
+        } else if !seg.is_empty() {
+            segs.push(std::mem::take(&mut seg));
         }
     }
-    if p.curves.iter().filter(|c| !c.label.is_empty()).count() > 0 {
-        chart
-            .configure_series_labels()
-            .label_font((FAMILY, TICK_PX))
-            .background_style(WHITE.mix(0.85))
-            .border_style(RGBColor(160, 160, 160))
-            .position(legend_corner(p, (x0, x1), (y0, y1)))
-            .draw()?;
+    if !seg.is_empty() {
+        segs.push(seg);
+    }
+    let color = c.color;
+    let mut first = true;
+    for s in segs {
+        let series = chart.draw_series(LineSeries::new(s, color.stroke_width(3)))?;
+        if first && !c.label.is_empty() {
+            series.label(c.label.clone()).legend(move |(x, y)| {
+                PathElement::new(vec![(x, y), (x + 24, y)], color.stroke_width(3))
+            });
+            first = false;
+        }
     }
     Ok(())
 }

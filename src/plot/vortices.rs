@@ -25,6 +25,7 @@ use crate::plot::draw::{
 };
 use crate::plot::{figure_ref, quantile, Params, Units};
 use crate::result::{FigureRef, RunResult};
+use crate::vortex::budget::CoreBudget;
 use crate::vortex::{Core, SliceKind, Track, Vortices};
 
 /// One map with an overlay and its colour bar.
@@ -261,7 +262,6 @@ fn budget_along_tracks(p: &Params, v: &Vortices) -> Option<LineFigure> {
     if v.budget.is_empty() {
         return None;
     }
-    let reach = 2.0 * v.grid.dx.max(v.grid.dy);
     let timed = v
         .tracks
         .iter()
@@ -276,51 +276,10 @@ fn budget_along_tracks(p: &Params, v: &Vortices) -> Option<LineFigure> {
         else {
             continue;
         };
-        // (x, row) per point that meets a budget row
-        let rows: Vec<(f64, &crate::vortex::budget::CoreBudget)> = (0..t.points.len())
-            .filter_map(|k| {
-                let q = t.points[k];
-                let sl = &v.slices[q.slice];
-                let c = &sl.cores[q.core];
-                v.budget
-                    .iter()
-                    .filter(|b| b.kind == sl.kind && b.sign == sign)
-                    .map(|b| (b, (b.x - c.x).hypot(b.y - c.y)))
-                    .filter(|(_, d)| *d <= reach)
-                    .min_by(|a, b| a.1.total_cmp(&b.1))
-                    .map(|(b, _)| (track_x(v, t, k, timed), b))
-            })
-            .collect();
+        let rows = budget_rows_along(v, t, timed);
         if rows.len() < 3 {
             continue;
         }
-        let names = crate::budget::terms::TERMS;
-        let mut curves: Vec<Curve> = names
-            .iter()
-            .enumerate()
-            .map(|(j, name)| Curve {
-                label: (*name).to_string(),
-                xy: rows.iter().map(|(x, b)| (*x, b.value[j])).collect(),
-                band: Some(
-                    rows.iter()
-                        .map(|(x, b)| (*x, b.value[j] - b.unc[j], b.value[j] + b.unc[j]))
-                        .collect(),
-                ),
-                color: RUN_COLORS[j % RUN_COLORS.len()],
-                markers: false,
-            })
-            .collect();
-        curves.push(Curve {
-            label: "residual".into(),
-            xy: rows.iter().map(|(x, b)| (*x, b.residual)).collect(),
-            band: Some(
-                rows.iter()
-                    .map(|(x, b)| (*x, b.residual - b.residual_unc, b.residual + b.residual_unc))
-                    .collect(),
-            ),
-            color: BLACK,
-            markers: true,
-        });
         panels.push(LinePanel {
             title: format!(
                 "Track {} ({}): integrated terms",
@@ -329,7 +288,7 @@ fn budget_along_tracks(p: &Params, v: &Vortices) -> Option<LineFigure> {
             ),
             x_label: if timed { "t (s)" } else { "phase (deg)" }.to_string(),
             y_label: "dΓ/dt terms (m²/s²)".into(),
-            curves,
+            curves: budget_curves(&rows),
             x_names: None,
         });
     }
@@ -342,4 +301,59 @@ fn budget_along_tracks(p: &Params, v: &Vortices) -> Option<LineFigure> {
         width: p.width,
         height: p.width * 9 / 20,
     })
+}
+
+/// Per point of track `t` that meets a budget row: its abscissa (time or
+/// phase) and the row of the same slice and sign whose centroid is
+/// nearest the core's, within two grid pitches.
+fn budget_rows_along<'v>(v: &'v Vortices, t: &Track, timed: bool) -> Vec<(f64, &'v CoreBudget)> {
+    let reach = 2.0 * v.grid.dx.max(v.grid.dy);
+    let sign = t.sign;
+    (0..t.points.len())
+        .filter_map(|k| {
+            let q = t.points[k];
+            let sl = &v.slices[q.slice];
+            let c = &sl.cores[q.core];
+            v.budget
+                .iter()
+                .filter(|b| b.kind == sl.kind && b.sign == sign)
+                .map(|b| (b, (b.x - c.x).hypot(b.y - c.y)))
+                .filter(|(_, d)| *d <= reach)
+                .min_by(|a, b| a.1.total_cmp(&b.1))
+                .map(|(b, _)| (track_x(v, t, k, timed), b))
+        })
+        .collect()
+}
+
+/// One curve per integrated budget term with its ±1 u band, and the
+/// residual as points with error bars.
+fn budget_curves(rows: &[(f64, &CoreBudget)]) -> Vec<Curve> {
+    let names = crate::budget::terms::TERMS;
+    let mut curves: Vec<Curve> = names
+        .iter()
+        .enumerate()
+        .map(|(j, name)| Curve {
+            label: (*name).to_string(),
+            xy: rows.iter().map(|(x, b)| (*x, b.value[j])).collect(),
+            band: Some(
+                rows.iter()
+                    .map(|(x, b)| (*x, b.value[j] - b.unc[j], b.value[j] + b.unc[j]))
+                    .collect(),
+            ),
+            color: RUN_COLORS[j % RUN_COLORS.len()],
+            markers: false,
+        })
+        .collect();
+    curves.push(Curve {
+        label: "residual".into(),
+        xy: rows.iter().map(|(x, b)| (*x, b.residual)).collect(),
+        band: Some(
+            rows.iter()
+                .map(|(x, b)| (*x, b.residual - b.residual_unc, b.residual + b.residual_unc))
+                .collect(),
+        ),
+        color: BLACK,
+        markers: true,
+    });
+    curves
 }

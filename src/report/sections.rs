@@ -165,7 +165,22 @@ fn summary(out: &mut String, c: &CampaignResult) {
     );
 }
 
+/// The section of one run: conditions, validation counts, results, budget,
+/// structures, vortex cores, figures and table links.
 fn run_section(out: &mut String, r: &RunResult) {
+    run_heading(out, r);
+    conditions_table(out, r);
+    validation_table(out, r);
+    results_table(out, r);
+    super::budget::section(out, r);
+    super::structures::section(out, r);
+    cores_figures_and_tables(out, r);
+    out.push_str("</section>\n");
+}
+
+/// Opens a run's section: its heading, description and warnings (the
+/// run's, then the statistics' not already given).
+fn run_heading(out: &mut String, r: &RunResult) {
     let _ = writeln!(
         out,
         "<section class=\"run\" id=\"{}\"><h2>Run {}</h2>",
@@ -182,8 +197,11 @@ fn run_section(out: &mut String, r: &RunResult) {
         }
     }
     warnings(out, &all_w);
+}
 
-    // Conditions.
+/// The run's flow conditions, with Re and St where they follow; nothing
+/// when the run has none.
+fn conditions_table(out: &mut String, r: &RunResult) {
     let cd = &r.conditions;
     let mut rows: Vec<Vec<String>> = Vec::new();
     let mut put = |k: &str, v: Option<f64>, unit: &str| {
@@ -213,8 +231,10 @@ fn run_section(out: &mut String, r: &RunResult) {
         out.push_str("<h3>Flow conditions</h3>\n");
         table(out, &["condition", "value", "unit"], &rows);
     }
+}
 
-    // Validation counts.
+/// Counts of frames and vectors by what validation and filling did.
+fn validation_table(out: &mut String, r: &RunResult) {
     let t = totals(r);
     let frac = |n: usize| {
         if t.vectors > 0 {
@@ -253,6 +273,10 @@ fn run_section(out: &mut String, r: &RunResult) {
             ],
         ],
     );
+}
+
+/// The run's summary numbers and effective sample count, if any.
+fn results_table(out: &mut String, r: &RunResult) {
     let mut srows: Vec<Vec<String>> = r
         .stats
         .summary
@@ -269,8 +293,10 @@ fn run_section(out: &mut String, r: &RunResult) {
         out.push_str("<h3>Results</h3>\n");
         table(out, &["quantity (SI)", "value"], &srows);
     }
-    super::budget::section(out, r);
-    super::structures::section(out, r);
+}
+
+/// The vortex-core words, the figures and the links to the run's tables.
+fn cores_figures_and_tables(out: &mut String, r: &RunResult) {
     if let Some(v) = &r.vortices {
         let _ = writeln!(
             out,
@@ -286,7 +312,6 @@ fn run_section(out: &mut String, r: &RunResult) {
         url(std::path::Path::new(&r.id)),
         if r.stats.phase.is_empty() { String::new() } else { format!(", <a href=\"{}/phase.csv\">phase.csv</a>", url(std::path::Path::new(&r.id))) }
     );
-    out.push_str("</section>\n");
 }
 
 fn comparison_section(out: &mut String, c: &ComparisonResult) {
