@@ -144,52 +144,12 @@ impl Dataset {
             self.unlimited.is_none(),
             "the writer has no record dimension"
         );
-        let header = |begins: &[u64]| {
-            let mut b = Vec::new();
-            b.extend_from_slice(b"CDF\x02");
-            put_u32(&mut b, 0);
-            if self.dims.is_empty() {
-                put_u32(&mut b, 0);
-                put_u32(&mut b, 0);
-            } else {
-                put_u32(&mut b, NC_DIMENSION);
-                put_u32(&mut b, self.dims.len() as u32);
-                for (name, len) in &self.dims {
-                    put_name(&mut b, name);
-                    put_u32(&mut b, *len as u32);
-                }
-            }
-            put_attrs(&mut b, &self.attrs);
-            if self.vars.is_empty() {
-                put_u32(&mut b, 0);
-                put_u32(&mut b, 0);
-            } else {
-                put_u32(&mut b, NC_VARIABLE);
-                put_u32(&mut b, self.vars.len() as u32);
-                for (v, &begin) in self.vars.iter().zip(begins) {
-                    put_name(&mut b, &v.name);
-                    put_u32(&mut b, v.dims.len() as u32);
-                    for &d in &v.dims {
-                        put_u32(&mut b, d as u32);
-                    }
-                    put_attrs(&mut b, &v.attrs);
-                    let (ty, size) = match v.data {
-                        Data::F64(_) => (NC_DOUBLE, 8),
-                        Data::I32(_) => (NC_INT, 4),
-                    };
-                    put_u32(&mut b, ty);
-                    put_u32(&mut b, pad4(v.data.len() * size) as u32);
-                    b.extend_from_slice(&begin.to_be_bytes());
-                }
-            }
-            b
-        };
         for v in &self.vars {
             let n: usize = self.shape(v).iter().product();
             assert_eq!(n, v.data.len(), "variable '{}' length", v.name);
         }
         let zeros = vec![0u64; self.vars.len()];
-        let mut at = header(&zeros).len() as u64;
+        let mut at = self.encode_header(&zeros).len() as u64;
         let mut begins = Vec::with_capacity(self.vars.len());
         for v in &self.vars {
             begins.push(at);
@@ -199,7 +159,7 @@ impl Dataset {
             };
             at += pad4(v.data.len() * size) as u64;
         }
-        let mut b = header(&begins);
+        let mut b = self.encode_header(&begins);
         b.reserve(at as usize - b.len());
         for v in &self.vars {
             match &v.data {
@@ -207,6 +167,49 @@ impl Dataset {
                 Data::I32(d) => d.iter().for_each(|x| b.extend_from_slice(&x.to_be_bytes())),
             }
             b.resize(pad4(b.len()), 0);
+        }
+        b
+    }
+
+    /// The encoded header (magic, dimensions, global attributes and
+    /// variables) with variable `k`'s data starting at byte `begins[k]`.
+    fn encode_header(&self, begins: &[u64]) -> Vec<u8> {
+        let mut b = Vec::new();
+        b.extend_from_slice(b"CDF\x02");
+        put_u32(&mut b, 0);
+        if self.dims.is_empty() {
+            put_u32(&mut b, 0);
+            put_u32(&mut b, 0);
+        } else {
+            put_u32(&mut b, NC_DIMENSION);
+            put_u32(&mut b, self.dims.len() as u32);
+            for (name, len) in &self.dims {
+                put_name(&mut b, name);
+                put_u32(&mut b, *len as u32);
+            }
+        }
+        put_attrs(&mut b, &self.attrs);
+        if self.vars.is_empty() {
+            put_u32(&mut b, 0);
+            put_u32(&mut b, 0);
+        } else {
+            put_u32(&mut b, NC_VARIABLE);
+            put_u32(&mut b, self.vars.len() as u32);
+            for (v, &begin) in self.vars.iter().zip(begins) {
+                put_name(&mut b, &v.name);
+                put_u32(&mut b, v.dims.len() as u32);
+                for &d in &v.dims {
+                    put_u32(&mut b, d as u32);
+                }
+                put_attrs(&mut b, &v.attrs);
+                let (ty, size) = match v.data {
+                    Data::F64(_) => (NC_DOUBLE, 8),
+                    Data::I32(_) => (NC_INT, 4),
+                };
+                put_u32(&mut b, ty);
+                put_u32(&mut b, pad4(v.data.len() * size) as u32);
+                b.extend_from_slice(&begin.to_be_bytes());
+            }
         }
         b
     }

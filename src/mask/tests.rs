@@ -139,44 +139,19 @@ fn mask_files_list_nodes_or_hold_a_grid() {
         "# masked nodes\nx,y\n2,3\n2.01,4\n",
     )
     .unwrap();
-    let s = MaskSpec::resolve(
-        Some(&raw("file = \"nodes.csv\"")),
-        None,
-        1e-3,
-        o,
-        d.path(),
-        "t",
-    )
-    .unwrap();
+    let s = file_mask(d.path(), "nodes.csv", o).unwrap();
     assert_eq!(
         masked(&s.nodes(&grid(), 0.05).unwrap()),
         vec![(2, 3), (2, 4)]
     );
     // off the grid: the file and line are named
     std::fs::write(d.path().join("off.csv"), "x y\n2.3 3\n").unwrap();
-    let s = MaskSpec::resolve(
-        Some(&raw("file = \"off.csv\"")),
-        None,
-        1e-3,
-        o,
-        d.path(),
-        "t",
-    )
-    .unwrap();
+    let s = file_mask(d.path(), "off.csv", o).unwrap();
     let e = s.nodes(&grid(), 0.05).unwrap_err();
     assert!(e.to_string().contains("off.csv:2"), "{e}");
     // a 0/1 grid: first line at the smallest y
-    let mut g = String::new();
-    for j in 0..9 {
-        let row: Vec<&str> = (0..11)
-            .map(|i| if i == 7 && j < 2 { "1" } else { "0" })
-            .collect();
-        g.push_str(&row.join(" "));
-        g.push('\n');
-    }
-    std::fs::write(d.path().join("grid.txt"), &g).unwrap();
-    let r = raw("file = \"grid.txt\"");
-    let s = MaskSpec::resolve(Some(&r), None, 1e-3, o, d.path(), "t").unwrap();
+    write_column_grid(&d.path().join("grid.txt"));
+    let s = file_mask(d.path(), "grid.txt", o).unwrap();
     assert_eq!(
         masked(&s.nodes(&grid(), 0.05).unwrap()),
         vec![(7, 0), (7, 1)]
@@ -187,7 +162,7 @@ fn mask_files_list_nodes_or_hold_a_grid() {
         v_down: true,
         stated: true,
     };
-    let s = MaskSpec::resolve(Some(&r), None, 1e-3, down, d.path(), "t").unwrap();
+    let s = file_mask(d.path(), "grid.txt", down).unwrap();
     assert_eq!(
         masked(&s.nodes(&grid(), 0.05).unwrap()),
         vec![(7, 7), (7, 8)]
@@ -201,19 +176,31 @@ fn mask_files_list_nodes_or_hold_a_grid() {
     );
     // a cell that is not 0 or 1
     std::fs::write(d.path().join("bad.txt"), "0 1\n0 2\n").unwrap();
-    let e = MaskSpec::resolve(
-        Some(&raw("file = \"bad.txt\"")),
-        None,
-        1e-3,
-        o,
-        d.path(),
-        "t",
-    )
-    .unwrap_err();
+    let e = file_mask(d.path(), "bad.txt", o).unwrap_err();
     assert!(
         e.to_string().contains("bad.txt:2") && e.message.contains("'2'"),
         "{e}"
     );
+}
+
+/// The mask `file = "<name>"` in mm resolved against `dir`.
+fn file_mask(dir: &Path, name: &str, o: Orientation) -> Result<MaskSpec> {
+    let r = raw(&format!("file = \"{name}\""));
+    MaskSpec::resolve(Some(&r), None, 1e-3, o, dir, "t")
+}
+
+/// Writes an 11 x 9 0/1 grid file whose only masked cells are column 7 of
+/// its first two lines.
+fn write_column_grid(path: &Path) {
+    let mut g = String::new();
+    for j in 0..9 {
+        let row: Vec<&str> = (0..11)
+            .map(|i| if i == 7 && j < 2 { "1" } else { "0" })
+            .collect();
+        g.push_str(&row.join(" "));
+        g.push('\n');
+    }
+    std::fs::write(path, &g).unwrap();
 }
 
 #[test]

@@ -118,37 +118,7 @@ impl RunSetup {
             let y = g.y(j);
             for i in 0..g.nx {
                 let x = g.x(i);
-                let s: Option<Sample> = match self.flow {
-                    Flow::Wake { street, .. } => {
-                        Some(flows::vortex_street(x, y, &street, &vortices))
-                    }
-                    Flow::Vortex { gamma, rc } => {
-                        Some(flows::lamb_oseen(x, y, 0.0, 0.0, gamma, rc) + stream)
-                    }
-                    Flow::Pulsing {
-                        gamma,
-                        rc,
-                        amplitude,
-                        frequency,
-                    } => {
-                        let f = 1.0 + amplitude * (std::f64::consts::TAU * frequency * t).sin();
-                        Some(flows::lamb_oseen(x, y, 0.0, 0.0, gamma * f, rc) + stream)
-                    }
-                    Flow::Uniform { u, v } => Some(Sample { u, v, omega: 0.0 }),
-                    Flow::SolidBody { rate } => Some(flows::solid_body(x, y, 0.0, 0.0, rate)),
-                    Flow::Cylinder { radius, u_inf } => {
-                        flows::cylinder(x, y, 0.0, 0.0, radius, u_inf)
-                    }
-                    Flow::TaylorGreen { u0, k, nu } => {
-                        Some(flows::taylor_green(x, y, t, u0, k, nu))
-                    }
-                    Flow::Diffusing { gamma, rc0, nu } => {
-                        Some(flows::diffusing_vortex(x, y, t, gamma, rc0, nu))
-                    }
-                    Flow::Burgers { gamma, alpha, nu } => {
-                        Some(flows::burgers(x, y, gamma, alpha, nu))
-                    }
-                };
+                let s = self.sample(x, y, t, stream, &vortices);
                 let s = s.unwrap_or(Sample {
                     u: f64::NAN,
                     v: f64::NAN,
@@ -166,6 +136,42 @@ impl RunSetup {
             v: arr(v),
             omega: arr(w),
             body: Array2::from_shape_vec(g.shape(), body).expect("grid shape"),
+        }
+    }
+
+    /// The noise-free sample of the flow at (x, y) and time `t`: `None`
+    /// inside a body. `stream` is the vortex scenarios' uniform stream and
+    /// `vortices` the street's vortices at this frame.
+    fn sample(
+        &self,
+        x: f64,
+        y: f64,
+        t: f64,
+        stream: Sample,
+        vortices: &[(f64, f64, f64, f64)],
+    ) -> Option<Sample> {
+        match self.flow {
+            Flow::Wake { street, .. } => Some(flows::vortex_street(x, y, &street, vortices)),
+            Flow::Vortex { gamma, rc } => {
+                Some(flows::lamb_oseen(x, y, 0.0, 0.0, gamma, rc) + stream)
+            }
+            Flow::Pulsing {
+                gamma,
+                rc,
+                amplitude,
+                frequency,
+            } => {
+                let f = 1.0 + amplitude * (std::f64::consts::TAU * frequency * t).sin();
+                Some(flows::lamb_oseen(x, y, 0.0, 0.0, gamma * f, rc) + stream)
+            }
+            Flow::Uniform { u, v } => Some(Sample { u, v, omega: 0.0 }),
+            Flow::SolidBody { rate } => Some(flows::solid_body(x, y, 0.0, 0.0, rate)),
+            Flow::Cylinder { radius, u_inf } => flows::cylinder(x, y, 0.0, 0.0, radius, u_inf),
+            Flow::TaylorGreen { u0, k, nu } => Some(flows::taylor_green(x, y, t, u0, k, nu)),
+            Flow::Diffusing { gamma, rc0, nu } => {
+                Some(flows::diffusing_vortex(x, y, t, gamma, rc0, nu))
+            }
+            Flow::Burgers { gamma, alpha, nu } => Some(flows::burgers(x, y, gamma, alpha, nu)),
         }
     }
 }

@@ -99,8 +99,20 @@ fn bench_validation_and_filling() {
             .sum()
     });
     assert!(sum > 0.0);
+    let a = bench_median(&base, nv);
+    bench_ensemble(&base, nv);
+    let mut pl = peaklock::PeakLockAcc::new(1.0);
+    time("peak-locking accumulator", nv, || {
+        base.iter().for_each(|f| pl.push(f))
+    });
+    bench_fill(&a, nv);
+}
+
+/// Times input + median validation of copies of `base` with a 3x3 and a
+/// 5x5 neighbourhood; returns the frames validated with 3x3.
+fn bench_median(base: &[Field], nv: usize) -> Vec<Field> {
     let p = Params::default();
-    let mut a = base.clone();
+    let mut a = base.to_vec();
     let c: usize = time("validate: input + median (3x3)", nv, || {
         a.iter_mut()
             .map(|f| validate_frame(&p, f, None).outliers())
@@ -115,12 +127,18 @@ fn bench_validation_and_filling() {
         }),
         ..Params::default()
     };
-    let mut b = base.clone();
+    let mut b = base.to_vec();
     time("validate: input + median (5x5)", nv, || {
         b.iter_mut()
             .map(|f| validate_frame(&p5, f, None).outliers())
             .sum::<usize>()
     });
+    a
+}
+
+/// Times the ensemble pass (push, finish) over `base` and a validation
+/// of copies of it with limits, the ensemble test and the median.
+fn bench_ensemble(base: &[Field], nv: usize) {
     let pe = Params {
         ensemble: Some(EnsembleParams::default()),
         limits: Some(Limits {
@@ -140,17 +158,18 @@ fn bench_validation_and_filling() {
     let e = time("ensemble pass: finish (per vector pushed)", nv, || {
         eb.clone().finish()
     });
-    let mut d = base.clone();
+    let mut d = base.to_vec();
     time("validate: limits + ensemble + median", nv, || {
         d.iter_mut()
             .map(|f| validate_frame(&pe, f, Some(&e)).outliers())
             .sum::<usize>()
     });
-    let mut pl = peaklock::PeakLockAcc::new(1.0);
-    time("peak-locking accumulator", nv, || {
-        base.iter().for_each(|f| pl.push(f))
-    });
-    let mut a2 = a.clone();
+}
+
+/// Times the neighbour-mean fill of copies of the validated frames `a`,
+/// and the inpaint fill of copies of its first 8.
+fn bench_fill(a: &[Field], nv: usize) {
+    let mut a2 = a.to_vec();
     let fp = fill::Params::default();
     let filled: usize = time("fill: neighbour mean", nv, || {
         a2.iter_mut().map(|f| fill::fill(&fp, f).replaced).sum()

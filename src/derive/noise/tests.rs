@@ -153,7 +153,7 @@ fn default_vorticity_uncertainty_of_overlapping_windows_matches_monte_carlo() {
     // Sciacchitano & Wieneke 2016, from memory) must get an
     // instantaneous u(omega) within 10 % of the Monte Carlo scatter.
     // 300 realisations of a uniform stream; interior nodes pooled.
-    use crate::derive::{derive_with, Params, Scheme, Workspace};
+    use crate::derive::{Params, Scheme};
     use crate::stencil::derivatives::DiffScheme;
     let g = Grid {
         nx: 32,
@@ -189,35 +189,7 @@ fn default_vorticity_uncertainty_of_overlapping_windows_matches_monte_carlo() {
             truncation: false,
             ..Params::default()
         };
-        let nodes: Vec<(usize, usize)> = (4..28)
-            .step_by(3)
-            .flat_map(|j| (4..28).step_by(3).map(move |i| (j, i)))
-            .collect();
-        let (mut s1, mut s2, mut unc, mut n) =
-            (vec![0.0; nodes.len()], vec![0.0; nodes.len()], 0.0, 0usize);
-        let mut ws = Workspace::new();
-        for _ in 0..300 {
-            let mut fld = Field::from_fn(g, |_, _| (0.3, 0.1));
-            fld.u = &fld.u + &(box_noise(&mut rng, g.ny, g.nx, w) * sigma);
-            fld.v = &fld.v + &(box_noise(&mut rng, g.ny, g.nx, w) * sigma);
-            let d = derive_with(&mut ws, &p, &fld, None, None);
-            let q = d.get("omega").unwrap();
-            for (k, &(j, i)) in nodes.iter().enumerate() {
-                let x = q.value[[j, i]];
-                s1[k] += x;
-                s2[k] += x * x;
-                unc += q.unc.as_ref().unwrap()[[j, i]].powi(2);
-            }
-            n += 1;
-        }
-        let nf = n as f64;
-        let var: f64 = s1
-            .iter()
-            .zip(&s2)
-            .map(|(a, b)| (b - a * a / nf) / (nf - 1.0))
-            .sum::<f64>()
-            / nodes.len() as f64;
-        let reported = (unc / (nf * nodes.len() as f64)).sqrt();
+        let (reported, var) = monte_carlo_omega(&mut rng, g, &p, w, sigma);
         eprintln!(
             "W {w} {scheme:?}: reported {reported:.4} MC {:.4}",
             var.sqrt()
@@ -230,4 +202,48 @@ fn default_vorticity_uncertainty_of_overlapping_windows_matches_monte_carlo() {
             &format!("W {w} {scheme:?}"),
         );
     }
+}
+
+/// Over 300 realisations of a uniform stream plus box-filtered noise of
+/// width `w` and standard deviation `sigma` (drawn from `rng`), the rms
+/// reported u(omega) and the scatter variance of omega, both pooled over
+/// interior nodes.
+fn monte_carlo_omega(
+    rng: &mut rand_chacha::ChaCha8Rng,
+    g: Grid,
+    p: &crate::derive::Params,
+    w: usize,
+    sigma: f64,
+) -> (f64, f64) {
+    use crate::derive::{derive_with, Workspace};
+    let nodes: Vec<(usize, usize)> = (4..28)
+        .step_by(3)
+        .flat_map(|j| (4..28).step_by(3).map(move |i| (j, i)))
+        .collect();
+    let (mut s1, mut s2, mut unc, mut n) =
+        (vec![0.0; nodes.len()], vec![0.0; nodes.len()], 0.0, 0usize);
+    let mut ws = Workspace::new();
+    for _ in 0..300 {
+        let mut fld = Field::from_fn(g, |_, _| (0.3, 0.1));
+        fld.u = &fld.u + &(box_noise(rng, g.ny, g.nx, w) * sigma);
+        fld.v = &fld.v + &(box_noise(rng, g.ny, g.nx, w) * sigma);
+        let d = derive_with(&mut ws, p, &fld, None, None);
+        let q = d.get("omega").unwrap();
+        for (k, &(j, i)) in nodes.iter().enumerate() {
+            let x = q.value[[j, i]];
+            s1[k] += x;
+            s2[k] += x * x;
+            unc += q.unc.as_ref().unwrap()[[j, i]].powi(2);
+        }
+        n += 1;
+    }
+    let nf = n as f64;
+    let var: f64 = s1
+        .iter()
+        .zip(&s2)
+        .map(|(a, b)| (b - a * a / nf) / (nf - 1.0))
+        .sum::<f64>()
+        / nodes.len() as f64;
+    let reported = (unc / (nf * nodes.len() as f64)).sqrt();
+    (reported, var)
 }

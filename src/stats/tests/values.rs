@@ -142,10 +142,51 @@ fn phase_bins_reproduce_the_analytic_bin_means_and_the_parts_add_back() {
     let (u0, amp, bamp) = (1.5, 0.4, 0.3);
     let n = 720;
     let mut r = rng(46);
+    let frames = phase_frames(g, n, (u0, amp, bamp), &mut r);
+    let p = Params {
+        phase_bins: 12,
+        ..Params::default()
+    };
+    let s = chunked(&p, g, &frames, 16).finish(&p);
+    assert_eq!(s.phase.len(), 12);
+    check_bin_means(&s, (u0, amp, bamp));
+    check_parts_add_back(&s);
+    // Node 0 has no noise: nearly all energy is coherent; the within-bin
+    // spread of a 30-degree bin is what is left: 1 - sinc^2(15 deg) of it.
+    let frac = s
+        .summary
+        .iter()
+        .find(|(n, _)| n == "k_coherent_frac")
+        .unwrap()
+        .1;
+    assert!(frac > 0.9 && frac < 1.0, "coherent fraction {frac}");
+    let sinc = (15f64.to_radians()).sin() / 15f64.to_radians();
+    // Less the noise of the 12 bin means, (K - 1) times the pooled
+    // within-bin variance (phase module): here that spread itself.
+    let e = &s.ensemble;
+    let kc0 = e.get("k_coherent").unwrap()[0];
+    let ks0 = e.get("k_stochastic").unwrap()[0];
+    assert_close(
+        kc0,
+        0.25 * (amp * amp + bamp * bamp) * sinc * sinc * 720.0 / 719.0 - 11.0 * ks0 / 719.0,
+        0.0,
+        1e-4,
+        "k_coherent, node 0",
+    );
+}
+
+/// `n` frames of u = U + A cos(phi) + noise (noise at node 1 only, drawn
+/// from `r`), v = B sin(phi), at a permutation of the 720 phase midpoints.
+fn phase_frames(
+    g: Grid,
+    n: usize,
+    (u0, amp, bamp): (f64, f64, f64),
+    r: &mut impl Rng,
+) -> Vec<Frame> {
     let noise: Vec<f64> = (0..n)
-        .map(|_| 0.05 * Distribution::<f64>::sample(&StandardNormal, &mut r))
+        .map(|_| 0.05 * Distribution::<f64>::sample(&StandardNormal, r))
         .collect();
-    let frames: Vec<Frame> = (0..n)
+    (0..n)
         .map(|f| {
             let ph = (f as f64 * 7.0 + 0.5) % 720.0 * 0.5; // a permutation of the 720 midpoints
             let phr = ph.to_radians();
@@ -165,13 +206,12 @@ fn phase_bins_reproduce_the_analytic_bin_means_and_the_parts_add_back() {
                 &|_, _| VALID,
             )
         })
-        .collect();
-    let p = Params {
-        phase_bins: 12,
-        ..Params::default()
-    };
-    let s = chunked(&p, g, &frames, 16).finish(&p);
-    assert_eq!(s.phase.len(), 12);
+        .collect()
+}
+
+/// Each of the 12 bins holds 60 frames, is centred mid-bin, and its u, v
+/// and coherent u means are the analytic bin means of cos and sin.
+fn check_bin_means(s: &RunStats, (u0, amp, bamp): (f64, f64, f64)) {
     for b in &s.phase {
         assert_eq!(b.n_frames, 60);
         let (a, e) = (
@@ -203,8 +243,11 @@ fn phase_bins_reproduce_the_analytic_bin_means_and_the_parts_add_back() {
         );
         assert_eq!(b.centre_deg, b.bin as f64 * 30.0 + 15.0);
     }
-    // The parts add back: k_coherent + k_stochastic = k at every node, and
-    // the frame-weighted coherent parts sum to zero.
+}
+
+/// The parts add back: k_coherent + k_stochastic = k at every node, and
+/// the frame-weighted coherent parts sum to zero.
+fn check_parts_add_back(s: &RunStats) {
     let e = &s.ensemble;
     for k in 0..2 {
         let (kc, ks, kk) = (
@@ -220,27 +263,6 @@ fn phase_bins_reproduce_the_analytic_bin_means_and_the_parts_add_back() {
             .sum();
         assert_close(sum, 0.0, 1e-12, 0.0, "sum of coherent parts");
     }
-    // Node 0 has no noise: nearly all energy is coherent; the within-bin
-    // spread of a 30-degree bin is what is left: 1 - sinc^2(15 deg) of it.
-    let frac = s
-        .summary
-        .iter()
-        .find(|(n, _)| n == "k_coherent_frac")
-        .unwrap()
-        .1;
-    assert!(frac > 0.9 && frac < 1.0, "coherent fraction {frac}");
-    let sinc = (15f64.to_radians()).sin() / 15f64.to_radians();
-    // Less the noise of the 12 bin means, (K - 1) times the pooled
-    // within-bin variance (phase module): here that spread itself.
-    let kc0 = e.get("k_coherent").unwrap()[0];
-    let ks0 = e.get("k_stochastic").unwrap()[0];
-    assert_close(
-        kc0,
-        0.25 * (amp * amp + bamp * bamp) * sinc * sinc * 720.0 / 719.0 - 11.0 * ks0 / 719.0,
-        0.0,
-        1e-4,
-        "k_coherent, node 0",
-    );
 }
 
 #[test]
