@@ -43,7 +43,7 @@ mod tests;
 use crate::derive::Derived;
 use crate::error::{Error, Result};
 use crate::field::Table;
-use crate::field::{Field, FrameMeta, Grid, NodeTable, FILLED, REPLACED, VALID};
+use crate::field::{Field, Grid, NodeTable, FILLED, REPLACED, VALID};
 
 use lags::{Clock, Lags};
 use moments::Moments;
