@@ -238,45 +238,73 @@ fn bin_tables(
     summary: &mut Vec<(String, f64)>,
     warnings: &mut Vec<String>,
 ) -> Vec<PhaseBin> {
+    let phase_tables: Vec<PhaseBin> = bin_moments
+        .iter()
+        .enumerate()
+        .map(|(b, m)| bin_table(acc, ctx, b, m))
+        .collect();
+    bin_warnings(acc, &phase_tables, warnings);
+    let (sc, ss): (f64, f64) = k_coh
+        .iter()
+        .zip(k_sto)
+        .filter(|(a, b)| a.is_finite() && b.is_finite())
+        .fold((0.0, 0.0), |(x, y), (a, b)| (x + a, y + b));
+    if sc + ss > 0.0 {
+        summary.push(("k_coherent_frac".to_string(), sc / (sc + ss)));
+        summary.push(("k_stochastic_frac".to_string(), ss / (sc + ss)));
+    }
+    summary.push((
+        "phase_frames".to_string(),
+        bin_moments.iter().map(|m| m.frames).sum(),
+    ));
+    phase_tables
+}
+
+/// The table of phase bin `b` with moments `m`: the node table (N_eff = N,
+/// the bin's coherent and stochastic energies) and the coherent parts
+/// (bin mean minus ensemble mean) of u, v and omega.
+fn bin_table(acc: &RunAccumulator, ctx: &Ctx, b: usize, m: &Moments) -> PhaseBin {
     let nodes = acc.grid.len();
     let omega = acc.omega();
-    let mut phase_tables = Vec::new();
     let mean = |s: &Scalar, k: usize| if s.n[k] > 0.0 { s.mean[k] } else { f64::NAN };
-    for (b, m) in bin_moments.iter().enumerate() {
-        let coh: Vec<[f64; 3]> = (0..nodes)
-            .map(|k| {
-                let w = omega.map_or(f64::NAN, |o| mean(&m.q[o], k) - mean(&acc.ens.q[o], k));
-                [
-                    mean(&m.u, k) - mean(&acc.ens.u, k),
-                    mean(&m.v, k) - mean(&acc.ens.v, k),
-                    w,
-                ]
-            })
-            .collect();
-        let [kc, kc_unc] = phase::bin_coherent(m, &acc.ens, nodes);
-        let ks = (0..nodes)
-            .map(|k| {
-                if m.u.n[k] >= 2.0 {
-                    0.5 * (m.u.m2[k] + m.v.m2[k]) / (m.u.n[k] - 1.0)
-                } else {
-                    f64::NAN
-                }
-            })
-            .collect();
-        let mut table = node_table(m, &independent(m, omega), [kc, ks, kc_unc], ctx, None);
-        for (i, name) in ["u_coherent", "v_coherent", "omega_coherent"]
-            .iter()
-            .enumerate()
-        {
-            table.push(*name, coh.iter().map(|c| c[i]).collect());
-        }
-        phase_tables.push(PhaseBin {
-            bin: b,
-            centre_deg: phase::centre_deg(acc.params.phase_bins, b),
-            n_frames: m.frames as usize,
-            table,
-        });
+    let coh: Vec<[f64; 3]> = (0..nodes)
+        .map(|k| {
+            let w = omega.map_or(f64::NAN, |o| mean(&m.q[o], k) - mean(&acc.ens.q[o], k));
+            [
+                mean(&m.u, k) - mean(&acc.ens.u, k),
+                mean(&m.v, k) - mean(&acc.ens.v, k),
+                w,
+            ]
+        })
+        .collect();
+    let [kc, kc_unc] = phase::bin_coherent(m, &acc.ens, nodes);
+    let ks = (0..nodes)
+        .map(|k| {
+            if m.u.n[k] >= 2.0 {
+                0.5 * (m.u.m2[k] + m.v.m2[k]) / (m.u.n[k] - 1.0)
+            } else {
+                f64::NAN
+            }
+        })
+        .collect();
+    let mut table = node_table(m, &independent(m, omega), [kc, ks, kc_unc], ctx, None);
+    for (i, name) in ["u_coherent", "v_coherent", "omega_coherent"]
+        .iter()
+        .enumerate()
+    {
+        table.push(*name, coh.iter().map(|c| c[i]).collect());
     }
+    PhaseBin {
+        bin: b,
+        centre_deg: phase::centre_deg(acc.params.phase_bins, b),
+        n_frames: m.frames as usize,
+        table,
+    }
+}
+
+/// The warnings of the phase binning: empty bins, frames without a phase
+/// and frames outside every phase window.
+fn bin_warnings(acc: &RunAccumulator, phase_tables: &[PhaseBin], warnings: &mut Vec<String>) {
     let empty_bins: Vec<String> = phase_tables
         .iter()
         .filter(|b| b.n_frames == 0)
@@ -296,25 +324,11 @@ fn bin_tables(
     }
     if acc.outside > 0 {
         warnings.push(format!(
-                "{} frames lie outside every phase window ({} degrees wide); they are left out of the phase bins",
-                acc.outside,
-                acc.params.phase_width_deg.unwrap_or(f64::NAN)
-            ));
+            "{} frames lie outside every phase window ({} degrees wide); they are left out of the phase bins",
+            acc.outside,
+            acc.params.phase_width_deg.unwrap_or(f64::NAN)
+        ));
     }
-    let (sc, ss): (f64, f64) = k_coh
-        .iter()
-        .zip(k_sto)
-        .filter(|(a, b)| a.is_finite() && b.is_finite())
-        .fold((0.0, 0.0), |(x, y), (a, b)| (x + a, y + b));
-    if sc + ss > 0.0 {
-        summary.push(("k_coherent_frac".to_string(), sc / (sc + ss)));
-        summary.push(("k_stochastic_frac".to_string(), ss / (sc + ss)));
-    }
-    summary.push((
-        "phase_frames".to_string(),
-        bin_moments.iter().map(|m| m.frames).sum(),
-    ));
-    phase_tables
 }
 
 /// The summary scalars of campaign.csv from the ensemble table: the peak
