@@ -104,6 +104,49 @@ impl W {
             self.vec(&f.values);
         }
     }
+    /// The frame clock (record 5).
+    fn clock(&mut self, c: &Clock) {
+        self.u64(c.frames);
+        self.u64(c.timed);
+        self.opt_pair(c.first);
+        self.opt_pair(c.last);
+        self.u8(u8::from(c.irregular));
+        self.u64(c.steps.len() as u64);
+        for &(s, n) in &c.steps {
+            self.f64(s);
+            self.u64(n);
+        }
+    }
+    /// The lag sums (record 8), when there are any.
+    fn lags(&mut self, lags: Option<&Lags>) {
+        match lags {
+            Some(l) => {
+                self.u8(1);
+                self.u64(l.max_lag as u64);
+                self.u64(l.len as u64);
+                self.vec(&l.shift);
+                self.u64(l.sums.len() as u64);
+                for s in &l.sums {
+                    [&s.s, &s.p, &s.q, &s.c].iter().for_each(|v| self.vec(v));
+                }
+                self.frames(l.head.iter());
+                self.frames(l.tail.iter());
+            }
+            None => self.u8(0),
+        }
+    }
+    /// The probe traces (record 9).
+    fn traces(&mut self, traces: &[Trace]) {
+        self.u64(traces.len() as u64);
+        for t in traces {
+            self.u64(t.node as u64);
+            self.u64(t.rows.len() as u64);
+            for (i, r) in &t.rows {
+                self.u64(*i);
+                r.iter().for_each(|&x| self.f64(x));
+            }
+        }
+    }
 }
 
 struct R<'a> {
@@ -242,17 +285,7 @@ impl RunAccumulator {
         }
         w.u64(self.unphased);
         w.u64(self.outside);
-        let c = &self.clock;
-        w.u64(c.frames);
-        w.u64(c.timed);
-        w.opt_pair(c.first);
-        w.opt_pair(c.last);
-        w.u8(u8::from(c.irregular));
-        w.u64(c.steps.len() as u64);
-        for &(s, n) in &c.steps {
-            w.f64(s);
-            w.u64(n);
-        }
+        w.clock(&self.clock);
         w.moments(&self.ens);
         w.u64(self.bins.len() as u64);
         for b in &self.bins {
@@ -264,30 +297,8 @@ impl RunAccumulator {
                 None => w.u8(0),
             }
         }
-        match &self.lags {
-            Some(l) => {
-                w.u8(1);
-                w.u64(l.max_lag as u64);
-                w.u64(l.len as u64);
-                w.vec(&l.shift);
-                w.u64(l.sums.len() as u64);
-                for s in &l.sums {
-                    [&s.s, &s.p, &s.q, &s.c].iter().for_each(|v| w.vec(v));
-                }
-                w.frames(l.head.iter());
-                w.frames(l.tail.iter());
-            }
-            None => w.u8(0),
-        }
-        w.u64(self.traces.len() as u64);
-        for t in &self.traces {
-            w.u64(t.node as u64);
-            w.u64(t.rows.len() as u64);
-            for (i, r) in &t.rows {
-                w.u64(*i);
-                r.iter().for_each(|&x| w.f64(x));
-            }
-        }
+        w.lags(self.lags.as_ref());
+        w.traces(&self.traces);
         let payload = w.0;
         let mut out = Vec::with_capacity(payload.len() + 52);
         out.extend_from_slice(FORMAT_MAGIC);
