@@ -26,6 +26,8 @@ use crate::field::NodeTable;
 /// samples cannot tell a time scale).
 const MIN_INDEX_FRAMES: u64 = 20;
 
+/// The finished statistics of `acc` with the uncertainty settings of `p`
+/// (`RunAccumulator::finish`).
 pub(super) fn finish(acc: &RunAccumulator, p: &Params) -> RunStats {
     let mut warnings = Vec::new();
     let grid = acc.grid;
@@ -53,23 +55,7 @@ pub(super) fn finish(acc: &RunAccumulator, p: &Params) -> RunStats {
     } else {
         std::array::from_fn(|_| vec![f64::NAN; nodes])
     };
-    // Phase bins as strata of the ensemble mean (`strata`), when the bins
-    // partition the circle: no narrower windows, no frame outside them.
-    let partition = has_phase
-        && acc.outside == 0
-        && acc
-            .params
-            .phase_width_deg
-            .is_none_or(|w| (w * acc.params.phase_bins as f64 - 360.0).abs() < 1e-9 * 360.0);
-    let strata: Option<Vec<Strata>> = partition.then(|| {
-        let of = |pick: &dyn Fn(&Moments) -> &Scalar| {
-            let bins: Vec<&Scalar> = bin_moments.iter().map(|m| pick(m)).collect();
-            strata(pick(&acc.ens), &bins)
-        };
-        let mut v = vec![of(&|m| &m.u), of(&|m| &m.v)];
-        v.extend((0..acc.quantities.len()).map(|i| of(&|m| &m.q[i])));
-        v
-    });
+    let strata = phase_strata(acc, &bin_moments, has_phase);
     let ensemble = node_table(
         &acc.ens,
         &ne.neff,
@@ -100,6 +86,31 @@ pub(super) fn finish(acc: &RunAccumulator, p: &Params) -> RunStats {
         summary,
         warnings,
     }
+}
+
+/// Phase bins as strata of the ensemble mean (`strata`), when the bins
+/// partition the circle: no narrower windows, no frame outside them. The
+/// strata of u, v and each quantity, in that order; `None` otherwise.
+fn phase_strata(
+    acc: &RunAccumulator,
+    bin_moments: &[&Moments],
+    has_phase: bool,
+) -> Option<Vec<Strata>> {
+    let partition = has_phase
+        && acc.outside == 0
+        && acc
+            .params
+            .phase_width_deg
+            .is_none_or(|w| (w * acc.params.phase_bins as f64 - 360.0).abs() < 1e-9 * 360.0);
+    partition.then(|| {
+        let of = |pick: &dyn Fn(&Moments) -> &Scalar| {
+            let bins: Vec<&Scalar> = bin_moments.iter().map(|m| pick(m)).collect();
+            strata(pick(&acc.ens), &bins)
+        };
+        let mut v = vec![of(&|m| &m.u), of(&|m| &m.v)];
+        v.extend((0..acc.quantities.len()).map(|i| of(&|m| &m.q[i])));
+        v
+    })
 }
 
 /// The table context: the relative scale uncertainty of every quantity and
@@ -160,18 +171,7 @@ fn effective_samples(acc: &RunAccumulator, p: &Params, warnings: &mut Vec<String
     let mut run_neff = None;
     let base = acc.clock.time_base();
     let step = base.map(|b| b.step);
-    if acc.clock.timed > 0 && base.is_none() && acc.clock.frames >= 3 {
-        warnings.push(format!(
-            "{} of {} frames have time_s but the steps are not uniform; samples are treated as independent (N_eff = N)",
-            acc.clock.timed, acc.clock.frames
-        ));
-    }
-    if let Some(b) = base.filter(|b| b.gaps > 0) {
-        warnings.push(format!(
-            "time_s has {} gaps longer than the step of {:.4e} s (burst recording?); N_eff uses the autocorrelation over the frames, including the few lag pairs across a gap",
-            b.gaps, b.step
-        ));
-    }
+    time_base_warnings(acc, base, warnings);
     // Without any frame times the frames are taken as evenly spaced in
     // their index (the common case of a fixed acquisition rate); the
     // autocorrelation then says whether they are independent.
@@ -225,6 +225,27 @@ fn effective_samples(acc: &RunAccumulator, p: &Params, warnings: &mut Vec<String
         run: run_neff,
         step,
         by_index,
+    }
+}
+
+/// The warnings on the frame times: times that are not uniform (samples
+/// then independent) and gaps in a uniform time base.
+fn time_base_warnings(
+    acc: &RunAccumulator,
+    base: Option<super::lags::TimeBase>,
+    warnings: &mut Vec<String>,
+) {
+    if acc.clock.timed > 0 && base.is_none() && acc.clock.frames >= 3 {
+        warnings.push(format!(
+            "{} of {} frames have time_s but the steps are not uniform; samples are treated as independent (N_eff = N)",
+            acc.clock.timed, acc.clock.frames
+        ));
+    }
+    if let Some(b) = base.filter(|b| b.gaps > 0) {
+        warnings.push(format!(
+            "time_s has {} gaps longer than the step of {:.4e} s (burst recording?); N_eff uses the autocorrelation over the frames, including the few lag pairs across a gap",
+            b.gaps, b.step
+        ));
     }
 }
 
