@@ -23,6 +23,7 @@
 
 pub mod budget;
 pub(crate) mod campaign;
+mod chunks;
 pub(crate) mod outputs;
 pub(crate) mod partial;
 pub(crate) mod seal;
@@ -41,6 +42,7 @@ pub use crate::result::mean_noise;
 use crate::result::FrameRecord;
 use crate::validate::{self, EnsembleBuilder, EnsembleRef};
 use crate::{derive, fill};
+use chunks::fold_chunks;
 use state::{RunState, Templates};
 
 /// Frames per chunk. Fixed (not derived from the thread count) so that the
@@ -237,108 +239,6 @@ fn read_on_grid_hashed(
     Ok((f, h))
 }
 
-/// Runs `per_chunk` over fixed chunks of `items` on `jobs` worker threads,
-/// each worker with its own state `W` (made once per worker, handed to
-/// every chunk it takes: the gradient engine, `derive::Workspace`), and
-/// folds the results with `merge` in chunk order, on the calling thread,
-/// as soon as each next result is there: workers never wait for a batch to
-/// finish, only when `2 × jobs` chunks are taken and not yet merged (the
-/// memory bound). The first error in chunk order is returned, as a
-/// sequential loop would return it: chunks are taken in order, so every
-/// chunk before a failing one has been taken and is reduced; after a
-/// failure no new chunk is started.
-fn fold_chunks<T: Sync, A: Send, W: Default>(
-    jobs: usize,
-    items: &[T],
-    per_chunk: impl Fn(&mut W, &[T]) -> Result<A> + Sync,
-    mut merge: impl FnMut(A),
-) -> Result<()> {
-    use std::collections::BTreeMap;
-    use std::sync::{mpsc, Condvar, Mutex};
-    struct Taken {
-        next: usize,
-        merged: usize,
-        stop: bool,
-    }
-    /// Stops the other workers when a worker unwinds (a panic), so that
-    /// none waits for a result that will never be merged.
-    struct StopOnPanic<'a>(&'a Mutex<Taken>, &'a Condvar);
-    impl Drop for StopOnPanic<'_> {
-        fn drop(&mut self) {
-            if std::thread::panicking() {
-                if let Ok(mut t) = self.0.lock() {
-                    t.stop = true;
-                }
-                self.1.notify_all();
-            }
-        }
-    }
-    let chunks: Vec<&[T]> = items.chunks(CHUNK).collect();
-    let n = chunks.len();
-    let jobs = jobs.clamp(1, n.max(1));
-    let window = 2 * jobs;
-    let taken = Mutex::new(Taken {
-        next: 0,
-        merged: 0,
-        stop: false,
-    });
-    let wake = Condvar::new();
-    let lock = || taken.lock().unwrap_or_else(|e| e.into_inner());
-    let (tx, rx) = mpsc::channel::<(usize, Result<A>)>();
-    std::thread::scope(|s| {
-        for _ in 0..jobs {
-            let tx = tx.clone();
-            let (taken, wake, chunks, per_chunk) = (&taken, &wake, &chunks, &per_chunk);
-            s.spawn(move || {
-                let _guard = StopOnPanic(taken, wake);
-                let mut state = W::default();
-                loop {
-                    let c = {
-                        let mut t = taken.lock().unwrap_or_else(|e| e.into_inner());
-                        while !t.stop && t.next < n && t.next >= t.merged + window {
-                            t = wake.wait(t).unwrap_or_else(|e| e.into_inner());
-                        }
-                        if t.stop || t.next >= n {
-                            break;
-                        }
-                        t.next += 1;
-                        t.next - 1
-                    };
-                    let r = per_chunk(&mut state, chunks[c]);
-                    let failed = r.is_err();
-                    if tx.send((c, r)).is_err() || failed {
-                        let mut t = taken.lock().unwrap_or_else(|e| e.into_inner());
-                        t.stop = true;
-                        wake.notify_all();
-                        break;
-                    }
-                }
-            });
-        }
-        drop(tx);
-        let mut pending: BTreeMap<usize, Result<A>> = BTreeMap::new();
-        let mut next = 0;
-        for (c, r) in rx.iter() {
-            pending.insert(c, r);
-            while let Some(r) = pending.remove(&next) {
-                match r {
-                    Ok(a) => merge(a),
-                    Err(e) => {
-                        lock().stop = true;
-                        wake.notify_all();
-                        return Err(e);
-                    }
-                }
-                next += 1;
-                lock().merged = next;
-                wake.notify_all();
-            }
-        }
-        // every chunk merged, or a worker panicked (the scope re-raises it)
-        Ok(())
-    })
-}
-
 /// Reduces one run (or one shard of it) up to merged accumulators.
 pub(crate) fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
     let t0 = Instant::now();
@@ -347,154 +247,28 @@ pub(crate) fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
     let frames = list_run_frames(run)?;
     let n = frames.len();
     let range = opts.shard.map_or((0, n), |s| s.range(n));
-    let grid = io::read_frame(&run.input, &frames[0].1)?.grid;
-    crate::plan::bounds::check_grid(run, &grid)?;
-    let on_grid: OnGrid = (
-        grid,
-        if run.mask.is_empty() {
-            None
-        } else {
-            Some(run.mask.nodes(&grid, run.input.grid_tolerance)?)
-        },
-    );
+    let on_grid = run_grid(run, &frames)?;
+    let grid = on_grid.0;
     timings.push(("list".to_string(), t0.elapsed().as_secs_f64()));
-
-    // Pass 1 (only when the chain has an ensemble test): robust per-node
-    // statistics over every frame of the run, whatever the shard, so that a
-    // sharded campaign validates exactly as a single run does.
-    let ens: Option<EnsembleRef> = if run.validation.needs_ensemble_pass() {
-        let t = Instant::now();
-        let mut total: Option<EnsembleBuilder> = None;
-        fold_chunks(
-            opts.jobs,
-            &frames,
-            |_: &mut (), chunk| {
-                let mut b = EnsembleBuilder::new(&run.validation, grid);
-                for (_, src) in chunk {
-                    b.push(&read_on_grid(run, src, &on_grid)?);
-                }
-                Ok(b)
-            },
-            |b| match total.as_mut() {
-                Some(t) => t.merge(b),
-                None => total = Some(b),
-            },
-        )?;
-        timings.push(("ensemble_pass".to_string(), t.elapsed().as_secs_f64()));
-        total.map(|b| b.finish())
-    } else {
-        None
-    };
-
-    // Pass 1b (only with scheme = "auto"): the scheme maps from a pilot of
-    // frames spread over the whole run, whatever the shard (`derive::choice`).
-    let tp = Instant::now();
-    // The instantaneous map only matters (and costs a pass over the nodes
-    // per frame) when the per-frame fields are written.
-    let choice = scheme_choice(run, &frames, &on_grid, ens.as_ref())?.map(|mut c| {
-        c.fields = opts.frame_fields_dir.is_some();
-        c
-    });
-    if choice.is_some() {
-        timings.push(("scheme_pilot".to_string(), tp.elapsed().as_secs_f64()));
-    }
+    let ens = ensemble_pass(run, opts.jobs, &frames, &on_grid, &mut timings)?;
+    let choice = pilot_pass(run, opts, &frames, &on_grid, ens.as_ref(), &mut timings)?;
 
     // Pass 2: every stage, frame by frame.
     let t = Instant::now();
     let names = derive::quantity_names(&run.derive);
     let mine = &frames[range.0..range.1];
     let templates = Templates::of(run, grid, frames.len() as u64);
-    let mut state = RunState::empty(run, grid, &names, &templates);
-    let mut merge_error: Option<Error> = None;
-    let mut seen_parquet: Vec<PathBuf> = Vec::new();
-    fold_chunks(
-        opts.jobs,
-        mine,
-        |ws: &mut derive::Workspace, chunk| {
-            let mut out = RunState::empty(run, grid, &names, &templates);
-            out.frames.reserve(chunk.len());
-            for (meta, src) in chunk {
-                let (mut field, hash) = read_on_grid_hashed(run, src, &on_grid, true)?;
-                if let (FrameSource::File(p), Some((bytes, sha256))) = (src, hash) {
-                    out.inputs.push(InputFile {
-                        path: p.display().to_string(),
-                        bytes,
-                        sha256,
-                    });
-                }
-                let vcounts = validate::validate_frame(&run.validation, &mut field, ens.as_ref());
-                let rejected = validate::frame_rejected(&run.validation, &vcounts, grid.len());
-                if let (Some(p), false) = (out.peak_acc.as_mut(), rejected) {
-                    // valid displacements only: after validation, before filling
-                    p.push(&field);
-                }
-                let fcounts = fill::fill(&run.fill, &mut field);
-                let derived = derive::derive_with(ws, &run.derive, &field, choice.as_ref(), None);
-                out.add_scheme_counts(&derived.scheme_names, &derived.scheme_counts);
-                if let Some((_, counts)) = &derived.inst_omega {
-                    let names: Vec<String> = derived
-                        .scheme_names
-                        .iter()
-                        .map(|n| format!("instantaneous fields: {n}"))
-                        .collect();
-                    let names: Vec<&str> = names.iter().map(String::as_str).collect();
-                    out.add_scheme_counts(&names, counts);
-                }
-                if !rejected {
-                    out.push(meta, &field, &derived);
-                }
-                if let Some(dir) = &opts.frame_fields_dir {
-                    outputs::write_frame_field(
-                        &dir.join(format!("{}.csv", meta.name)),
-                        &field,
-                        &derived,
-                    )?;
-                }
-                out.frames.push(FrameRecord {
-                    meta: meta.clone(),
-                    n_vectors: grid.len(),
-                    validation: vcounts,
-                    fill: fcounts,
-                    rejected,
-                    noise: derived.noise_estimate,
-                });
-                if let Some(p) = opts.progress {
-                    p(1);
-                }
-            }
-            Ok(out)
-        },
-        |c| {
-            if merge_error.is_none() {
-                merge_error = state.merge(c).err();
-            }
-        },
-    )?;
-    if let Some(e) = merge_error {
-        return Err(e);
-    }
-    for (_, src) in mine {
-        if src.shares_file() {
-            let path = &src.path().to_path_buf();
-            if !seen_parquet.contains(path) {
-                seen_parquet.push(path.clone());
-                let (bytes, sha256) = io::hash_file(path)?;
-                state.inputs.push(InputFile {
-                    path: path.display().to_string(),
-                    bytes,
-                    sha256,
-                });
-            }
-        }
-    }
-    if let Some(ft) = &run.frame_table {
-        let (bytes, sha256) = io::hash_file(ft).with_path(ft)?;
-        state.inputs.push(InputFile {
-            path: ft.display().to_string(),
-            bytes,
-            sha256,
-        });
-    }
+    let pass = FramePass {
+        run,
+        opts,
+        on_grid: &on_grid,
+        ens: ens.as_ref(),
+        choice: choice.as_ref(),
+        names,
+        templates,
+    };
+    let mut state = pass.reduce(mine)?;
+    add_shared_inputs(run, mine, &mut state)?;
     timings.push(("reduce".to_string(), t.elapsed().as_secs_f64()));
     let n_rej = state.frames.iter().filter(|r| r.rejected).count();
     if n_rej > 0 {
@@ -519,6 +293,230 @@ pub(crate) fn reduce_run(run: &RunPlan, opts: &Options) -> Result<Reduced> {
         out.finish_peak_lock();
     }
     Ok(out)
+}
+
+/// The run's grid, set by its first frame and checked against the plan's
+/// bounds, with its geometry mask.
+fn run_grid(run: &RunPlan, frames: &[(FrameMeta, FrameSource)]) -> Result<OnGrid> {
+    let grid = io::read_frame(&run.input, &frames[0].1)?.grid;
+    crate::plan::bounds::check_grid(run, &grid)?;
+    Ok((
+        grid,
+        if run.mask.is_empty() {
+            None
+        } else {
+            Some(run.mask.nodes(&grid, run.input.grid_tolerance)?)
+        },
+    ))
+}
+
+/// Pass 1 (only when the chain has an ensemble test): robust per-node
+/// statistics over every frame of the run, whatever the shard, so that a
+/// sharded campaign validates exactly as a single run does.
+fn ensemble_pass(
+    run: &RunPlan,
+    jobs: usize,
+    frames: &[(FrameMeta, FrameSource)],
+    on_grid: &OnGrid,
+    timings: &mut Vec<(String, f64)>,
+) -> Result<Option<EnsembleRef>> {
+    if !run.validation.needs_ensemble_pass() {
+        return Ok(None);
+    }
+    let t = Instant::now();
+    let grid = on_grid.0;
+    let mut total: Option<EnsembleBuilder> = None;
+    fold_chunks(
+        jobs,
+        frames,
+        |_: &mut (), chunk| {
+            let mut b = EnsembleBuilder::new(&run.validation, grid);
+            for (_, src) in chunk {
+                b.push(&read_on_grid(run, src, on_grid)?);
+            }
+            Ok(b)
+        },
+        |b| match total.as_mut() {
+            Some(t) => t.merge(b),
+            None => total = Some(b),
+        },
+    )?;
+    timings.push(("ensemble_pass".to_string(), t.elapsed().as_secs_f64()));
+    Ok(total.map(|b| b.finish()))
+}
+
+/// Pass 1b (only with scheme = "auto"): the scheme maps from a pilot of
+/// frames spread over the whole run, whatever the shard (`derive::choice`).
+fn pilot_pass(
+    run: &RunPlan,
+    opts: &Options,
+    frames: &[(FrameMeta, FrameSource)],
+    on_grid: &OnGrid,
+    ens: Option<&EnsembleRef>,
+    timings: &mut Vec<(String, f64)>,
+) -> Result<Option<derive::choice::Choice>> {
+    let tp = Instant::now();
+    // The instantaneous map only matters (and costs a pass over the nodes
+    // per frame) when the per-frame fields are written.
+    let choice = scheme_choice(run, frames, on_grid, ens)?.map(|mut c| {
+        c.fields = opts.frame_fields_dir.is_some();
+        c
+    });
+    if choice.is_some() {
+        timings.push(("scheme_pilot".to_string(), tp.elapsed().as_secs_f64()));
+    }
+    Ok(choice)
+}
+
+/// What pass 2 (every stage, frame by frame) needs besides the frames.
+struct FramePass<'a> {
+    run: &'a RunPlan,
+    opts: &'a Options<'a>,
+    on_grid: &'a OnGrid,
+    /// The ensemble statistics of pass 1, when the chain has an ensemble test.
+    ens: Option<&'a EnsembleRef>,
+    /// The scheme maps of pass 1b, with `scheme = "auto"`.
+    choice: Option<&'a derive::choice::Choice>,
+    /// The derived quantities accumulated.
+    names: Vec<&'static str>,
+    templates: Templates,
+}
+
+impl FramePass<'_> {
+    /// The state of no frames.
+    fn empty(&self) -> RunState {
+        RunState::empty(self.run, self.on_grid.0, &self.names, &self.templates)
+    }
+
+    /// Reduces `frames` in chunks on the worker threads and merges the chunk
+    /// states in frame order.
+    fn reduce(&self, frames: &[(FrameMeta, FrameSource)]) -> Result<RunState> {
+        let mut state = self.empty();
+        let mut merge_error: Option<Error> = None;
+        fold_chunks(
+            self.opts.jobs,
+            frames,
+            |ws: &mut derive::Workspace, chunk| self.reduce_chunk(ws, chunk),
+            |c| {
+                if merge_error.is_none() {
+                    merge_error = state.merge(c).err();
+                }
+            },
+        )?;
+        if let Some(e) = merge_error {
+            return Err(e);
+        }
+        Ok(state)
+    }
+
+    /// The state of one chunk of frames, reduced in frame order.
+    fn reduce_chunk(
+        &self,
+        ws: &mut derive::Workspace,
+        chunk: &[(FrameMeta, FrameSource)],
+    ) -> Result<RunState> {
+        let mut out = self.empty();
+        out.frames.reserve(chunk.len());
+        for (meta, src) in chunk {
+            self.reduce_frame(ws, &mut out, meta, src)?;
+            if let Some(p) = self.opts.progress {
+                p(1);
+            }
+        }
+        Ok(out)
+    }
+
+    /// Reads, validates, fills and derives one frame and adds it to `out`
+    /// (its record always; its values unless the frame is rejected).
+    fn reduce_frame(
+        &self,
+        ws: &mut derive::Workspace,
+        out: &mut RunState,
+        meta: &FrameMeta,
+        src: &FrameSource,
+    ) -> Result<()> {
+        let (run, grid) = (self.run, self.on_grid.0);
+        let (mut field, hash) = read_on_grid_hashed(run, src, self.on_grid, true)?;
+        if let (FrameSource::File(p), Some((bytes, sha256))) = (src, hash) {
+            out.inputs.push(InputFile {
+                path: p.display().to_string(),
+                bytes,
+                sha256,
+            });
+        }
+        let vcounts = validate::validate_frame(&run.validation, &mut field, self.ens);
+        let rejected = validate::frame_rejected(&run.validation, &vcounts, grid.len());
+        if let (Some(p), false) = (out.peak_acc.as_mut(), rejected) {
+            // valid displacements only: after validation, before filling
+            p.push(&field);
+        }
+        let fcounts = fill::fill(&run.fill, &mut field);
+        let derived = derive::derive_with(ws, &run.derive, &field, self.choice, None);
+        add_scheme_counts(out, &derived);
+        if !rejected {
+            out.push(meta, &field, &derived);
+        }
+        if let Some(dir) = &self.opts.frame_fields_dir {
+            outputs::write_frame_field(&dir.join(format!("{}.csv", meta.name)), &field, &derived)?;
+        }
+        out.frames.push(FrameRecord {
+            meta: meta.clone(),
+            n_vectors: grid.len(),
+            validation: vcounts,
+            fill: fcounts,
+            rejected,
+            noise: derived.noise_estimate,
+        });
+        Ok(())
+    }
+}
+
+/// Counts which scheme each node of a frame used, for the derived
+/// quantities and, when written, the instantaneous fields.
+fn add_scheme_counts(out: &mut RunState, derived: &derive::Derived) {
+    out.add_scheme_counts(&derived.scheme_names, &derived.scheme_counts);
+    if let Some((_, counts)) = &derived.inst_omega {
+        let names: Vec<String> = derived
+            .scheme_names
+            .iter()
+            .map(|n| format!("instantaneous fields: {n}"))
+            .collect();
+        let names: Vec<&str> = names.iter().map(String::as_str).collect();
+        out.add_scheme_counts(&names, counts);
+    }
+}
+
+/// Adds the input files that hold several frames (each hashed once) and
+/// the frame table to the run's inputs.
+fn add_shared_inputs(
+    run: &RunPlan,
+    mine: &[(FrameMeta, FrameSource)],
+    state: &mut RunState,
+) -> Result<()> {
+    let mut seen_parquet: Vec<PathBuf> = Vec::new();
+    for (_, src) in mine {
+        if src.shares_file() {
+            let path = &src.path().to_path_buf();
+            if !seen_parquet.contains(path) {
+                seen_parquet.push(path.clone());
+                let (bytes, sha256) = io::hash_file(path)?;
+                state.inputs.push(InputFile {
+                    path: path.display().to_string(),
+                    bytes,
+                    sha256,
+                });
+            }
+        }
+    }
+    if let Some(ft) = &run.frame_table {
+        let (bytes, sha256) = io::hash_file(ft).with_path(ft)?;
+        state.inputs.push(InputFile {
+            path: ft.display().to_string(),
+            bytes,
+            sha256,
+        });
+    }
+    Ok(())
 }
 
 /// The run's scheme maps for `scheme = "auto"` (`derive::choice`): the

@@ -210,6 +210,15 @@ pub(crate) fn write_frame_field(path: &Path, field: &Field, derived: &Derived) -
 /// are empty for the others.
 pub(crate) fn campaign_table(runs: &[RunResult], extra: &[Vec<(String, f64)>]) -> Table {
     let mut t = Table::new();
+    push_run_columns(&mut t, runs);
+    push_quality_columns(&mut t, runs);
+    push_key_results(&mut t, runs, extra);
+    t
+}
+
+/// The columns that say which run and on what grid: id, frame counts and
+/// the grid.
+fn push_run_columns(t: &mut Table, runs: &[RunResult]) {
     t.push(
         "id",
         Values::Str(runs.iter().map(|r| r.id.clone()).collect()),
@@ -244,6 +253,11 @@ pub(crate) fn campaign_table(runs: &[RunResult], extra: &[Vec<(String, f64)>]) -
     );
     t.push("dx", Values::F64(runs.iter().map(|r| r.grid.dx).collect()));
     t.push("dy", Values::F64(runs.iter().map(|r| r.grid.dy).collect()));
+}
+
+/// The data-quality columns: the fractions of vectors rejected, replaced
+/// and filled, the noise estimate and N_eff.
+fn push_quality_columns(t: &mut Table, runs: &[RunResult]) {
     let frac = |f: &dyn Fn(&FrameRecord) -> usize| {
         Values::F64(
             runs.iter()
@@ -282,7 +296,11 @@ pub(crate) fn campaign_table(runs: &[RunResult], extra: &[Vec<(String, f64)>]) -
                 .collect(),
         ),
     );
-    // Key results: the statistics' summary and any extra columns, by name.
+}
+
+/// The key results: the statistics' summary and any extra columns, by
+/// name, in order of first appearance; empty for a run without it.
+fn push_key_results(t: &mut Table, runs: &[RunResult], extra: &[Vec<(String, f64)>]) {
     let mut keys: Vec<String> = Vec::new();
     for (k, r) in runs.iter().enumerate() {
         let names = r
@@ -312,5 +330,4 @@ pub(crate) fn campaign_table(runs: &[RunResult], extra: &[Vec<(String, f64)>]) -
             .collect();
         t.push(key, Values::F64(vals));
     }
-    t
 }

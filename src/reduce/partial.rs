@@ -140,6 +140,66 @@ fn optional<T>(p: &Path, parse: impl FnOnce(&[u8]) -> Result<T>) -> Result<Optio
     }
 }
 
+impl From<Grid> for GridRow {
+    fn from(g: Grid) -> GridRow {
+        GridRow {
+            nx: g.nx,
+            ny: g.ny,
+            x0: g.x0,
+            y0: g.y0,
+            dx: g.dx,
+            dy: g.dy,
+        }
+    }
+}
+
+impl From<GridRow> for Grid {
+    fn from(g: GridRow) -> Grid {
+        Grid {
+            nx: g.nx,
+            ny: g.ny,
+            x0: g.x0,
+            y0: g.y0,
+            dx: g.dx,
+            dy: g.dy,
+        }
+    }
+}
+
+impl From<&FrameRecord> for FrameRow {
+    fn from(f: &FrameRecord) -> FrameRow {
+        FrameRow {
+            index: f.meta.index,
+            name: f.meta.name.clone(),
+            time_s: f.meta.time_s,
+            phase_deg: f.meta.phase_deg,
+            n_vectors: f.n_vectors,
+            validation: f.validation,
+            fill: f.fill,
+            rejected: f.rejected,
+            noise: f.noise,
+        }
+    }
+}
+
+impl From<FrameRow> for FrameRecord {
+    fn from(f: FrameRow) -> FrameRecord {
+        FrameRecord {
+            meta: FrameMeta {
+                index: f.index,
+                name: f.name,
+                time_s: f.time_s,
+                phase_deg: f.phase_deg,
+            },
+            n_vectors: f.n_vectors,
+            validation: f.validation,
+            fill: f.fill,
+            rejected: f.rejected,
+            noise: f.noise,
+        }
+    }
+}
+
 /// Writes the partial result of one shard into `dir` (a fresh folder).
 pub(crate) fn write(dir: &Path, plan: &Plan, shard: Shard, runs: &[Reduced]) -> Result<()> {
     use sha2::{Digest, Sha256};
@@ -155,52 +215,14 @@ pub(crate) fn write(dir: &Path, plan: &Plan, shard: Shard, runs: &[Reduced]) -> 
             .iter()
             .find(|p| p.id == r.id)
             .ok_or_else(|| Error::data(format!("run '{}' is not in the pipeline", r.id)))?;
-        let g = r.grid;
-        if let Some(b) = &r.state.budget {
-            let p = rd.join("budget.bin");
-            std::fs::write(&p, b.to_bytes()).with_path(&p)?;
-        }
-        if let Some(m) = &r.state.modes {
-            let p = rd.join(MODES_FILE);
-            std::fs::write(&p, m.to_bytes()).with_path(&p)?;
-        }
-        if let Some(c) = &r.state.corr {
-            let p = rd.join(CORR_FILE);
-            std::fs::write(&p, c.to_bytes()).with_path(&p)?;
-        }
-        if let Some(c) = &r.state.frame_cores {
-            let p = rd.join(FRAME_CORES_FILE);
-            std::fs::write(&p, c.to_bytes()).with_path(&p)?;
-        }
+        write_optional_states(&rd, &r.state)?;
         parts.push(RunPart {
             id: r.id.clone(),
-            grid: GridRow {
-                nx: g.nx,
-                ny: g.ny,
-                x0: g.x0,
-                y0: g.y0,
-                dx: g.dx,
-                dy: g.dy,
-            },
+            grid: r.grid.into(),
             fingerprint: seal::fingerprint(run_plan, r.range)?,
             n_frames_run: r.n_frames_run,
             range: r.range,
-            frames: r
-                .state
-                .frames
-                .iter()
-                .map(|f| FrameRow {
-                    index: f.meta.index,
-                    name: f.meta.name.clone(),
-                    time_s: f.meta.time_s,
-                    phase_deg: f.meta.phase_deg,
-                    n_vectors: f.n_vectors,
-                    validation: f.validation,
-                    fill: f.fill,
-                    rejected: f.rejected,
-                    noise: f.noise,
-                })
-                .collect(),
+            frames: r.state.frames.iter().map(FrameRow::from).collect(),
             inputs: r.state.inputs.clone(),
             warnings: r.warnings.clone(),
             timings: r.timings.clone(),
@@ -224,8 +246,51 @@ pub(crate) fn write(dir: &Path, plan: &Plan, shard: Shard, runs: &[Reduced]) -> 
     seal::write_checksums(dir, runs)
 }
 
+/// Writes the accumulators of the optional stages a run has (budget, POD
+/// sketch, two-point co-moments, frame cores) into its folder `rd`.
+fn write_optional_states(rd: &Path, state: &RunState) -> Result<()> {
+    if let Some(b) = &state.budget {
+        let p = rd.join("budget.bin");
+        std::fs::write(&p, b.to_bytes()).with_path(&p)?;
+    }
+    if let Some(m) = &state.modes {
+        let p = rd.join(MODES_FILE);
+        std::fs::write(&p, m.to_bytes()).with_path(&p)?;
+    }
+    if let Some(c) = &state.corr {
+        let p = rd.join(CORR_FILE);
+        std::fs::write(&p, c.to_bytes()).with_path(&p)?;
+    }
+    if let Some(c) = &state.frame_cores {
+        let p = rd.join(FRAME_CORES_FILE);
+        std::fs::write(&p, c.to_bytes()).with_path(&p)?;
+    }
+    Ok(())
+}
+
 /// Reads a partial folder.
 pub(crate) fn read(dir: &Path) -> Result<Partial> {
+    let pf = read_partial_file(dir)?;
+    let mut runs = Vec::with_capacity(pf.runs.len());
+    let mut fingerprints = Vec::with_capacity(pf.runs.len());
+    for r in pf.runs {
+        fingerprints.push(r.fingerprint.clone());
+        runs.push(read_run(dir, r)?);
+    }
+    Ok(Partial {
+        dir: dir.to_path_buf(),
+        shard: pf.shard,
+        pipeline_path: PathBuf::from(pf.pipeline_path),
+        pipeline_text: pf.pipeline_text,
+        pipeline_sha256: pf.pipeline_sha256,
+        runs,
+        fingerprints,
+    })
+}
+
+/// The `partial.json` of a partial folder, after checking its format and
+/// version and the folder's checksums.
+fn read_partial_file(dir: &Path) -> Result<PartialFile> {
     let p = dir.join("partial.json");
     let text = std::fs::read_to_string(&p).map_err(|e| {
         Error::usage(format!(
@@ -249,95 +314,102 @@ pub(crate) fn read(dir: &Path) -> Result<Partial> {
         .with_path(&p));
     }
     seal::verify_checksums(dir)?;
-    let pf: PartialFile = serde_json::from_str(&text)
-        .map_err(|e| Error::data(format!("partial.json cannot be read: {e}")).with_path(&p))?;
-    let mut runs = Vec::with_capacity(pf.runs.len());
-    let mut fingerprints = Vec::with_capacity(pf.runs.len());
-    for r in pf.runs {
-        fingerprints.push(r.fingerprint);
-        let g = r.grid;
-        let ap = dir.join(&r.id).join("accumulator.bin");
-        let bytes = std::fs::read(&ap).with_path(&ap)?;
-        let acc = RunAccumulator::from_bytes(&bytes).with_path(&ap)?;
-        let bp = dir.join(&r.id).join("budget.bin");
-        let budget = match bp.exists() {
-            true => {
-                let b = std::fs::read(&bp).with_path(&bp)?;
-                Some(crate::budget::BudgetAcc::from_bytes(&b).with_path(&bp)?)
-            }
-            false => None,
-        };
-        let rd = dir.join(&r.id);
-        let modes = optional(&rd.join(MODES_FILE), ModeSketch::from_bytes)?;
-        let corr = optional(&rd.join(CORR_FILE), crate::scales::CorrAcc::from_bytes)?;
-        let frame_cores = optional(
-            &rd.join(FRAME_CORES_FILE),
-            crate::vortex::frames::FrameCores::from_bytes,
-        )?;
-        runs.push(Reduced {
-            id: r.id,
-            grid: Grid {
-                nx: g.nx,
-                ny: g.ny,
-                x0: g.x0,
-                y0: g.y0,
-                dx: g.dx,
-                dy: g.dy,
-            },
-            n_frames_run: r.n_frames_run,
-            range: r.range,
-            state: RunState {
-                frames: r
-                    .frames
-                    .into_iter()
-                    .map(|f| FrameRecord {
-                        meta: FrameMeta {
-                            index: f.index,
-                            name: f.name,
-                            time_s: f.time_s,
-                            phase_deg: f.phase_deg,
-                        },
-                        n_vectors: f.n_vectors,
-                        validation: f.validation,
-                        fill: f.fill,
-                        rejected: f.rejected,
-                        noise: f.noise,
-                    })
-                    .collect(),
-                acc,
-                budget,
-                inputs: r.inputs,
-                scheme_counts: r.scheme_counts,
-                peak_acc: r.peak_acc,
-                modes,
-                corr,
-                frame_cores,
-            },
-            warnings: r.warnings,
-            timings: r.timings,
-            peak_lock: None,
-        });
-    }
-    Ok(Partial {
-        dir: dir.to_path_buf(),
-        shard: pf.shard,
-        pipeline_path: PathBuf::from(pf.pipeline_path),
-        pipeline_text: pf.pipeline_text,
-        pipeline_sha256: pf.pipeline_sha256,
-        runs,
-        fingerprints,
+    serde_json::from_str(&text)
+        .map_err(|e| Error::data(format!("partial.json cannot be read: {e}")).with_path(&p))
+}
+
+/// One run of a partial folder: its record in `partial.json` with the
+/// accumulators in its folder.
+fn read_run(dir: &Path, r: RunPart) -> Result<Reduced> {
+    let ap = dir.join(&r.id).join("accumulator.bin");
+    let bytes = std::fs::read(&ap).with_path(&ap)?;
+    let acc = RunAccumulator::from_bytes(&bytes).with_path(&ap)?;
+    let bp = dir.join(&r.id).join("budget.bin");
+    let budget = match bp.exists() {
+        true => {
+            let b = std::fs::read(&bp).with_path(&bp)?;
+            Some(crate::budget::BudgetAcc::from_bytes(&b).with_path(&bp)?)
+        }
+        false => None,
+    };
+    let rd = dir.join(&r.id);
+    let modes = optional(&rd.join(MODES_FILE), ModeSketch::from_bytes)?;
+    let corr = optional(&rd.join(CORR_FILE), crate::scales::CorrAcc::from_bytes)?;
+    let frame_cores = optional(
+        &rd.join(FRAME_CORES_FILE),
+        crate::vortex::frames::FrameCores::from_bytes,
+    )?;
+    Ok(Reduced {
+        id: r.id,
+        grid: r.grid.into(),
+        n_frames_run: r.n_frames_run,
+        range: r.range,
+        state: RunState {
+            frames: r.frames.into_iter().map(FrameRecord::from).collect(),
+            acc,
+            budget,
+            inputs: r.inputs,
+            scheme_counts: r.scheme_counts,
+            peak_acc: r.peak_acc,
+            modes,
+            corr,
+            frame_cores,
+        },
+        warnings: r.warnings,
+        timings: r.timings,
+        peak_lock: None,
     })
 }
 
 /// Merges partials of one pipeline, holding every shard once, into one
 /// `Reduced` per run (in the pipeline's run order of the first partial).
 pub(crate) fn merge(mut parts: Vec<Partial>) -> Result<(Partial, Vec<Reduced>)> {
+    check_shard_set(&mut parts)?;
+    let mut iter = parts.into_iter();
+    let mut first = iter.next().unwrap();
+    let mut runs = std::mem::take(&mut first.runs);
+    // Per run: the fingerprint and inputs of the shard merged last.
+    let mut last: Vec<(Fingerprint, Vec<InputFile>)> = first
+        .fingerprints
+        .iter()
+        .cloned()
+        .zip(runs.iter().map(|r| r.state.inputs.clone()))
+        .collect();
+    for p in iter {
+        let dir = p.dir.clone();
+        for (r, fp) in p.runs.into_iter().zip(p.fingerprints) {
+            let at = runs.iter().position(|x| x.id == r.id).ok_or_else(|| {
+                Error::data(format!("run '{}' is not in the first partial", r.id)).with_path(&dir)
+            })?;
+            let prev = &last[at];
+            seal::check_follows(&r.id, (&prev.0, &prev.1), (&fp, &r.state.inputs), &dir)?;
+            last[at] = (fp, r.state.inputs.clone());
+            merge_run(&mut runs[at], r, &dir)?;
+        }
+    }
+    for r in &runs {
+        if r.range != (0, r.n_frames_run) {
+            return Err(Error::data(format!(
+                "run '{}': the shards cover frames {}..{} of {}",
+                r.id, r.range.0, r.range.1, r.n_frames_run
+            )));
+        }
+    }
+    for r in &mut runs {
+        r.finish_peak_lock();
+    }
+    Ok((first, runs))
+}
+
+/// Sorts the partials by shard and checks that they come from one pipeline
+/// and hold every shard `1..=N` of one N exactly once.
+fn check_shard_set(parts: &mut [Partial]) -> Result<()> {
     if parts.is_empty() {
         return Err(Error::usage("merge needs at least one partial folder"));
     }
     parts.sort_by_key(|p| p.shard.index);
     let count = parts[0].shard.count;
-    for p in &parts {
+    for p in parts.iter() {
         if p.pipeline_sha256 != parts[0].pipeline_sha256 {
             return Err(Error::data(format!(
                 "this partial comes from another pipeline than {} (pipeline text differs)",
@@ -365,56 +437,29 @@ pub(crate) fn merge(mut parts: Vec<Partial>) -> Result<(Partial, Vec<Reduced>)> 
             )));
         }
     }
-    let mut iter = parts.into_iter();
-    let mut first = iter.next().unwrap();
-    let mut runs = std::mem::take(&mut first.runs);
-    // Per run: the fingerprint and inputs of the shard merged last.
-    let mut last: Vec<(Fingerprint, Vec<InputFile>)> = first
-        .fingerprints
-        .iter()
-        .cloned()
-        .zip(runs.iter().map(|r| r.state.inputs.clone()))
-        .collect();
-    for p in iter {
-        let dir = p.dir.clone();
-        for (r, fp) in p.runs.into_iter().zip(p.fingerprints) {
-            let at = runs.iter().position(|x| x.id == r.id).ok_or_else(|| {
-                Error::data(format!("run '{}' is not in the first partial", r.id)).with_path(&dir)
-            })?;
-            let prev = &last[at];
-            seal::check_follows(&r.id, (&prev.0, &prev.1), (&fp, &r.state.inputs), &dir)?;
-            last[at] = (fp, r.state.inputs.clone());
-            let into = &mut runs[at];
-            if into.range.1 != r.range.0 || into.grid != r.grid {
-                return Err(Error::data(format!(
-                    "run '{}': frames {}..{} do not follow frames ..{} of the earlier shards",
-                    r.id, r.range.0, r.range.1, into.range.1
-                ))
-                .with_path(&dir));
-            }
-            into.state
-                .merge(r.state)
-                .map_err(|e| Error::data(format!("run '{}': {e}", r.id)).with_path(&dir))?;
-            into.range.1 = r.range.1;
-            into.warnings.extend(r.warnings);
-            for (k, v) in r.timings {
-                match into.timings.iter_mut().find(|(n, _)| *n == k) {
-                    Some(t) => t.1 += v,
-                    None => into.timings.push((k, v)),
-                }
-            }
+    Ok(())
+}
+
+/// Merges run `r` of a later shard (read from `dir`) into `into`, the same
+/// run of the shards before it: the frames must follow on the same grid.
+fn merge_run(into: &mut Reduced, r: Reduced, dir: &Path) -> Result<()> {
+    if into.range.1 != r.range.0 || into.grid != r.grid {
+        return Err(Error::data(format!(
+            "run '{}': frames {}..{} do not follow frames ..{} of the earlier shards",
+            r.id, r.range.0, r.range.1, into.range.1
+        ))
+        .with_path(dir));
+    }
+    into.state
+        .merge(r.state)
+        .map_err(|e| Error::data(format!("run '{}': {e}", r.id)).with_path(dir))?;
+    into.range.1 = r.range.1;
+    into.warnings.extend(r.warnings);
+    for (k, v) in r.timings {
+        match into.timings.iter_mut().find(|(n, _)| *n == k) {
+            Some(t) => t.1 += v,
+            None => into.timings.push((k, v)),
         }
     }
-    for r in &runs {
-        if r.range != (0, r.n_frames_run) {
-            return Err(Error::data(format!(
-                "run '{}': the shards cover frames {}..{} of {}",
-                r.id, r.range.0, r.range.1, r.n_frames_run
-            )));
-        }
-    }
-    for r in &mut runs {
-        r.finish_peak_lock();
-    }
-    Ok((first, runs))
+    Ok(())
 }

@@ -16,7 +16,7 @@ use crate::result::RunResult;
 use crate::stencil::correlation::Correlation;
 use crate::vortex::corr::OmegaCorrelation;
 use crate::vortex::frames::FrameCores;
-use crate::vortex::{find_cores, track, Params, Slice, SliceCores, SliceKind, Vortices};
+use crate::vortex::{find_cores, track, Core, Params, Slice, SliceCores, SliceKind, Vortices};
 
 /// The slice of a node table's mean columns, or `None` when one of u, v,
 /// omega and omega's uncertainty is missing (the velocity's uncertainties,
@@ -55,20 +55,63 @@ pub(crate) fn analyse(
     let p: &Params = rp.vortices.as_ref()?;
     let g = rr.grid;
     let corr = OmegaCorrelation::for_run(&rp.derive, &g);
-    // the velocity error correlation the circulation budget's integrals carry
-    // (none when the overlap is estimated per frame, as in `for_run`)
-    let vel = if rp.derive.correlation_from_data {
-        Correlation::Independent
-    } else {
-        rp.derive.correlation
-    };
     let radius = rp.derive.gamma_radius;
     let f = frequency;
     let mut warnings = Vec::new();
+    let find = |s: &Slice| find_cores(s, p, radius, &corr);
+    let mut slices = mean_and_bin_cores(rr, f, &find, &mut warnings);
+    let gate = p.gate * g.dx.max(g.dy);
+    // the bins, periodic
+    let first = slices
+        .iter()
+        .position(|s| s.kind != SliceKind::Mean)
+        .unwrap_or(slices.len());
+    let mut tracks = track_range(&slices, first, gate, f.map(|f| 1.0 / f));
+    if !rr.stats.phase.is_empty() && f.is_none() {
+        warnings.push("vortices: no frequency (none in [run.conditions] or the frame table, and the phases and times fit none): tracks have no convection speed or core growth".into());
+    }
+    // the frames, in order, when the run is time-resolved
+    if let Some(fc) = frame_cores {
+        warnings.extend(track_frames(rr, fc, gate, &mut slices, &mut tracks));
+    }
+    let budget = rr
+        .budget
+        .as_ref()
+        .map(|b| crate::vortex::budget::core_budgets(b, p, radius, f, budget_correlation(rp)))
+        .unwrap_or_default();
+    Some(Vortices {
+        grid: g,
+        slices,
+        tracks,
+        budget,
+        params: p.clone(),
+        correlation: corr.description,
+        warnings,
+    })
+}
+
+/// The velocity error correlation the circulation budget's integrals carry
+/// (none when the overlap is estimated per frame, as in `for_run`).
+fn budget_correlation(rp: &RunPlan) -> Correlation {
+    if rp.derive.correlation_from_data {
+        Correlation::Independent
+    } else {
+        rp.derive.correlation
+    }
+}
+
+/// The cores `find` finds in the mean field, then in each phase bin's mean
+/// field (at the bin's time when the frequency `f` is known); a warning
+/// when the mean field lacks a column.
+fn mean_and_bin_cores(
+    rr: &RunResult,
+    f: Option<f64>,
+    find: &dyn Fn(&Slice) -> Vec<Core>,
+    warnings: &mut Vec<String>,
+) -> Vec<SliceCores> {
     let mut slices = Vec::new();
-    let find = |s: Option<Slice>| s.map(|s| find_cores(&s, p, radius, &corr));
-    let nan = vec![f64::NAN; g.len()];
-    match find(slice_of(&rr.stats.ensemble, SliceKind::Mean, f64::NAN, &nan)) {
+    let nan = vec![f64::NAN; rr.grid.len()];
+    match slice_of(&rr.stats.ensemble, SliceKind::Mean, f64::NAN, &nan).map(|s| find(&s)) {
         Some(cores) => slices.push(SliceCores {
             kind: SliceKind::Mean,
             time_s: f64::NAN,
@@ -82,7 +125,7 @@ pub(crate) fn analyse(
             phase_deg: b.centre_deg,
         };
         let t = f.map_or(f64::NAN, |f| b.centre_deg / 360.0 / f);
-        if let Some(cores) = find(slice_of(&b.table, kind, t, &nan)) {
+        if let Some(cores) = slice_of(&b.table, kind, t, &nan).map(|s| find(&s)) {
             slices.push(SliceCores {
                 kind,
                 time_s: t,
@@ -90,49 +133,36 @@ pub(crate) fn analyse(
             });
         }
     }
-    let gate = p.gate * g.dx.max(g.dy);
-    // the bins, periodic
-    let first = slices
-        .iter()
-        .position(|s| s.kind != SliceKind::Mean)
-        .unwrap_or(slices.len());
-    let mut tracks = track_range(&slices, first, gate, f.map(|f| 1.0 / f));
-    if !rr.stats.phase.is_empty() && f.is_none() {
-        warnings.push("vortices: no frequency (none in [run.conditions] or the frame table, and the phases and times fit none): tracks have no convection speed or core growth".into());
-    }
-    // the frames, in order, when the run is time-resolved
-    if let Some(fc) = frame_cores {
-        let start = slices.len();
-        slices.extend(fc.slices);
-        let times: Vec<Option<f64>> = rr.frames.iter().map(|r| r.meta.time_s).collect();
-        match crate::spectra::run::clock(&times) {
-            Ok(_) => {
-                let n = tracks.len();
-                let mut more = track_range(&slices, start, gate, None);
-                for t in &mut more {
-                    t.id += n;
-                }
-                tracks.extend(more);
+    slices
+}
+
+/// Appends the cores of every frame `fc` to `slices` and, when the run is
+/// time-resolved, their tracks (numbered after `tracks`) to `tracks`;
+/// otherwise the warning that says why they are not tracked.
+fn track_frames(
+    rr: &RunResult,
+    fc: FrameCores,
+    gate: f64,
+    slices: &mut Vec<SliceCores>,
+    tracks: &mut Vec<track::Track>,
+) -> Option<String> {
+    let start = slices.len();
+    slices.extend(fc.slices);
+    let times: Vec<Option<f64>> = rr.frames.iter().map(|r| r.meta.time_s).collect();
+    match crate::spectra::run::clock(&times) {
+        Ok(_) => {
+            let n = tracks.len();
+            let mut more = track_range(slices, start, gate, None);
+            for t in &mut more {
+                t.id += n;
             }
-            Err(why) => warnings.push(format!(
-                "vortices: cores were found in every frame but not tracked across frames: the run is not time-resolved ({why})"
-            )),
+            tracks.extend(more);
+            None
         }
+        Err(why) => Some(format!(
+            "vortices: cores were found in every frame but not tracked across frames: the run is not time-resolved ({why})"
+        )),
     }
-    let budget = rr
-        .budget
-        .as_ref()
-        .map(|b| crate::vortex::budget::core_budgets(b, p, radius, f, vel))
-        .unwrap_or_default();
-    Some(Vortices {
-        grid: g,
-        slices,
-        tracks,
-        budget,
-        params: p.clone(),
-        correlation: corr.description,
-        warnings,
-    })
 }
 
 /// Tracks the slices `slices[start..]` up to the first slice of another

@@ -104,6 +104,49 @@ impl W {
             self.vec(&f.values);
         }
     }
+    /// The frame clock (record 5).
+    fn clock(&mut self, c: &Clock) {
+        self.u64(c.frames);
+        self.u64(c.timed);
+        self.opt_pair(c.first);
+        self.opt_pair(c.last);
+        self.u8(u8::from(c.irregular));
+        self.u64(c.steps.len() as u64);
+        for &(s, n) in &c.steps {
+            self.f64(s);
+            self.u64(n);
+        }
+    }
+    /// The lag sums (record 8), when there are any.
+    fn lags(&mut self, lags: Option<&Lags>) {
+        match lags {
+            Some(l) => {
+                self.u8(1);
+                self.u64(l.max_lag as u64);
+                self.u64(l.len as u64);
+                self.vec(&l.shift);
+                self.u64(l.sums.len() as u64);
+                for s in &l.sums {
+                    [&s.s, &s.p, &s.q, &s.c].iter().for_each(|v| self.vec(v));
+                }
+                self.frames(l.head.iter());
+                self.frames(l.tail.iter());
+            }
+            None => self.u8(0),
+        }
+    }
+    /// The probe traces (record 9).
+    fn traces(&mut self, traces: &[Trace]) {
+        self.u64(traces.len() as u64);
+        for t in traces {
+            self.u64(t.node as u64);
+            self.u64(t.rows.len() as u64);
+            for (i, r) in &t.rows {
+                self.u64(*i);
+                r.iter().for_each(|&x| self.f64(x));
+            }
+        }
+    }
 }
 
 struct R<'a> {
@@ -242,17 +285,7 @@ impl RunAccumulator {
         }
         w.u64(self.unphased);
         w.u64(self.outside);
-        let c = &self.clock;
-        w.u64(c.frames);
-        w.u64(c.timed);
-        w.opt_pair(c.first);
-        w.opt_pair(c.last);
-        w.u8(u8::from(c.irregular));
-        w.u64(c.steps.len() as u64);
-        for &(s, n) in &c.steps {
-            w.f64(s);
-            w.u64(n);
-        }
+        w.clock(&self.clock);
         w.moments(&self.ens);
         w.u64(self.bins.len() as u64);
         for b in &self.bins {
@@ -264,30 +297,8 @@ impl RunAccumulator {
                 None => w.u8(0),
             }
         }
-        match &self.lags {
-            Some(l) => {
-                w.u8(1);
-                w.u64(l.max_lag as u64);
-                w.u64(l.len as u64);
-                w.vec(&l.shift);
-                w.u64(l.sums.len() as u64);
-                for s in &l.sums {
-                    [&s.s, &s.p, &s.q, &s.c].iter().for_each(|v| w.vec(v));
-                }
-                w.frames(l.head.iter());
-                w.frames(l.tail.iter());
-            }
-            None => w.u8(0),
-        }
-        w.u64(self.traces.len() as u64);
-        for t in &self.traces {
-            w.u64(t.node as u64);
-            w.u64(t.rows.len() as u64);
-            for (i, r) in &t.rows {
-                w.u64(*i);
-                r.iter().for_each(|&x| w.f64(x));
-            }
-        }
+        w.lags(self.lags.as_ref());
+        w.traces(&self.traces);
         let payload = w.0;
         let mut out = Vec::with_capacity(payload.len() + 52);
         out.extend_from_slice(FORMAT_MAGIC);
@@ -301,36 +312,7 @@ impl RunAccumulator {
     /// Reads a partial state written by `to_bytes`; an error (kind Data) on
     /// another format, another version, truncation or damage.
     pub(crate) fn from_bytes(b: &[u8]) -> Result<Self> {
-        if b.len() < 8 || &b[..8] != FORMAT_MAGIC {
-            return Err(bad(
-                "not a curlew partial-statistics file (wrong magic bytes)",
-            ));
-        }
-        if b.len() < 20 {
-            return Err(bad(format!(
-                "truncated: {} bytes, the header alone is 20",
-                b.len()
-            )));
-        }
-        let version = u32::from_le_bytes(b[8..12].try_into().unwrap());
-        if !READS.contains(&version) {
-            return Err(bad(format!(
-                "format version {version}, but this curlew ({}) reads versions 1 to {FORMAT_VERSION}; merge with the curlew that wrote it",
-                crate::VERSION
-            )));
-        }
-        let len = u64::from_le_bytes(b[12..20].try_into().unwrap());
-        let want = (len as u128) + 52;
-        if (b.len() as u128) != want {
-            return Err(bad(format!(
-                "truncated or padded: {} bytes, expected {want}",
-                b.len()
-            )));
-        }
-        let payload = &b[20..20 + len as usize];
-        if Sha256::digest(payload).as_slice() != &b[20 + len as usize..] {
-            return Err(bad("checksum mismatch (damaged file)"));
-        }
+        let (version, payload) = open_payload(b)?;
         let parts = if version == 1 {
             PARTS_V1
         } else {
@@ -343,18 +325,7 @@ impl RunAccumulator {
         };
         let params: Params =
             serde_json::from_str(&r.str()?).map_err(|e| bad(format!("parameters: {e}")))?;
-        let (nx, ny) = (r.u64()? as usize, r.u64()? as usize);
-        let grid = Grid {
-            nx,
-            ny,
-            x0: r.f64()?,
-            y0: r.f64()?,
-            dx: r.f64()?,
-            dy: r.f64()?,
-        };
-        let nodes = nx
-            .checked_mul(ny)
-            .ok_or_else(|| bad("grid size overflows"))?;
+        let (grid, nodes) = r.grid()?;
         let nq = r.count(8)?;
         let quantities = (0..nq).map(|_| r.str()).collect::<Result<Vec<_>>>()?;
         let units = (0..nq).map(|_| r.str()).collect::<Result<Vec<_>>>()?;
@@ -364,88 +335,11 @@ impl RunAccumulator {
             None
         };
         let (unphased, outside) = (r.u64()?, r.u64()?);
-        let clock = Clock {
-            frames: r.u64()?,
-            timed: r.u64()?,
-            first: r.opt_pair()?,
-            last: r.opt_pair()?,
-            irregular: r.flag()?,
-            steps: {
-                let n = r.count(16)?;
-                (0..n)
-                    .map(|_| Ok((r.f64()?, r.u64()?)))
-                    .collect::<Result<Vec<_>>>()?
-            },
-        };
+        let clock = r.clock()?;
         let ens = r.moments(nodes, nq)?;
-        let nb = r.count(1)?;
-        if nb != params.phase_bins {
-            return Err(bad(format!(
-                "{nb} phase bins, expected {}",
-                params.phase_bins
-            )));
-        }
-        let bins = (0..nb)
-            .map(|_| {
-                if r.flag()? {
-                    r.moments(nodes, nq).map(Some)
-                } else {
-                    Ok(None)
-                }
-            })
-            .collect::<Result<Vec<_>>>()?;
-        let lags = if r.flag()? {
-            let max_lag = r.u64()? as usize;
-            let len = r.u64()? as usize;
-            if len % nodes.max(1) != 0 || max_lag != params.max_lag {
-                return Err(bad("lag sums do not match the grid or max_lag"));
-            }
-            let shift = r.vec(len, "the lag shifts")?;
-            let ns = r.count(32)?;
-            let sums = (0..ns)
-                .map(|_| {
-                    Ok(LagSums {
-                        s: r.vec(len, "lag sums")?,
-                        p: r.vec(len, "lag sums")?,
-                        q: r.vec(len, "lag sums")?,
-                        c: r.vec(len, "lag sums")?,
-                    })
-                })
-                .collect::<Result<Vec<_>>>()?;
-            let head = r.frames(len)?;
-            let tail = r.frames(len)?.into();
-            Some(Lags {
-                max_lag,
-                len,
-                shift,
-                sums,
-                head,
-                tail,
-            })
-        } else {
-            None
-        };
-        let nt = r.count(16)?;
-        if nt != params.probes.len() {
-            return Err(bad(format!(
-                "{nt} probe traces, expected {}",
-                params.probes.len()
-            )));
-        }
-        let mut traces = Vec::with_capacity(nt);
-        for _ in 0..nt {
-            let node = r.u64()? as usize;
-            if node >= nodes {
-                return Err(bad(format!(
-                    "probe node {node} outside a grid of {nodes} nodes"
-                )));
-            }
-            let n = r.count(32)?;
-            let rows = (0..n)
-                .map(|_| Ok((r.u64()?, [r.f64()?, r.f64()?, r.f64()?])))
-                .collect::<Result<Vec<_>>>()?;
-            traces.push(Trace { node, rows });
-        }
+        let bins = r.bins(&params, nodes, nq)?;
+        let lags = r.lags(&params, nodes)?;
+        let traces = r.traces(&params, nodes)?;
         if r.at != payload.len() {
             return Err(bad(format!(
                 "{} unread bytes after the last record",
@@ -466,5 +360,159 @@ impl RunAccumulator {
             traces,
             span,
         })
+    }
+}
+
+/// The format version and the payload of a partial-state file, after
+/// checking its magic bytes, version, length and checksum.
+fn open_payload(b: &[u8]) -> Result<(u32, &[u8])> {
+    if b.len() < 8 || &b[..8] != FORMAT_MAGIC {
+        return Err(bad(
+            "not a curlew partial-statistics file (wrong magic bytes)",
+        ));
+    }
+    if b.len() < 20 {
+        return Err(bad(format!(
+            "truncated: {} bytes, the header alone is 20",
+            b.len()
+        )));
+    }
+    let version = u32::from_le_bytes(b[8..12].try_into().unwrap());
+    if !READS.contains(&version) {
+        return Err(bad(format!(
+            "format version {version}, but this curlew ({}) reads versions 1 to {FORMAT_VERSION}; merge with the curlew that wrote it",
+            crate::VERSION
+        )));
+    }
+    let len = u64::from_le_bytes(b[12..20].try_into().unwrap());
+    let want = (len as u128) + 52;
+    if (b.len() as u128) != want {
+        return Err(bad(format!(
+            "truncated or padded: {} bytes, expected {want}",
+            b.len()
+        )));
+    }
+    let payload = &b[20..20 + len as usize];
+    if Sha256::digest(payload).as_slice() != &b[20 + len as usize..] {
+        return Err(bad("checksum mismatch (damaged file)"));
+    }
+    Ok((version, payload))
+}
+
+impl R<'_> {
+    /// The grid (record 2) and its number of nodes.
+    fn grid(&mut self) -> Result<(Grid, usize)> {
+        let (nx, ny) = (self.u64()? as usize, self.u64()? as usize);
+        let grid = Grid {
+            nx,
+            ny,
+            x0: self.f64()?,
+            y0: self.f64()?,
+            dx: self.f64()?,
+            dy: self.f64()?,
+        };
+        let nodes = nx
+            .checked_mul(ny)
+            .ok_or_else(|| bad("grid size overflows"))?;
+        Ok((grid, nodes))
+    }
+
+    /// The frame clock (record 5).
+    fn clock(&mut self) -> Result<Clock> {
+        Ok(Clock {
+            frames: self.u64()?,
+            timed: self.u64()?,
+            first: self.opt_pair()?,
+            last: self.opt_pair()?,
+            irregular: self.flag()?,
+            steps: {
+                let n = self.count(16)?;
+                (0..n)
+                    .map(|_| Ok((self.f64()?, self.u64()?)))
+                    .collect::<Result<Vec<_>>>()?
+            },
+        })
+    }
+
+    /// The phase bins' moments (record 7), as many as `params` asks for.
+    fn bins(&mut self, params: &Params, nodes: usize, nq: usize) -> Result<Vec<Option<Moments>>> {
+        let nb = self.count(1)?;
+        if nb != params.phase_bins {
+            return Err(bad(format!(
+                "{nb} phase bins, expected {}",
+                params.phase_bins
+            )));
+        }
+        (0..nb)
+            .map(|_| {
+                if self.flag()? {
+                    self.moments(nodes, nq).map(Some)
+                } else {
+                    Ok(None)
+                }
+            })
+            .collect::<Result<Vec<_>>>()
+    }
+
+    /// The lag sums (record 8), when present; checked against the grid and
+    /// `params.max_lag`.
+    fn lags(&mut self, params: &Params, nodes: usize) -> Result<Option<Lags>> {
+        if !self.flag()? {
+            return Ok(None);
+        }
+        let max_lag = self.u64()? as usize;
+        let len = self.u64()? as usize;
+        if len % nodes.max(1) != 0 || max_lag != params.max_lag {
+            return Err(bad("lag sums do not match the grid or max_lag"));
+        }
+        let shift = self.vec(len, "the lag shifts")?;
+        let ns = self.count(32)?;
+        let sums = (0..ns)
+            .map(|_| {
+                Ok(LagSums {
+                    s: self.vec(len, "lag sums")?,
+                    p: self.vec(len, "lag sums")?,
+                    q: self.vec(len, "lag sums")?,
+                    c: self.vec(len, "lag sums")?,
+                })
+            })
+            .collect::<Result<Vec<_>>>()?;
+        let head = self.frames(len)?;
+        let tail = self.frames(len)?.into();
+        Ok(Some(Lags {
+            max_lag,
+            len,
+            shift,
+            sums,
+            head,
+            tail,
+        }))
+    }
+
+    /// The probe traces (record 9), one per probe of `params`, each on a
+    /// node of the grid.
+    fn traces(&mut self, params: &Params, nodes: usize) -> Result<Vec<Trace>> {
+        let nt = self.count(16)?;
+        if nt != params.probes.len() {
+            return Err(bad(format!(
+                "{nt} probe traces, expected {}",
+                params.probes.len()
+            )));
+        }
+        let mut traces = Vec::with_capacity(nt);
+        for _ in 0..nt {
+            let node = self.u64()? as usize;
+            if node >= nodes {
+                return Err(bad(format!(
+                    "probe node {node} outside a grid of {nodes} nodes"
+                )));
+            }
+            let n = self.count(32)?;
+            let rows = (0..n)
+                .map(|_| Ok((self.u64()?, [self.f64()?, self.f64()?, self.f64()?])))
+                .collect::<Result<Vec<_>>>()?;
+            traces.push(Trace { node, rows });
+        }
+        Ok(traces)
     }
 }

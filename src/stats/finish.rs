@@ -26,6 +26,8 @@ use crate::field::NodeTable;
 /// samples cannot tell a time scale).
 const MIN_INDEX_FRAMES: u64 = 20;
 
+/// The finished statistics of `acc` with the uncertainty settings of `p`
+/// (`RunAccumulator::finish`).
 pub(super) fn finish(acc: &RunAccumulator, p: &Params) -> RunStats {
     let mut warnings = Vec::new();
     let grid = acc.grid;
@@ -53,23 +55,7 @@ pub(super) fn finish(acc: &RunAccumulator, p: &Params) -> RunStats {
     } else {
         std::array::from_fn(|_| vec![f64::NAN; nodes])
     };
-    // Phase bins as strata of the ensemble mean (`strata`), when the bins
-    // partition the circle: no narrower windows, no frame outside them.
-    let partition = has_phase
-        && acc.outside == 0
-        && acc
-            .params
-            .phase_width_deg
-            .is_none_or(|w| (w * acc.params.phase_bins as f64 - 360.0).abs() < 1e-9 * 360.0);
-    let strata: Option<Vec<Strata>> = partition.then(|| {
-        let of = |pick: &dyn Fn(&Moments) -> &Scalar| {
-            let bins: Vec<&Scalar> = bin_moments.iter().map(|m| pick(m)).collect();
-            strata(pick(&acc.ens), &bins)
-        };
-        let mut v = vec![of(&|m| &m.u), of(&|m| &m.v)];
-        v.extend((0..acc.quantities.len()).map(|i| of(&|m| &m.q[i])));
-        v
-    });
+    let strata = phase_strata(acc, &bin_moments, has_phase);
     let ensemble = node_table(
         &acc.ens,
         &ne.neff,
@@ -100,6 +86,31 @@ pub(super) fn finish(acc: &RunAccumulator, p: &Params) -> RunStats {
         summary,
         warnings,
     }
+}
+
+/// Phase bins as strata of the ensemble mean (`strata`), when the bins
+/// partition the circle: no narrower windows, no frame outside them. The
+/// strata of u, v and each quantity, in that order; `None` otherwise.
+fn phase_strata(
+    acc: &RunAccumulator,
+    bin_moments: &[&Moments],
+    has_phase: bool,
+) -> Option<Vec<Strata>> {
+    let partition = has_phase
+        && acc.outside == 0
+        && acc
+            .params
+            .phase_width_deg
+            .is_none_or(|w| (w * acc.params.phase_bins as f64 - 360.0).abs() < 1e-9 * 360.0);
+    partition.then(|| {
+        let of = |pick: &dyn Fn(&Moments) -> &Scalar| {
+            let bins: Vec<&Scalar> = bin_moments.iter().map(|m| pick(m)).collect();
+            strata(pick(&acc.ens), &bins)
+        };
+        let mut v = vec![of(&|m| &m.u), of(&|m| &m.v)];
+        v.extend((0..acc.quantities.len()).map(|i| of(&|m| &m.q[i])));
+        v
+    })
 }
 
 /// The table context: the relative scale uncertainty of every quantity and
@@ -160,18 +171,7 @@ fn effective_samples(acc: &RunAccumulator, p: &Params, warnings: &mut Vec<String
     let mut run_neff = None;
     let base = acc.clock.time_base();
     let step = base.map(|b| b.step);
-    if acc.clock.timed > 0 && base.is_none() && acc.clock.frames >= 3 {
-        warnings.push(format!(
-            "{} of {} frames have time_s but the steps are not uniform; samples are treated as independent (N_eff = N)",
-            acc.clock.timed, acc.clock.frames
-        ));
-    }
-    if let Some(b) = base.filter(|b| b.gaps > 0) {
-        warnings.push(format!(
-            "time_s has {} gaps longer than the step of {:.4e} s (burst recording?); N_eff uses the autocorrelation over the frames, including the few lag pairs across a gap",
-            b.gaps, b.step
-        ));
-    }
+    time_base_warnings(acc, base, warnings);
     // Without any frame times the frames are taken as evenly spaced in
     // their index (the common case of a fixed acquisition rate); the
     // autocorrelation then says whether they are independent.
@@ -228,6 +228,27 @@ fn effective_samples(acc: &RunAccumulator, p: &Params, warnings: &mut Vec<String
     }
 }
 
+/// The warnings on the frame times: times that are not uniform (samples
+/// then independent) and gaps in a uniform time base.
+fn time_base_warnings(
+    acc: &RunAccumulator,
+    base: Option<super::lags::TimeBase>,
+    warnings: &mut Vec<String>,
+) {
+    if acc.clock.timed > 0 && base.is_none() && acc.clock.frames >= 3 {
+        warnings.push(format!(
+            "{} of {} frames have time_s but the steps are not uniform; samples are treated as independent (N_eff = N)",
+            acc.clock.timed, acc.clock.frames
+        ));
+    }
+    if let Some(b) = base.filter(|b| b.gaps > 0) {
+        warnings.push(format!(
+            "time_s has {} gaps longer than the step of {:.4e} s (burst recording?); N_eff uses the autocorrelation over the frames, including the few lag pairs across a gap",
+            b.gaps, b.step
+        ));
+    }
+}
+
 /// The phase-bin tables (bin moments, coherent parts, energies), their
 /// warnings and the phase summary scalars.
 fn bin_tables(
@@ -238,45 +259,73 @@ fn bin_tables(
     summary: &mut Vec<(String, f64)>,
     warnings: &mut Vec<String>,
 ) -> Vec<PhaseBin> {
+    let phase_tables: Vec<PhaseBin> = bin_moments
+        .iter()
+        .enumerate()
+        .map(|(b, m)| bin_table(acc, ctx, b, m))
+        .collect();
+    bin_warnings(acc, &phase_tables, warnings);
+    let (sc, ss): (f64, f64) = k_coh
+        .iter()
+        .zip(k_sto)
+        .filter(|(a, b)| a.is_finite() && b.is_finite())
+        .fold((0.0, 0.0), |(x, y), (a, b)| (x + a, y + b));
+    if sc + ss > 0.0 {
+        summary.push(("k_coherent_frac".to_string(), sc / (sc + ss)));
+        summary.push(("k_stochastic_frac".to_string(), ss / (sc + ss)));
+    }
+    summary.push((
+        "phase_frames".to_string(),
+        bin_moments.iter().map(|m| m.frames).sum(),
+    ));
+    phase_tables
+}
+
+/// The table of phase bin `b` with moments `m`: the node table (N_eff = N,
+/// the bin's coherent and stochastic energies) and the coherent parts
+/// (bin mean minus ensemble mean) of u, v and omega.
+fn bin_table(acc: &RunAccumulator, ctx: &Ctx, b: usize, m: &Moments) -> PhaseBin {
     let nodes = acc.grid.len();
     let omega = acc.omega();
-    let mut phase_tables = Vec::new();
     let mean = |s: &Scalar, k: usize| if s.n[k] > 0.0 { s.mean[k] } else { f64::NAN };
-    for (b, m) in bin_moments.iter().enumerate() {
-        let coh: Vec<[f64; 3]> = (0..nodes)
-            .map(|k| {
-                let w = omega.map_or(f64::NAN, |o| mean(&m.q[o], k) - mean(&acc.ens.q[o], k));
-                [
-                    mean(&m.u, k) - mean(&acc.ens.u, k),
-                    mean(&m.v, k) - mean(&acc.ens.v, k),
-                    w,
-                ]
-            })
-            .collect();
-        let [kc, kc_unc] = phase::bin_coherent(m, &acc.ens, nodes);
-        let ks = (0..nodes)
-            .map(|k| {
-                if m.u.n[k] >= 2.0 {
-                    0.5 * (m.u.m2[k] + m.v.m2[k]) / (m.u.n[k] - 1.0)
-                } else {
-                    f64::NAN
-                }
-            })
-            .collect();
-        let mut table = node_table(m, &independent(m, omega), [kc, ks, kc_unc], ctx, None);
-        for (i, name) in ["u_coherent", "v_coherent", "omega_coherent"]
-            .iter()
-            .enumerate()
-        {
-            table.push(*name, coh.iter().map(|c| c[i]).collect());
-        }
-        phase_tables.push(PhaseBin {
-            bin: b,
-            centre_deg: phase::centre_deg(acc.params.phase_bins, b),
-            n_frames: m.frames as usize,
-            table,
-        });
+    let coh: Vec<[f64; 3]> = (0..nodes)
+        .map(|k| {
+            let w = omega.map_or(f64::NAN, |o| mean(&m.q[o], k) - mean(&acc.ens.q[o], k));
+            [
+                mean(&m.u, k) - mean(&acc.ens.u, k),
+                mean(&m.v, k) - mean(&acc.ens.v, k),
+                w,
+            ]
+        })
+        .collect();
+    let [kc, kc_unc] = phase::bin_coherent(m, &acc.ens, nodes);
+    let ks = (0..nodes)
+        .map(|k| {
+            if m.u.n[k] >= 2.0 {
+                0.5 * (m.u.m2[k] + m.v.m2[k]) / (m.u.n[k] - 1.0)
+            } else {
+                f64::NAN
+            }
+        })
+        .collect();
+    let mut table = node_table(m, &independent(m, omega), [kc, ks, kc_unc], ctx, None);
+    for (i, name) in ["u_coherent", "v_coherent", "omega_coherent"]
+        .iter()
+        .enumerate()
+    {
+        table.push(*name, coh.iter().map(|c| c[i]).collect());
     }
+    PhaseBin {
+        bin: b,
+        centre_deg: phase::centre_deg(acc.params.phase_bins, b),
+        n_frames: m.frames as usize,
+        table,
+    }
+}
+
+/// The warnings of the phase binning: empty bins, frames without a phase
+/// and frames outside every phase window.
+fn bin_warnings(acc: &RunAccumulator, phase_tables: &[PhaseBin], warnings: &mut Vec<String>) {
     let empty_bins: Vec<String> = phase_tables
         .iter()
         .filter(|b| b.n_frames == 0)
@@ -296,25 +345,11 @@ fn bin_tables(
     }
     if acc.outside > 0 {
         warnings.push(format!(
-                "{} frames lie outside every phase window ({} degrees wide); they are left out of the phase bins",
-                acc.outside,
-                acc.params.phase_width_deg.unwrap_or(f64::NAN)
-            ));
+            "{} frames lie outside every phase window ({} degrees wide); they are left out of the phase bins",
+            acc.outside,
+            acc.params.phase_width_deg.unwrap_or(f64::NAN)
+        ));
     }
-    let (sc, ss): (f64, f64) = k_coh
-        .iter()
-        .zip(k_sto)
-        .filter(|(a, b)| a.is_finite() && b.is_finite())
-        .fold((0.0, 0.0), |(x, y), (a, b)| (x + a, y + b));
-    if sc + ss > 0.0 {
-        summary.push(("k_coherent_frac".to_string(), sc / (sc + ss)));
-        summary.push(("k_stochastic_frac".to_string(), ss / (sc + ss)));
-    }
-    summary.push((
-        "phase_frames".to_string(),
-        bin_moments.iter().map(|m| m.frames).sum(),
-    ));
-    phase_tables
 }
 
 /// The summary scalars of campaign.csv from the ensemble table: the peak

@@ -83,24 +83,62 @@ pub(super) fn convergence(
     coverage: f64,
     warnings: &mut Vec<String>,
 ) -> Table {
-    let mut probe = Vec::new();
-    let (mut px, mut py, mut nx_, mut ny_) = (Vec::new(), Vec::new(), Vec::new(), Vec::new());
-    let mut frame = Vec::new();
-    let mut cols: Vec<Vec<f64>> = vec![Vec::new(); 10];
+    let mut cols = Columns::default();
     for (ip, pr) in probes.iter().enumerate() {
-        let (j, i) = (pr.node / g.nx, pr.node % g.nx);
-        let (x, y) = (g.x(i), g.y(j));
-        if (pr.point.0 - x).abs() > 0.5 * g.dx * 1.001
-            || (pr.point.1 - y).abs() > 0.5 * g.dy * 1.001
-        {
-            warnings.push(format!(
-                "probe {ip} at ({:.3}, {:.3}) mm lies outside the grid; the nearest node ({:.3}, {:.3}) mm is traced",
-                pr.point.0 * 1e3,
-                pr.point.1 * 1e3,
-                x * 1e3,
-                y * 1e3
-            ));
-        }
+        let node = traced_node(g, ip, pr, warnings);
+        let traced = cols.trace(ip, pr, node, tail);
+        traced.warn_unconverged(tail, coverage, warnings);
+    }
+    cols.into_table()
+}
+
+/// The position of the node traced for probe `ip`, with a warning when the
+/// probe lies outside the grid.
+fn traced_node(g: &Grid, ip: usize, pr: &ProbeInput, warnings: &mut Vec<String>) -> (f64, f64) {
+    let (j, i) = (pr.node / g.nx, pr.node % g.nx);
+    let (x, y) = (g.x(i), g.y(j));
+    if (pr.point.0 - x).abs() > 0.5 * g.dx * 1.001 || (pr.point.1 - y).abs() > 0.5 * g.dy * 1.001 {
+        warnings.push(format!(
+            "probe {ip} at ({:.3}, {:.3}) mm lies outside the grid; the nearest node ({:.3}, {:.3}) mm is traced",
+            pr.point.0 * 1e3,
+            pr.point.1 * 1e3,
+            x * 1e3,
+            y * 1e3
+        ));
+    }
+    (x, y)
+}
+
+/// The running statistics of one probe's u, v and omega after its last
+/// frame, and (n, mean, std) of each at the start of the tail.
+struct Traced {
+    /// The probe's index and the position of its node.
+    ip: usize,
+    at: (f64, f64),
+    /// The final N_eff/N ratio of (u, v, omega).
+    ratio: [f64; 3],
+    run: [Running; 3],
+    at_cut: Option<[(f64, f64, f64); 3]>,
+}
+
+/// The table's columns, filled probe by probe.
+#[derive(Default)]
+struct Columns {
+    probe: Vec<i64>,
+    px: Vec<f64>,
+    py: Vec<f64>,
+    nx_: Vec<f64>,
+    ny_: Vec<f64>,
+    frame: Vec<i64>,
+    /// n_samples, then mean, std and mean_unc of u, v and omega.
+    cols: [Vec<f64>; 10],
+}
+
+impl Columns {
+    /// Adds the rows of probe `ip` (traced at the node `(x, y)`) and returns
+    /// its running statistics at the end and at the start of the tail.
+    fn trace(&mut self, ip: usize, pr: &ProbeInput, (x, y): (f64, f64), tail: f64) -> Traced {
+        let cols = &mut self.cols;
         let mut run = [0, 1, 2].map(|_| Running {
             n: 0.0,
             mean: 0.0,
@@ -118,12 +156,12 @@ pub(super) fn convergence(
                     run[s].add(vals[s]);
                 }
             }
-            probe.push(ip as i64);
-            px.push(pr.point.0);
-            py.push(pr.point.1);
-            nx_.push(x);
-            ny_.push(y);
-            frame.push(*idx as i64);
+            self.probe.push(ip as i64);
+            self.px.push(pr.point.0);
+            self.py.push(pr.point.1);
+            self.nx_.push(x);
+            self.ny_.push(y);
+            self.frame.push(*idx as i64);
             cols[0].push(run[0].n);
             for s in 0..3 {
                 let (m, sd) = if run[s].n > 0.0 {
@@ -136,8 +174,50 @@ pub(super) fn convergence(
                 cols[3 + 3 * s].push(gum::mean_unc(sd, run[s].n * pr.ratio[s]));
             }
         }
-        // The convergence rule of the module doc.
-        let Some(cut_stats) = at_cut else { continue };
+        Traced {
+            ip,
+            at: (x, y),
+            ratio: pr.ratio,
+            run,
+            at_cut,
+        }
+    }
+
+    /// The table: statistics first, keys after (see the module doc for the
+    /// order).
+    fn into_table(self) -> Table {
+        let cols = self.cols;
+        let mut t = Table::new();
+        t.push("frame", Values::I64(self.frame));
+        let n_samples = cols[0].iter().map(|&n| n as i64).collect();
+        for what in 0..3 {
+            for (s, (name, _)) in NAMES.iter().enumerate() {
+                let suffix = ["mean", "std", "mean_unc"][what];
+                t.push(
+                    format!("{name}_{suffix}"),
+                    Values::F64(cols[1 + 3 * s + what].clone()),
+                );
+            }
+        }
+        t.push("n_samples", Values::I64(n_samples));
+        t.push("probe", Values::I64(self.probe));
+        t.push("probe_x", Values::F64(self.px));
+        t.push("probe_y", Values::F64(self.py));
+        t.push("x", Values::F64(self.nx_));
+        t.push("y", Values::F64(self.ny_));
+        t
+    }
+}
+
+impl Traced {
+    /// The convergence rule of the module doc: a warning for each running
+    /// statistic that moved over the tail by more than its final expanded
+    /// uncertainty (or that has too few samples before the tail).
+    fn warn_unconverged(&self, tail: f64, coverage: f64, warnings: &mut Vec<String>) {
+        let Some(cut_stats) = self.at_cut else {
+            return;
+        };
+        let (ip, (x, y), run) = (self.ip, self.at, &self.run);
         for s in 0..3 {
             let (name, unit) = NAMES[s];
             let (n0, m0, s0) = cut_stats[s];
@@ -152,7 +232,7 @@ pub(super) fn convergence(
                 ));
                 continue;
             }
-            let ne = fin.n * pr.ratio[s];
+            let ne = fin.n * self.ratio[s];
             let k = gum::coverage_factor(coverage, ne - 1.0);
             let (sd, um, us) = (
                 fin.std(),
@@ -175,26 +255,6 @@ pub(super) fn convergence(
             }
         }
     }
-    // Statistics first, keys after (see the module doc for the order).
-    let mut t = Table::new();
-    t.push("frame", Values::I64(frame));
-    let n_samples = cols[0].iter().map(|&n| n as i64).collect();
-    for what in 0..3 {
-        for (s, (name, _)) in NAMES.iter().enumerate() {
-            let suffix = ["mean", "std", "mean_unc"][what];
-            t.push(
-                format!("{name}_{suffix}"),
-                Values::F64(cols[1 + 3 * s + what].clone()),
-            );
-        }
-    }
-    t.push("n_samples", Values::I64(n_samples));
-    t.push("probe", Values::I64(probe));
-    t.push("probe_x", Values::F64(px));
-    t.push("probe_y", Values::F64(py));
-    t.push("x", Values::F64(nx_));
-    t.push("y", Values::F64(ny_));
-    t
 }
 
 #[cfg(test)]

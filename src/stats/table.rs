@@ -282,22 +282,38 @@ pub(super) fn node_table(
     c: &Ctx,
     strata: Option<&[Strata]>,
 ) -> NodeTable {
-    let st = |i: usize| strata.map(|s| &s[i]);
-    let cv = c.p.coverage;
-    let empty = Scalar::new(c.grid.len());
-    let w_rel = c.omega.map_or(0.0, |o| c.q_rel[o]);
-    let fu = full(&m.u, &neff[0], c.vel_rel, cv, st(0), &c.grid);
-    let fv = full(&m.v, &neff[1], c.vel_rel, cv, st(1), &c.grid);
-    let fw = full(
-        c.omega.map_or(&empty, |o| &m.q[o]),
-        &neff[2],
-        w_rel,
-        cv,
-        c.omega.and_then(|o| st(2 + o)),
-        &c.grid,
-    );
-    let col = |f: &[Full], g: &dyn Fn(&Full) -> f64| -> Vec<f64> { f.iter().map(g).collect() };
-    let cov: Vec<f64> = (0..m.cuv.len())
+    let s = Series::of(m, neff, c, strata);
+    let cov = uv_covariance(m);
+    let cov_unc = s.uv_covariance_unc(&cov, c.vel_rel);
+    let [k_coh, k_sto, k_coh_unc] = k_parts;
+    let mut t = NodeTable::new(c.grid);
+    s.push_interface_columns(&mut t, cov);
+    s.push_own_columns(&mut t, cov_unc, [k_coh, k_sto], &c.suffix);
+    s.push_appended_columns(&mut t, k_coh_unc);
+    t
+}
+
+/// The per-node statistics of every series of one set of moments.
+struct Series<'a> {
+    m: &'a Moments,
+    neff: &'a [Vec<f64>; 3],
+    u: Vec<Full>,
+    v: Vec<Full>,
+    /// Omega's (of an empty scalar when omega is not derived).
+    w: Vec<Full>,
+    /// Each derived quantity other than omega, by name, in `derive` order.
+    others: Vec<(&'a String, Vec<Full>)>,
+}
+
+/// One column: `g` of every node's statistics.
+fn col(f: &[Full], g: &dyn Fn(&Full) -> f64) -> Vec<f64> {
+    f.iter().map(g).collect()
+}
+
+/// The sample covariance of u and v (divisor N - 1) at every node; NaN
+/// below two samples.
+fn uv_covariance(m: &Moments) -> Vec<f64> {
+    (0..m.cuv.len())
         .map(|k| {
             if m.u.n[k] >= 2.0 {
                 m.cuv[k] / (m.u.n[k] - 1.0)
@@ -305,20 +321,69 @@ pub(super) fn node_table(
                 f64::NAN
             }
         })
-        .collect();
-    let cov_unc: Vec<f64> = (0..cov.len())
-        .map(|k| {
-            let ne = neff[0][k].min(neff[1][k]);
-            let r = gum::cov_unc(fu[k].st.std, fv[k].st.std, cov[k], ne);
-            (r * r + (2.0 * c.vel_rel * cov[k]).powi(2)).sqrt()
-        })
-        .collect();
-    let kk: Vec<f64> = fu
-        .iter()
-        .zip(&fv)
-        .map(|(a, b)| 0.5 * (a.st.std.powi(2) + b.st.std.powi(2)))
-        .collect();
-    let frac = |x: &Vec<f64>| -> Vec<f64> {
+        .collect()
+}
+
+impl<'a> Series<'a> {
+    /// The statistics of u, v, omega and the other quantities of `m`.
+    fn of(
+        m: &'a Moments,
+        neff: &'a [Vec<f64>; 3],
+        c: &'a Ctx,
+        strata: Option<&[Strata]>,
+    ) -> Series<'a> {
+        let st = |i: usize| strata.map(|s| &s[i]);
+        let cv = c.p.coverage;
+        let empty = Scalar::new(c.grid.len());
+        let w_rel = c.omega.map_or(0.0, |o| c.q_rel[o]);
+        let u = full(&m.u, &neff[0], c.vel_rel, cv, st(0), &c.grid);
+        let v = full(&m.v, &neff[1], c.vel_rel, cv, st(1), &c.grid);
+        let w = full(
+            c.omega.map_or(&empty, |o| &m.q[o]),
+            &neff[2],
+            w_rel,
+            cv,
+            c.omega.and_then(|o| st(2 + o)),
+            &c.grid,
+        );
+        let others = c
+            .quantities
+            .iter()
+            .enumerate()
+            .filter(|(qi, _)| Some(*qi) != c.omega)
+            .map(|(qi, name)| {
+                (
+                    name,
+                    full(&m.q[qi], &neff[2], c.q_rel[qi], cv, st(2 + qi), &c.grid),
+                )
+            })
+            .collect();
+        Series {
+            m,
+            neff,
+            u,
+            v,
+            w,
+            others,
+        }
+    }
+
+    /// The standard uncertainty of `cov` (see the module doc), with twice
+    /// the velocity's relative scale uncertainty `vel_rel`.
+    fn uv_covariance_unc(&self, cov: &[f64], vel_rel: f64) -> Vec<f64> {
+        let neff = self.neff;
+        (0..cov.len())
+            .map(|k| {
+                let ne = neff[0][k].min(neff[1][k]);
+                let r = gum::cov_unc(self.u[k].st.std, self.v[k].st.std, cov[k], ne);
+                (r * r + (2.0 * vel_rel * cov[k]).powi(2)).sqrt()
+            })
+            .collect()
+    }
+
+    /// The fraction of the frames offered counted in `x`, per node.
+    fn frac(&self, x: &[f64]) -> Vec<f64> {
+        let m = self.m;
         x.iter()
             .map(|&a| {
                 if m.frames > 0.0 {
@@ -328,93 +393,104 @@ pub(super) fn node_table(
                 }
             })
             .collect()
-    };
-    let sfx = &c.suffix;
-    let mut t = NodeTable::new(c.grid);
-    // docs/interface.md columns, in order.
-    t.push("n_valid", m.n_valid.clone());
-    t.push("u_mean", col(&fu, &|f| f.st.mean));
-    t.push("v_mean", col(&fv, &|f| f.st.mean));
-    t.push("u_std", col(&fu, &|f| f.st.std));
-    t.push("v_std", col(&fv, &|f| f.st.std));
-    t.push("uv_cov", cov);
-    t.push("omega_mean", col(&fw, &|f| f.st.mean));
-    t.push("omega_std", col(&fw, &|f| f.st.std));
-    t.push("u_mean_unc", col(&fu, &|f| f.mean_unc));
-    t.push("v_mean_unc", col(&fv, &|f| f.mean_unc));
-    t.push("omega_mean_unc", col(&fw, &|f| f.mean_unc));
-    t.push("omega_inst_unc", col(&fw, &|f| f.st.inst_total));
-    // Our own.
-    t.push("n_samples", m.u.n.clone());
-    t.push("u_std_unc", col(&fu, &|f| f.std_unc));
-    t.push("v_std_unc", col(&fv, &|f| f.std_unc));
-    t.push("uv_cov_unc", cov_unc);
-    t.push("omega_std_unc", col(&fw, &|f| f.std_unc));
-    t.push(format!("u_mean_unc_{sfx}"), col(&fu, &|f| f.mean_exp));
-    t.push(format!("v_mean_unc_{sfx}"), col(&fv, &|f| f.mean_exp));
-    t.push(format!("omega_mean_unc_{sfx}"), col(&fw, &|f| f.mean_exp));
-    t.push("u_inst_unc", col(&fu, &|f| f.st.inst_total));
-    t.push("v_inst_unc", col(&fv, &|f| f.st.inst_total));
-    t.push("omega_bias", col(&fw, &|f| f.st.bias));
-    t.push("k", kk);
-    let [k_coh, k_sto, k_coh_unc] = k_parts;
-    t.push("k_coherent", k_coh);
-    t.push("k_stochastic", k_sto);
-    t.push("u_skew", col(&fu, &|f| f.st.skew));
-    t.push("u_flat", col(&fu, &|f| f.st.flat));
-    t.push("v_skew", col(&fv, &|f| f.st.skew));
-    t.push("v_flat", col(&fv, &|f| f.st.flat));
-    t.push("omega_skew", col(&fw, &|f| f.st.skew));
-    t.push("omega_flat", col(&fw, &|f| f.st.flat));
-    t.push("u_n_eff", neff[0].clone());
-    t.push("v_n_eff", neff[1].clone());
-    t.push("omega_n_eff", neff[2].clone());
-    t.push("outlier_frac", frac(&m.n_replaced));
-    t.push("filled_frac", frac(&m.n_filled));
-    let others: Vec<(&String, Vec<Full>)> = c
-        .quantities
-        .iter()
-        .enumerate()
-        .filter(|(qi, _)| Some(*qi) != c.omega)
-        .map(|(qi, name)| {
-            (
-                name,
-                full(&m.q[qi], &neff[2], c.q_rel[qi], cv, st(2 + qi), &c.grid),
-            )
-        })
-        .collect();
-    for (name, fq) in &others {
-        t.push(format!("{name}_mean"), col(fq, &|f| f.st.mean));
-        t.push(format!("{name}_std"), col(fq, &|f| f.st.std));
-        t.push(format!("{name}_mean_unc"), col(fq, &|f| f.mean_unc));
-        t.push(format!("{name}_std_unc"), col(fq, &|f| f.std_unc));
-        t.push(format!("{name}_mean_unc_{sfx}"), col(fq, &|f| f.mean_exp));
-        t.push(format!("{name}_inst_unc"), col(fq, &|f| f.st.inst_total));
-        t.push(format!("{name}_bias"), col(fq, &|f| f.st.bias));
     }
-    // Appended after every earlier column (format of 2026-12): the
-    // fluctuations less the measurement noise, the coherent energy's
-    // uncertainty, the per-frame truncation and the noise shifts.
-    let den = |f: &Full| denoised(f.st.std, f.st.inst);
-    let (du, dv) = (col(&fu, &den), col(&fv, &den));
-    t.push("u_std_denoised", du.clone());
-    t.push("v_std_denoised", dv.clone());
-    t.push("omega_std_denoised", col(&fw, &den));
-    t.push(
-        "k_denoised",
-        du.iter()
-            .zip(&dv)
-            .map(|(a, b)| 0.5 * (a * a + b * b))
-            .collect(),
-    );
-    t.push("k_coherent_unc", k_coh_unc);
-    t.push("omega_bias_inst", col(&fw, &|f| f.st.bias_inst));
-    for (name, fq) in &others {
-        t.push(format!("{name}_std_denoised"), col(fq, &den));
-        t.push(format!("{name}_bias_inst"), col(fq, &|f| f.st.bias_inst));
-        t.push(format!("{name}_noise_shift"), col(fq, &|f| f.st.shift));
+
+    /// The columns of docs/interface.md, in order.
+    fn push_interface_columns(&self, t: &mut NodeTable, cov: Vec<f64>) {
+        let (fu, fv, fw) = (&self.u, &self.v, &self.w);
+        t.push("n_valid", self.m.n_valid.clone());
+        t.push("u_mean", col(fu, &|f| f.st.mean));
+        t.push("v_mean", col(fv, &|f| f.st.mean));
+        t.push("u_std", col(fu, &|f| f.st.std));
+        t.push("v_std", col(fv, &|f| f.st.std));
+        t.push("uv_cov", cov);
+        t.push("omega_mean", col(fw, &|f| f.st.mean));
+        t.push("omega_std", col(fw, &|f| f.st.std));
+        t.push("u_mean_unc", col(fu, &|f| f.mean_unc));
+        t.push("v_mean_unc", col(fv, &|f| f.mean_unc));
+        t.push("omega_mean_unc", col(fw, &|f| f.mean_unc));
+        t.push("omega_inst_unc", col(fw, &|f| f.st.inst_total));
     }
-    t
+
+    /// Our own columns, up to the per-quantity blocks included; `k_parts`
+    /// holds the k_coherent and k_stochastic maps, `sfx` the coverage
+    /// suffix.
+    fn push_own_columns(
+        &self,
+        t: &mut NodeTable,
+        cov_unc: Vec<f64>,
+        k_parts: [Vec<f64>; 2],
+        sfx: &str,
+    ) {
+        let (m, neff) = (self.m, self.neff);
+        let (fu, fv, fw) = (&self.u, &self.v, &self.w);
+        let kk: Vec<f64> = fu
+            .iter()
+            .zip(fv)
+            .map(|(a, b)| 0.5 * (a.st.std.powi(2) + b.st.std.powi(2)))
+            .collect();
+        t.push("n_samples", m.u.n.clone());
+        t.push("u_std_unc", col(fu, &|f| f.std_unc));
+        t.push("v_std_unc", col(fv, &|f| f.std_unc));
+        t.push("uv_cov_unc", cov_unc);
+        t.push("omega_std_unc", col(fw, &|f| f.std_unc));
+        t.push(format!("u_mean_unc_{sfx}"), col(fu, &|f| f.mean_exp));
+        t.push(format!("v_mean_unc_{sfx}"), col(fv, &|f| f.mean_exp));
+        t.push(format!("omega_mean_unc_{sfx}"), col(fw, &|f| f.mean_exp));
+        t.push("u_inst_unc", col(fu, &|f| f.st.inst_total));
+        t.push("v_inst_unc", col(fv, &|f| f.st.inst_total));
+        t.push("omega_bias", col(fw, &|f| f.st.bias));
+        t.push("k", kk);
+        let [k_coh, k_sto] = k_parts;
+        t.push("k_coherent", k_coh);
+        t.push("k_stochastic", k_sto);
+        t.push("u_skew", col(fu, &|f| f.st.skew));
+        t.push("u_flat", col(fu, &|f| f.st.flat));
+        t.push("v_skew", col(fv, &|f| f.st.skew));
+        t.push("v_flat", col(fv, &|f| f.st.flat));
+        t.push("omega_skew", col(fw, &|f| f.st.skew));
+        t.push("omega_flat", col(fw, &|f| f.st.flat));
+        t.push("u_n_eff", neff[0].clone());
+        t.push("v_n_eff", neff[1].clone());
+        t.push("omega_n_eff", neff[2].clone());
+        t.push("outlier_frac", self.frac(&m.n_replaced));
+        t.push("filled_frac", self.frac(&m.n_filled));
+        for (name, fq) in &self.others {
+            t.push(format!("{name}_mean"), col(fq, &|f| f.st.mean));
+            t.push(format!("{name}_std"), col(fq, &|f| f.st.std));
+            t.push(format!("{name}_mean_unc"), col(fq, &|f| f.mean_unc));
+            t.push(format!("{name}_std_unc"), col(fq, &|f| f.std_unc));
+            t.push(format!("{name}_mean_unc_{sfx}"), col(fq, &|f| f.mean_exp));
+            t.push(format!("{name}_inst_unc"), col(fq, &|f| f.st.inst_total));
+            t.push(format!("{name}_bias"), col(fq, &|f| f.st.bias));
+        }
+    }
+
+    /// The columns appended after every earlier column (format of 2026-12):
+    /// the fluctuations less the measurement noise, the coherent energy's
+    /// uncertainty `k_coh_unc`, the per-frame truncation and the noise
+    /// shifts.
+    fn push_appended_columns(&self, t: &mut NodeTable, k_coh_unc: Vec<f64>) {
+        let den = |f: &Full| denoised(f.st.std, f.st.inst);
+        let (du, dv) = (col(&self.u, &den), col(&self.v, &den));
+        t.push("u_std_denoised", du.clone());
+        t.push("v_std_denoised", dv.clone());
+        t.push("omega_std_denoised", col(&self.w, &den));
+        t.push(
+            "k_denoised",
+            du.iter()
+                .zip(&dv)
+                .map(|(a, b)| 0.5 * (a * a + b * b))
+                .collect(),
+        );
+        t.push("k_coherent_unc", k_coh_unc);
+        t.push("omega_bias_inst", col(&self.w, &|f| f.st.bias_inst));
+        for (name, fq) in &self.others {
+            t.push(format!("{name}_std_denoised"), col(fq, &den));
+            t.push(format!("{name}_bias_inst"), col(fq, &|f| f.st.bias_inst));
+            t.push(format!("{name}_noise_shift"), col(fq, &|f| f.st.shift));
+        }
+    }
 }
 
 /// The standard deviation of the resolved fluctuations: the sample
