@@ -236,4 +236,6 @@ pub fn generate(opts: &SynthOptions, out: &Path) -> Result<SynthSummary> {
 #[cfg(test)]
 mod tests;
 #[cfg(test)]
+mod tests_events;
+#[cfg(test)]
 mod tests_viscous;
