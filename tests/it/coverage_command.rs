@@ -46,8 +46,25 @@ fn coverage_command_matches_the_demo_run_and_writes_a_scored_table() {
     // 75.6 degrees per frame: f = St U / D = 3.15 Hz at 15 frames/s
     assert!((r["phase"][1].as_f64().unwrap() - 75.6).abs() < 1e-6);
 
-    // the table: the documented columns, a row per column and region, and
-    // counts that follow from the grid (2 replicas x 48 x 20 interior nodes)
+    scored_table_is_consistent(&out);
+    let md = std::fs::read_to_string(out.join("coverage.md")).unwrap();
+    assert!(md.contains("### Run u015") && md.contains("| ensemble | omega_mean_unc | core |"));
+    // nothing of the scratch work is left
+    assert!(!out.join(".work").exists());
+}
+
+#[test]
+fn coverage_command_rejects_a_single_replica() {
+    let w = Work::new();
+    let pipe = demo();
+    let o = w.curlew(&["coverage", pipe.to_str().unwrap(), "--replicas", "1"]);
+    assert_eq!(o.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&o.stderr).contains("--replicas"));
+}
+
+/// The table: the documented columns, a row per column and region, and
+/// counts that follow from the grid (2 replicas x 48 x 20 interior nodes)
+fn scored_table_is_consistent(out: &std::path::Path) {
     let text = std::fs::read_to_string(out.join("coverage.csv")).unwrap();
     let mut lines = text.lines();
     assert_eq!(
@@ -86,17 +103,4 @@ fn coverage_command_matches_the_demo_run_and_writes_a_scored_table() {
             assert!(ratio > 0.1 && ratio < 10.0, "{table} {col}: ratio {ratio}");
         }
     }
-    let md = std::fs::read_to_string(out.join("coverage.md")).unwrap();
-    assert!(md.contains("### Run u015") && md.contains("| ensemble | omega_mean_unc | core |"));
-    // nothing of the scratch work is left
-    assert!(!out.join(".work").exists());
-}
-
-#[test]
-fn coverage_command_rejects_a_single_replica() {
-    let w = Work::new();
-    let pipe = demo();
-    let o = w.curlew(&["coverage", pipe.to_str().unwrap(), "--replicas", "1"]);
-    assert_eq!(o.status.code(), Some(2));
-    assert!(String::from_utf8_lossy(&o.stderr).contains("--replicas"));
 }
