@@ -9,6 +9,7 @@
 
 use crate::field::Grid;
 use crate::synth::gradients::{self, Gradient};
+use crate::synth::scenario::pulsed_gamma;
 use crate::synth::{Flow, RunSetup, SynthOptions};
 
 /// Quantities with an analytic truth here (the Gammas have none).
@@ -65,8 +66,8 @@ pub(crate) fn gradient_at(setup: &RunSetup, t: f64, x: f64, y: f64) -> Option<Gr
             amplitude,
             frequency,
         } => {
-            let f = 1.0 + amplitude * (std::f64::consts::TAU * frequency * t).sin();
-            Some(gradients::lamb_oseen(x, y, 0.0, 0.0, gamma * f, rc))
+            let g = pulsed_gamma(gamma, amplitude, frequency, t);
+            Some(gradients::lamb_oseen(x, y, 0.0, 0.0, g, rc))
         }
         Flow::Uniform { .. } => Some(Gradient::default()),
         Flow::SolidBody { rate } => Some(gradients::solid_body(rate)),
@@ -120,8 +121,8 @@ pub(crate) fn velocity(
             amplitude,
             frequency,
         } => {
-            let f = 1.0 + amplitude * (std::f64::consts::TAU * frequency * t).sin();
-            flows::lamb_oseen(x, y, 0.0, 0.0, gamma * f, rc)
+            let g = pulsed_gamma(gamma, amplitude, frequency, t);
+            flows::lamb_oseen(x, y, 0.0, 0.0, g, rc)
         }
         Flow::Uniform { u, v } => flows::Sample { u, v, omega: 0.0 },
         Flow::SolidBody { rate } => flows::solid_body(x, y, 0.0, 0.0, rate),

@@ -56,6 +56,13 @@ pub enum Flow {
     Burgers { gamma: f64, alpha: f64, nu: f64 },
 }
 
+/// The circulation of the pulsing vortex at time `t`:
+/// `gamma (1 + amplitude sin(2 pi frequency t))` (`Flow::Pulsing`; the
+/// synthetic frames and the coverage study's truth use this one formula).
+pub(crate) fn pulsed_gamma(gamma: f64, amplitude: f64, frequency: f64, t: f64) -> f64 {
+    gamma * (1.0 + amplitude * (std::f64::consts::TAU * frequency * t).sin())
+}
+
 /// Everything about one run that does not change from frame to frame.
 #[derive(Debug, Clone, serde::Serialize)]
 pub struct RunSetup {
@@ -161,8 +168,8 @@ impl RunSetup {
                 amplitude,
                 frequency,
             } => {
-                let f = 1.0 + amplitude * (std::f64::consts::TAU * frequency * t).sin();
-                Some(flows::lamb_oseen(x, y, 0.0, 0.0, gamma * f, rc) + stream)
+                let g = pulsed_gamma(gamma, amplitude, frequency, t);
+                Some(flows::lamb_oseen(x, y, 0.0, 0.0, g, rc) + stream)
             }
             Flow::Uniform { u, v } => Some(Sample { u, v, omega: 0.0 }),
             Flow::SolidBody { rate } => Some(flows::solid_body(x, y, 0.0, 0.0, rate)),

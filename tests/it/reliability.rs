@@ -48,6 +48,21 @@ pub(crate) fn set_line(w: &Work, rel: &str, no: usize, with: &str) {
     std::fs::write(&p, lines.join("\n") + "\n").unwrap();
 }
 
+/// Reduces `p.toml` as shards 1/2 and 2/2 into `s1` and `s2`.
+pub(crate) fn two_shards(w: &Work) {
+    for s in ["1/2", "2/2"] {
+        w.ok(&[
+            "run",
+            "p.toml",
+            "--shard",
+            s,
+            "--out",
+            &format!("s{}", &s[..1]),
+            "--quiet",
+        ]);
+    }
+}
+
 pub(crate) fn no_leftovers(dir: &Path) {
     let stray: Vec<String> = std::fs::read_dir(dir)
         .unwrap()
@@ -160,17 +175,7 @@ fn an_output_path_that_is_a_file_is_refused() {
 fn merge_into_a_partial_folder_is_refused() {
     let w = Work::new();
     campaign(&w, 4, "");
-    for s in ["1/2", "2/2"] {
-        w.ok(&[
-            "run",
-            "p.toml",
-            "--shard",
-            s,
-            "--out",
-            &format!("s{}", &s[..1]),
-            "--quiet",
-        ]);
-    }
+    two_shards(&w);
     let err = w.fails(&["merge", "s1", "s2", "--out", "s1"], 2);
     assert!(err.contains("s1") && err.contains("input"), "{err}");
     assert!(w.path("s1/partial.json").is_file());

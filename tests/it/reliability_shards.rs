@@ -115,17 +115,7 @@ fn shards_over_different_frames_do_not_merge() {
 fn an_edited_partial_does_not_merge() {
     let w = Work::new();
     campaign(&w, 4, "");
-    for s in ["1/2", "2/2"] {
-        w.ok(&[
-            "run",
-            "p.toml",
-            "--shard",
-            s,
-            "--out",
-            &format!("s{}", &s[..1]),
-            "--quiet",
-        ]);
-    }
+    two_shards(&w);
     let p = w.path("s2/partial.json");
     let text =
         std::fs::read_to_string(&p)
