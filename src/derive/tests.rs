@@ -557,3 +557,32 @@ fn richardson_truncation_in_a_core_of_one_and_a_half_pitches_is_measured_against
         "estimate {rms_est} against error {rms_err}"
     );
 }
+
+#[test]
+fn a_one_sided_stencil_at_the_edge_is_checked_by_a_full_size_fit() {
+    // v = c x^5, u = 0: omega = 5 c x^4 (derived). The degree-5 fit is exact
+    // for a quintic, so wherever it has its full window the truncation
+    // estimate equals the stencil's actual error. At the edge the window
+    // slides inward (`gradient::inward_shift`); before, it lost the half
+    // beyond the edge and the estimate there was NaN or a degree-3 guess.
+    let (h, c) = (1e-3, 2.0e9);
+    let n = 20;
+    let fld = Field::from_fn(grid(n, h), move |x: f64, _y: f64| (0.0, c * x.powi(5)));
+    for s in [DiffScheme::Central, DiffScheme::Richardson] {
+        let d = derive(&params(s, 0.0), &fld);
+        let om = d.get("omega").unwrap();
+        let b = om.bias.as_ref().unwrap();
+        for j in 4..n - 4 {
+            for i in [0, 1, 2, n - 3, n - 2, n - 1] {
+                let x = i as f64 * h;
+                let err = (om.value[[j, i]] - 5.0 * c * x.powi(4)).abs();
+                let w = format!(
+                    "{s:?} at ({j},{i}): error {err:.4e}, estimate {:.4e}",
+                    b[[j, i]]
+                );
+                assert!(err > 1e-3, "{w}: the test needs a truncation error");
+                assert_close(b[[j, i]], err, 1e-9, 1e-6, &w);
+            }
+        }
+    }
+}

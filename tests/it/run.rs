@@ -183,7 +183,17 @@ fn shards_merged_equal_one_run() {
     let b = Csv::read(&w.path("merged/a/ensemble.csv"));
     assert_eq!(a.header, b.header);
     for name in &a.header {
-        assert_all_close(&b.col(name), &a.col(name), 1e-15, 1e-12, name);
+        // A debiased truncation estimate, sqrt(b^2 - u(b)^2), and the
+        // uncertainties that include it cancel where
+        // b is near its own noise and so amplifies the merged sums' last-bit
+        // rounding (seen: 5.7e-12 relative at an edge node); .ci/slurm.sh
+        // gives these columns the same allowance relative to their value.
+        let rel = if name.ends_with("_bias") || name.contains("_unc") {
+            1e-9
+        } else {
+            1e-12
+        };
+        assert_all_close(&b.col(name), &a.col(name), 1e-15, rel, name);
     }
     let fa = std::fs::read(w.path("whole/a/frames.csv")).unwrap();
     let fb = std::fs::read(w.path("merged/a/frames.csv")).unwrap();
